@@ -1,0 +1,1 @@
+//! Checks: each turns a log and a plan into a result with a verdict (DESIGN §2).

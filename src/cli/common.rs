@@ -1,0 +1,88 @@
+//! Flags shared by several subcommands, and the outcome of a command.
+
+use std::path::PathBuf;
+
+use clap::Args;
+use magproof::log::FieldUnit;
+
+/// What a command ended with, for the exit code.
+#[allow(dead_code)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outcome {
+    /// Ran; every verdict passed (or there was none to give).
+    Passed,
+    /// Ran; at least one verdict failed.
+    Failed,
+}
+
+impl Outcome {
+    /// Exit code of DESIGN §6.
+    pub fn exit_code(self) -> u8 {
+        match self {
+            Outcome::Passed => 0,
+            Outcome::Failed => 1,
+        }
+    }
+
+    /// From an optional pass flag: no verdict counts as passed.
+    #[allow(dead_code)]
+    pub fn from_pass(pass: Option<bool>) -> Self {
+        if pass == Some(false) {
+            Outcome::Failed
+        } else {
+            Outcome::Passed
+        }
+    }
+}
+
+/// How to read logs.
+#[derive(Debug, Clone, Args)]
+pub struct InputArgs {
+    /// Field unit of log columns whose header carries none (T, mT, uT, nT, G, mG).
+    /// Beats the plan's [magnetometer] unit.
+    #[arg(long, value_parser = parse_unit)]
+    pub unit: Option<FieldUnit>,
+    /// Skip rows with a bad cell (counted and reported) instead of refusing the log.
+    #[arg(long)]
+    pub skip_bad_rows: bool,
+}
+
+fn parse_unit(s: &str) -> Result<FieldUnit, String> {
+    s.parse::<FieldUnit>().map_err(|e| e.to_string())
+}
+
+/// Where results go.
+#[derive(Debug, Clone, Args)]
+pub struct OutputArgs {
+    /// Print exactly one JSON object on stdout (messages still go to stderr).
+    #[arg(long)]
+    pub json: bool,
+    /// Write report.html, result.json and plots into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub report: Option<PathBuf>,
+    /// Replace an existing report folder or output file.
+    #[arg(long)]
+    pub force: bool,
+}
+
+/// Where the ledger is.
+#[derive(Debug, Clone, Args)]
+pub struct LedgerArgs {
+    /// Ledger file (SQLite). Default: $MAGPROOF_LEDGER, else magproof.db here.
+    #[arg(long, value_name = "PATH")]
+    pub ledger: Option<PathBuf>,
+}
+
+impl LedgerArgs {
+    /// The ledger path after the flag, the environment and the default.
+    #[allow(dead_code)]
+    pub fn path(&self) -> PathBuf {
+        if let Some(p) = &self.ledger {
+            return p.clone();
+        }
+        match std::env::var_os("MAGPROOF_LEDGER") {
+            Some(p) if !p.is_empty() => PathBuf::from(p),
+            _ => PathBuf::from("magproof.db"),
+        }
+    }
+}

@@ -1,0 +1,58 @@
+//! Command-line front end: clap definitions (one file per subcommand), turning flags into
+//! validated library requests, and terminal output. The library never sees clap types.
+
+mod common;
+mod inspect;
+
+use clap::{Parser, Subcommand};
+
+pub use common::Outcome;
+
+/// Magnetics checks for small-spacecraft integration day.
+///
+/// Cautions: cage coils carry amps and heat; strong fields upset pacemakers and pull
+/// tools; pulse flight torque rods only within their rated current and duty; follow the
+/// facility's procedures and the responsible engineer's sign-off. magproof informs a
+/// decision; it does not replace the project's verification authority.
+#[derive(Debug, Parser)]
+#[command(name = "magproof", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Read a log (and a plan) and say what was found, without fitting anything.
+    Inspect(inspect::Args),
+}
+
+/// Parse the command line and run the chosen command.
+pub fn run() -> anyhow::Result<Outcome> {
+    let cli = Cli::parse();
+    match cli.command {
+        Command::Inspect(args) => inspect::run(args),
+    }
+}
+
+/// Exit code for an error that reached `main`: the library's typed errors know theirs
+/// (2 for bad input or usage, 3 internal); anything else is an I/O or usage problem (2).
+pub fn exit_code_for(err: &anyhow::Error) -> u8 {
+    for cause in err.chain() {
+        if let Some(e) = cause.downcast_ref::<magproof::Error>() {
+            return e.exit_code();
+        }
+    }
+    2
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn cli_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+}

@@ -1,0 +1,2 @@
+//! Fits: algebraic ellipsoid fit, geometric refinement with argmin, linear cage fit,
+//! dipole fit, robust weights and covariance (DESIGN §8).

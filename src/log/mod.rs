@@ -1,0 +1,17 @@
+//! Readers for what the user brings: sweep logs (CSV, DESIGN §4) and test plans (TOML,
+//! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
+
+mod error;
+mod header;
+pub mod plan;
+mod sweep;
+pub mod units;
+
+pub use error::{LogError, PlanError, Shown};
+pub use header::parse_iso8601;
+pub use plan::{read_plan, Plan};
+pub use sweep::{
+    read_sweep, read_sweep_from, read_sweep_with_progress, CommandColumn, ReadOptions, SkippedRow,
+    SweepLog,
+};
+pub use units::FieldUnit;

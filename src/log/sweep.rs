@@ -1,0 +1,561 @@
+//! Streaming reader for sweep logs (DESIGN §4).
+//!
+//! The file is read line by line into one reused buffer; each data row is parsed into a
+//! small row buffer and, once the whole row is good, appended to columns of `f64`. The
+//! file is never held in memory as one string.
+
+use std::fs::File;
+use std::io::{BufRead, BufReader, Read};
+use std::path::{Path, PathBuf};
+
+use super::error::{LogError, Shown};
+use super::header::{parse_header, ColumnKind, Header, TimeUnit};
+use super::units::FieldUnit;
+
+/// How to read a sweep log.
+#[derive(Debug, Clone, Default)]
+pub struct ReadOptions {
+    /// Unit of field columns whose header carries none (`--unit`, else the plan, else nT).
+    pub default_unit: FieldUnit,
+    /// Skip rows with a bad cell, a wrong field count or backwards time, and count them,
+    /// instead of refusing the file.
+    pub skip_bad_rows: bool,
+}
+
+/// A row that was skipped under `--skip-bad-rows`, with the reason.
+#[derive(Debug, Clone)]
+pub struct SkippedRow {
+    /// 1-based line in the file.
+    pub line: u64,
+    /// The error the row would have raised.
+    pub reason: String,
+}
+
+/// One torque-rod command column (`cmd_<rod>`), in the log's own command unit.
+#[derive(Debug, Clone)]
+pub struct CommandColumn {
+    /// Rod name: the header name after `cmd_`, lower case.
+    pub rod: String,
+    /// The column as written in the header.
+    pub header: String,
+    /// Command value per row (any unit; the plan's nominal dipole is per this unit).
+    pub values: Vec<f64>,
+}
+
+/// A sweep log read into columns. Every column has one entry per kept row.
+#[derive(Debug, Clone, Default)]
+pub struct SweepLog {
+    /// The file it came from.
+    pub path: PathBuf,
+    /// Time of each row, s. From ISO-8601 timestamps: seconds after the first row.
+    pub t_s: Option<Vec<f64>>,
+    /// The first ISO-8601 timestamp as written, when time was given that way.
+    pub t0_iso: Option<String>,
+    /// Measured field, sensor frame (S), nT: `[bx, by, bz]`.
+    pub b_nt: Option<[Vec<f64>; 3]>,
+    /// Applied reference field, cage frame, nT: `[hx, hy, hz]`.
+    pub h_nt: Option<[Vec<f64>; 3]>,
+    /// Temperature, °C.
+    pub temp_c: Option<Vec<f64>>,
+    /// Torque-rod commands, one column per rod, in header order.
+    pub commands: Vec<CommandColumn>,
+    /// Turntable angle, rad (right-handed about the table's +z axis).
+    pub angle_rad: Option<Vec<f64>>,
+    /// Mount label per row; `None` where the article is absent (empty cell or `none`).
+    pub mount: Option<Vec<Option<u32>>>,
+    /// The distinct mount labels, indexed by the values of `mount`.
+    pub mount_labels: Vec<String>,
+    /// Probe position, table frame (L), m: `[px, py, pz]`.
+    pub probe_m: Option<[Vec<f64>; 3]>,
+    /// 1-based file line of each kept row, for messages.
+    pub lines: Vec<u64>,
+    /// Columns present in the file that no check uses, as written in the header.
+    pub ignored_columns: Vec<String>,
+    /// Rows skipped under `--skip-bad-rows`.
+    pub skipped_rows: Vec<SkippedRow>,
+    /// Line of the header.
+    pub header_line: u64,
+}
+
+impl SweepLog {
+    /// Number of kept rows.
+    pub fn len(&self) -> usize {
+        self.lines.len()
+    }
+
+    /// True when no row was kept.
+    pub fn is_empty(&self) -> bool {
+        self.lines.is_empty()
+    }
+
+    fn missing(&self, column: &str, why: &str) -> LogError {
+        LogError::MissingColumn {
+            path: Shown(self.path.clone()),
+            column: column.to_string(),
+            why: why.to_string(),
+        }
+    }
+
+    /// The measured field columns, or an error naming the missing column and why
+    /// the caller needs it.
+    pub fn require_field(&self, why: &str) -> Result<&[Vec<f64>; 3], LogError> {
+        self.b_nt
+            .as_ref()
+            .ok_or_else(|| self.missing("bx, by, bz", why))
+    }
+
+    /// The time column, or an error saying why it is needed.
+    pub fn require_time(&self, why: &str) -> Result<&[f64], LogError> {
+        self.t_s.as_deref().ok_or_else(|| self.missing("t", why))
+    }
+
+    /// The command column of one rod, or an error naming `cmd_<rod>`.
+    pub fn require_command(&self, rod: &str, why: &str) -> Result<&CommandColumn, LogError> {
+        let key = rod.to_ascii_lowercase();
+        self.commands
+            .iter()
+            .find(|c| c.rod == key)
+            .ok_or_else(|| self.missing(&format!("cmd_{rod}"), why))
+    }
+
+    /// Measured field of row `i`, sensor frame, nT.
+    pub fn field_at(&self, i: usize) -> Option<nalgebra::Vector3<f64>> {
+        let b = self.b_nt.as_ref()?;
+        Some(nalgebra::Vector3::new(
+            *b[0].get(i)?,
+            *b[1].get(i)?,
+            *b[2].get(i)?,
+        ))
+    }
+}
+
+/// Read a sweep log from a file (DESIGN §4).
+pub fn read_sweep(path: &Path, options: &ReadOptions) -> Result<SweepLog, LogError> {
+    read_sweep_with_progress(path, options, &mut |_| {})
+}
+
+/// As [`read_sweep`], calling `progress(bytes_read)` now and then (for a progress bar).
+pub fn read_sweep_with_progress(
+    path: &Path,
+    options: &ReadOptions,
+    progress: &mut dyn FnMut(u64),
+) -> Result<SweepLog, LogError> {
+    let file = File::open(path).map_err(|source| LogError::Io {
+        path: Shown(path.to_path_buf()),
+        source,
+    })?;
+    read_sweep_from(file, path, options, progress)
+}
+
+/// Read a sweep log from any reader; `path` is used in messages only.
+pub fn read_sweep_from(
+    reader: impl Read,
+    path: &Path,
+    options: &ReadOptions,
+    progress: &mut dyn FnMut(u64),
+) -> Result<SweepLog, LogError> {
+    let mut reader = BufReader::with_capacity(1 << 16, reader);
+    let shown = || Shown(path.to_path_buf());
+    let io_err = |source| LogError::Io {
+        path: Shown(path.to_path_buf()),
+        source,
+    };
+    let mut buf: Vec<u8> = Vec::with_capacity(256);
+    let mut line_no: u64 = 0;
+    let mut bytes_read: u64 = 0;
+    let mut next_report: u64 = 1 << 22;
+
+    // Header: the first line that is neither blank nor a comment.
+    let header: Header = loop {
+        buf.clear();
+        let n = reader.read_until(b'\n', &mut buf).map_err(io_err)?;
+        if n == 0 {
+            return Err(LogError::NoHeader { path: shown() });
+        }
+        bytes_read += n as u64;
+        line_no += 1;
+        let mut text: &[u8] = trim_line_end(&buf);
+        if line_no == 1 {
+            text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
+        }
+        if is_blank_or_comment(text) {
+            continue;
+        }
+        let text = std::str::from_utf8(text).map_err(|_| LogError::NotUtf8 {
+            path: shown(),
+            line: line_no,
+        })?;
+        break parse_header(text, path, line_no, options.default_unit)?;
+    };
+
+    let mut log = SweepLog {
+        path: path.to_path_buf(),
+        header_line: line_no,
+        ignored_columns: header.ignored.clone(),
+        ..SweepLog::default()
+    };
+    let mut builder = ColumnsBuilder::new(&header);
+    let mut row = RowParser::new(&header);
+
+    loop {
+        buf.clear();
+        let n = reader.read_until(b'\n', &mut buf).map_err(io_err)?;
+        if n == 0 {
+            break;
+        }
+        bytes_read += n as u64;
+        line_no += 1;
+        if bytes_read >= next_report {
+            progress(bytes_read);
+            next_report = bytes_read + (1 << 22);
+        }
+        let text = trim_line_end(&buf);
+        if is_blank_or_comment(text) {
+            continue;
+        }
+        match row.parse(text, path, line_no, &header, builder.last_time()) {
+            Ok(()) => {
+                builder.push(&row, line_no, &mut log.mount_labels);
+            }
+            Err(e) if options.skip_bad_rows && e.line().is_some() => {
+                log.skipped_rows.push(SkippedRow {
+                    line: line_no,
+                    reason: e.to_string(),
+                });
+            }
+            Err(e) => return Err(e),
+        }
+    }
+    progress(bytes_read);
+    if builder.lines.is_empty() {
+        if log.skipped_rows.is_empty() {
+            return Err(LogError::NoRows {
+                path: shown(),
+                header_line: log.header_line,
+            });
+        }
+        // Every row was bad: say so with the first reason rather than "no rows".
+        let first = &log.skipped_rows[0];
+        return Err(LogError::Cell {
+            path: shown(),
+            line: first.line,
+            column: "(every row)".into(),
+            problem: format!(
+                "all {} data rows were bad and skipped; the first one: {}",
+                log.skipped_rows.len(),
+                first.reason
+            ),
+            found: String::new(),
+        });
+    }
+    builder.finish(&header, &mut log);
+    log.t0_iso = row.first_iso.take();
+    Ok(log)
+}
+
+fn trim_line_end(buf: &[u8]) -> &[u8] {
+    let mut end = buf.len();
+    while end > 0 && (buf[end - 1] == b'\n' || buf[end - 1] == b'\r') {
+        end -= 1;
+    }
+    &buf[..end]
+}
+
+fn is_blank_or_comment(text: &[u8]) -> bool {
+    match text.iter().position(|c| !c.is_ascii_whitespace()) {
+        None => true,
+        Some(i) => text[i] == b'#',
+    }
+}
+
+/// Parsed cells of one row, before they are committed to the columns.
+struct RowParser {
+    numbers: Vec<f64>,
+    mount: Option<Option<String>>,
+    time_s: Option<f64>,
+    fields: Vec<(usize, usize)>,
+    first_epoch_s: Option<f64>,
+    first_iso: Option<String>,
+    time_is_iso: Option<bool>,
+}
+
+impl RowParser {
+    fn new(header: &Header) -> Self {
+        RowParser {
+            numbers: vec![0.0; header.columns.len()],
+            mount: None,
+            time_s: None,
+            fields: Vec::with_capacity(header.columns.len()),
+            first_epoch_s: None,
+            first_iso: None,
+            time_is_iso: None,
+        }
+    }
+
+    fn parse(
+        &mut self,
+        text: &[u8],
+        path: &Path,
+        line: u64,
+        header: &Header,
+        last_time: Option<f64>,
+    ) -> Result<(), LogError> {
+        split_fields(text, header.delimiter, &mut self.fields);
+        if self.fields.len() != header.columns.len() {
+            return Err(LogError::RowLength {
+                path: Shown(path.to_path_buf()),
+                line,
+                expected: header.columns.len(),
+                found: self.fields.len(),
+            });
+        }
+        self.mount = None;
+        self.time_s = None;
+        for (k, col) in header.columns.iter().enumerate() {
+            let (a, b) = self.fields[k];
+            let cell = trim_cell(&text[a..b]);
+            let cell_err = |problem: &str| LogError::Cell {
+                path: Shown(path.to_path_buf()),
+                line,
+                column: col.raw.clone(),
+                problem: problem.to_string(),
+                found: shorten(cell),
+            };
+            match &col.kind {
+                ColumnKind::Ignored => {}
+                ColumnKind::Mount => {
+                    let s = std::str::from_utf8(cell)
+                        .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
+                    let s = s.trim();
+                    self.mount = Some(if s.is_empty() || s.eq_ignore_ascii_case("none") {
+                        None
+                    } else {
+                        Some(s.to_string())
+                    });
+                }
+                ColumnKind::Time(unit) => {
+                    let t = self.parse_time(cell, *unit, &cell_err)?;
+                    if let Some(prev) = last_time {
+                        if t < prev {
+                            return Err(LogError::TimeBackwards {
+                                path: Shown(path.to_path_buf()),
+                                line,
+                                column: col.raw.clone(),
+                                found: t,
+                                previous: prev,
+                            });
+                        }
+                    }
+                    self.time_s = Some(t);
+                }
+                _ => {
+                    let v = parse_number(cell, &cell_err)?;
+                    self.numbers[k] = v * col.scale;
+                    if !self.numbers[k].is_finite() {
+                        return Err(cell_err("the value overflows once converted"));
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+
+    fn parse_time(
+        &mut self,
+        cell: &[u8],
+        unit: TimeUnit,
+        cell_err: &dyn Fn(&str) -> LogError,
+    ) -> Result<f64, LogError> {
+        let looks_iso = cell.len() >= 10 && cell[4] == b'-' && cell[7] == b'-';
+        match (self.time_is_iso, looks_iso) {
+            (Some(true), false) => {
+                return Err(cell_err(
+                    "expected an ISO-8601 timestamp like the rows before",
+                ))
+            }
+            (Some(false), true) => return Err(cell_err("expected seconds like the rows before")),
+            _ => {}
+        }
+        self.time_is_iso = Some(looks_iso);
+        if !looks_iso {
+            return Ok(parse_number(cell, cell_err)? * unit.to_seconds());
+        }
+        let s =
+            std::str::from_utf8(cell).map_err(|_| cell_err("expected an ISO-8601 timestamp"))?;
+        let epoch_s = super::header::parse_iso8601(s).ok_or_else(|| {
+            cell_err("expected an ISO-8601 timestamp such as 2026-11-20T09:30:00.25Z")
+        })?;
+        let first = *self.first_epoch_s.get_or_insert(epoch_s);
+        if self.first_iso.is_none() {
+            self.first_iso = Some(s.to_string());
+        }
+        Ok(epoch_s - first)
+    }
+}
+
+fn parse_number(cell: &[u8], cell_err: &dyn Fn(&str) -> LogError) -> Result<f64, LogError> {
+    if cell.is_empty() {
+        return Err(cell_err("expected a number, the cell is empty"));
+    }
+    match fast_float2::parse::<f64, _>(cell) {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(cell_err("expected a finite number")),
+        Err(_) => Err(cell_err("expected a number")),
+    }
+}
+
+fn trim_cell(cell: &[u8]) -> &[u8] {
+    let start = cell.iter().position(|c| !c.is_ascii_whitespace());
+    let Some(start) = start else { return &[] };
+    let end = cell
+        .iter()
+        .rposition(|c| !c.is_ascii_whitespace())
+        .unwrap_or(start);
+    let cell = &cell[start..=end];
+    if cell.len() >= 2 && cell[0] == b'"' && cell[cell.len() - 1] == b'"' {
+        &cell[1..cell.len() - 1]
+    } else {
+        cell
+    }
+}
+
+fn shorten(cell: &[u8]) -> String {
+    let s = String::from_utf8_lossy(cell);
+    if s.chars().count() > 40 {
+        let head: String = s.chars().take(37).collect();
+        format!("{head}...")
+    } else {
+        s.into_owned()
+    }
+}
+
+/// Split a line into field byte ranges. Double-quoted fields may hold the delimiter.
+pub(crate) fn split_fields(text: &[u8], delimiter: u8, out: &mut Vec<(usize, usize)>) {
+    out.clear();
+    if memchr::memchr(b'"', text).is_none() {
+        let mut start = 0;
+        for i in memchr::memchr_iter(delimiter, text) {
+            out.push((start, i));
+            start = i + 1;
+        }
+        out.push((start, text.len()));
+        return;
+    }
+    let mut start = 0;
+    let mut in_quotes = false;
+    for (i, &c) in text.iter().enumerate() {
+        if c == b'"' {
+            in_quotes = !in_quotes;
+        } else if c == delimiter && !in_quotes {
+            out.push((start, i));
+            start = i + 1;
+        }
+    }
+    out.push((start, text.len()));
+}
+
+/// Accumulates good rows into columns.
+struct ColumnsBuilder {
+    numbers: Vec<Vec<f64>>,
+    time: Vec<f64>,
+    mount: Vec<Option<u32>>,
+    lines: Vec<u64>,
+    has_time: bool,
+    has_mount: bool,
+}
+
+impl ColumnsBuilder {
+    fn new(header: &Header) -> Self {
+        ColumnsBuilder {
+            numbers: header
+                .columns
+                .iter()
+                .map(|c| {
+                    if c.kind.is_numeric() {
+                        Vec::with_capacity(1024)
+                    } else {
+                        Vec::new()
+                    }
+                })
+                .collect(),
+            time: Vec::new(),
+            mount: Vec::new(),
+            lines: Vec::with_capacity(1024),
+            has_time: header
+                .columns
+                .iter()
+                .any(|c| matches!(c.kind, ColumnKind::Time(_))),
+            has_mount: header
+                .columns
+                .iter()
+                .any(|c| matches!(c.kind, ColumnKind::Mount)),
+        }
+    }
+
+    fn last_time(&self) -> Option<f64> {
+        self.time.last().copied()
+    }
+
+    fn push(&mut self, row: &RowParser, line: u64, labels: &mut Vec<String>) {
+        for (k, col) in self.numbers.iter_mut().enumerate() {
+            if col.capacity() > 0 {
+                col.push(row.numbers[k]);
+            }
+        }
+        if self.has_time {
+            self.time.push(row.time_s.unwrap_or(f64::NAN));
+        }
+        if self.has_mount {
+            let idx = match row.mount.as_ref().and_then(|m| m.as_ref()) {
+                None => None,
+                Some(label) => Some(match labels.iter().position(|l| l == label) {
+                    Some(i) => i as u32,
+                    None => {
+                        labels.push(label.clone());
+                        (labels.len() - 1) as u32
+                    }
+                }),
+            };
+            self.mount.push(idx);
+        }
+        self.lines.push(line);
+    }
+
+    fn finish(mut self, header: &Header, log: &mut SweepLog) {
+        let mut take = |kind: &ColumnKind| -> Option<Vec<f64>> {
+            let k = header.columns.iter().position(|c| &c.kind == kind)?;
+            Some(std::mem::take(&mut self.numbers[k]))
+        };
+        use ColumnKind as K;
+        let triple = |a: Option<Vec<f64>>, b: Option<Vec<f64>>, c: Option<Vec<f64>>| match (a, b, c)
+        {
+            (Some(a), Some(b), Some(c)) => Some([a, b, c]),
+            _ => None,
+        };
+        log.b_nt = triple(take(&K::Field(0)), take(&K::Field(1)), take(&K::Field(2)));
+        log.h_nt = triple(
+            take(&K::Applied(0)),
+            take(&K::Applied(1)),
+            take(&K::Applied(2)),
+        );
+        log.probe_m = triple(take(&K::Probe(0)), take(&K::Probe(1)), take(&K::Probe(2)));
+        log.temp_c = take(&K::Temperature);
+        log.angle_rad = take(&K::Angle);
+        for (k, col) in header.columns.iter().enumerate() {
+            if let ColumnKind::Command(rod) = &col.kind {
+                log.commands.push(CommandColumn {
+                    rod: rod.clone(),
+                    header: col.raw.clone(),
+                    values: std::mem::take(&mut self.numbers[k]),
+                });
+            }
+        }
+        if self.has_time {
+            log.t_s = Some(self.time);
+        }
+        if self.has_mount {
+            log.mount = Some(self.mount);
+        }
+        log.lines = self.lines;
+    }
+}

@@ -1,0 +1,5 @@
+//! Physics: the dipole field, frames and rotations, and (elsewhere in this module) the
+//! geomagnetic reference field and coil fields.
+
+pub mod dipole;
+pub mod frames;

@@ -1,0 +1,1 @@
+//! Report writers: terminal, JSON, HTML with SVG plots, flight parameters.

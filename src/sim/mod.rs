@@ -1,0 +1,1 @@
+//! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
