@@ -2,6 +2,7 @@
 //! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
 
 mod error;
+pub mod hash;
 mod header;
 pub mod plan;
 mod sweep;

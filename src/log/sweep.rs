@@ -506,16 +506,15 @@ impl ColumnsBuilder {
             self.time.push(row.time_s.unwrap_or(f64::NAN));
         }
         if self.has_mount {
-            let idx = match row.mount.as_ref().and_then(|m| m.as_ref()) {
-                None => None,
-                Some(label) => Some(match labels.iter().position(|l| l == label) {
+            let idx = row.mount.as_ref().and_then(|m| m.as_ref()).map(|label| {
+                match labels.iter().position(|l| l == label) {
                     Some(i) => i as u32,
                     None => {
                         labels.push(label.clone());
                         (labels.len() - 1) as u32
                     }
-                }),
-            };
+                }
+            });
             self.mount.push(idx);
         }
         self.lines.push(line);
@@ -561,6 +560,9 @@ impl ColumnsBuilder {
 }
 
 #[cfg(test)]
+// Unit conversion must be exact (powers of ten applied to exactly representable values),
+// so these tests compare floats exactly on purpose.
+#[allow(clippy::float_cmp)]
 mod tests {
     use super::*;
 

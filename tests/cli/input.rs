@@ -182,7 +182,10 @@ fn iso_timestamps_give_seconds() {
 fn skip_bad_rows_counts_and_names_them() {
     let d = Dir::new();
     let p = d.write("k.csv", "t,bx,by,bz\n0,1,2,3\n1,x,2,3\n2,1,2\n3,1,2,3\n");
-    let r = magproof(&d, &["inspect", p.to_str().unwrap(), "--skip-bad-rows", "--json"]);
+    let r = magproof(
+        &d,
+        &["inspect", p.to_str().unwrap(), "--skip-bad-rows", "--json"],
+    );
     assert_code(&r, 0);
     let v = r.json();
     assert_eq!(v["rows"], 2);
@@ -197,7 +200,10 @@ fn unknown_columns_are_listed_once() {
     let p = d.write("x.csv", "t,bx,by,bz,rssi,Vbat [V]\n0,1,2,3,4,5\n");
     let r = magproof(&d, &["inspect", p.to_str().unwrap(), "--json"]);
     assert_code(&r, 0);
-    assert_eq!(r.json()["ignored_columns"], serde_json::json!(["rssi", "Vbat [V]"]));
+    assert_eq!(
+        r.json()["ignored_columns"],
+        serde_json::json!(["rssi", "Vbat [V]"])
+    );
 }
 
 #[test]
@@ -213,16 +219,27 @@ fn inspect_with_plan(d: &Dir, plan: &str) -> crate::util::Run {
     let p = d.write("plan.toml", plan);
     magproof(
         d,
-        &["inspect", log.to_str().unwrap(), "--plan", p.to_str().unwrap()],
+        &[
+            "inspect",
+            log.to_str().unwrap(),
+            "--plan",
+            p.to_str().unwrap(),
+        ],
     )
 }
 
 #[test]
 fn reflection_in_plan_is_refused_by_key() {
     let d = Dir::new();
-    let r = inspect_with_plan(&d, "[magnetometer]\nsensor_to_body = [\"+x\", \"+y\", \"-z\"]\n");
+    let r = inspect_with_plan(
+        &d,
+        "[magnetometer]\nsensor_to_body = [\"+x\", \"+y\", \"-z\"]\n",
+    );
     assert_code(&r, 2);
-    assert_stderr_has(&r, &["plan.toml", "magnetometer.sensor_to_body", "determinant"]);
+    assert_stderr_has(
+        &r,
+        &["plan.toml", "magnetometer.sensor_to_body", "determinant"],
+    );
 }
 
 #[test]
@@ -249,7 +266,13 @@ fn plan_unit_applies_to_unitless_columns_and_flag_beats_it() {
     let d = Dir::new();
     let log = d.write("p.csv", "bx,by,bz\n1,0,0\n");
     let plan = d.write("plan.toml", "[magnetometer]\nunit = \"uT\"\n");
-    let args = ["inspect", log.to_str().unwrap(), "--plan", plan.to_str().unwrap(), "--json"];
+    let args = [
+        "inspect",
+        log.to_str().unwrap(),
+        "--plan",
+        plan.to_str().unwrap(),
+        "--json",
+    ];
     let r = magproof(&d, &args);
     assert_code(&r, 0);
     assert_eq!(r.json()["field_magnitude_nt"][0].as_f64(), Some(1000.0));

@@ -1,0 +1,181 @@
+//! What a report holds, independent of its format: a run with its inputs and one section
+//! per check, each with a verdict, key figures, tables, figures and warnings.
+//!
+//! Check-specific code builds [`Section`]s from result structs; the writers (terminal,
+//! HTML, JSON) only lay them out.
+
+use serde::Serialize;
+
+/// A verdict as shown to people: always a word, colour only as an aid.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Verdict {
+    /// Every limit met.
+    Pass,
+    /// A limit was not met.
+    Fail,
+    /// No limit to judge against, or not decidable.
+    Info,
+}
+
+impl Verdict {
+    /// From an optional pass flag.
+    pub fn from_pass(pass: Option<bool>) -> Self {
+        match pass {
+            Some(true) => Verdict::Pass,
+            Some(false) => Verdict::Fail,
+            None => Verdict::Info,
+        }
+    }
+
+    /// The word shown with the verdict.
+    pub fn word(self) -> &'static str {
+        match self {
+            Verdict::Pass => "PASS",
+            Verdict::Fail => "FAIL",
+            Verdict::Info => "NO LIMIT",
+        }
+    }
+}
+
+/// Tone of a table cell, for colour (the text always says it in words too).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Tone {
+    /// Plain.
+    #[default]
+    Plain,
+    /// Good news.
+    Good,
+    /// Needs attention.
+    Warn,
+    /// Bad news.
+    Bad,
+}
+
+/// A table cell.
+#[derive(Debug, Clone, Default)]
+pub struct Cell {
+    /// The text, with units.
+    pub text: String,
+    /// Its tone.
+    pub tone: Tone,
+}
+
+impl Cell {
+    /// A plain cell.
+    pub fn plain(text: impl Into<String>) -> Self {
+        Cell {
+            text: text.into(),
+            tone: Tone::Plain,
+        }
+    }
+
+    /// A cell with a tone.
+    pub fn toned(text: impl Into<String>, tone: Tone) -> Self {
+        Cell {
+            text: text.into(),
+            tone,
+        }
+    }
+}
+
+/// A table.
+#[derive(Debug, Clone, Default)]
+pub struct Table {
+    /// Caption above the table.
+    pub caption: String,
+    /// Column headings, with units.
+    pub header: Vec<String>,
+    /// Rows of cells.
+    pub rows: Vec<Vec<Cell>>,
+}
+
+/// A figure: an SVG document and its caption.
+#[derive(Debug, Clone)]
+pub struct Figure {
+    /// File name when written on its own, e.g. `calibration-xy.svg`.
+    pub file_name: String,
+    /// Caption under the figure.
+    pub caption: String,
+    /// The SVG document.
+    pub svg: String,
+}
+
+/// One check's part of a report.
+#[derive(Debug, Clone)]
+pub struct Section {
+    /// `calibrate`, `polarity`, `dipole` or `history`.
+    pub kind: String,
+    /// Heading.
+    pub title: String,
+    /// Verdict.
+    pub verdict: Verdict,
+    /// Key figures as (label, value with unit and uncertainty).
+    pub figures_of_merit: Vec<(String, String)>,
+    /// Tables.
+    pub tables: Vec<Table>,
+    /// Plots.
+    pub figures: Vec<Figure>,
+    /// Warnings, each saying cause and remedy.
+    pub warnings: Vec<String>,
+    /// Notes on method and limits (e.g. "a tumble cannot see misalignment").
+    pub notes: Vec<String>,
+    /// The result as JSON (DESIGN §7 keys).
+    pub result: serde_json::Value,
+}
+
+/// An input file and its SHA-256.
+#[derive(Debug, Clone, Serialize)]
+pub struct InputFile {
+    /// Path as given.
+    pub path: String,
+    /// Lower-case hex SHA-256.
+    pub sha256: String,
+}
+
+/// A whole report.
+#[derive(Debug, Clone)]
+pub struct RunReport {
+    /// Page title.
+    pub title: String,
+    /// Serial number and build, when the plan has an `[article]`.
+    pub article: Option<(String, String)>,
+    /// When the report was made, UTC, ISO-8601.
+    pub generated_at: String,
+    /// magproof version.
+    pub tool_version: String,
+    /// Input files with hashes.
+    pub inputs: Vec<InputFile>,
+    /// Sections in order.
+    pub sections: Vec<Section>,
+}
+
+impl RunReport {
+    /// Overall verdict: fail if any section fails, pass if any passes and none fails.
+    pub fn verdict(&self) -> Verdict {
+        if self.sections.iter().any(|s| s.verdict == Verdict::Fail) {
+            Verdict::Fail
+        } else if self.sections.iter().any(|s| s.verdict == Verdict::Pass) {
+            Verdict::Pass
+        } else {
+            Verdict::Info
+        }
+    }
+}
+
+/// Current UTC time as ISO-8601 with seconds, e.g. `2026-12-02T09:14:03Z`.
+pub fn now_utc_iso() -> String {
+    let now = time::OffsetDateTime::now_utc();
+    let fmt = time::macros::format_description!("[year]-[month]-[day]T[hour]:[minute]:[second]Z");
+    now.format(&fmt)
+        .unwrap_or_else(|_| now.unix_timestamp().to_string())
+}
+
+/// The cautions of DESIGN §10, shown in every report footer and in the README.
+pub const CAUTIONS: [&str; 5] = [
+    "Cage coils carry amps and heat up: watch coil current and temperature limits.",
+    "Strong fields upset pacemakers and pull tools: keep people with implants and loose ferromagnetic items away from energised coils.",
+    "Pulse flight torque rods only within their rated current and duty cycle.",
+    "Follow the facility's procedures and the responsible engineer's sign-off.",
+    "magproof informs a decision; it does not replace the project's verification authority.",
+];

@@ -1,0 +1,342 @@
+//! SVG plots drawn with plotters into strings, for the HTML report and as separate
+//! files. No fonts or system libraries are needed: SVG text is rendered by the viewer.
+//!
+//! Two shapes cover every figure magproof draws: an x–y plot of point and line series
+//! (projections with fitted ellipses, residual against time, field against table angle,
+//! command and response over time, trends across builds) and a histogram.
+
+use plotters::prelude::*;
+
+use crate::Error;
+
+/// Our palette: slate blue, amber, teal, brick, graphite, plum.
+pub const PALETTE: [RGBColor; 6] = [
+    RGBColor(0x3b, 0x5b, 0x92),
+    RGBColor(0xd0, 0x8c, 0x1f),
+    RGBColor(0x2a, 0x9d, 0x8f),
+    RGBColor(0xb3, 0x41, 0x2e),
+    RGBColor(0x4b, 0x55, 0x63),
+    RGBColor(0x8e, 0x4b, 0x8f),
+];
+
+/// Most points drawn per series; longer series are thinned by a fixed stride so that a
+/// 10⁶-sample log still gives a small SVG.
+pub const MAX_POINTS_PER_SERIES: usize = 4000;
+
+/// How a series is drawn.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Mark {
+    /// Small filled circles.
+    Points,
+    /// A polyline through the points in order.
+    Line,
+    /// A dashed polyline (limits, references).
+    Dashed,
+}
+
+/// One named series of an x–y plot.
+#[derive(Debug, Clone)]
+pub struct Series {
+    /// Legend label.
+    pub name: String,
+    /// (x, y) points.
+    pub points: Vec<(f64, f64)>,
+    /// How to draw it.
+    pub mark: Mark,
+    /// Index into [`PALETTE`].
+    pub color: usize,
+}
+
+impl Series {
+    /// A series of points.
+    pub fn points(name: &str, points: Vec<(f64, f64)>, color: usize) -> Self {
+        Series {
+            name: name.to_string(),
+            points,
+            mark: Mark::Points,
+            color,
+        }
+    }
+
+    /// A series drawn as a line.
+    pub fn line(name: &str, points: Vec<(f64, f64)>, color: usize) -> Self {
+        Series {
+            name: name.to_string(),
+            points,
+            mark: Mark::Line,
+            color,
+        }
+    }
+
+    /// A dashed line.
+    pub fn dashed(name: &str, points: Vec<(f64, f64)>, color: usize) -> Self {
+        Series {
+            name: name.to_string(),
+            points,
+            mark: Mark::Dashed,
+            color,
+        }
+    }
+}
+
+/// An x–y plot.
+#[derive(Debug, Clone)]
+pub struct XyPlot {
+    /// Title above the plot.
+    pub title: String,
+    /// x-axis label with unit.
+    pub x_label: String,
+    /// y-axis label with unit.
+    pub y_label: String,
+    /// The series, drawn in order.
+    pub series: Vec<Series>,
+    /// Same scale on both axes (projections of field samples).
+    pub equal_aspect: bool,
+    /// Fixed x range instead of the data's.
+    pub x_range: Option<(f64, f64)>,
+    /// Fixed y range instead of the data's.
+    pub y_range: Option<(f64, f64)>,
+    /// Size in pixels.
+    pub size: (u32, u32),
+}
+
+impl XyPlot {
+    /// A plot with default size and data ranges.
+    pub fn new(title: &str, x_label: &str, y_label: &str) -> Self {
+        XyPlot {
+            title: title.to_string(),
+            x_label: x_label.to_string(),
+            y_label: y_label.to_string(),
+            series: Vec::new(),
+            equal_aspect: false,
+            x_range: None,
+            y_range: None,
+            size: (560, 380),
+        }
+    }
+
+    /// Add a series.
+    pub fn with(mut self, s: Series) -> Self {
+        self.series.push(s);
+        self
+    }
+}
+
+fn plot_err(e: impl std::fmt::Display) -> Error {
+    Error::Internal(format!("drawing a plot failed: {e}"))
+}
+
+fn finite_range(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for v in values.filter(|v| v.is_finite()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if lo > hi {
+        return None;
+    }
+    if hi - lo < 1e-12 * (1.0 + lo.abs().max(hi.abs())) {
+        let pad = 0.5 * (1.0 + lo.abs() * 0.01);
+        return Some((lo - pad, hi + pad));
+    }
+    let pad = 0.05 * (hi - lo);
+    Some((lo - pad, hi + pad))
+}
+
+fn thin(points: &[(f64, f64)]) -> impl Iterator<Item = (f64, f64)> + '_ {
+    let stride = points.len().div_ceil(MAX_POINTS_PER_SERIES).max(1);
+    points
+        .iter()
+        .step_by(stride)
+        .copied()
+        .filter(|(x, y)| x.is_finite() && y.is_finite())
+}
+
+/// Draw an x–y plot as an SVG document.
+pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
+    let xs = plot
+        .series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p.0));
+    let ys = plot
+        .series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p.1));
+    let (mut x0, mut x1) = plot
+        .x_range
+        .or_else(|| finite_range(xs))
+        .unwrap_or((0.0, 1.0));
+    let (mut y0, mut y1) = plot
+        .y_range
+        .or_else(|| finite_range(ys))
+        .unwrap_or((0.0, 1.0));
+    if plot.equal_aspect {
+        // Widen the narrower range so one unit has the same length on both axes.
+        let (w, h) = (f64::from(plot.size.0 - 90), f64::from(plot.size.1 - 80));
+        let per_px = ((x1 - x0) / w).max((y1 - y0) / h);
+        let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+        x0 = cx - 0.5 * per_px * w;
+        x1 = cx + 0.5 * per_px * w;
+        y0 = cy - 0.5 * per_px * h;
+        y1 = cy + 0.5 * per_px * h;
+    }
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, plot.size).into_drawing_area();
+        root.fill(&WHITE).map_err(plot_err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(&plot.title, ("sans-serif", 17))
+            .margin(12)
+            .x_label_area_size(38)
+            .y_label_area_size(62)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(plot_err)?;
+        chart
+            .configure_mesh()
+            .x_desc(&plot.x_label)
+            .y_desc(&plot.y_label)
+            .light_line_style(RGBColor(0xee, 0xee, 0xee))
+            .bold_line_style(RGBColor(0xd4, 0xd4, 0xd4))
+            .label_style(("sans-serif", 12))
+            .draw()
+            .map_err(plot_err)?;
+        for s in &plot.series {
+            let color = PALETTE[s.color % PALETTE.len()];
+            let legend_color = color;
+            let anno = match s.mark {
+                Mark::Points => chart
+                    .draw_series(
+                        thin(&s.points).map(|p| Circle::new(p, 2, color.mix(0.55).filled())),
+                    )
+                    .map_err(plot_err)?,
+                Mark::Line => chart
+                    .draw_series(LineSeries::new(thin(&s.points), color.stroke_width(2)))
+                    .map_err(plot_err)?,
+                Mark::Dashed => chart
+                    .draw_series(DashedLineSeries::new(
+                        thin(&s.points).collect::<Vec<_>>(),
+                        6,
+                        4,
+                        color.stroke_width(2),
+                    ))
+                    .map_err(plot_err)?,
+            };
+            if !s.name.is_empty() {
+                anno.label(s.name.as_str()).legend(move |(x, y)| {
+                    Rectangle::new([(x, y - 4), (x + 14, y + 4)], legend_color.filled())
+                });
+            }
+        }
+        if plot.series.iter().any(|s| !s.name.is_empty()) {
+            chart
+                .configure_series_labels()
+                .background_style(WHITE.mix(0.85))
+                .border_style(RGBColor(0xbb, 0xbb, 0xbb))
+                .label_font(("sans-serif", 12))
+                .position(SeriesLabelPosition::UpperRight)
+                .draw()
+                .map_err(plot_err)?;
+        }
+        root.present().map_err(plot_err)?;
+    }
+    Ok(svg)
+}
+
+/// Draw a histogram of `values` with `bins` equal bins as an SVG document.
+pub fn draw_histogram(
+    title: &str,
+    x_label: &str,
+    values: &[f64],
+    bins: usize,
+) -> Result<String, Error> {
+    let bins = bins.clamp(1, 200);
+    let (lo, hi) = finite_range(values.iter().copied()).unwrap_or((-1.0, 1.0));
+    let width = (hi - lo) / bins as f64;
+    let mut counts = vec![0u64; bins];
+    for v in values.iter().filter(|v| v.is_finite()) {
+        let k = (((v - lo) / width) as usize).min(bins - 1);
+        counts[k] += 1;
+    }
+    let top = counts.iter().copied().max().unwrap_or(1).max(1) as f64 * 1.08;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (560, 340)).into_drawing_area();
+        root.fill(&WHITE).map_err(plot_err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 17))
+            .margin(12)
+            .x_label_area_size(38)
+            .y_label_area_size(62)
+            .build_cartesian_2d(lo..hi, 0f64..top)
+            .map_err(plot_err)?;
+        chart
+            .configure_mesh()
+            .x_desc(x_label)
+            .y_desc("samples")
+            .light_line_style(RGBColor(0xee, 0xee, 0xee))
+            .label_style(("sans-serif", 12))
+            .draw()
+            .map_err(plot_err)?;
+        let fill = PALETTE[0].mix(0.75).filled();
+        chart
+            .draw_series(counts.iter().enumerate().map(|(k, &c)| {
+                let x = lo + k as f64 * width;
+                Rectangle::new([(x, 0.0), (x + width, c as f64)], fill)
+            }))
+            .map_err(plot_err)?;
+        root.present().map_err(plot_err)?;
+    }
+    Ok(svg)
+}
+
+/// Points of an ellipse `centre + a·cos θ + b·sin θ` (for fitted-shape overlays).
+pub fn ellipse_points(
+    centre: (f64, f64),
+    a: (f64, f64),
+    b: (f64, f64),
+    n: usize,
+) -> Vec<(f64, f64)> {
+    (0..=n)
+        .map(|k| {
+            let t = std::f64::consts::TAU * k as f64 / n as f64;
+            let (c, s) = (t.cos(), t.sin());
+            (centre.0 + a.0 * c + b.0 * s, centre.1 + a.1 * c + b.1 * s)
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn xy_plot_is_svg_with_escaped_text() {
+        let p = XyPlot::new("a <b> & c", "t [s]", "B [nT]")
+            .with(Series::points("raw", vec![(0.0, 1.0), (1.0, 2.0)], 0))
+            .with(Series::line(
+                "fit",
+                ellipse_points((0.0, 0.0), (1.0, 0.0), (0.0, 1.0), 16),
+                1,
+            ));
+        let svg = draw_xy(&p).unwrap();
+        assert!(svg.starts_with("<svg"));
+        assert!(svg.contains("a &lt;b&gt; &amp; c"));
+        assert!(!svg.contains("<b>"));
+    }
+
+    #[test]
+    fn degenerate_inputs_still_draw() {
+        assert!(draw_xy(&XyPlot::new("empty", "x", "y")).is_ok());
+        let one = XyPlot::new("one", "x", "y").with(Series::points("", vec![(5.0, 5.0)], 0));
+        assert!(draw_xy(&one).is_ok());
+        assert!(draw_histogram("h", "r [nT]", &[], 10).is_ok());
+        assert!(draw_histogram("h", "r [nT]", &[1.0, 1.0, f64::NAN], 10).is_ok());
+    }
+
+    #[test]
+    fn long_series_are_thinned() {
+        let pts: Vec<(f64, f64)> = (0..100_000).map(|i| (i as f64, (i % 7) as f64)).collect();
+        let svg = draw_xy(&XyPlot::new("n", "x", "y").with(Series::points("", pts, 0))).unwrap();
+        assert!(svg.matches("<circle").count() <= MAX_POINTS_PER_SERIES + 10);
+    }
+}

@@ -1,0 +1,240 @@
+//! Terminal summary: compact, within 80 columns, verdicts as words; colour only on a
+//! terminal and never when `NO_COLOR` is set (no-color.org convention).
+
+use std::fmt::Write as _;
+use std::io::IsTerminal;
+
+use super::model::{RunReport, Section, Tone, Verdict};
+
+/// Width the summary keeps within.
+pub const WIDTH: usize = 80;
+
+/// Whether to colour the output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Style {
+    /// Emit ANSI colour codes.
+    pub color: bool,
+}
+
+impl Style {
+    /// Colour when stdout is a terminal and `NO_COLOR` is unset or empty.
+    pub fn detect() -> Self {
+        let no_color = std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty());
+        Style {
+            color: !no_color && std::io::stdout().is_terminal(),
+        }
+    }
+
+    /// Plain text, no colour.
+    pub fn plain() -> Self {
+        Style { color: false }
+    }
+
+    fn paint(&self, text: &str, tone: Tone) -> String {
+        if !self.color {
+            return text.to_string();
+        }
+        let code = match tone {
+            Tone::Plain => return text.to_string(),
+            Tone::Good => "32",
+            Tone::Warn => "33",
+            Tone::Bad => "1;31",
+        };
+        format!("\x1b[{code}m{text}\x1b[0m")
+    }
+
+    /// A verdict word, coloured if allowed.
+    pub fn verdict(&self, v: Verdict) -> String {
+        let tone = match v {
+            Verdict::Pass => Tone::Good,
+            Verdict::Fail => Tone::Bad,
+            Verdict::Info => Tone::Warn,
+        };
+        self.paint(&format!("[{}]", v.word()), tone)
+    }
+}
+
+/// Format `value ± sigma unit`, with the value rounded to the sigma's second significant
+/// digit (common practice for reporting measurements).
+pub fn value_sigma(value: f64, sigma: f64, unit: &str) -> String {
+    let d = decimals_for(sigma);
+    format!("{value:.d$} ± {sigma:.d$} {unit}")
+}
+
+/// Decimals that show two significant digits of `sigma` (0..=9).
+pub fn decimals_for(sigma: f64) -> usize {
+    if !(sigma.is_finite() && sigma > 0.0) {
+        return 3;
+    }
+    let mag = sigma.abs().log10().floor() as i32;
+    (1 - mag).clamp(0, 9) as usize
+}
+
+fn truncate(s: &str, width: usize) -> String {
+    if s.chars().count() <= width {
+        s.to_string()
+    } else {
+        let mut t: String = s.chars().take(width.saturating_sub(1)).collect();
+        t.push('…');
+        t
+    }
+}
+
+/// Wrap text to `width` columns with an indent on every line.
+pub fn wrap(text: &str, indent: &str, width: usize) -> String {
+    let mut out = String::new();
+    let mut line = String::from(indent);
+    for word in text.split_whitespace() {
+        if line.chars().count() + word.chars().count() + 1 > width && !line.trim().is_empty() {
+            out.push_str(line.trim_end());
+            out.push('\n');
+            line = String::from(indent);
+        }
+        if !line.trim().is_empty() {
+            line.push(' ');
+        }
+        line.push_str(word);
+    }
+    if !line.trim().is_empty() {
+        out.push_str(line.trim_end());
+        out.push('\n');
+    }
+    out
+}
+
+/// Render one section.
+pub fn render_section(s: &Section, style: &Style) -> String {
+    let mut out = String::new();
+    let head = format!("{} ", s.title);
+    let verdict = style.verdict(s.verdict);
+    let pad = WIDTH.saturating_sub(head.chars().count() + s.verdict.word().len() + 2);
+    let _ = writeln!(out, "{head}{}{verdict}", "─".repeat(pad.max(1)));
+    let label_w = s
+        .figures_of_merit
+        .iter()
+        .map(|(l, _)| l.chars().count())
+        .max()
+        .unwrap_or(0)
+        .min(30);
+    for (label, value) in &s.figures_of_merit {
+        let line = format!("  {label:<label_w$}  {value}");
+        let _ = writeln!(out, "{}", truncate(&line, WIDTH));
+    }
+    for t in &s.tables {
+        out.push('\n');
+        out.push_str(&render_table(t, style));
+    }
+    for w in &s.warnings {
+        out.push_str(&style.paint(&wrap(&format!("! {w}"), "  ", WIDTH), Tone::Warn));
+    }
+    for n in &s.notes {
+        out.push_str(&wrap(&format!("· {n}"), "  ", WIDTH));
+    }
+    out
+}
+
+fn render_table(t: &super::model::Table, style: &Style) -> String {
+    let cols = t.header.len();
+    let mut widths: Vec<usize> = t.header.iter().map(|h| h.chars().count()).collect();
+    for row in &t.rows {
+        for (k, c) in row.iter().enumerate().take(cols) {
+            widths[k] = widths[k].max(c.text.chars().count());
+        }
+    }
+    // Keep within the width: shrink the widest column first.
+    while widths.iter().sum::<usize>() + 2 * cols + 2 > WIDTH {
+        let Some((k, _)) = widths.iter().enumerate().max_by_key(|(_, w)| **w) else {
+            break;
+        };
+        if widths[k] <= 6 {
+            break;
+        }
+        widths[k] -= 1;
+    }
+    let mut out = String::new();
+    if !t.caption.is_empty() {
+        let _ = writeln!(out, "  {}", truncate(&t.caption, WIDTH - 2));
+    }
+    let mut line = String::from("  ");
+    for (k, h) in t.header.iter().enumerate() {
+        let _ = write!(line, "{:<w$}  ", truncate(h, widths[k]), w = widths[k]);
+    }
+    let _ = writeln!(out, "{}", line.trim_end());
+    for row in &t.rows {
+        let mut line = String::from("  ");
+        for (k, c) in row.iter().enumerate().take(cols) {
+            let text = format!("{:<w$}", truncate(&c.text, widths[k]), w = widths[k]);
+            let _ = write!(line, "{}  ", style.paint(&text, c.tone));
+        }
+        let _ = writeln!(out, "{}", line.trim_end());
+    }
+    out
+}
+
+/// Render a whole report for the terminal.
+pub fn render(report: &RunReport, style: &Style) -> String {
+    let mut out = String::new();
+    if let Some((serial, build)) = &report.article {
+        let _ = writeln!(out, "{} · serial {serial} · build {build}", report.title);
+    } else {
+        let _ = writeln!(out, "{}", report.title);
+    }
+    for s in &report.sections {
+        out.push('\n');
+        out.push_str(&render_section(s, style));
+    }
+    if report.sections.len() > 1 {
+        let _ = writeln!(out, "\nOverall {}", style.verdict(report.verdict()));
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::report::model::{Cell, Table};
+
+    #[test]
+    fn value_sigma_keeps_two_significant_digits_of_sigma() {
+        assert_eq!(value_sigma(-1530.04, 2.34, "nT"), "-1530.0 ± 2.3 nT");
+        assert_eq!(
+            value_sigma(0.0012345, 0.000056, "A·m²"),
+            "0.001234 ± 0.000056 A·m²"
+        );
+        assert_eq!(value_sigma(48210.0, 12.0, "nT"), "48210 ± 12 nT");
+    }
+
+    #[test]
+    fn section_fits_80_columns_and_has_no_colour_when_plain() {
+        let s = Section {
+            kind: "calibrate".into(),
+            title: "Magnetometer calibration".into(),
+            verdict: Verdict::Fail,
+            figures_of_merit: vec![("hard iron".into(), "x".repeat(200))],
+            tables: vec![Table {
+                caption: "rods".into(),
+                header: vec![
+                    "rod".into(),
+                    "verdict".into(),
+                    "a very long heading".repeat(5),
+                ],
+                rows: vec![vec![
+                    Cell::plain("x"),
+                    Cell::toned("reversed", Tone::Bad),
+                    Cell::plain("y".repeat(120)),
+                ]],
+            }],
+            figures: vec![],
+            warnings: vec!["w ".repeat(100)],
+            notes: vec![],
+            result: serde_json::Value::Null,
+        };
+        let text = render_section(&s, &Style::plain());
+        for line in text.lines() {
+            assert!(line.chars().count() <= WIDTH, "too wide: {line:?}");
+        }
+        assert!(!text.contains('\x1b'));
+        assert!(text.contains("[FAIL]"));
+        assert!(text.contains("reversed"));
+    }
+}
