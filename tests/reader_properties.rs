@@ -44,7 +44,10 @@ fn check_log(bytes: &[u8], skip: bool) {
         }
         Err(e) => {
             let msg = e.to_string();
-            assert!(msg.starts_with("p.csv"), "message does not name the file: {msg}");
+            assert!(
+                msg.starts_with("p.csv"),
+                "message does not name the file: {msg}"
+            );
             if let LogError::Cell { line, .. } | LogError::RowLength { line, .. } = &e {
                 assert!(msg.contains(&format!(":{line}:")), "{msg}");
             }
