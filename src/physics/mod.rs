@@ -3,3 +3,5 @@
 
 pub mod dipole;
 pub mod frames;
+pub mod geomag;
+pub mod igrf;
