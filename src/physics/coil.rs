@@ -77,7 +77,7 @@ mod tests {
     fn loop_centre_field_is_mu0_n_i_over_2r() {
         // Textbook: B(0) = μ0 N I / (2R). 1 A, R = 0.5 m → 4π·1e-7 T = 1256.637 nT.
         let b = loop_axial_field_nt(1.0, 1.0, 0.5, 0.0).unwrap();
-        assert_relative_eq!(b, 1256.637_061_435_917, max_relative = 1e-12);
+        assert_relative_eq!(b, 1_256.637_061_435_917, max_relative = 1e-12);
         let b = loop_axial_field_nt(10.0, 2.0, 0.25, 0.0).unwrap();
         assert_relative_eq!(b, MU0_NT_M_PER_A * 20.0 / 0.5, max_relative = 1e-12);
     }
