@@ -5,7 +5,7 @@
 //! Control*, 1978, §5.1 and App. H — cited from memory; the same form is in most
 //! geomagnetism texts): the degree-1 IGRF terms describe a dipole of equatorial surface
 //! strength B0 = √(g10² + g11² + h11²) at the reference radius Re = 6371.2 km, whose
-//! axis is tilted from the spin axis by θ0 = acos(−g10 / B0) (about 9.5° in 2025). At
+//! axis is tilted from the spin axis by θ0 = acos(−g10 / B0) (9.2° in 2025). At
 //! geocentric distance r and magnetic latitude λm the magnitude is
 //! B = B0 (Re/r)³ √(1 + 3 sin²λm).
 //!

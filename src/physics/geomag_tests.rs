@@ -54,9 +54,9 @@ fn b0_at_2020_epoch_is_the_table_value() {
         want,
         epsilon = 1e-9
     );
-    // Tilt about 9.7° in 2020 (commonly quoted ~9.5–10°).
+    // Tilt acos(29403.41 / B0) = 9.41° in 2020.0.
     let tilt = dipole_tilt_rad(date!(2020 - 01 - 01)).unwrap().to_degrees();
-    assert!((9.0..10.5).contains(&tilt), "{tilt}");
+    assert!((tilt - 9.4128).abs() < 1e-3, "{tilt}");
 }
 
 #[test]
