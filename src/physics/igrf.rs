@@ -209,7 +209,10 @@ pub fn coefficients_on(date: Date) -> Result<GaussCoefficients, GeomagError> {
     check_date(date)?;
     let t = decimal_year(date);
     let tab = table()?;
-    let mut out = tab.sv.clone();
+    let mut out = GaussCoefficients {
+        g: [[0.0; N]; N],
+        h: [[0.0; N]; N],
+    };
     let (base, next, frac, sv_years) = if t < 2020.0 {
         (0, 1, (t - 2015.0) / 5.0, 0.0)
     } else if t < 2025.0 {
