@@ -8,6 +8,7 @@
 use std::path::PathBuf;
 
 use crate::log::{LogError, PlanError};
+use crate::physics::igrf::GeomagError;
 
 /// Any failure of a magproof operation.
 #[derive(Debug, thiserror::Error)]
@@ -18,6 +19,9 @@ pub enum Error {
     /// A test plan could not be read or is invalid.
     #[error(transparent)]
     Plan(#[from] PlanError),
+    /// A geomagnetic-field request was refused (date, latitude or altitude out of range).
+    #[error(transparent)]
+    Geomag(#[from] GeomagError),
     /// The input is valid text but cannot support the requested computation
     /// (too few samples, coplanar directions, no background segment, …).
     #[error("{0}")]
@@ -44,6 +48,7 @@ impl Error {
     pub fn exit_code(&self) -> u8 {
         match self {
             Error::Internal(_) => 3,
+            Error::Geomag(GeomagError::Table(_)) => 3,
             Error::Io { source, .. } if source.kind() == std::io::ErrorKind::NotFound => 2,
             Error::Io { .. } => 2,
             _ => 2,

@@ -1,8 +1,10 @@
 //! Integration tests: each drives the built `magproof` binary, as a user would.
-//! One test crate, modules by theme (reader inputs, checks, ledger, reports).
+//! One test crate, modules by theme under tests/cli/; helpers in tests/cli/util.rs.
 
 #[path = "cli/util.rs"]
 mod util;
 
+#[path = "cli/field.rs"]
+mod field;
 #[path = "cli/input.rs"]
 mod input;

@@ -1,5 +1,8 @@
 //! Physics: the dipole field, frames and rotations, and (elsewhere in this module) the
 //! geomagnetic reference field and coil fields.
 
+pub mod coil;
 pub mod dipole;
 pub mod frames;
+pub mod geomag;
+pub mod igrf;
