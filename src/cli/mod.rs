@@ -2,7 +2,9 @@
 //! validated library requests, and terminal output. The library never sees clap types.
 
 mod common;
+mod history;
 mod inspect;
+mod record;
 
 use clap::{Parser, Subcommand};
 
@@ -25,6 +27,8 @@ pub struct Cli {
 enum Command {
     /// Read a log (and a plan) and say what was found, without fitting anything.
     Inspect(inspect::Args),
+    /// The ledger: runs per serial and build, and what changed since the previous build.
+    History(history::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -32,6 +36,7 @@ pub fn run() -> anyhow::Result<Outcome> {
     let cli = Cli::parse();
     match cli.command {
         Command::Inspect(args) => inspect::run(args),
+        Command::History(args) => history::run(args),
     }
 }
 

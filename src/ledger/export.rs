@@ -81,6 +81,7 @@ fn value_cell(v: &serde_json::Value) -> String {
     match v {
         serde_json::Value::Null => String::new(),
         serde_json::Value::String(s) => s.clone(),
+        serde_json::Value::Number(n) => n.as_f64().map(|x| format!("{x}")).unwrap_or_default(),
         other => other.to_string(),
     }
 }
