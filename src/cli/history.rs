@@ -224,10 +224,11 @@ fn render(path: &Path, runs: &[Run], changes: &[Change], rules: &ChangeRules) ->
             } else {
                 c.flag.as_str().to_string()
             };
-            let line = format!("    {:<24} {:<34} {}", clip(&label(c), 24), amount(c), flag);
+            let line = format!("    {:<22} {:<33} {}", clip(&label(c), 22), amount(c), flag);
             s += &clip(&line, 80);
             s.push('\n');
         }
+        s += "  ! = look at this: significant change, limit crossed or rod verdict changed\n";
     }
     s
 }

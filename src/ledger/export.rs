@@ -3,7 +3,8 @@
 
 use std::io::Write;
 
-use super::history::{Change, QuantityValue};
+use super::history::Change;
+use super::quantity::QuantityValue;
 use super::{quantities, Run};
 
 /// Columns of [`write_values_csv`].
