@@ -85,12 +85,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         )
         .into());
     }
-    let rules = ChangeRules::with_significance_sigma(args.significance_sigma).map_err(|_| {
-        magproof::Error::Usage(format!(
-            "--significance-sigma must be a positive number, got {}",
-            args.significance_sigma
-        ))
-    })?;
+    let rules = ChangeRules::with_significance_sigma(args.significance_sigma)
+        .map_err(|e| magproof::Error::Usage(format!("--significance-sigma: {e}")))?;
     let path = args.ledger.path();
     let ledger = Ledger::open_existing(&path).map_err(magproof::Error::from)?;
     let filter = RunFilter {

@@ -67,6 +67,9 @@ pub enum LedgerError {
     /// object). The binary only builds runs from validated plans, so this is a bug there.
     #[error("run not recorded: {0}")]
     InvalidRun(String),
+    /// A rule for judging changes is out of range (e.g. a non-positive sigma threshold).
+    #[error("{0}")]
+    InvalidRule(String),
     /// SQLite failed (disk full, lock held longer than the busy timeout, …).
     #[error("{path}: ledger database error: {source}")]
     Database {

@@ -82,7 +82,7 @@ impl ChangeRules {
     /// Rules with a change significant beyond `k` combined σ (`k` finite and > 0).
     pub fn with_significance_sigma(k: f64) -> Result<Self, LedgerError> {
         if !(k.is_finite() && k > 0.0) {
-            return Err(LedgerError::InvalidRun(format!(
+            return Err(LedgerError::InvalidRule(format!(
                 "significance threshold must be a positive number of sigma, got {k}"
             )));
         }
