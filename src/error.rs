@@ -7,6 +7,7 @@
 
 use std::path::PathBuf;
 
+use crate::ledger::LedgerError;
 use crate::log::{LogError, PlanError};
 use crate::physics::igrf::GeomagError;
 
@@ -38,6 +39,9 @@ pub enum Error {
         /// The operating system's error.
         source: std::io::Error,
     },
+    /// The ledger could not be opened, read or written.
+    #[error(transparent)]
+    Ledger(#[from] LedgerError),
     /// A bug in magproof: an invariant that should hold did not.
     #[error("internal error (please report): {0}")]
     Internal(String),
@@ -49,6 +53,7 @@ impl Error {
         match self {
             Error::Internal(_) => 3,
             Error::Geomag(GeomagError::Table(_)) => 3,
+            Error::Ledger(e) => e.exit_code(),
             Error::Io { source, .. } if source.kind() == std::io::ErrorKind::NotFound => 2,
             Error::Io { .. } => 2,
             _ => 2,

@@ -6,5 +6,7 @@ mod util;
 
 #[path = "cli/field.rs"]
 mod field;
+#[path = "cli/history.rs"]
+mod history;
 #[path = "cli/input.rs"]
 mod input;

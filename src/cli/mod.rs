@@ -3,7 +3,9 @@
 
 mod common;
 mod field;
+mod history;
 mod inspect;
+mod record;
 
 use clap::{Parser, Subcommand};
 
@@ -28,6 +30,8 @@ enum Command {
     Inspect(inspect::Args),
     /// Geomagnetic reference field (IGRF-14) at a site: N/E/down, total, declination, inclination.
     Field(field::Args),
+    /// The ledger: runs per serial and build, and what changed since the previous build.
+    History(history::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -36,6 +40,7 @@ pub fn run() -> anyhow::Result<Outcome> {
     match cli.command {
         Command::Inspect(args) => inspect::run(args),
         Command::Field(args) => field::run(args),
+        Command::History(args) => history::run(args),
     }
 }
 

@@ -1,1 +1,477 @@
 //! The ledger: SQLite history of runs per serial number and build (DESIGN §6, §7).
+//!
+//! One file (`magproof.db` by default) holds every recorded run: serial, build, kind of
+//! check, time (UTC), magproof version, SHA-256 of each input file, the §7 JSON result and
+//! its verdict. [`history`] turns runs into the changes from one build to the next.
+//!
+//! Guarantees (see `docs/ledger.md`):
+//! - every call of [`Ledger::record_runs`] is one transaction: all its runs or none;
+//! - the file is in WAL mode with a 10 s busy timeout, so two processes writing at once
+//!   both succeed (the second waits for the first's commit);
+//! - `synchronous = FULL`: a committed run survives the process being killed (and power
+//!   loss on a disk that honours flushes);
+//! - the same inputs recorded twice for the same serial, build and kind are one run
+//!   ([`Recorded::AlreadyThere`]);
+//! - the schema carries a version and migrates forward on open; a newer one is refused.
+
+mod error;
+pub mod export;
+pub mod history;
+mod quantity;
+mod record;
+mod schema;
+
+use std::path::{Path, PathBuf};
+use std::time::Duration;
+
+use rusqlite::{params, Connection, OpenFlags, OptionalExtension, TransactionBehavior};
+
+use crate::log::plan::StepKind;
+use crate::log::{Plan, Shown};
+
+pub use error::LedgerError;
+pub use history::{changes, group_by_build, BuildRuns, Change, ChangeRules, Flag, SerialRuns};
+pub use quantity::{quantities, Quantity, QuantityValue};
+pub use record::{parse_kind, InputFile, InputRole, NewRun, Recorded, Run, RunFilter, RunId};
+pub use schema::{APPLICATION_ID, CURRENT_VERSION};
+
+/// How long a writer waits for another process's transaction before giving up.
+pub const BUSY_TIMEOUT: Duration = Duration::from_secs(10);
+
+/// An open ledger file.
+#[derive(Debug)]
+pub struct Ledger {
+    conn: Connection,
+    path: PathBuf,
+}
+
+impl Ledger {
+    /// Open a ledger for writing, creating the file (not its folder) if absent.
+    /// Migrates an older schema to [`CURRENT_VERSION`].
+    pub fn open(path: &Path) -> Result<Ledger, LedgerError> {
+        let flags = OpenFlags::SQLITE_OPEN_READ_WRITE
+            | OpenFlags::SQLITE_OPEN_CREATE
+            | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+        Self::open_with(path, flags, schema::OnEmpty::Create)
+    }
+
+    /// Open an existing ledger for reading: fails with [`LedgerError::Missing`] rather
+    /// than create a file, and with [`LedgerError::NotALedger`] on an empty database.
+    /// An older schema is still migrated in place (a forward migration only adds).
+    pub fn open_existing(path: &Path) -> Result<Ledger, LedgerError> {
+        if !path.exists() {
+            return Err(LedgerError::Missing {
+                path: Shown(path.to_path_buf()),
+            });
+        }
+        let flags = OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+        Self::open_with(path, flags, schema::OnEmpty::Refuse)
+    }
+
+    fn open_with(
+        path: &Path,
+        flags: OpenFlags,
+        on_empty: schema::OnEmpty,
+    ) -> Result<Ledger, LedgerError> {
+        let shown = || Shown(path.to_path_buf());
+        let mut conn =
+            Connection::open_with_flags(path, flags).map_err(|source| LedgerError::CannotOpen {
+                path: shown(),
+                source,
+            })?;
+        conn.busy_timeout(BUSY_TIMEOUT)
+            .map_err(|e| schema::classify(e, path))?;
+        // Refuse a foreign file before changing anything in it.
+        schema::prepare(&mut conn, path, on_empty)?;
+        let mode: String = conn
+            .pragma_update_and_check(None, "journal_mode", "WAL", |r| r.get(0))
+            .map_err(|e| schema::classify(e, path))?;
+        if !mode.eq_ignore_ascii_case("wal") {
+            return Err(LedgerError::NotALedger {
+                path: shown(),
+                reason: format!("cannot switch the file to WAL journaling (got {mode})"),
+            });
+        }
+        conn.execute_batch("PRAGMA synchronous = FULL; PRAGMA foreign_keys = ON;")
+            .map_err(|e| schema::classify(e, path))?;
+        Ok(Ledger {
+            conn,
+            path: path.to_path_buf(),
+        })
+    }
+
+    /// The ledger's file.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    #[cfg(test)]
+    pub(crate) fn connection(&self) -> &Connection {
+        &self.conn
+    }
+
+    fn db(&self) -> impl Fn(rusqlite::Error) -> LedgerError + '_ {
+        move |source| LedgerError::Database {
+            path: Shown(self.path.clone()),
+            source,
+        }
+    }
+
+    /// Record a set of runs (e.g. every step of a closeout) in ONE transaction, all
+    /// stamped with the same `recorded_at` (now, UTC) and [`crate::VERSION`].
+    ///
+    /// Dedupe: a run whose serial, build, kind and input hashes (SHA-256 of every input
+    /// file, paths ignored) equal a run already in the ledger — or earlier in the same
+    /// slice — is not written again; its entry in the answer is
+    /// [`Recorded::AlreadyThere`] with the existing id (the first recording's result,
+    /// time and version are kept). The answer has one entry per given run, in order.
+    ///
+    /// Every run is validated before anything is written; on any error nothing is.
+    pub fn record_runs(&mut self, runs: &[NewRun]) -> Result<Vec<Recorded>, LedgerError> {
+        for r in runs {
+            r.validate()?;
+        }
+        let recorded_at = utc_now_iso8601();
+        let path = self.path.clone();
+        let db = |source| LedgerError::Database {
+            path: Shown(path.clone()),
+            source,
+        };
+        let tx = self
+            .conn
+            .transaction_with_behavior(TransactionBehavior::Immediate)
+            .map_err(db)?;
+        let mut out = Vec::with_capacity(runs.len());
+        for run in runs {
+            let key = run.input_key();
+            let existing: Option<i64> = tx
+                .query_row(
+                    "SELECT id FROM runs WHERE serial = ?1 AND build = ?2 AND kind = ?3
+                     AND input_key = ?4 ORDER BY id LIMIT 1",
+                    params![run.serial, run.build, run.kind.as_str(), key],
+                    |r| r.get(0),
+                )
+                .optional()
+                .map_err(db)?;
+            if let Some(id) = existing {
+                out.push(Recorded::AlreadyThere(RunId(id)));
+                continue;
+            }
+            let result_text = serde_json::to_string(&run.result).map_err(|e| {
+                LedgerError::InvalidRun(format!("result cannot be written as JSON: {e}"))
+            })?;
+            tx.execute(
+                "INSERT INTO runs (serial, build, kind, recorded_at, input_key, pass, result,
+                                   tool_version)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
+                params![
+                    run.serial,
+                    run.build,
+                    run.kind.as_str(),
+                    recorded_at,
+                    key,
+                    run.pass(),
+                    result_text,
+                    crate::VERSION
+                ],
+            )
+            .map_err(db)?;
+            let id = tx.last_insert_rowid();
+            for (pos, input) in run.inputs.iter().enumerate() {
+                tx.execute(
+                    "INSERT INTO inputs (run_id, position, role, path, sha256)
+                     VALUES (?1, ?2, ?3, ?4, ?5)",
+                    params![
+                        id,
+                        pos as i64,
+                        input.role.as_str(),
+                        input.path.to_string_lossy(),
+                        input.sha256
+                    ],
+                )
+                .map_err(db)?;
+            }
+            out.push(Recorded::New(RunId(id)));
+        }
+        tx.commit().map_err(db)?;
+        Ok(out)
+    }
+
+    /// Runs matching the filter, in the order they were recorded (by id).
+    pub fn runs(&self, filter: &RunFilter) -> Result<Vec<Run>, LedgerError> {
+        let db = self.db();
+        let mut stmt = self
+            .conn
+            .prepare(
+                "SELECT id, serial, build, kind, recorded_at, tool_version, pass, result
+                 FROM runs
+                 WHERE (?1 IS NULL OR serial = ?1) AND (?2 IS NULL OR kind = ?2)
+                 ORDER BY id",
+            )
+            .map_err(&db)?;
+        type Row = (
+            i64,
+            String,
+            String,
+            String,
+            String,
+            Option<String>,
+            Option<bool>,
+            String,
+        );
+        let rows: Vec<Row> = stmt
+            .query_map(
+                params![filter.serial, filter.kind.map(StepKind::as_str)],
+                |r| {
+                    Ok((
+                        r.get(0)?,
+                        r.get(1)?,
+                        r.get(2)?,
+                        r.get(3)?,
+                        r.get(4)?,
+                        r.get(5)?,
+                        r.get(6)?,
+                        r.get(7)?,
+                    ))
+                },
+            )
+            .map_err(&db)?
+            .collect::<Result<_, _>>()
+            .map_err(&db)?;
+        let mut inputs_stmt = self
+            .conn
+            .prepare("SELECT role, path, sha256 FROM inputs WHERE run_id = ?1 ORDER BY position")
+            .map_err(&db)?;
+        let bad = |id: i64, problem: String| LedgerError::BadRow {
+            path: Shown(self.path.clone()),
+            id,
+            problem,
+        };
+        let mut runs = Vec::with_capacity(rows.len());
+        for (id, serial, build, kind, recorded_at, tool_version, pass, result) in rows {
+            let kind =
+                parse_kind(&kind).ok_or_else(|| bad(id, format!("unknown kind {kind:?}")))?;
+            let result = serde_json::from_str(&result)
+                .map_err(|e| bad(id, format!("stored result is not JSON: {e}")))?;
+            let raw: Vec<(String, String, String)> = inputs_stmt
+                .query_map([id], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))
+                .map_err(&db)?
+                .collect::<Result<_, _>>()
+                .map_err(&db)?;
+            let mut inputs = Vec::with_capacity(raw.len());
+            for (role, path, sha256) in raw {
+                let role = InputRole::parse(&role)
+                    .ok_or_else(|| bad(id, format!("unknown input role {role:?}")))?;
+                inputs.push(InputFile {
+                    role,
+                    path: path.into(),
+                    sha256,
+                });
+            }
+            runs.push(Run {
+                id: RunId(id),
+                serial,
+                build,
+                kind,
+                recorded_at,
+                tool_version,
+                pass,
+                result,
+                inputs,
+            });
+        }
+        Ok(runs)
+    }
+
+    /// Run SQLite's own consistency check; `Ok(())` when it answers "ok".
+    pub fn check_integrity(&self) -> Result<(), LedgerError> {
+        let answer: String = self
+            .conn
+            .query_row("PRAGMA integrity_check", [], |r| r.get(0))
+            .map_err(self.db())?;
+        if answer == "ok" {
+            Ok(())
+        } else {
+            Err(LedgerError::NotALedger {
+                path: Shown(self.path.clone()),
+                reason: format!("integrity check failed: {answer}"),
+            })
+        }
+    }
+}
+
+/// Record one check's result for `--record`: open (or create) the ledger at
+/// `ledger_path`, file the run under the plan's `[article]` serial and build with the log
+/// and the plan as inputs, in one transaction.
+///
+/// Fails with [`LedgerError::NoArticle`] (before touching the ledger) when the plan has
+/// no `[article]`.
+pub fn record_check(
+    ledger_path: &Path,
+    plan: &Plan,
+    kind: StepKind,
+    log: &Path,
+    result: serde_json::Value,
+) -> Result<Recorded, LedgerError> {
+    let run = NewRun::from_plan(plan, kind, log, result)?;
+    let mut ledger = Ledger::open(ledger_path)?;
+    let recorded = ledger.record_runs(std::slice::from_ref(&run))?;
+    recorded
+        .first()
+        .copied()
+        .ok_or_else(|| LedgerError::InvalidRun("the ledger answered no id for the run".into()))
+}
+
+/// Now, UTC, as `YYYY-MM-DDTHH:MM:SS.mmmZ`.
+fn utc_now_iso8601() -> String {
+    let now = time::OffsetDateTime::now_utc();
+    let fmt = time::macros::format_description!(
+        "[year]-[month]-[day]T[hour]:[minute]:[second].[subsecond digits:3]Z"
+    );
+    now.format(&fmt)
+        .unwrap_or_else(|_| now.unix_timestamp().to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use serde_json::json;
+
+    fn new_run(build: &str, kind: StepKind, log_hash: char, result: serde_json::Value) -> NewRun {
+        NewRun {
+            serial: "KST-002".into(),
+            build: build.into(),
+            kind,
+            inputs: vec![InputFile {
+                role: InputRole::Log,
+                path: format!("{}.csv", kind.as_str()).into(),
+                sha256: log_hash.to_string().repeat(64),
+            }],
+            result,
+        }
+    }
+
+    #[test]
+    fn runs_come_back_as_recorded_with_time_version_and_verdict() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut ledger = Ledger::open(&dir.path().join("l.db")).unwrap();
+        let ids = ledger
+            .record_runs(&[
+                new_run(
+                    "B3",
+                    StepKind::Dipole,
+                    'a',
+                    json!({"magnitude_am2": 0.003, "pass": true}),
+                ),
+                new_run(
+                    "B3",
+                    StepKind::Polarity,
+                    'b',
+                    json!({"rods": [], "pass": false}),
+                ),
+                new_run(
+                    "B3",
+                    StepKind::Calibrate,
+                    'c',
+                    json!({"residual_rms_nt": 20.0}),
+                ),
+            ])
+            .unwrap();
+        assert!(ids.iter().all(|r| matches!(r, Recorded::New(_))));
+        let runs = ledger.runs(&RunFilter::default()).unwrap();
+        assert_eq!(runs.len(), 3);
+        assert_eq!(runs[0].result["magnitude_am2"], json!(0.003));
+        assert_eq!(
+            runs.iter().map(|r| r.pass).collect::<Vec<_>>(),
+            [Some(true), Some(false), None]
+        );
+        assert_eq!(runs[0].tool_version.as_deref(), Some(crate::VERSION));
+        // One set, one timestamp, in the documented form.
+        assert!(runs.iter().all(|r| r.recorded_at == runs[0].recorded_at));
+        let fmt = time::format_description::well_known::Rfc3339;
+        assert!(time::OffsetDateTime::parse(&runs[0].recorded_at, &fmt).is_ok());
+        assert!(runs[0].recorded_at.ends_with('Z'));
+        let only = RunFilter {
+            kind: Some(StepKind::Polarity),
+            ..RunFilter::default()
+        };
+        assert_eq!(ledger.runs(&only).unwrap().len(), 1);
+        let other = RunFilter {
+            serial: Some("KST-009".into()),
+            ..RunFilter::default()
+        };
+        assert!(ledger.runs(&other).unwrap().is_empty());
+    }
+
+    #[test]
+    fn the_same_inputs_recorded_twice_are_one_run() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut ledger = Ledger::open(&dir.path().join("l.db")).unwrap();
+        let r = new_run("B3", StepKind::Dipole, 'a', json!({"pass": true}));
+        let first = ledger.record_runs(std::slice::from_ref(&r)).unwrap();
+        let again = ledger.record_runs(&[r.clone(), r.clone()]).unwrap();
+        assert_eq!(again, [Recorded::AlreadyThere(first[0].id()); 2]);
+        // Same log under another build, or another log for the same build: new runs.
+        let other_build = new_run("B4", StepKind::Dipole, 'a', json!({"pass": true}));
+        let other_log = new_run("B3", StepKind::Dipole, 'f', json!({"pass": true}));
+        let more = ledger.record_runs(&[other_build, other_log]).unwrap();
+        assert!(more.iter().all(|x| matches!(x, Recorded::New(_))));
+        assert_eq!(ledger.runs(&RunFilter::default()).unwrap().len(), 3);
+    }
+
+    #[test]
+    fn a_set_with_one_bad_run_writes_nothing() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut ledger = Ledger::open(&dir.path().join("l.db")).unwrap();
+        let good = new_run("B3", StepKind::Dipole, 'a', json!({"pass": true}));
+        let bad = new_run("B3", StepKind::Calibrate, 'b', json!("not an object"));
+        let e = ledger.record_runs(&[good, bad]).unwrap_err();
+        assert!(matches!(e, LedgerError::InvalidRun(_)), "{e}");
+        assert!(ledger.runs(&RunFilter::default()).unwrap().is_empty());
+    }
+
+    #[test]
+    fn reading_a_missing_ledger_does_not_create_it() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("nowhere.db");
+        let e = Ledger::open_existing(&path).unwrap_err();
+        assert!(matches!(e, LedgerError::Missing { .. }));
+        assert_eq!(e.exit_code(), 2);
+        assert!(!path.exists());
+    }
+
+    #[test]
+    fn recording_a_check_needs_the_plans_article_and_hashes_log_and_plan() {
+        let dir = tempfile::tempdir().unwrap();
+        let log = dir.path().join("dipole.csv");
+        std::fs::write(&log, "t,bx,by,bz\n0,1,2,3\n").unwrap();
+        let bare = dir.path().join("bare.toml");
+        std::fs::write(&bare, "[limits]\nresidual_dipole_max_am2 = 0.005\n").unwrap();
+        let plan = crate::log::read_plan(&bare).unwrap();
+        let db = dir.path().join("l.db");
+        let e =
+            record_check(&db, &plan, StepKind::Dipole, &log, json!({"pass": true})).unwrap_err();
+        assert!(matches!(e, LedgerError::NoArticle { .. }));
+        assert!(e.to_string().contains("[article]"), "{e}");
+        assert!(!db.exists(), "a refused record must not create the ledger");
+
+        let with = dir.path().join("plan.toml");
+        std::fs::write(&with, "[article]\nserial = \"KST-002\"\nbuild = \"B4\"\n").unwrap();
+        let plan = crate::log::read_plan(&with).unwrap();
+        let id = record_check(&db, &plan, StepKind::Dipole, &log, json!({"pass": true})).unwrap();
+        assert!(matches!(id, Recorded::New(_)));
+        let again =
+            record_check(&db, &plan, StepKind::Dipole, &log, json!({"pass": true})).unwrap();
+        assert_eq!(again, Recorded::AlreadyThere(id.id()));
+        let runs = Ledger::open_existing(&db)
+            .unwrap()
+            .runs(&RunFilter::default())
+            .unwrap();
+        assert_eq!(
+            (runs[0].serial.as_str(), runs[0].build.as_str()),
+            ("KST-002", "B4")
+        );
+        let roles: Vec<InputRole> = runs[0].inputs.iter().map(|i| i.role).collect();
+        assert_eq!(roles, [InputRole::Log, InputRole::Plan]);
+    }
+}

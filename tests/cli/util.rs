@@ -118,37 +118,42 @@ pub fn assert_stderr_has(run: &Run, parts: &[&str]) {
 }
 
 // ---- helpers in the style some theme modules use ---------------------------------
-/// A fresh temporary folder, removed when dropped.
+/// A temporary folder that lives as long as the test.
 pub struct TestDir {
     dir: tempfile::TempDir,
 }
 
 impl TestDir {
-    /// Create one.
+    /// A fresh, empty folder.
     pub fn new() -> Self {
-        Self {
-            dir: tempfile::tempdir().expect("create temp dir"),
+        TestDir {
+            dir: tempfile::tempdir().expect("create a temporary folder"),
         }
     }
 
-    /// Its path.
+    /// The folder.
     pub fn path(&self) -> &Path {
         self.dir.path()
     }
 
-    /// Write `text` into `name` inside it and return the full path.
-    pub fn write(&self, name: &str, text: &str) -> PathBuf {
-        let p = self.dir.path().join(name);
-        std::fs::write(&p, text).expect("write test file");
+    /// A path inside the folder.
+    pub fn join(&self, name: &str) -> PathBuf {
+        self.dir.path().join(name)
+    }
+
+    /// Write a file inside the folder and return its path.
+    pub fn write(&self, name: &str, contents: impl AsRef<[u8]>) -> PathBuf {
+        let p = self.join(name);
+        std::fs::write(&p, contents).expect("write test file");
         p
     }
 
-    /// `magproof` run in this folder, with an isolated ledger.
+    /// `magproof` with this folder as working directory and no MAGPROOF_LEDGER from the
+    /// environment of the test run.
     pub fn magproof(&self) -> Command {
-        let mut c = Command::cargo_bin("magproof").expect("binary built");
-        c.current_dir(self.path())
-            .env("MAGPROOF_LEDGER", self.path().join("ledger.db"));
-        c
+        let mut cmd = Command::cargo_bin("magproof").expect("the magproof binary");
+        cmd.current_dir(self.path()).env_remove("MAGPROOF_LEDGER");
+        cmd
     }
 }
 
