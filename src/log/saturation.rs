@@ -1,0 +1,183 @@
+//! Saturated readings (DESIGN §4): a value at or beyond the sensor's full-scale range, or
+//! a value piled up at an axis's extreme (the sensor's rail). Such rows are flagged and
+//! left out of fits, never silently used.
+//!
+//! Rail detection without a stated range is a heuristic of our own: clipping stacks many
+//! readings on one extreme value, while an unclipped signal visits its extreme briefly.
+//! An axis's maximum (or minimum) is taken as a rail when at least
+//! `max(5, 0.2 % of N)` readings sit exactly on it and it holds at least four times as
+//! many readings as any other single value among the 5 % of readings nearest that end.
+
+use std::collections::HashMap;
+
+/// Why a reading was flagged.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SaturationCause {
+    /// |value| at or beyond the stated full-scale range.
+    BeyondRange,
+    /// Piled up on the axis's extreme value.
+    Rail,
+}
+
+/// Saturation found on one axis.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AxisSaturation {
+    /// Axis index (0 = x, 1 = y, 2 = z), sensor frame.
+    pub axis: usize,
+    /// Readings flagged on this axis.
+    pub count: usize,
+    /// The rail value or range, nT.
+    pub level_nt: f64,
+    /// Why.
+    pub cause: SaturationCause,
+}
+
+/// Flags per row (true = saturated on some axis) and what was found per axis.
+#[derive(Debug, Clone, Default)]
+pub struct SaturationReport {
+    /// One flag per row.
+    pub flagged: Vec<bool>,
+    /// Findings per axis.
+    pub axes: Vec<AxisSaturation>,
+}
+
+impl SaturationReport {
+    /// Rows flagged.
+    pub fn count(&self) -> usize {
+        self.flagged.iter().filter(|f| **f).count()
+    }
+}
+
+/// Flag saturated readings of the three field columns `b_nt` (sensor frame, nT).
+/// `range_nt` is the full-scale range per axis when known.
+pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> SaturationReport {
+    let n = b_nt[0].len();
+    let mut report = SaturationReport {
+        flagged: vec![false; n],
+        axes: Vec::new(),
+    };
+    for (axis, col) in b_nt.iter().enumerate() {
+        if let Some(range) = range_nt {
+            let mut count = 0;
+            for (i, v) in col.iter().enumerate() {
+                if v.abs() >= range {
+                    report.flagged[i] = true;
+                    count += 1;
+                }
+            }
+            if count > 0 {
+                report.axes.push(AxisSaturation {
+                    axis,
+                    count,
+                    level_nt: range,
+                    cause: SaturationCause::BeyondRange,
+                });
+            }
+        }
+        for high in [true, false] {
+            if let Some(level) = rail_value(col, high) {
+                let mut count = 0;
+                for (i, v) in col.iter().enumerate() {
+                    if v.to_bits() == level.to_bits() {
+                        report.flagged[i] = true;
+                        count += 1;
+                    }
+                }
+                report.axes.push(AxisSaturation {
+                    axis,
+                    count,
+                    level_nt: level,
+                    cause: SaturationCause::Rail,
+                });
+            }
+        }
+    }
+    report
+}
+
+fn rail_value(col: &[f64], high: bool) -> Option<f64> {
+    let n = col.len();
+    if n < 20 {
+        return None;
+    }
+    let extreme = if high {
+        col.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+    } else {
+        col.iter().copied().fold(f64::INFINITY, f64::min)
+    };
+    let at_extreme = col
+        .iter()
+        .filter(|v| v.to_bits() == extreme.to_bits())
+        .count();
+    let needed = 5usize.max(n / 500);
+    if at_extreme < needed {
+        return None;
+    }
+    // The 5 % of readings nearest this end, by value.
+    let mut sorted: Vec<f64> = col.to_vec();
+    sorted.sort_by(|a, b| a.total_cmp(b));
+    let k = (n / 20).max(needed + 1).min(n);
+    let tail: &[f64] = if high { &sorted[n - k..] } else { &sorted[..k] };
+    let mut counts: HashMap<u64, usize> = HashMap::new();
+    for v in tail {
+        *counts.entry(v.to_bits()).or_default() += 1;
+    }
+    let runner_up = counts
+        .iter()
+        .filter(|(bits, _)| **bits != extreme.to_bits())
+        .map(|(_, c)| *c)
+        .max()
+        .unwrap_or(0);
+    (at_extreme >= 4 * runner_up.max(1)).then_some(extreme)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sine(n: usize, amp: f64, clip: f64) -> Vec<f64> {
+        (0..n)
+            .map(|i| (amp * (i as f64 * 0.01).sin()).clamp(-clip, clip))
+            .collect()
+    }
+
+    #[test]
+    fn clipped_axis_is_flagged_as_rail() {
+        let b = [
+            sine(5000, 60_000.0, 50_000.0),
+            sine(5000, 1000.0, 1e9),
+            sine(5000, 1000.0, 1e9),
+        ];
+        let r = find_saturation(&b, None);
+        assert!(r.count() > 100, "{r:?}");
+        assert!(r
+            .axes
+            .iter()
+            .all(|a| a.axis == 0 && a.cause == SaturationCause::Rail));
+    }
+
+    #[test]
+    fn clean_signal_is_not_flagged_even_when_quantised() {
+        // 13 nT quantisation, slow signal: the peak is visited by several samples, but
+        // not piled up far beyond its neighbours.
+        let q = |v: f64| (v / 13.0).round() * 13.0;
+        let b = [
+            sine(5000, 40_000.0, 1e9).into_iter().map(q).collect(),
+            sine(5000, 20_000.0, 1e9).into_iter().map(q).collect(),
+            sine(5000, 30_000.0, 1e9).into_iter().map(q).collect(),
+        ];
+        let r = find_saturation(&b, None);
+        assert_eq!(r.count(), 0, "{:?}", r.axes);
+    }
+
+    #[test]
+    fn range_flags_readings_at_or_beyond_it() {
+        let b = [
+            vec![1.0, 80_000.0, -80_000.0, 5.0],
+            vec![0.0; 4],
+            vec![0.0; 4],
+        ];
+        let r = find_saturation(&b, Some(80_000.0));
+        assert_eq!(r.flagged, vec![false, true, true, false]);
+    }
+}
