@@ -1,0 +1,203 @@
+//! Ambient background for the dipole check: the mean field of each run of
+//! article-absent rows (`mount` empty or `none`), interpolated linearly in time between
+//! runs so that a slow drift of the room's field (or of the probe's offset) cancels.
+//! Outside the first and last run the nearest run's mean is held (no extrapolation, which
+//! would amplify noise); the check warns about rows there.
+
+use nalgebra::Vector3;
+
+/// One run of consecutive article-absent rows.
+#[derive(Debug, Clone)]
+pub struct BackgroundSegment {
+    /// Mean time of the run, s.
+    pub t_mean_s: f64,
+    /// First and last time of the run, s.
+    pub t_span_s: (f64, f64),
+    /// Mean field over the run, probe (= table) frame, nT.
+    pub mean_nt: Vector3<f64>,
+    /// Standard deviation of the mean per component, nT (0 for a one-row run).
+    pub sigma_mean_nt: Vector3<f64>,
+    /// Rows in the run.
+    pub rows: usize,
+    /// File lines of its first and last row.
+    pub lines: (u64, u64),
+}
+
+/// Background segments in time order.
+#[derive(Debug, Clone)]
+pub struct Background {
+    /// The runs, in time order.
+    pub segments: Vec<BackgroundSegment>,
+}
+
+impl Background {
+    /// Background field at time `t_s`, nT: linear between the bracketing segments' mean
+    /// times, the nearest segment's mean outside.
+    pub fn at(&self, t_s: f64) -> Vector3<f64> {
+        let segs = &self.segments;
+        let (Some(first), Some(last)) = (segs.first(), segs.last()) else {
+            return Vector3::zeros();
+        };
+        if t_s <= first.t_mean_s {
+            return first.mean_nt;
+        }
+        if t_s >= last.t_mean_s {
+            return last.mean_nt;
+        }
+        // First segment whose mean time is after t: it and the one before bracket t.
+        let k = segs.partition_point(|s| s.t_mean_s <= t_s);
+        match (segs.get(k.wrapping_sub(1)), segs.get(k)) {
+            (Some(a), Some(b)) if b.t_mean_s > a.t_mean_s => {
+                let w = (t_s - a.t_mean_s) / (b.t_mean_s - a.t_mean_s);
+                a.mean_nt * (1.0 - w) + b.mean_nt * w
+            }
+            (Some(a), _) => a.mean_nt,
+            _ => first.mean_nt,
+        }
+    }
+
+    /// Mean times of the first and last segment, s: inside this span drift is
+    /// interpolated.
+    pub fn span_s(&self) -> (f64, f64) {
+        match (self.segments.first(), self.segments.last()) {
+            (Some(a), Some(b)) => (a.t_mean_s, b.t_mean_s),
+            _ => (0.0, 0.0),
+        }
+    }
+}
+
+/// Find the runs of article-absent rows (`mount[i] == None`) and average each. `None`
+/// when there is no such row.
+pub fn estimate_background(
+    t_s: &[f64],
+    mount: &[Option<u32>],
+    b_nt: &[Vec<f64>; 3],
+    lines: &[u64],
+) -> Option<Background> {
+    let mut segments = Vec::new();
+    let mut acc: Option<Accumulator> = None;
+    for (i, m) in mount.iter().enumerate() {
+        let row = (
+            t_s.get(i),
+            b_nt[0].get(i),
+            b_nt[1].get(i),
+            b_nt[2].get(i),
+            lines.get(i),
+        );
+        match (m, row) {
+            (None, (Some(&t), Some(&x), Some(&y), Some(&z), Some(&line))) => {
+                acc.get_or_insert_with(|| Accumulator::new(t, line)).push(
+                    t,
+                    Vector3::new(x, y, z),
+                    line,
+                );
+            }
+            _ => {
+                if let Some(a) = acc.take() {
+                    segments.push(a.finish());
+                }
+            }
+        }
+    }
+    if let Some(a) = acc.take() {
+        segments.push(a.finish());
+    }
+    (!segments.is_empty()).then_some(Background { segments })
+}
+
+/// Running sums of one segment (Welford's update for the spread).
+struct Accumulator {
+    n: usize,
+    t_sum: f64,
+    t_first: f64,
+    t_last: f64,
+    mean: Vector3<f64>,
+    m2: Vector3<f64>,
+    first_line: u64,
+    last_line: u64,
+}
+
+impl Accumulator {
+    fn new(t: f64, line: u64) -> Self {
+        Self {
+            n: 0,
+            t_sum: 0.0,
+            t_first: t,
+            t_last: t,
+            mean: Vector3::zeros(),
+            m2: Vector3::zeros(),
+            first_line: line,
+            last_line: line,
+        }
+    }
+
+    fn push(&mut self, t: f64, b: Vector3<f64>, line: u64) {
+        self.n += 1;
+        self.t_sum += t;
+        self.t_last = t;
+        self.last_line = line;
+        let d = b - self.mean;
+        self.mean += d / self.n as f64;
+        self.m2 += d.component_mul(&(b - self.mean));
+    }
+
+    fn finish(self) -> BackgroundSegment {
+        let n = self.n.max(1) as f64;
+        let sigma = if self.n > 1 {
+            (self.m2 / ((n - 1.0) * n)).map(f64::sqrt)
+        } else {
+            Vector3::zeros()
+        };
+        BackgroundSegment {
+            t_mean_s: self.t_sum / n,
+            t_span_s: (self.t_first, self.t_last),
+            mean_nt: self.mean,
+            sigma_mean_nt: sigma,
+            rows: self.n,
+            lines: (self.first_line, self.last_line),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn linear_drift_is_interpolated_exactly_between_segments() {
+        // Field drifts 2 nT/s on x; background rows at t = 0..4 and 20..24.
+        let t: Vec<f64> = (0..25).map(f64::from).collect();
+        let mount: Vec<Option<u32>> = t
+            .iter()
+            .map(|&t| {
+                if !(5.0..20.0).contains(&t) {
+                    None
+                } else {
+                    Some(0)
+                }
+            })
+            .collect();
+        let bx: Vec<f64> = t.iter().map(|t| 100.0 + 2.0 * t).collect();
+        let b = [bx, vec![5.0; 25], vec![-3.0; 25]];
+        let lines: Vec<u64> = (2..27).collect();
+        let bg = estimate_background(&t, &mount, &b, &lines).unwrap();
+        assert_eq!(bg.segments.len(), 2);
+        assert_eq!(bg.segments[1].lines, (22, 26));
+        for tt in [2.0, 7.5, 12.0, 22.0] {
+            assert_relative_eq!(
+                bg.at(tt),
+                Vector3::new(100.0 + 2.0 * tt, 5.0, -3.0),
+                epsilon = 1e-9
+            );
+        }
+        // Held, not extrapolated, outside the segment means.
+        assert_relative_eq!(bg.at(30.0).x, 144.0, epsilon = 1e-9);
+    }
+
+    #[test]
+    fn no_absent_row_gives_no_background() {
+        let b = [vec![1.0], vec![2.0], vec![3.0]];
+        assert!(estimate_background(&[0.0], &[Some(0)], &b, &[2]).is_none());
+    }
+}
