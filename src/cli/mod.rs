@@ -2,6 +2,7 @@
 //! validated library requests, and terminal output. The library never sees clap types.
 
 mod common;
+mod dipole;
 mod inspect;
 
 use clap::{Parser, Subcommand};
@@ -25,6 +26,8 @@ pub struct Cli {
 enum Command {
     /// Read a log (and a plan) and say what was found, without fitting anything.
     Inspect(inspect::Args),
+    /// Residual magnetic dipole of the article and its in-orbit disturbance torque.
+    Dipole(dipole::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -32,6 +35,7 @@ pub fn run() -> anyhow::Result<Outcome> {
     let cli = Cli::parse();
     match cli.command {
         Command::Inspect(args) => inspect::run(args),
+        Command::Dipole(args) => dipole::run(args),
     }
 }
 

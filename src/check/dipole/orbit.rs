@@ -17,7 +17,7 @@ const RE_KM: f64 = 6371.2;
 
 /// Name of the orbit field model, as written in results.
 pub const ORBIT_MODEL: &str =
-    "tilted dipole, B0 from IGRF-14 degree-1 coefficients at 2025.0 (quoted from memory)";
+    "tilted dipole, B0 from IGRF-14 degree 1 at 2025.0 (coefficients quoted from memory)";
 
 /// Dipole strength B0 = √(g10² + g11² + h11²), nT, and the dipole axis's tilt from the
 /// rotation axis, rad.
