@@ -644,4 +644,71 @@ mod tests {
             assert_relative_eq!(b, want, max_relative = 1e-8, epsilon = 1e-9);
         }
     }
+
+    /// The same data fitted by scipy 1.17.1 (`optimize.least_squares`, method "lm") and
+    /// numpy 2.4.6 (`linalg.lstsq`): tests/data/dipole_fit_reference.json, made by
+    /// tests/data/gen/dipole_fit_reference.py with its own coding of the field law.
+    #[test]
+    fn fits_match_scipy_least_squares_on_the_same_data() {
+        #[derive(serde::Deserialize)]
+        struct Reference {
+            source: String,
+            probe_m: [f64; 3],
+            body_to_table: Vec<[[f64; 3]; 3]>,
+            b_nt: Vec<[f64; 3]>,
+            linear_moment_am2: [f64; 3],
+            linear_sigma_am2: [f64; 3],
+            linear_residual_rms_nt: f64,
+            offset_params: [f64; 6],
+            offset_sigma: [f64; 6],
+            offset_residual_rms_nt: f64,
+        }
+        let text = include_str!("../../tests/data/dipole_fit_reference.json");
+        let r: Reference = serde_json::from_str(text).unwrap();
+        assert!(r.source.starts_with("scipy 1.17.1"));
+        let data: Vec<DipoleSample> = r
+            .body_to_table
+            .iter()
+            .zip(&r.b_nt)
+            .map(|(rot, b)| DipoleSample {
+                probe_m: r.probe_m.into(),
+                body_to_table: Matrix3::from_fn(|i, j| rot[i][j]),
+                b_nt: (*b).into(),
+            })
+            .collect();
+        let lin = fit_moment(&data, &Vector3::zeros()).unwrap();
+        let lin_sig = lin.moment_sigma_am2();
+        for k in 0..3 {
+            assert_relative_eq!(
+                lin.moment_body_am2[k],
+                r.linear_moment_am2[k],
+                max_relative = 1e-9
+            );
+            assert_relative_eq!(lin_sig[k], r.linear_sigma_am2[k], max_relative = 1e-9);
+        }
+        assert_relative_eq!(
+            lin.residual_rms_nt,
+            r.linear_residual_rms_nt,
+            max_relative = 1e-9
+        );
+
+        let fit = fit_moment_and_offset(&data).unwrap();
+        let sm = fit.moment_sigma_am2();
+        let so = fit.offset_sigma_m.unwrap();
+        for k in 0..3 {
+            // Both solvers stop at the same minimum to far below its uncertainty.
+            assert!((fit.moment_body_am2[k] - r.offset_params[k]).abs() < 1e-4 * r.offset_sigma[k]);
+            assert!(
+                (fit.offset_body_m[k] - r.offset_params[k + 3]).abs()
+                    < 1e-4 * r.offset_sigma[k + 3]
+            );
+            assert_relative_eq!(sm[k], r.offset_sigma[k], max_relative = 1e-6);
+            assert_relative_eq!(so[k], r.offset_sigma[k + 3], max_relative = 1e-6);
+        }
+        assert_relative_eq!(
+            fit.residual_rms_nt,
+            r.offset_residual_rms_nt,
+            max_relative = 1e-9
+        );
+    }
 }
