@@ -21,11 +21,10 @@
 //! of the log listed in the plan, and (for the static method) a uniform ambient field
 //! over the probe positions.
 
-use std::fmt;
 use std::path::PathBuf;
 
 use nalgebra::{Matrix3, Vector3};
-use serde::{Serialize, Serializer};
+use serde::Serialize;
 
 use crate::fit::dipole::{
     describe_direction, fit_moment, fit_moment_and_offset, model_field_nt, model_matrix,
@@ -37,9 +36,11 @@ use crate::Error;
 
 mod background;
 mod orbit;
+mod warning;
 
 pub use background::{estimate_background, Background, BackgroundSegment};
 pub use orbit::{orbit_field, ORBIT_MODEL};
+pub use warning::DipoleWarning;
 
 /// Orbit altitude used when none is given, km.
 pub const DEFAULT_ALTITUDE_KM: f64 = 500.0;
@@ -98,82 +99,6 @@ pub enum DipoleMethod {
     Turntable,
     /// Article fixed, probe at several positions.
     Static,
-}
-
-/// Something the user should know about a dipole result: cause and remedy.
-#[derive(Debug, Clone, PartialEq)]
-pub enum DipoleWarning {
-    /// The field does not vary with this body direction of the moment under the mounts
-    /// and positions given: it is seen only against the background level.
-    HiddenComponent {
-        /// Body direction in words ("z", or a unit vector).
-        component: String,
-        /// Singular-value ratio of the varying part of the design.
-        ratio: f64,
-    },
-    /// Only one background segment: drift cannot be estimated.
-    SingleBackgroundSegment,
-    /// Article-present rows before the first or after the last background segment.
-    OutsideBackground {
-        /// Rows before the first segment.
-        before: usize,
-        /// Rows after the last segment.
-        after: usize,
-    },
-    /// The log has no time column; row order stands in for time.
-    NoTimeColumn,
-    /// The inclination was not given; the default was used.
-    DefaultInclination,
-    /// The verdict lies within 2σ of the limit.
-    NearLimit {
-        /// The limit, A·m².
-        limit_am2: f64,
-    },
-}
-
-impl fmt::Display for DipoleWarning {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match self {
-            DipoleWarning::HiddenComponent { component, ratio } => write!(
-                f,
-                "the moment along body {component} does not change the field as the table \
-                 turns (singular-value ratio {ratio:.1e}), so it is seen only against the \
-                 background level and rests on the background segments and drift model; \
-                 add a mount that lays body {component} across the table axis"
-            ),
-            DipoleWarning::SingleBackgroundSegment => write!(
-                f,
-                "only one background segment: drift cannot be estimated; record an \
-                 article-absent segment before and after the article"
-            ),
-            DipoleWarning::OutsideBackground { before, after } => write!(
-                f,
-                "{before} article rows precede the first and {after} follow the last \
-                 background segment: drift there is not corrected; record background at \
-                 both ends"
-            ),
-            DipoleWarning::NoTimeColumn => write!(
-                f,
-                "no time column: row order stands in for time in the drift model; log `t`"
-            ),
-            DipoleWarning::DefaultInclination => write!(
-                f,
-                "orbit inclination not given: {DEFAULT_INCLINATION_DEG}° (sun-synchronous) \
-                 assumed; give --inclination-deg"
-            ),
-            DipoleWarning::NearLimit { limit_am2 } => write!(
-                f,
-                "the magnitude lies within 2σ of the limit {limit_am2} A·m²: the verdict is \
-                 not firm; measure longer or closer"
-            ),
-        }
-    }
-}
-
-impl Serialize for DipoleWarning {
-    fn serialize<S: Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
-        s.collect_str(self)
-    }
 }
 
 /// The residual dipole as a fraction of one torque rod's nominal dipole.
