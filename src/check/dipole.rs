@@ -357,6 +357,8 @@ pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResu
         DipolePosition::Fitted => fit_moment_and_offset(&samples),
     }
     .map_err(|e| fit_error(log, e))?;
+    let mut fit = fit;
+    fit.moment_cov_am2sq += background_covariance(&samples, &points, &bg, &fit.offset_body_m);
     if let Some(w) = hidden_component(&samples, &points, &fit.offset_body_m) {
         warnings.push(w);
     }
@@ -428,6 +430,41 @@ fn hidden_component(
         component: describe_direction(&dir),
         ratio,
     })
+}
+
+/// Moment covariance from the noise of the background segment means, (A·m²)². The
+/// residual-based covariance treats samples as independent; a background mean is shared
+/// by every sample interpolated from it, so its error moves the moment coherently:
+/// δm = −N⁻¹ Σₛ Cₛ δbₛ with Cₛ = Σᵢ wᵢₛ Aᵢᵀ, hence Cov = N⁻¹ (Σₛ Cₛ Σₛ Cₛᵀ) N⁻¹. It
+/// matters most for a component seen only against the background level.
+fn background_covariance(
+    samples: &[DipoleSample],
+    points: &[DipolePoint],
+    bg: &Background,
+    offset_body_m: &Vector3<f64>,
+) -> Matrix3<f64> {
+    let mut n = Matrix3::zeros();
+    let mut c = vec![Matrix3::zeros(); bg.segments.len()];
+    for (s, p) in samples.iter().zip(points) {
+        let Some(a) = model_matrix(s, offset_body_m) else {
+            continue;
+        };
+        n += a.transpose() * a;
+        for (k, w) in bg.weights(p.t_s) {
+            if let Some(ck) = c.get_mut(k) {
+                *ck += a.transpose() * w;
+            }
+        }
+    }
+    let Some(n_inv) = n.try_inverse() else {
+        return Matrix3::zeros();
+    };
+    let mut inner = Matrix3::zeros();
+    for (ck, seg) in c.iter().zip(&bg.segments) {
+        let var = Matrix3::from_diagonal(&seg.sigma_mean_nt.component_mul(&seg.sigma_mean_nt));
+        inner += ck * var * ck.transpose();
+    }
+    n_inv * inner * n_inv
 }
 
 #[allow(clippy::too_many_arguments)]

@@ -34,25 +34,31 @@ impl Background {
     /// Background field at time `t_s`, nT: linear between the bracketing segments' mean
     /// times, the nearest segment's mean outside.
     pub fn at(&self, t_s: f64) -> Vector3<f64> {
+        self.weights(t_s)
+            .iter()
+            .filter_map(|&(k, w)| Some(self.segments.get(k)?.mean_nt * w))
+            .sum()
+    }
+
+    /// The segments that make the background at `t_s` and their weights (summing to 1),
+    /// as used by [`Background::at`].
+    pub fn weights(&self, t_s: f64) -> [(usize, f64); 2] {
         let segs = &self.segments;
-        let (Some(first), Some(last)) = (segs.first(), segs.last()) else {
-            return Vector3::zeros();
-        };
-        if t_s <= first.t_mean_s {
-            return first.mean_nt;
-        }
-        if t_s >= last.t_mean_s {
-            return last.mean_nt;
-        }
-        // First segment whose mean time is after t: it and the one before bracket t.
-        let k = segs.partition_point(|s| s.t_mean_s <= t_s);
-        match (segs.get(k.wrapping_sub(1)), segs.get(k)) {
-            (Some(a), Some(b)) if b.t_mean_s > a.t_mean_s => {
-                let w = (t_s - a.t_mean_s) / (b.t_mean_s - a.t_mean_s);
-                a.mean_nt * (1.0 - w) + b.mean_nt * w
+        let last = segs.len().saturating_sub(1);
+        match (segs.first(), segs.last()) {
+            (Some(a), _) if t_s <= a.t_mean_s => [(0, 1.0), (0, 0.0)],
+            (_, Some(b)) if t_s >= b.t_mean_s => [(last, 1.0), (last, 0.0)],
+            (Some(_), Some(_)) => {
+                let k = segs.partition_point(|s| s.t_mean_s <= t_s);
+                match (segs.get(k.wrapping_sub(1)), segs.get(k)) {
+                    (Some(a), Some(b)) if b.t_mean_s > a.t_mean_s => {
+                        let w = (t_s - a.t_mean_s) / (b.t_mean_s - a.t_mean_s);
+                        [(k - 1, 1.0 - w), (k, w)]
+                    }
+                    _ => [(k.saturating_sub(1), 1.0), (0, 0.0)],
+                }
             }
-            (Some(a), _) => a.mean_nt,
-            _ => first.mean_nt,
+            _ => [(0, 0.0), (0, 0.0)],
         }
     }
 

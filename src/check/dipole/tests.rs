@@ -244,3 +244,35 @@ fn moment_over_the_limit_fails_and_rod_fraction_is_reported() {
         max_relative = 1e-12
     );
 }
+
+/// Over many noise draws, the scatter of each fitted component matches the stated 1σ
+/// (the residual part plus the background-mean part). With one mount, body z rests on
+/// the background level alone, so the background part carries most of its σ.
+fn scatter_over_reported_sigma(mounts: usize, seeds: u64) -> [f64; 3] {
+    let mut cfg = TurntableConfig::default();
+    cfg.mounts.truncate(mounts);
+    cfg.article.background_samples = 10;
+    let (mut sq, mut sig) = ([0.0; 3], [0.0; 3]);
+    for seed in 0..seeds {
+        let sim = simulate_turntable(&cfg, 1000 + seed).unwrap();
+        let r = run(&sim, DipolePosition::AtTableOrigin).unwrap();
+        for i in 0..3 {
+            sq[i] += (r.moment_body_am2[i] - sim.truth.moment_body_am2[i]).powi(2);
+            sig[i] += r.moment_sigma_am2[i];
+        }
+    }
+    let n = seeds as f64;
+    [0, 1, 2].map(|i| (sq[i] / n).sqrt() / (sig[i] / n))
+}
+
+#[test]
+fn stated_sigma_matches_the_scatter_over_noise_draws() {
+    for mounts in [1, 2] {
+        let ratio = scatter_over_reported_sigma(mounts, 60);
+        eprintln!("{mounts} mount(s): scatter / σ = {ratio:?}");
+        for r in ratio {
+            // 60 draws: the RMS scatter itself is uncertain by about 1/√120 ≈ 9 %.
+            assert!((0.7..1.35).contains(&r), "{mounts} mount(s): {ratio:?}");
+        }
+    }
+}
