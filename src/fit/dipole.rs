@@ -18,7 +18,7 @@
 //!   covariance `s² (AᵀA)⁻¹` with `s² = RSS / (3n − 3)`.
 //! * [`fit_moment_and_offset`]: `m` and `o` together (six unknowns, nonlinear), solved by
 //!   a damped Gauss–Newton (Levenberg–Marquardt; Levenberg 1944, Marquardt 1963) written
-//!   as an argmin [`Solver`], seeded from the linear fit at `o = 0`; covariance
+//!   as an argmin [`Solver`](argmin::core::Solver), seeded from the linear fit at `o = 0`; covariance
 //!   `s² (JᵀJ)⁻¹` at the solution.
 //!
 //! Requirements: samples must be background-subtracted (the model has no constant term)
