@@ -183,6 +183,9 @@ pub struct DipoleResult {
     pub background_segments: usize,
     /// Solver iterations of the offset fit (0 for the linear fit).
     pub iterations: u64,
+    /// Body directions ("x", "y", "z" or a unit vector) the mounts given cannot resolve
+    /// from the table's turning: seen only against the background level.
+    pub hidden_components: Vec<String>,
     /// Cautions, each with cause and remedy.
     pub warnings: Vec<DipoleWarning>,
     /// Mount labels, indexed by [`DipolePoint::mount`].
@@ -526,6 +529,13 @@ fn assemble(
         background_samples: bg.segments.iter().map(|s| s.rows).sum(),
         background_segments: bg.segments.len(),
         iterations: fit.iterations,
+        hidden_components: warnings
+            .iter()
+            .filter_map(|w| match w {
+                DipoleWarning::HiddenComponent { component, .. } => Some(component.clone()),
+                _ => None,
+            })
+            .collect(),
         warnings,
         mount_labels: log.mount_labels.clone(),
         points,

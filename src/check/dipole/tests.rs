@@ -75,6 +75,7 @@ fn single_mount_warns_that_body_z_is_hidden() {
         })
         .collect();
     assert_eq!(hidden, vec!["z".to_string()]);
+    assert_eq!(r.hidden_components, hidden);
     assert!(r.warnings.iter().any(|w| w.to_string().contains("body z")));
 }
 
@@ -275,4 +276,46 @@ fn stated_sigma_matches_the_scatter_over_noise_draws() {
             assert!((0.7..1.35).contains(&r), "{mounts} mount(s): {ratio:?}");
         }
     }
+}
+
+#[test]
+fn log_without_mount_column_is_refused() {
+    let sim = simulate_turntable(&TurntableConfig::default(), 22).unwrap();
+    let csv = sim.log_csv.replace(",mount\n", ",where\n");
+    match run_csv(&csv, &sim.plan_toml, DipolePosition::AtTableOrigin) {
+        Err(e) => assert!(e.to_string().contains("\"mount\""), "{e}"),
+        Ok(_) => panic!("expected refusal"),
+    }
+}
+
+#[test]
+fn turntable_plan_without_probe_position_is_refused_by_key() {
+    let sim = simulate_turntable(&TurntableConfig::default(), 23).unwrap();
+    let plan = sim
+        .plan_toml
+        .replace("probe_position_m = [0.6, 0, 0]\n", "");
+    assert_ne!(plan, sim.plan_toml);
+    match run_csv(&sim.log_csv, &plan, DipolePosition::AtTableOrigin) {
+        Err(e) => assert!(
+            e.to_string().contains("dipole_test.probe_position_m"),
+            "{e}"
+        ),
+        Ok(_) => panic!("expected refusal"),
+    }
+}
+
+#[test]
+fn default_inclination_is_said() {
+    let sim = simulate_turntable(&TurntableConfig::default(), 24).unwrap();
+    let plan = parse_plan(&sim.plan_toml, Path::new("plan.toml")).unwrap();
+    let log = read_sweep_from(
+        sim.log_csv.as_bytes(),
+        Path::new("log.csv"),
+        &ReadOptions::default(),
+        &mut |_| {},
+    )
+    .unwrap();
+    let r = evaluate_dipole(&log, &DipoleRequest::new(PathBuf::from("log.csv"), plan)).unwrap();
+    assert!((r.inclination_deg - 97.4).abs() < 1e-12);
+    assert!(r.warnings.contains(&DipoleWarning::DefaultInclination));
 }
