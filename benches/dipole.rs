@@ -17,7 +17,11 @@ fn samples(n: usize) -> Vec<DipoleSample> {
     let noise = Normal::new(0.0, 1.0).expect("noise");
     (0..n)
         .map(|i| {
-            let mount = if i % 2 == 0 { Matrix3::identity() } else { on_side };
+            let mount = if i % 2 == 0 {
+                Matrix3::identity()
+            } else {
+                on_side
+            };
             let angle = std::f64::consts::TAU * i as f64 / n as f64 * 4.0;
             let mut s = DipoleSample {
                 probe_m: Vector3::new(0.6, 0.0, 0.05),

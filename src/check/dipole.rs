@@ -181,6 +181,8 @@ pub struct DipoleResult {
     pub background_samples: usize,
     /// Background segments found.
     pub background_segments: usize,
+    /// Log rows skipped under `--skip-bad-rows`.
+    pub rows_skipped: usize,
     /// Solver iterations of the offset fit (0 for the linear fit).
     pub iterations: u64,
     /// Body directions ("x", "y", "z" or a unit vector) the mounts given cannot resolve
@@ -528,6 +530,7 @@ fn assemble(
         samples_used: fit.samples,
         background_samples: bg.segments.iter().map(|s| s.rows).sum(),
         background_segments: bg.segments.len(),
+        rows_skipped: log.skipped_rows.len(),
         iterations: fit.iterations,
         hidden_components: warnings
             .iter()

@@ -152,6 +152,9 @@ fn render(log: &std::path::Path, r: &DipoleResult) -> String {
         r.background_samples,
         r.background_segments
     );
+    if r.rows_skipped > 0 {
+        let _ = writeln!(s, "  {} bad rows skipped (--skip-bad-rows)", r.rows_skipped);
+    }
     for (i, axis) in ["x", "y", "z"].iter().enumerate() {
         let label = if i == 0 { "moment, body" } else { "" };
         let _ = writeln!(
