@@ -17,9 +17,12 @@
 //! (DESIGN §8); torque τ = m × B, worst case |m|·Bmax (Wertz, *Spacecraft Attitude
 //! Determination and Control*, 1978, §17.2).
 //!
+//! For the static method, a probe position with article-absent rows of its own gets its
+//! own background (room gradients cancel); other positions use the background of all
+//! absent rows, which assumes a uniform ambient field (warned).
+//!
 //! Requirements: at least one background segment (refused otherwise), every mount label
-//! of the log listed in the plan, and (for the static method) a uniform ambient field
-//! over the probe positions.
+//! of the log listed in the plan.
 
 use std::path::PathBuf;
 
@@ -38,7 +41,10 @@ mod background;
 mod orbit;
 mod warning;
 
-pub use background::{estimate_background, Background, BackgroundSegment};
+pub use background::{
+    estimate_background, estimate_position_backgrounds, position_key_of, Background,
+    BackgroundSegment,
+};
 pub use orbit::{orbit_field, ORBIT_MODEL};
 pub use warning::DipoleWarning;
 
@@ -306,10 +312,21 @@ pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResu
         warnings.push(DipoleWarning::SingleBackgroundSegment);
     }
 
+    // Static map: each probe position's own background where it has one.
+    let local = match (method, &log.probe_m) {
+        (DipoleMethod::Static, Some(p)) => {
+            estimate_position_backgrounds(&row_time, mounts, b, p, &log.lines)
+        }
+        _ => Vec::new(),
+    };
+    let mut backgrounds: Vec<&Background> = vec![&bg];
+    backgrounds.extend(local.iter().map(|(_, g)| g));
+    let mut bg_of_sample: Vec<usize> = Vec::with_capacity(log.len());
+    let mut uniform_rows = 0;
+
     let mut samples = Vec::with_capacity(log.len());
     let mut points = Vec::with_capacity(log.len());
     let (mut before, mut after) = (0, 0);
-    let (t_first, t_last) = bg.span_s();
     for i in 0..log.len() {
         let (Some(&Some(k)), Some(&t), Some(&line)) =
             (mounts.get(i), row_time.get(i), log.lines.get(i))
@@ -332,12 +349,28 @@ pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResu
         let meas = log
             .field_at(i)
             .ok_or_else(|| Error::Internal(format!("row {i} has no field")))?;
+        let which = match method {
+            DipoleMethod::Static => {
+                let key = position_key_of(&probe_m);
+                match local.iter().position(|(k, _)| *k == key) {
+                    Some(j) => j + 1,
+                    None => {
+                        uniform_rows += 1;
+                        0
+                    }
+                }
+            }
+            DipoleMethod::Turntable => 0,
+        };
+        let this_bg = backgrounds.get(which).copied().unwrap_or(&bg);
+        let (t_first, t_last) = this_bg.span_s();
         if t < t_first {
             before += 1;
         } else if t > t_last {
             after += 1;
         }
-        let measured_nt = meas - bg.at(t);
+        bg_of_sample.push(which);
+        let measured_nt = meas - this_bg.at(t);
         samples.push(DipoleSample {
             probe_m,
             body_to_table: rotation_z(angle_rad) * rot0,
@@ -356,6 +389,9 @@ pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResu
     if before + after > 0 {
         warnings.push(DipoleWarning::OutsideBackground { before, after });
     }
+    if uniform_rows > 0 {
+        warnings.push(DipoleWarning::UniformAmbientAssumed { rows: uniform_rows });
+    }
 
     let fit = match req.position {
         DipolePosition::AtTableOrigin => fit_moment(&samples, &Vector3::zeros()),
@@ -363,7 +399,13 @@ pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResu
     }
     .map_err(|e| fit_error(log, e))?;
     let mut fit = fit;
-    fit.moment_cov_am2sq += background_covariance(&samples, &points, &bg, &fit.offset_body_m);
+    fit.moment_cov_am2sq += background_covariance(
+        &samples,
+        &points,
+        &backgrounds,
+        &bg_of_sample,
+        &fit.offset_body_m,
+    );
     if let Some(w) = hidden_component(&samples, &points, &fit.offset_body_m) {
         warnings.push(w);
     }
@@ -445,18 +487,26 @@ fn hidden_component(
 fn background_covariance(
     samples: &[DipoleSample],
     points: &[DipolePoint],
-    bg: &Background,
+    backgrounds: &[&Background],
+    bg_of_sample: &[usize],
     offset_body_m: &Vector3<f64>,
 ) -> Matrix3<f64> {
     let mut n = Matrix3::zeros();
-    let mut c = vec![Matrix3::zeros(); bg.segments.len()];
-    for (s, p) in samples.iter().zip(points) {
-        let Some(a) = model_matrix(s, offset_body_m) else {
+    let mut c: Vec<Vec<Matrix3<f64>>> = backgrounds
+        .iter()
+        .map(|g| vec![Matrix3::zeros(); g.segments.len()])
+        .collect();
+    for ((s, p), &j) in samples.iter().zip(points).zip(bg_of_sample) {
+        let (Some(a), Some(g), Some(cj)) = (
+            model_matrix(s, offset_body_m),
+            backgrounds.get(j),
+            c.get_mut(j),
+        ) else {
             continue;
         };
         n += a.transpose() * a;
-        for (k, w) in bg.weights(p.t_s) {
-            if let Some(ck) = c.get_mut(k) {
+        for (k, w) in g.weights(p.t_s) {
+            if let Some(ck) = cj.get_mut(k) {
                 *ck += a.transpose() * w;
             }
         }
@@ -465,9 +515,11 @@ fn background_covariance(
         return Matrix3::zeros();
     };
     let mut inner = Matrix3::zeros();
-    for (ck, seg) in c.iter().zip(&bg.segments) {
-        let var = Matrix3::from_diagonal(&seg.sigma_mean_nt.component_mul(&seg.sigma_mean_nt));
-        inner += ck * var * ck.transpose();
+    for (cj, g) in c.iter().zip(backgrounds) {
+        for (ck, seg) in cj.iter().zip(&g.segments) {
+            let var = Matrix3::from_diagonal(&seg.sigma_mean_nt.component_mul(&seg.sigma_mean_nt));
+            inner += ck * var * ck.transpose();
+        }
     }
     n_inv * inner * n_inv
 }

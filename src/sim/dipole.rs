@@ -130,6 +130,11 @@ pub struct StaticConfig {
     pub positions_m: Vec<Vector3<f64>>,
     /// Samples at each position.
     pub samples_per_position: usize,
+    /// Spatial gradient of the ambient field, nT/m: ambient(p) = ambient + G · p.
+    pub ambient_gradient_nt_per_m: Matrix3<f64>,
+    /// Background rows at every position (a pass before and after the article is in
+    /// place); otherwise only at the first position.
+    pub background_at_each_position: bool,
 }
 
 impl Default for StaticConfig {
@@ -150,6 +155,8 @@ impl Default for StaticConfig {
                 Vector3::new(0.0, 0.0, -d),
             ],
             samples_per_position: 20,
+            ambient_gradient_nt_per_m: Matrix3::zeros(),
+            background_at_each_position: true,
         }
     }
 }
@@ -249,8 +256,13 @@ impl Writer<'_> {
     }
 
     fn background(&mut self, extra: &str) {
+        self.background_with(Vector3::zeros(), extra);
+    }
+
+    /// A background segment with a position-dependent ambient part `ambient_nt`.
+    fn background_with(&mut self, ambient_nt: Vector3<f64>, extra: &str) {
         for _ in 0..self.art.background_samples {
-            self.row(Vector3::zeros(), extra, "none");
+            self.row(ambient_nt, extra, "none");
         }
     }
 }
@@ -339,15 +351,24 @@ pub fn simulate_static(cfg: &StaticConfig, seed: u64) -> Result<DipoleSim, Error
     }
     let mut w = writer(&cfg.article, seed, "px [m],py [m],pz [m]")?;
     let pos = |p: &Vector3<f64>| format!("{:.4},{:.4},{:.4}", p.x, p.y, p.z);
-    let first = cfg.positions_m.first().map(pos).unwrap_or_default();
-    w.background(&first);
+    let grad = cfg.ambient_gradient_nt_per_m;
+    let bg_positions: &[Vector3<f64>] = if cfg.background_at_each_position {
+        &cfg.positions_m
+    } else {
+        &cfg.positions_m[..1]
+    };
+    for p in bg_positions {
+        w.background_with(grad * p, &pos(p));
+    }
     for p in &cfg.positions_m {
-        let b = field(&cfg.article, *p, cfg.mount.body_to_table)?;
+        let b = field(&cfg.article, *p, cfg.mount.body_to_table)? + grad * p;
         for _ in 0..cfg.samples_per_position {
             w.row(b, &pos(p), &cfg.mount.label);
         }
     }
-    w.background(&first);
+    for p in bg_positions {
+        w.background_with(grad * p, &pos(p));
+    }
     let plan = plan_toml(
         &cfg.article,
         "dipole-static",

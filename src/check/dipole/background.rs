@@ -111,6 +111,58 @@ pub fn estimate_background(
     (!segments.is_empty()).then_some(Background { segments })
 }
 
+/// Probe positions closer than this are the same position, m.
+pub const SAME_POSITION_M: f64 = 2e-3;
+
+fn position_key(x: f64, y: f64, z: f64) -> [i64; 3] {
+    [x, y, z].map(|v| (v / SAME_POSITION_M).round() as i64)
+}
+
+/// Backgrounds for a static map: one per probe position that has article-absent rows
+/// of its own (interpolated in time between that position's runs), so that field
+/// gradients in the room cancel. Returns the position keys with their backgrounds.
+pub fn estimate_position_backgrounds(
+    t_s: &[f64],
+    mount: &[Option<u32>],
+    b_nt: &[Vec<f64>; 3],
+    probe_m: &[Vec<f64>; 3],
+    lines: &[u64],
+) -> Vec<([i64; 3], Background)> {
+    let key_at = |i: usize| -> Option<[i64; 3]> {
+        Some(position_key(
+            *probe_m[0].get(i)?,
+            *probe_m[1].get(i)?,
+            *probe_m[2].get(i)?,
+        ))
+    };
+    let mut keys: Vec<[i64; 3]> = Vec::new();
+    for (i, m) in mount.iter().enumerate() {
+        if let (None, Some(k)) = (m, key_at(i)) {
+            if !keys.contains(&k) {
+                keys.push(k);
+            }
+        }
+    }
+    let mut out = Vec::with_capacity(keys.len());
+    let mut masked: Vec<Option<u32>> = Vec::with_capacity(mount.len());
+    for key in keys {
+        masked.clear();
+        masked.extend(mount.iter().enumerate().map(|(i, m)| match m {
+            None if key_at(i) == Some(key) => None,
+            _ => Some(0),
+        }));
+        if let Some(bg) = estimate_background(t_s, &masked, b_nt, lines) {
+            out.push((key, bg));
+        }
+    }
+    out
+}
+
+/// The key of a probe position, for looking up [`estimate_position_backgrounds`].
+pub fn position_key_of(p: &Vector3<f64>) -> [i64; 3] {
+    position_key(p.x, p.y, p.z)
+}
+
 /// Running sums of one segment (Welford's update for the spread).
 struct Accumulator {
     n: usize,

@@ -319,3 +319,42 @@ fn default_inclination_is_said() {
     assert!((r.inclination_deg - 97.4).abs() < 1e-12);
     assert!(r.warnings.contains(&DipoleWarning::DefaultInclination));
 }
+
+#[test]
+fn static_map_cancels_room_gradients_with_per_position_background() {
+    let mut cfg = StaticConfig::default();
+    // 300 nT/m: at 0.7 m from the centre that is ~200 nT against a ~5 nT article field.
+    cfg.ambient_gradient_nt_per_m =
+        nalgebra::Matrix3::new(300.0, 40.0, 0.0, 40.0, -120.0, 25.0, 0.0, 25.0, -180.0);
+    // Positions on one side of the article (opposite pairs would cancel a linear
+    // gradient by symmetry: the dipole field is even in r, the gradient's odd).
+    cfg.positions_m = (0..8)
+        .map(|k| {
+            let th = -0.8 + 0.25 * k as f64;
+            nalgebra::Vector3::new(0.7 * th.cos(), 0.7 * th.sin(), 0.1 * (k % 3) as f64)
+        })
+        .collect();
+    let sim = simulate_static(&cfg, 25).unwrap();
+    let r = run(&sim, DipolePosition::AtTableOrigin).unwrap();
+    assert_within_sigma(&r, sim.truth.moment_body_am2, 4.0);
+    assert!(r.warnings.is_empty(), "{:?}", r.warnings);
+
+    // Background at the first position only: the gradient goes into the moment, and
+    // the result says the ambient was assumed uniform.
+    cfg.background_at_each_position = false;
+    let sim1 = simulate_static(&cfg, 25).unwrap();
+    let r1 = run(&sim1, DipolePosition::AtTableOrigin).unwrap();
+    assert!(r1
+        .warnings
+        .iter()
+        .any(|w| matches!(w, DipoleWarning::UniformAmbientAssumed { rows } if *rows == 7 * 20)));
+    let err = (0..3)
+        .map(|i| {
+            ((r1.moment_body_am2[i] - sim1.truth.moment_body_am2[i]) / r.moment_sigma_am2[i]).abs()
+        })
+        .fold(0.0, f64::max);
+    assert!(
+        err > 10.0,
+        "gradient should bias the uniform-ambient fit: {err:.1}σ"
+    );
+}

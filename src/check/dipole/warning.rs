@@ -29,6 +29,12 @@ pub enum DipoleWarning {
     },
     /// The log has no time column; row order stands in for time.
     NoTimeColumn,
+    /// Static map rows at positions without background rows of their own: the
+    /// room-wide background was used, which assumes a uniform ambient field.
+    UniformAmbientAssumed {
+        /// Article rows concerned.
+        rows: usize,
+    },
     /// The inclination was not given; the default was used.
     DefaultInclination,
     /// The verdict lies within 2σ of the limit.
@@ -62,6 +68,13 @@ impl fmt::Display for DipoleWarning {
             DipoleWarning::NoTimeColumn => write!(
                 f,
                 "no time column: row order stands in for time in the drift model; log `t`"
+            ),
+            DipoleWarning::UniformAmbientAssumed { rows } => write!(
+                f,
+                "{rows} rows of the static map lie at probe positions with no background \
+                 rows of their own, so the ambient field is assumed the same at every \
+                 position (room gradients go into the moment); log article-absent rows at \
+                 each position"
             ),
             DipoleWarning::DefaultInclination => write!(
                 f,
