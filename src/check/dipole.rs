@@ -30,8 +30,7 @@ use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 use crate::fit::dipole::{
-    describe_direction, fit_moment, fit_moment_and_offset, model_field_nt, model_matrix,
-    weakest_direction, DipoleFit, DipoleFitError, DipoleSample,
+    fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
 };
 use crate::log::{read_sweep, LogError, Plan, ReadOptions, Shown, SweepLog};
 use crate::physics::frames::rotation_z;
@@ -39,6 +38,7 @@ use crate::Error;
 
 mod background;
 mod orbit;
+mod uncertainty;
 mod warning;
 
 pub use background::{
@@ -47,6 +47,8 @@ pub use background::{
 };
 pub use orbit::{orbit_field, ORBIT_MODEL};
 pub use warning::DipoleWarning;
+
+use uncertainty::{background_covariance, hidden_component};
 
 /// Orbit altitude used when none is given, km.
 pub const DEFAULT_ALTITUDE_KM: f64 = 500.0;
@@ -447,81 +449,6 @@ fn validate_orbit(altitude_km: f64, inclination_deg: f64) -> Result<(), Error> {
         )));
     }
     Ok(())
-}
-
-/// The part of the design that changes with angle (or probe position) within each
-/// mount: subtract each mount's mean model matrix. A body direction that this part
-/// cannot see is constrained only by the background level.
-fn hidden_component(
-    samples: &[DipoleSample],
-    points: &[DipolePoint],
-    offset_body_m: &Vector3<f64>,
-) -> Option<DipoleWarning> {
-    let groups = points.iter().map(|p| p.mount).max()? + 1;
-    let mut sum = vec![Matrix3::zeros(); groups];
-    let mut count = vec![0usize; groups];
-    let mut n = Matrix3::zeros();
-    for (s, p) in samples.iter().zip(points) {
-        let a = model_matrix(s, offset_body_m)?;
-        n += a.transpose() * a;
-        sum[p.mount] += a;
-        count[p.mount] += 1;
-    }
-    for (s, c) in sum.iter().zip(&count) {
-        if *c > 0 {
-            n -= s.transpose() * s / *c as f64;
-        }
-    }
-    let (ratio, dir) = weakest_direction(&n);
-    (ratio < HIDDEN_RATIO).then(|| DipoleWarning::HiddenComponent {
-        component: describe_direction(&dir),
-        ratio,
-    })
-}
-
-/// Moment covariance from the noise of the background segment means, (A·m²)². The
-/// residual-based covariance treats samples as independent; a background mean is shared
-/// by every sample interpolated from it, so its error moves the moment coherently:
-/// δm = −N⁻¹ Σₛ Cₛ δbₛ with Cₛ = Σᵢ wᵢₛ Aᵢᵀ, hence Cov = N⁻¹ (Σₛ Cₛ Σₛ Cₛᵀ) N⁻¹. It
-/// matters most for a component seen only against the background level.
-fn background_covariance(
-    samples: &[DipoleSample],
-    points: &[DipolePoint],
-    backgrounds: &[&Background],
-    bg_of_sample: &[usize],
-    offset_body_m: &Vector3<f64>,
-) -> Matrix3<f64> {
-    let mut n = Matrix3::zeros();
-    let mut c: Vec<Vec<Matrix3<f64>>> = backgrounds
-        .iter()
-        .map(|g| vec![Matrix3::zeros(); g.segments.len()])
-        .collect();
-    for ((s, p), &j) in samples.iter().zip(points).zip(bg_of_sample) {
-        let (Some(a), Some(g), Some(cj)) = (
-            model_matrix(s, offset_body_m),
-            backgrounds.get(j),
-            c.get_mut(j),
-        ) else {
-            continue;
-        };
-        n += a.transpose() * a;
-        for (k, w) in g.weights(p.t_s) {
-            if let Some(ck) = cj.get_mut(k) {
-                *ck += a.transpose() * w;
-            }
-        }
-    }
-    let Some(n_inv) = n.try_inverse() else {
-        return Matrix3::zeros();
-    };
-    let mut inner = Matrix3::zeros();
-    for (cj, g) in c.iter().zip(backgrounds) {
-        for (ck, seg) in cj.iter().zip(&g.segments) {
-            let var = Matrix3::from_diagonal(&seg.sigma_mean_nt.component_mul(&seg.sigma_mean_nt));
-            inner += ck * var * ck.transpose();
-        }
-    }
-    n_inv * inner * n_inv
 }
 
 #[allow(clippy::too_many_arguments)]

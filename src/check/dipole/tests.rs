@@ -322,18 +322,21 @@ fn default_inclination_is_said() {
 
 #[test]
 fn static_map_cancels_room_gradients_with_per_position_background() {
-    let mut cfg = StaticConfig::default();
     // 300 nT/m: at 0.7 m from the centre that is ~200 nT against a ~5 nT article field.
-    cfg.ambient_gradient_nt_per_m =
-        nalgebra::Matrix3::new(300.0, 40.0, 0.0, 40.0, -120.0, 25.0, 0.0, 25.0, -180.0);
     // Positions on one side of the article (opposite pairs would cancel a linear
     // gradient by symmetry: the dipole field is even in r, the gradient's odd).
-    cfg.positions_m = (0..8)
-        .map(|k| {
-            let th = -0.8 + 0.25 * k as f64;
-            nalgebra::Vector3::new(0.7 * th.cos(), 0.7 * th.sin(), 0.1 * (k % 3) as f64)
-        })
-        .collect();
+    let mut cfg = StaticConfig {
+        ambient_gradient_nt_per_m: nalgebra::Matrix3::new(
+            300.0, 40.0, 0.0, 40.0, -120.0, 25.0, 0.0, 25.0, -180.0,
+        ),
+        positions_m: (0..8)
+            .map(|k| {
+                let th = -0.8 + 0.25 * k as f64;
+                nalgebra::Vector3::new(0.7 * th.cos(), 0.7 * th.sin(), 0.1 * (k % 3) as f64)
+            })
+            .collect(),
+        ..StaticConfig::default()
+    };
     let sim = simulate_static(&cfg, 25).unwrap();
     let r = run(&sim, DipolePosition::AtTableOrigin).unwrap();
     assert_within_sigma(&r, sim.truth.moment_body_am2, 4.0);
