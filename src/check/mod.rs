@@ -1,1 +1,2 @@
 //! Checks: each turns a log and a plan into a result with a verdict (DESIGN §2).
+pub mod dipole;

@@ -2,6 +2,7 @@
 //! validated library requests, and terminal output. The library never sees clap types.
 
 mod common;
+mod dipole;
 mod field;
 mod history;
 mod inspect;
@@ -32,6 +33,8 @@ enum Command {
     Field(field::Args),
     /// The ledger: runs per serial and build, and what changed since the previous build.
     History(history::Args),
+    /// Residual magnetic dipole of the article and its in-orbit disturbance torque.
+    Dipole(dipole::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -41,6 +44,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Inspect(args) => inspect::run(args),
         Command::Field(args) => field::run(args),
         Command::History(args) => history::run(args),
+        Command::Dipole(args) => dipole::run(args),
     }
 }
 

@@ -1,1 +1,2 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
+pub mod dipole;

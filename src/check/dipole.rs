@@ -1,0 +1,520 @@
+//! Residual magnetic dipole of the article and its in-orbit disturbance torque
+//! (`magproof dipole`, DESIGN §5–§8).
+//!
+//! Two ways to measure, told apart by the log's columns:
+//! * **turntable** (`angle` column): the article turns about the table's +z axis under
+//!   one or more mounts (`mount` column, labels from the plan's `[[dipole_test.mount]]`)
+//!   while a probe at the plan's `probe_position_m` (or the log's `px py pz`) records the
+//!   field, probe axes parallel to the table's;
+//! * **static** (`px py pz` columns, no `angle`): the article stays put and the probe is
+//!   moved to several known positions around it.
+//!
+//! Either way, rows whose `mount` is empty or `none` are article-absent: consecutive such
+//! rows form background segments; the ambient field at any time is interpolated linearly
+//! in time between the segment means (held at the nearest segment outside them) and
+//! subtracted. The moment then comes from the least-squares fit of
+//! [`crate::fit::dipole`]. Method: residual dipole from field mapping around the article
+//! (DESIGN §8); torque τ = m × B, worst case |m|·Bmax (Wertz, *Spacecraft Attitude
+//! Determination and Control*, 1978, §17.2).
+//!
+//! For the static method, a probe position with article-absent rows of its own gets its
+//! own background (room gradients cancel); other positions use the background of all
+//! absent rows, which assumes a uniform ambient field (warned).
+//!
+//! Requirements: at least one background segment (refused otherwise), every mount label
+//! of the log listed in the plan.
+
+use std::path::PathBuf;
+
+use nalgebra::{Matrix3, Vector3};
+use serde::Serialize;
+
+use crate::fit::dipole::{
+    fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
+};
+use crate::log::{read_sweep, LogError, Plan, ReadOptions, Shown, SweepLog};
+use crate::physics::frames::rotation_z;
+use crate::Error;
+
+mod background;
+mod orbit;
+mod uncertainty;
+mod warning;
+
+pub use background::{
+    estimate_background, estimate_position_backgrounds, position_key_of, Background,
+    BackgroundSegment,
+};
+pub use orbit::{orbit_field, ORBIT_MODEL};
+pub use warning::DipoleWarning;
+
+use uncertainty::{background_covariance, hidden_component};
+
+/// Orbit altitude used when none is given, km.
+pub const DEFAULT_ALTITUDE_KM: f64 = 500.0;
+/// Orbit inclination used when none is given, deg (a sun-synchronous orbit near 500 km).
+pub const DEFAULT_INCLINATION_DEG: f64 = 97.4;
+/// Singular-value ratio of the angle-varying design below which a body direction is
+/// reported as hidden from the rotation (seen only against the background level).
+pub const HIDDEN_RATIO: f64 = 0.05;
+
+/// Where the dipole sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum DipolePosition {
+    /// At the body point placed on the table origin (DESIGN §5).
+    #[default]
+    AtTableOrigin,
+    /// Fitted: three more unknowns (nonlinear fit).
+    Fitted,
+}
+
+/// What `magproof dipole` needs.
+#[derive(Debug, Clone)]
+pub struct DipoleRequest {
+    /// The sweep log (CSV).
+    pub log: PathBuf,
+    /// The validated test plan (needs `[dipole_test]`).
+    pub plan: Plan,
+    /// How to read the log.
+    pub read_options: ReadOptions,
+    /// Orbit altitude, km.
+    pub altitude_km: f64,
+    /// Orbit inclination, deg; `None` uses [`DEFAULT_INCLINATION_DEG`] and says so.
+    pub inclination_deg: Option<f64>,
+    /// Dipole at the table origin, or fitted.
+    pub position: DipolePosition,
+}
+
+impl DipoleRequest {
+    /// A request with the default orbit and the dipole at the table origin.
+    pub fn new(log: PathBuf, plan: Plan) -> Self {
+        Self {
+            log,
+            plan,
+            read_options: ReadOptions::default(),
+            altitude_km: DEFAULT_ALTITUDE_KM,
+            inclination_deg: None,
+            position: DipolePosition::AtTableOrigin,
+        }
+    }
+}
+
+/// How the field was mapped.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum DipoleMethod {
+    /// Article turned on a turntable, fixed probe.
+    Turntable,
+    /// Article fixed, probe at several positions.
+    Static,
+}
+
+/// The residual dipole as a fraction of one torque rod's nominal dipole.
+#[derive(Debug, Clone, Serialize)]
+pub struct RodFraction {
+    /// Rod name.
+    pub name: String,
+    /// The plan's `dipole_per_command_am2` (the rod's dipole at command 1), A·m².
+    pub nominal_dipole_am2: f64,
+    /// |m| over the nominal dipole.
+    pub residual_fraction: f64,
+    /// 1σ of that fraction.
+    pub residual_fraction_sigma: f64,
+}
+
+/// One article-present sample, for plots (field against table angle, per mount).
+#[derive(Debug, Clone)]
+pub struct DipolePoint {
+    /// Time, s (row index when the log has no time).
+    pub t_s: f64,
+    /// Turntable angle, rad (0 for the static method).
+    pub angle_rad: f64,
+    /// Index into [`DipoleResult::mount_labels`].
+    pub mount: usize,
+    /// Probe position, table frame, m.
+    pub probe_m: Vector3<f64>,
+    /// Measured minus background, table frame, nT.
+    pub measured_nt: Vector3<f64>,
+    /// Fitted model, table frame, nT.
+    pub model_nt: Vector3<f64>,
+    /// File line of the row.
+    pub line: u64,
+}
+
+/// Result of `magproof dipole` (DESIGN §7 keys first; more keys after).
+#[derive(Debug, Clone, Serialize)]
+pub struct DipoleResult {
+    /// Fitted moment, body frame (B), A·m².
+    pub moment_body_am2: [f64; 3],
+    /// |m|, A·m².
+    pub magnitude_am2: f64,
+    /// 1σ of each moment component, body frame, A·m².
+    pub moment_sigma_am2: [f64; 3],
+    /// RMS of (measured − background − model) over all components, nT.
+    pub residual_rms_nt: f64,
+    /// Orbit altitude, km.
+    pub altitude_km: f64,
+    /// Worst-case disturbance torque |m|·Bmax, N·m.
+    pub orbit_torque_max_n_m: f64,
+    /// Verdict against `limits.residual_dipole_max_am2`; null without a limit.
+    pub pass: Option<bool>,
+    /// "turntable" or "static".
+    pub method: DipoleMethod,
+    /// 1σ of |m|, A·m².
+    pub magnitude_sigma_am2: f64,
+    /// Dipole position, body frame relative to the body point at the table origin, m;
+    /// null unless fitted.
+    pub offset_m: Option<[f64; 3]>,
+    /// 1σ of `offset_m`, m.
+    pub offset_sigma_m: Option<[f64; 3]>,
+    /// Orbit inclination used, deg.
+    pub inclination_deg: f64,
+    /// Largest field magnitude on the orbit, nT.
+    pub orbit_field_max_nt: f64,
+    /// Orbit-average field magnitude, nT.
+    pub orbit_field_mean_nt: f64,
+    /// The field model used for the orbit.
+    pub orbit_field_model: String,
+    /// 1σ of the worst-case torque, N·m.
+    pub orbit_torque_max_sigma_n_m: f64,
+    /// Orbit-average torque with m ⊥ B throughout (attitude-independent bound), N·m.
+    pub orbit_torque_mean_n_m: f64,
+    /// |m| as a fraction of each rod's nominal dipole.
+    pub rods: Vec<RodFraction>,
+    /// The plan's limit, A·m².
+    pub residual_dipole_max_am2: Option<f64>,
+    /// Article-present samples fitted.
+    pub samples_used: usize,
+    /// Article-absent samples used for the background.
+    pub background_samples: usize,
+    /// Background segments found.
+    pub background_segments: usize,
+    /// Log rows skipped under `--skip-bad-rows`.
+    pub rows_skipped: usize,
+    /// Solver iterations of the offset fit (0 for the linear fit).
+    pub iterations: u64,
+    /// Body directions ("x", "y", "z" or a unit vector) the mounts given cannot resolve
+    /// from the table's turning: seen only against the background level.
+    pub hidden_components: Vec<String>,
+    /// Cautions, each with cause and remedy.
+    pub warnings: Vec<DipoleWarning>,
+    /// Mount labels, indexed by [`DipolePoint::mount`].
+    #[serde(skip)]
+    pub mount_labels: Vec<String>,
+    /// Per-sample measured and model fields, for plots.
+    #[serde(skip)]
+    pub points: Vec<DipolePoint>,
+    /// Background segments, for plots.
+    #[serde(skip)]
+    pub background: Vec<BackgroundSegment>,
+}
+
+/// Read the log and run the dipole check.
+pub fn run_dipole(req: &DipoleRequest) -> Result<DipoleResult, Error> {
+    let log = read_sweep(&req.log, &req.read_options)?;
+    evaluate_dipole(&log, req)
+}
+
+fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
+    Error::Log(LogError::MissingColumn {
+        path: Shown(log.path.clone()),
+        column: column.into(),
+        why: why.into(),
+    })
+}
+
+/// Run the dipole check on a log already read (`req.log` is not read again).
+pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
+    let inclination_deg = req.inclination_deg.unwrap_or(DEFAULT_INCLINATION_DEG);
+    validate_orbit(req.altitude_km, inclination_deg)?;
+    let plan = &req.plan;
+    let test = plan
+        .dipole_test
+        .as_ref()
+        .filter(|t| !t.mounts.is_empty())
+        .ok_or_else(|| {
+            plan.missing(
+                "dipole_test",
+                "the dipole check needs [[dipole_test.mount]] entries giving body_to_table",
+            )
+        })?;
+    let b = log.require_field("the dipole check fits the measured field")?;
+    let mounts = log.mount.as_deref().ok_or_else(|| {
+        missing_column(
+            log,
+            "mount",
+            "it tells article-present rows from article-absent (background) rows",
+        )
+    })?;
+    let (method, angle) = match (&log.angle_rad, &log.probe_m) {
+        (Some(a), _) => (DipoleMethod::Turntable, Some(a.as_slice())),
+        (None, Some(_)) => (DipoleMethod::Static, None),
+        (None, None) => {
+            return Err(missing_column(
+                log,
+                "angle",
+                "a turntable test needs the table angle (or, for a static test, give the probe position columns px, py, pz)",
+            ))
+        }
+    };
+    let fixed_probe =
+        match (&log.probe_m, test.probe_position_m) {
+            (Some(_), _) => None,
+            (None, Some(p)) => Some(p),
+            (None, None) => return Err(plan
+                .invalid(
+                    "dipole_test.probe_position_m",
+                    "the log has no px, py, pz columns, so the plan must give the probe position",
+                )
+                .into()),
+        };
+    // Map the log's mount labels to the plan's rotations; refuse unknown labels.
+    let mut label_rot: Vec<Matrix3<f64>> = Vec::with_capacity(log.mount_labels.len());
+    for label in &log.mount_labels {
+        let m = test.mounts.iter().find(|m| &m.label == label);
+        let Some(m) = m else {
+            let line = log
+                .lines
+                .iter()
+                .zip(mounts)
+                .find(|(_, k)| k.and_then(|k| log.mount_labels.get(k as usize)) == Some(label))
+                .map(|(l, _)| *l)
+                .unwrap_or(0);
+            let known: Vec<&str> = test.mounts.iter().map(|m| m.label.as_str()).collect();
+            return Err(Error::Usage(format!(
+                "{}:{line}: column \"mount\": \"{label}\" is not a mount of the plan {} (known: {})",
+                log.path.display(),
+                plan.path.display(),
+                known.join(", ")
+            )));
+        };
+        label_rot.push(m.body_to_table);
+    }
+
+    let mut warnings = Vec::new();
+    if req.inclination_deg.is_none() {
+        warnings.push(DipoleWarning::DefaultInclination);
+    }
+    let row_time: Vec<f64> = match &log.t_s {
+        Some(t) => t.clone(),
+        None => {
+            warnings.push(DipoleWarning::NoTimeColumn);
+            (0..log.len()).map(|i| i as f64).collect()
+        }
+    };
+    let bg = estimate_background(&row_time, mounts, b, &log.lines).ok_or_else(|| {
+        Error::Degenerate(format!(
+            "{}: no background segment: every row has a mount label, so the ambient field \
+             cannot be told from the article's; record rows with the article away (mount \
+             empty or \"none\") before and after",
+            log.path.display()
+        ))
+    })?;
+    if bg.segments.len() == 1 {
+        warnings.push(DipoleWarning::SingleBackgroundSegment);
+    }
+
+    // Static map: each probe position's own background where it has one.
+    let local = match (method, &log.probe_m) {
+        (DipoleMethod::Static, Some(p)) => {
+            estimate_position_backgrounds(&row_time, mounts, b, p, &log.lines)
+        }
+        _ => Vec::new(),
+    };
+    let mut backgrounds: Vec<&Background> = vec![&bg];
+    backgrounds.extend(local.iter().map(|(_, g)| g));
+    let mut bg_of_sample: Vec<usize> = Vec::with_capacity(log.len());
+    let mut uniform_rows = 0;
+
+    let mut samples = Vec::with_capacity(log.len());
+    let mut points = Vec::with_capacity(log.len());
+    let (mut before, mut after) = (0, 0);
+    for i in 0..log.len() {
+        let (Some(&Some(k)), Some(&t), Some(&line)) =
+            (mounts.get(i), row_time.get(i), log.lines.get(i))
+        else {
+            continue;
+        };
+        let rot0 = label_rot
+            .get(k as usize)
+            .copied()
+            .ok_or_else(|| Error::Internal(format!("mount index {k} outside the label list")))?;
+        let angle_rad = angle.and_then(|a| a.get(i).copied()).unwrap_or(0.0);
+        let probe_m = match (fixed_probe, &log.probe_m) {
+            (Some(p), _) => p,
+            (None, Some(p)) => match (p[0].get(i), p[1].get(i), p[2].get(i)) {
+                (Some(&x), Some(&y), Some(&z)) => Vector3::new(x, y, z),
+                _ => return Err(Error::Internal(format!("row {i} has no probe position"))),
+            },
+            (None, None) => return Err(Error::Internal("no probe position".into())),
+        };
+        let meas = log
+            .field_at(i)
+            .ok_or_else(|| Error::Internal(format!("row {i} has no field")))?;
+        let which = match method {
+            DipoleMethod::Static => {
+                let key = position_key_of(&probe_m);
+                match local.iter().position(|(k, _)| *k == key) {
+                    Some(j) => j + 1,
+                    None => {
+                        uniform_rows += 1;
+                        0
+                    }
+                }
+            }
+            DipoleMethod::Turntable => 0,
+        };
+        let this_bg = backgrounds.get(which).copied().unwrap_or(&bg);
+        let (t_first, t_last) = this_bg.span_s();
+        if t < t_first {
+            before += 1;
+        } else if t > t_last {
+            after += 1;
+        }
+        bg_of_sample.push(which);
+        let measured_nt = meas - this_bg.at(t);
+        samples.push(DipoleSample {
+            probe_m,
+            body_to_table: rotation_z(angle_rad) * rot0,
+            b_nt: measured_nt,
+        });
+        points.push(DipolePoint {
+            t_s: t,
+            angle_rad,
+            mount: k as usize,
+            probe_m,
+            measured_nt,
+            model_nt: Vector3::zeros(),
+            line,
+        });
+    }
+    if before + after > 0 {
+        warnings.push(DipoleWarning::OutsideBackground { before, after });
+    }
+    if uniform_rows > 0 {
+        warnings.push(DipoleWarning::UniformAmbientAssumed { rows: uniform_rows });
+    }
+
+    let fit = match req.position {
+        DipolePosition::AtTableOrigin => fit_moment(&samples, &Vector3::zeros()),
+        DipolePosition::Fitted => fit_moment_and_offset(&samples),
+    }
+    .map_err(|e| fit_error(log, e))?;
+    let mut fit = fit;
+    fit.moment_cov_am2sq += background_covariance(
+        &samples,
+        &points,
+        &backgrounds,
+        &bg_of_sample,
+        &fit.offset_body_m,
+    );
+    if let Some(w) = hidden_component(&samples, &points, &fit.offset_body_m) {
+        warnings.push(w);
+    }
+    for (p, s) in points.iter_mut().zip(&samples) {
+        p.model_nt = model_field_nt(s, &fit.moment_body_am2, &fit.offset_body_m)
+            .unwrap_or_else(Vector3::zeros);
+    }
+    assemble(req, method, inclination_deg, fit, bg, points, warnings, log)
+}
+
+fn fit_error(log: &SweepLog, e: DipoleFitError) -> Error {
+    match e {
+        DipoleFitError::NotConverged(_) => Error::Degenerate(format!(
+            "{}: {e}; try without --fit-offset",
+            log.path.display()
+        )),
+        _ => Error::Degenerate(format!("{}: {e}", log.path.display())),
+    }
+}
+
+fn validate_orbit(altitude_km: f64, inclination_deg: f64) -> Result<(), Error> {
+    if !(altitude_km.is_finite() && (100.0..=100_000.0).contains(&altitude_km)) {
+        return Err(Error::Usage(format!(
+            "--altitude-km must lie in 100..100000 km, found {altitude_km}"
+        )));
+    }
+    if !(inclination_deg.is_finite() && (0.0..=180.0).contains(&inclination_deg)) {
+        return Err(Error::Usage(format!(
+            "--inclination-deg must lie in 0..180°, found {inclination_deg}"
+        )));
+    }
+    Ok(())
+}
+
+#[allow(clippy::too_many_arguments)]
+fn assemble(
+    req: &DipoleRequest,
+    method: DipoleMethod,
+    inclination_deg: f64,
+    fit: DipoleFit,
+    bg: Background,
+    points: Vec<DipolePoint>,
+    mut warnings: Vec<DipoleWarning>,
+    log: &SweepLog,
+) -> Result<DipoleResult, Error> {
+    let (mag, mag_sigma) = fit.magnitude_am2();
+    let (bmax_nt, bmean_nt) = orbit_field(req.altitude_km, inclination_deg, orbit::model_date())?;
+    let limit = req.plan.limits.residual_dipole_max_am2;
+    let pass = limit.map(|l| mag <= l);
+    if let Some(l) = limit {
+        if (mag - l).abs() < 2.0 * mag_sigma {
+            warnings.push(DipoleWarning::NearLimit { limit_am2: l });
+        }
+    }
+    let rods = req
+        .plan
+        .rods
+        .iter()
+        .filter_map(|r| {
+            let d = r.dipole_per_command_am2?;
+            Some(RodFraction {
+                name: r.name.clone(),
+                nominal_dipole_am2: d,
+                residual_fraction: mag / d,
+                residual_fraction_sigma: mag_sigma / d,
+            })
+        })
+        .collect();
+    let sig = fit.moment_sigma_am2();
+    Ok(DipoleResult {
+        moment_body_am2: fit.moment_body_am2.into(),
+        magnitude_am2: mag,
+        moment_sigma_am2: sig.into(),
+        residual_rms_nt: fit.residual_rms_nt,
+        altitude_km: req.altitude_km,
+        orbit_torque_max_n_m: mag * bmax_nt * 1e-9,
+        pass,
+        method,
+        magnitude_sigma_am2: mag_sigma,
+        offset_m: fit.offset_sigma_m.map(|_| fit.offset_body_m.into()),
+        offset_sigma_m: fit.offset_sigma_m.map(Into::into),
+        inclination_deg,
+        orbit_field_max_nt: bmax_nt,
+        orbit_field_mean_nt: bmean_nt,
+        orbit_field_model: ORBIT_MODEL.to_string(),
+        orbit_torque_max_sigma_n_m: mag_sigma * bmax_nt * 1e-9,
+        orbit_torque_mean_n_m: mag * bmean_nt * 1e-9,
+        rods,
+        residual_dipole_max_am2: limit,
+        samples_used: fit.samples,
+        background_samples: bg.segments.iter().map(|s| s.rows).sum(),
+        background_segments: bg.segments.len(),
+        rows_skipped: log.skipped_rows.len(),
+        iterations: fit.iterations,
+        hidden_components: warnings
+            .iter()
+            .filter_map(|w| match w {
+                DipoleWarning::HiddenComponent { component, .. } => Some(component.clone()),
+                _ => None,
+            })
+            .collect(),
+        warnings,
+        mount_labels: log.mount_labels.clone(),
+        points,
+        background: bg.segments,
+    })
+}
+
+#[cfg(test)]
+mod tests;
