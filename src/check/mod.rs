@@ -1,1 +1,3 @@
 //! Checks: each turns a log and a plan into a result with a verdict (DESIGN §2).
+
+pub mod polarity;

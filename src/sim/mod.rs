@@ -1,1 +1,3 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
+
+pub mod polarity;
