@@ -3,6 +3,7 @@
 
 mod common;
 mod inspect;
+mod polarity;
 
 use clap::{Parser, Subcommand};
 
@@ -25,6 +26,8 @@ pub struct Cli {
 enum Command {
     /// Read a log (and a plan) and say what was found, without fitting anything.
     Inspect(inspect::Args),
+    /// Check every torque rod's polarity and coupling from a pulse log.
+    Polarity(polarity::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -32,6 +35,7 @@ pub fn run() -> anyhow::Result<Outcome> {
     let cli = Cli::parse();
     match cli.command {
         Command::Inspect(args) => inspect::run(args),
+        Command::Polarity(args) => polarity::run(args),
     }
 }
 

@@ -38,6 +38,10 @@ pub struct LinearLeastSquares {
     yty: DMatrix<f64>,
     rows: usize,
     weight_sum: f64,
+    /// Indices of the current row's non-zero regressors (reused buffer).
+    nonzero: Vec<usize>,
+    /// Values of the current row's non-zero regressors (reused buffer).
+    values: Vec<f64>,
 }
 
 /// The solved fit.
@@ -74,6 +78,8 @@ impl LinearLeastSquares {
             yty: DMatrix::zeros(outputs, outputs),
             rows: 0,
             weight_sum: 0.0,
+            nonzero: Vec::with_capacity(p),
+            values: Vec::with_capacity(p),
         })
     }
 
@@ -84,7 +90,8 @@ impl LinearLeastSquares {
 
     /// Add one row: regressors `x` (length p), outputs `y` (length k), weight `w ≥ 0`.
     /// Rows of zero weight and rows with a non-finite value are ignored (the caller
-    /// validates its data; this keeps one bad value from poisoning every sum).
+    /// validates its data; this keeps one bad value from poisoning every sum). Zero
+    /// regressors are skipped, so a sparse row (a spline basis, say) costs O(nnz²).
     #[inline]
     #[allow(clippy::needless_range_loop)] // symmetric index pairs read clearer
     pub fn add_row(&mut self, x: &[f64], y: &[f64], w: f64) {
@@ -97,13 +104,48 @@ impl LinearLeastSquares {
         {
             return;
         }
-        for a in 0..p {
-            let wxa = w * x[a];
-            if wxa == 0.0 {
-                continue;
+        let mut nz = std::mem::take(&mut self.nonzero);
+        let mut vals = std::mem::take(&mut self.values);
+        nz.clear();
+        vals.clear();
+        for (a, &v) in x.iter().enumerate() {
+            if v != 0.0 {
+                nz.push(a);
+                vals.push(v);
             }
-            for b in a..p {
-                self.xtx[(a, b)] += wxa * x[b];
+        }
+        self.accumulate(&nz, &vals, y, w);
+        self.nonzero = nz;
+        self.values = vals;
+    }
+
+    /// As [`Self::add_row`] for a sparse row: regressor `idx[q]` has value `vals[q]`, all
+    /// others are zero. `idx` must be strictly increasing and below p, else the row is
+    /// ignored.
+    #[inline]
+    pub fn add_sparse_row(&mut self, idx: &[usize], vals: &[f64], y: &[f64], w: f64) {
+        let p = self.names.len();
+        if w <= 0.0
+            || !w.is_finite()
+            || idx.len() != vals.len()
+            || y.len() != self.outputs
+            || idx.last().is_some_and(|&a| a >= p)
+            || idx.windows(2).any(|v| v[0] >= v[1])
+            || vals.iter().chain(y).any(|v| !v.is_finite())
+        {
+            return;
+        }
+        self.accumulate(idx, vals, y, w);
+    }
+
+    #[inline]
+    #[allow(clippy::needless_range_loop)] // symmetric index pairs read clearer
+    fn accumulate(&mut self, idx: &[usize], vals: &[f64], y: &[f64], w: f64) {
+        for qa in 0..idx.len() {
+            let a = idx[qa];
+            let wxa = w * vals[qa];
+            for qb in qa..idx.len() {
+                self.xtx[(a, idx[qb])] += wxa * vals[qb];
             }
             for (j, yj) in y.iter().enumerate() {
                 self.xty[(a, j)] += wxa * yj;
@@ -296,6 +338,27 @@ mod tests {
         let msg = f.solve().unwrap_err().to_string();
         assert!(msg.contains("cmd_x") && msg.contains("cmd_y"), "{msg}");
         assert!(!msg.contains("one"), "{msg}");
+    }
+
+    #[test]
+    fn sparse_rows_equal_dense_rows() {
+        let names = vec!["a".into(), "b".into(), "c".into()];
+        let mut dense = LinearLeastSquares::new(names.clone(), 1).unwrap();
+        let mut sparse = LinearLeastSquares::new(names, 1).unwrap();
+        for i in 0..20 {
+            let x = i as f64;
+            let row = [1.0, if i % 2 == 0 { x } else { 0.0 }, x * x];
+            let y = [2.0 + 0.5 * row[1] - 0.1 * row[2] + (i % 3) as f64];
+            dense.add_row(&row, &y, 1.0);
+            if i % 2 == 0 {
+                sparse.add_sparse_row(&[0, 1, 2], &[1.0, x, x * x], &y, 1.0);
+            } else {
+                sparse.add_sparse_row(&[0, 2], &[1.0, x * x], &y, 1.0);
+            }
+        }
+        let (d, s) = (dense.solve().unwrap(), sparse.solve().unwrap());
+        assert_relative_eq!(d.coefficients, s.coefficients, epsilon = 1e-12);
+        assert_relative_eq!(d.normal_inverse, s.normal_inverse, epsilon = 1e-12);
     }
 
     #[test]

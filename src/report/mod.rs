@@ -1,1 +1,3 @@
 //! Report writers: terminal, JSON, HTML with SVG plots, flight parameters.
+
+pub mod polarity_params;

@@ -352,7 +352,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     // Pass 2: lag applied, then again without the rows far off the model (transients
     // after edges), so that they do not bend the baseline; settle times from its drift.
     let mut fit2 = ctx.fit(&rows, &pulses, &no_guard, None)?;
-    for _ in 0..4 {
+    for _ in 0..2 {
         let reject = ctx.outliers(&fit2, &rows, noise);
         fit2 = ctx.fit(&rows, &pulses, &no_guard, Some(&reject))?;
     }
@@ -513,21 +513,34 @@ impl FitContext<'_> {
             }
         }
         let mut x = vec![0.0; nc + nr + nd];
+        let mut idx: Vec<usize> = Vec::with_capacity(nc + nr + nd);
+        let mut vals: Vec<f64> = Vec::with_capacity(nc + nr + nd);
         for i in 0..n {
             let Some(j) = rows[i] else { continue };
+            if weight[i] <= 0.0 {
+                continue;
+            }
+            idx.clear();
+            vals.clear();
             for (c, col) in self.columns.iter().enumerate() {
-                x[c] = col[j];
+                idx.push(c);
+                vals.push(col[j]);
             }
             for (r, (_, state)) in self.rem.iter().enumerate() {
-                x[nc + r] = state[j];
+                idx.push(nc + r);
+                vals.push(state[j]);
             }
-            self.basis.fill(self.t[i], &mut x[nc + nr..]);
+            let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
+            for k in range {
+                idx.push(nc + nr + k);
+                vals.push(x[nc + nr + k]);
+            }
             let y = [
                 self.b[0][i] - self.centre[0],
                 self.b[1][i] - self.centre[1],
                 self.b[2][i] - self.centre[2],
             ];
-            ls.add_row(&x, &y, weight[i]);
+            ls.add_sparse_row(&idx, &vals, &y, weight[i]);
         }
         ls.solve()
     }
@@ -569,9 +582,10 @@ impl FitContext<'_> {
                 for (r, (_, state)) in self.rem.iter().enumerate() {
                     x[nc + r] = state[j];
                 }
-                self.basis.fill(self.t[i], &mut x[nc + nr..]);
+                let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
+                let used = (0..nc + nr).chain(range.start + nc + nr..range.end + nc + nr);
                 for (a, o) in out.iter_mut().enumerate() {
-                    let model: f64 = (0..p).map(|q| x[q] * fit.coefficients[(q, a)]).sum();
+                    let model: f64 = used.clone().map(|q| x[q] * fit.coefficients[(q, a)]).sum();
                     o.push(self.b[a][i] - self.centre[a] - model);
                 }
             }

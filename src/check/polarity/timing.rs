@@ -176,12 +176,15 @@ pub fn shifted_rows(t_s: &[f64], lag_s: f64) -> Vec<Option<usize>> {
     out
 }
 
+/// Largest number of knot intervals the automatic drift model uses.
+pub const MAX_AUTO_KNOTS: usize = 400;
+
 /// Drift terms of the regression: a linear spline (piecewise-linear baseline with
 /// evenly spaced knots), or Legendre polynomials of the time scaled to [−1, 1].
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum DriftModel {
-    /// Knot spacing chosen from the data: four times the longest pulse, at least a
-    /// twentieth of the log.
+    /// Knot spacing chosen from the data: four times the longest pulse, but no more
+    /// than [`MAX_AUTO_KNOTS`] knots.
     Auto,
     /// Piecewise-linear baseline with knots this far apart, s.
     Knots {
@@ -241,10 +244,11 @@ impl DriftBasis {
         }
     }
 
-    /// Write the basis values at time `t_s` into `out` (length [`Self::len`]).
+    /// Write the basis values at time `t_s` into `out` (length [`Self::len`]) and return
+    /// the range written; entries outside it are zero in the basis and left untouched in
+    /// `out` (read only the returned range).
     #[inline]
-    pub fn fill(&self, t_s: f64, out: &mut [f64]) {
-        out.iter_mut().for_each(|v| *v = 0.0);
+    pub fn fill(&self, t_s: f64, out: &mut [f64]) -> std::ops::Range<usize> {
         match *self {
             DriftBasis::Knots {
                 t0_s,
@@ -256,6 +260,7 @@ impl DriftBasis {
                 let u = (x - j as f64).min(1.0);
                 out[j] = 1.0 - u;
                 out[j + 1] = u;
+                j..j + 2
             }
             DriftBasis::Polynomial {
                 t0_s,
@@ -272,6 +277,7 @@ impl DriftBasis {
                     let nf = d as f64;
                     out[d + 1] = ((2.0 * nf + 1.0) * x * out[d] - nf * out[d - 1]) / (nf + 1.0);
                 }
+                0..degree + 1
             }
         }
     }
@@ -305,7 +311,7 @@ pub fn drift_basis(model: DriftModel, t0_s: f64, span_s: f64, longest_pulse_s: f
         DriftModel::Auto | DriftModel::Knots { .. } => {
             let spacing = match model {
                 DriftModel::Knots { spacing_s } => spacing_s,
-                _ => (4.0 * longest_pulse_s).max(span / 20.0),
+                _ => (4.0 * longest_pulse_s).max(span / MAX_AUTO_KNOTS as f64),
             };
             let segments = ((span / spacing).ceil() as usize).max(1);
             DriftBasis::Knots {
@@ -412,7 +418,8 @@ mod tests {
             degree: 3,
         };
         let mut out = [0.0; 4];
-        b.fill(1.5, &mut out); // x = 0.5
+        let r = b.fill(1.5, &mut out); // x = 0.5
+        assert_eq!(r, 0..4);
         assert_relative_eq!(out[2], 0.5 * (3.0 * 0.25 - 1.0), epsilon = 1e-15);
         assert_relative_eq!(out[3], 0.5 * (5.0 * 0.125 - 3.0 * 0.5), epsilon = 1e-15);
     }
