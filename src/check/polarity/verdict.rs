@@ -88,8 +88,9 @@ pub struct RodResult {
     /// lag): what a magnetometer blanking window must cover. Null if none was measured.
     pub settle_time_s: Option<f64>,
     /// Remanent field once the rod is off after a positive pulse (the opposite after a
-    /// negative one), relative to the never-pulsed state, sensor frame, nT; fitted with
-    /// the couplings. Null when the rod was pulsed with one sign only.
+    /// negative one): half the difference between the two, sensor frame, nT; fitted with
+    /// the couplings (rows before the first pulse are taken to sit at the midpoint).
+    /// Null when the rod was pulsed with one sign only.
     pub remanent_offset_nt: Option<[f64; 3]>,
     /// 1σ of `remanent_offset_nt` per axis, nT.
     pub remanent_offset_sigma_nt: Option<[f64; 3]>,
