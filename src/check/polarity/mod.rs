@@ -317,12 +317,29 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         }
         rem.push((c, state));
     }
+    // Readings at or beyond the sensor's range are saturated: flagged, never used.
+    let range_nt = plan
+        .magnetometer
+        .as_ref()
+        .and_then(|m| m.range_nt)
+        .filter(|_| sensor.kind == SensorChoice::Magnetometer);
+    let excluded: Vec<bool> = (0..n)
+        .map(|i| range_nt.is_some_and(|r| (0..3).any(|a| b[a][i].abs() >= r)))
+        .collect();
+    let saturated = excluded.iter().filter(|x| **x).count();
+    if saturated > 0 {
+        warnings.push(format!(
+            "{saturated} rows reach the magnetometer's range (range_nt = {}) and were left out as saturated",
+            range_nt.unwrap_or(f64::NAN)
+        ));
+    }
     let mut ctx = FitContext {
         t,
         b,
         columns: &columns,
         names: &names,
         rem: &rem,
+        excluded,
         lag_s: 0.0,
         basis: &basis,
         centre,
@@ -353,7 +370,13 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     // after edges), so that they do not bend the baseline; settle times from its drift.
     let mut fit2 = ctx.fit(&rows, &pulses, &no_guard, None)?;
     for _ in 0..2 {
-        let reject = ctx.outliers(&fit2, &rows, noise);
+        let reject = ctx.transients(
+            &fit2,
+            &rows,
+            noise,
+            &pulses,
+            0.5 * shortest + lag_s.max(0.0),
+        );
         fit2 = ctx.fit(&rows, &pulses, &no_guard, Some(&reject))?;
     }
     let (after2, _) = ctx.after_pulses(&fit2, &pulses, lag_s, noise);
@@ -461,6 +484,8 @@ struct FitContext<'a> {
     names: &'a [String],
     /// Held sign of the last pulse, per command column that has one.
     rem: &'a [(usize, Vec<f64>)],
+    /// Rows never used: saturated readings.
+    excluded: Vec<bool>,
     /// Lag, s (only for guard windows; the fit's shift comes as `rows`).
     lag_s: f64,
     basis: &'a timing::DriftBasis,
@@ -492,7 +517,7 @@ impl FitContext<'_> {
         let mut weight = vec![1.0; self.t.len()];
         let n = self.t.len();
         for (i, w) in weight.iter_mut().enumerate() {
-            if rows[i].is_none() || reject.is_some_and(|r| r[i]) {
+            if rows[i].is_none() || self.excluded[i] || reject.is_some_and(|r| r[i]) {
                 *w = 0.0;
             }
         }
@@ -545,9 +570,19 @@ impl FitContext<'_> {
         ls.solve()
     }
 
-    /// Rows whose residual is far off on any axis (transients after edges): beyond
-    /// 5 times the larger of the white-noise σ and the residuals' robust σ (1.4826·MAD).
-    fn outliers(&self, fit: &LinearFit, rows: &[Option<usize>], noise: [f64; 3]) -> Vec<bool> {
+    /// Transient rows after command edges: walking forward from each edge (at most
+    /// `max_s`), rows whose residual exceeds 5 times the larger of the white-noise σ and
+    /// the residuals' robust σ (1.4826·MAD) on any axis, up to the first three rows in a
+    /// row that do not. Only the run right after an edge is taken, so the steady part of
+    /// a pulse can never be set aside. The walk does not stop before the lag has passed.
+    fn transients(
+        &self,
+        fit: &LinearFit,
+        rows: &[Option<usize>],
+        noise: [f64; 3],
+        pulses: &[Pulse],
+        max_s: f64,
+    ) -> Vec<bool> {
         let res = self.residuals(fit, rows);
         let limit: [f64; 3] = std::array::from_fn(|a| {
             let mut abs: Vec<f64> = res[a]
@@ -558,9 +593,38 @@ impl FitContext<'_> {
             let robust = 1.4826 * timing::median(&mut abs).unwrap_or(0.0);
             5.0 * robust.max(noise[a]).max(1e-9)
         });
-        (0..self.t.len())
-            .map(|i| (0..3).any(|a| res[a][i].abs() > limit[a]))
-            .collect()
+        let off = |i: usize| (0..3).any(|a| res[a][i].is_finite() && res[a][i].abs() > limit[a]);
+        let n = self.t.len();
+        let mut reject = vec![false; n];
+        for p in pulses {
+            for edge in [p.start, p.end] {
+                let Some(&t_edge) = self.t.get(edge) else {
+                    continue;
+                };
+                let lo = self
+                    .t
+                    .partition_point(|&x| x < t_edge + self.lag_s.min(0.0));
+                let hi = self.t.partition_point(|&x| x < t_edge + max_s);
+                let mut quiet = 0;
+                let mut last_off = None;
+                for i in lo..hi {
+                    if off(i) {
+                        last_off = Some(i);
+                        quiet = 0;
+                    } else {
+                        quiet += 1;
+                        // Before the lag has passed the model and the data agree trivially.
+                        if quiet >= 3 && self.t[i] >= t_edge + self.lag_s {
+                            break;
+                        }
+                    }
+                }
+                if let Some(last) = last_off {
+                    reject[lo..=last].iter_mut().for_each(|r| *r = true);
+                }
+            }
+        }
+        reject
     }
 
     /// Residual of every row per axis (NaN for rows without a shifted command).
@@ -624,6 +688,19 @@ impl FitContext<'_> {
         let t = self.t;
         // Row at or after a time.
         let row_at = |time: f64| t.partition_point(|&x| x < time);
+        // Latest end among earlier pulses, earliest start among later ones.
+        let mut prev_ends = Vec::with_capacity(pulses.len());
+        let mut latest = 0;
+        for p in pulses {
+            prev_ends.push(latest);
+            latest = latest.max(p.end);
+        }
+        let mut next_starts = vec![n; pulses.len()];
+        let mut earliest = n;
+        for (k, p) in pulses.iter().enumerate().rev() {
+            next_starts[k] = earliest;
+            earliest = earliest.min(p.start);
+        }
         let out = pulses
             .iter()
             .enumerate()
@@ -631,11 +708,11 @@ impl FitContext<'_> {
                 if p.end >= n {
                     return None;
                 }
-                let prev_end = pulses[..k].iter().map(|q| q.end).max().unwrap_or(0);
+                let prev_end = prev_ends[k];
                 if prev_end > p.start {
                     return None; // overlapping pulses: no clean window
                 }
-                let next_start = pulses[k + 1..].iter().map(|q| q.start).min().unwrap_or(n);
+                let next_start = next_starts[k];
                 if next_start < p.end {
                     return None;
                 }

@@ -267,3 +267,22 @@ fn refusals_name_their_reason() {
     let plan_no_pos = ONE_ROD.replace("position_m = [0, 0, 0.3]\n", "unit = \"nT\"\n");
     assert!(request_error(quiet, &plan_no_pos).contains("magnetometer.position_m"));
 }
+
+#[test]
+fn readings_at_the_range_are_left_out_and_reported() {
+    let mut sim = simulate_polarity(&PolarityConfig::default(), 31).unwrap();
+    // bz sits near −41 µT and the z rod adds about ±4 µT: the negative pulses reach
+    // beyond 44 µT.
+    sim.plan_toml = sim
+        .plan_toml
+        .replace("unit = \"nT\"", "unit = \"nT\"\nrange_nt = 44000.0");
+    let full = check(&simulate_polarity(&PolarityConfig::default(), 31).unwrap());
+    let r = check(&sim);
+    assert!(
+        r.warnings.iter().any(|w| w.contains("saturated")),
+        "{:?}",
+        r.warnings
+    );
+    assert!(r.samples_used < full.samples_used);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+}
