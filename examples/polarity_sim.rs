@@ -1,5 +1,5 @@
 //! Write a simulated torque-rod pulse log, its plan and truth:
-//! `cargo run --example polarity_sim -- OUT_DIR [reversed|swapped|healthy] [rows_per_second]`.
+//! `cargo run --example polarity_sim -- OUT_DIR [reversed|swapped|healthy] [rate_hz] [cycles] [seed]`.
 use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
@@ -18,7 +18,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     if let Some(cycles) = args.get(4) {
         cfg.cycles = cycles.parse()?;
     }
-    let sim = simulate_polarity(&cfg, 1)?;
+    let seed = args.get(5).map_or(Ok(1), |s| s.parse())?;
+    let sim = simulate_polarity(&cfg, seed)?;
     let paths = sim.write(&dir, "pulses")?;
     for p in paths {
         println!("{}", p.display());
