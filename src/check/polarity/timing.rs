@@ -184,7 +184,7 @@ pub const MAX_AUTO_KNOTS: usize = 400;
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum DriftModel {
     /// Knot spacing chosen from the data: four times the longest pulse, but no more
-    /// than [`MAX_AUTO_KNOTS`] knots.
+    /// than 400 knot intervals.
     Auto,
     /// Piecewise-linear baseline with knots this far apart, s.
     Knots {
