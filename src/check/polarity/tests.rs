@@ -286,3 +286,19 @@ fn readings_at_the_range_are_left_out_and_reported() {
     assert!(r.samples_used < full.samples_used);
     assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
 }
+
+// A logger clock that runs late on the command column makes the response appear to
+// lead: the lag comes out negative and is still applied. Here the delay is exactly five
+// samples, so rounding puts some steps at the fourth sample and some at the fifth: the
+// estimate is good to one sample.
+#[test]
+fn negative_lag_is_reported_as_negative() {
+    let cfg = PolarityConfig {
+        lag_s: -0.1,
+        rise_time_s: 0.0,
+        ..Default::default()
+    };
+    let (_, r) = run(&cfg, 32);
+    assert!((r.lag_s + 0.1).abs() <= 0.0201, "lag {}", r.lag_s);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+}
