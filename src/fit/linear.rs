@@ -6,7 +6,7 @@
 //! `(Σ w x xᵀ) B = Σ w x yᵀ`. The residual covariance between outputs is
 //! `S = Σ w e eᵀ / (n_eff − p)` and the covariance of coefficients `(a, j)` and `(b, l)` is
 //! `S_jl · [(Σ w x xᵀ)⁻¹]_ab` (ordinary least squares theory, e.g. Draper & Smith,
-//! *Applied Regression Analysis*, ch. 5; with weights taken as relative, so the noise level
+//! *Applied Regression Analysis*, cited from memory; with weights taken as relative, so the noise level
 //! comes from the residuals). `n_eff` counts rows of non-zero weight.
 //!
 //! Requirements: more rows than parameters and a design of full rank. A (near) rank-deficient
@@ -292,7 +292,7 @@ mod tests {
     }
 
     // Textbook check: for y = a + b x + noise σ with x uniform on n points, the slope's
-    // variance is σ² / Σ(x − x̄)² (Draper & Smith §1.4). Compare with the fit's covariance
+    // variance is σ² / Σ(x − x̄)² (ordinary least-squares theory, any regression text). Compare with the fit's covariance
     // and with the scatter of repeated fits.
     #[test]
     fn slope_sigma_matches_textbook_and_scatter() {
