@@ -252,6 +252,12 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     }
     let n = t.len();
     let n_rods = plan.rods.len();
+    if b.iter().any(|c| c.len() != n) || columns.iter().any(|c| c.len() != n) {
+        return Err(Error::Internal(format!(
+            "{}: columns of different lengths in the log",
+            log.path.display()
+        )));
+    }
     let pulses = timing::find_pulses(&columns);
     if pulses.is_empty() {
         return Err(Error::Degenerate(format!(
@@ -268,6 +274,12 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
                 rod.name
             )));
         }
+    }
+    if n < 10 {
+        return Err(Error::Degenerate(format!(
+            "{}: {n} rows are too few for a polarity check",
+            log.path.display()
+        )));
     }
     let dt = timing::median_interval_s(t)
         .filter(|d| *d > 0.0)
