@@ -299,6 +299,13 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     }
     let noise = timing::noise_sigma_nt(b, &any_on);
     let basis = timing::drift_basis(req.drift, t[0], span, longest);
+    if basis.len() > 2000 || basis.len() * 4 > n {
+        return Err(Error::Usage(format!(
+            "the drift model needs {} terms for {n} rows ({}); choose wider knots or a lower degree",
+            basis.len(),
+            basis.describe()
+        )));
+    }
     // Centre the outputs for conditioning.
     let head = n.min(100);
     let centre: [f64; 3] = std::array::from_fn(|a| b[a][..head].iter().sum::<f64>() / head as f64);
