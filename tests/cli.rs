@@ -12,3 +12,5 @@ mod field;
 mod history;
 #[path = "cli/input.rs"]
 mod input;
+#[path = "cli/polarity.rs"]
+mod polarity;

@@ -6,6 +6,7 @@ mod dipole;
 mod field;
 mod history;
 mod inspect;
+mod polarity;
 mod record;
 
 use clap::{Parser, Subcommand};
@@ -35,6 +36,8 @@ enum Command {
     History(history::Args),
     /// Residual magnetic dipole of the article and its in-orbit disturbance torque.
     Dipole(dipole::Args),
+    /// Check every torque rod's polarity and coupling from a pulse log.
+    Polarity(polarity::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -45,6 +48,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Field(args) => field::run(args),
         Command::History(args) => history::run(args),
         Command::Dipole(args) => dipole::run(args),
+        Command::Polarity(args) => polarity::run(args),
     }
 }
 

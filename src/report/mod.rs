@@ -8,6 +8,7 @@ pub mod atomic;
 pub mod html;
 pub mod model;
 pub mod plot;
+pub mod polarity_params;
 pub mod terminal;
 
 use std::path::{Path, PathBuf};

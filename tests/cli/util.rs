@@ -245,3 +245,13 @@ pub fn png_ink(png: &Path) -> (f64, usize) {
     }
     (inked as f64 / total.max(1) as f64, colours.len())
 }
+
+/// Standard output of a finished command, as text.
+pub fn stdout(out: &std::process::Output) -> String {
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+/// Standard error of a finished command, as text.
+pub fn stderr(out: &std::process::Output) -> String {
+    String::from_utf8_lossy(&out.stderr).into_owned()
+}

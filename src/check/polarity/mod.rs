@@ -1,0 +1,501 @@
+//! Torque-rod polarity and coupling check (DESIGN §5–§7, issue 5).
+//!
+//! Method:
+//! 1. Pulses are found in every `cmd_<rod>` column (runs where the command is on).
+//! 2. The field, sensor frame, is fitted by weighted linear least squares on all command
+//!    columns together plus drift terms (a piecewise-linear baseline, or a polynomial in
+//!    time), so that ambient drift and the other rods do not leak into a rod's coupling.
+//! 3. The command-to-response lag is estimated by cross-correlating each command's first
+//!    difference with the field's first difference projected on that rod's coupling
+//!    (a matched filter), refined to a fraction of a sample by a parabola through the
+//!    peak; the commands are shifted by it and the fit is repeated.
+//! 4. After each pulse the settle time (back within 3σ of the noise around the settled
+//!    level) and the field step it leaves behind (remanence) are measured; samples in
+//!    the transient after each command edge get zero weight in the final fit.
+//! 5. The expected response of each rod at the sensor follows from the dipole field
+//!    B = μ0/(4π r³)(3(m·r̂)r̂ − m) (Jackson, *Classical Electrodynamics*, 3rd ed.,
+//!    eq. 5.56) with the rod's axis and position and the sensor's position and mounting.
+//!    The verdict compares the measured coupling with that geometry — never a bare sign.
+//!
+//! Requirements: a time column, `bx by bz`, a `cmd_<rod>` column for every plan rod with
+//! at least one pulse, a plan with `[[rod]]` and the sensor's position (`[magnetometer]
+//! position_m`, or a `[probe]`).
+
+mod passes;
+mod timing;
+mod verdict;
+
+use nalgebra::{Matrix3, Vector3};
+use serde::Serialize;
+
+pub use timing::DriftModel;
+pub use verdict::{RodResult, Verdict};
+
+use crate::fit::linear::LinearFit;
+use crate::log::{Plan, SweepLog};
+use crate::Error;
+use passes::FitContext;
+use timing::{AfterPulse, Pulse};
+
+/// Angle limit used when the plan's `[limits]` sets no `polarity_angle_max_deg`, deg.
+pub const DEFAULT_ANGLE_MAX_DEG: f64 = 30.0;
+/// Default SNR below which a rod is called `no-response`.
+pub const DEFAULT_SNR_MIN: f64 = 5.0;
+/// Point-dipole validity: the sensor should be at least this many rod lengths away
+/// (common practice).
+pub const DIPOLE_VALID_ROD_LENGTHS: f64 = 3.0;
+
+/// Which sensor recorded the log.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum SensorChoice {
+    /// `[probe]` when the plan has one, else `[magnetometer]`.
+    Auto,
+    /// The flight magnetometer (`[magnetometer]`).
+    Magnetometer,
+    /// An external probe (`[probe]`).
+    Probe,
+}
+
+/// What to check: a log, its plan and the method's settings.
+#[derive(Debug, Clone)]
+pub struct PolarityRequest<'a> {
+    /// The pulse log (needs `t`, `bx by bz`, `cmd_<rod>` per plan rod).
+    pub log: &'a SweepLog,
+    /// The plan: `[[rod]]`, the sensor's geometry, `[limits] polarity_angle_max_deg`.
+    pub plan: &'a Plan,
+    /// Which sensor recorded the log.
+    pub sensor: SensorChoice,
+    /// SNR below which a rod is `no-response`.
+    pub snr_min: f64,
+    /// Drift terms of the regression.
+    pub drift: DriftModel,
+    /// Largest lag searched, s (default: half the shortest pulse, at most 2 s).
+    pub max_lag_s: Option<f64>,
+}
+
+impl<'a> PolarityRequest<'a> {
+    /// A request with the default settings.
+    pub fn new(log: &'a SweepLog, plan: &'a Plan) -> Self {
+        Self {
+            log,
+            plan,
+            sensor: SensorChoice::Auto,
+            snr_min: DEFAULT_SNR_MIN,
+            drift: DriftModel::Auto,
+            max_lag_s: None,
+        }
+    }
+}
+
+/// One pulse and what it left behind.
+#[derive(Debug, Clone, Serialize)]
+pub struct PulseResult {
+    /// Rod (command column without `cmd_`).
+    pub rod: String,
+    /// Time the command turned on, s.
+    pub t_on_s: f64,
+    /// Time the command turned off, s.
+    pub t_off_s: f64,
+    /// Mean command during the pulse, command units.
+    pub command: f64,
+    /// From command off until the field stays within 3σ of its settled level, s
+    /// (includes the lag); null if it did not settle before the next pulse.
+    pub settle_time_s: Option<f64>,
+    /// Settled field after the pulse minus before it, sensor frame, nT.
+    pub step_nt: Option<[f64; 3]>,
+    /// 1σ of `step_nt` per axis, nT.
+    pub step_sigma_nt: Option<[f64; 3]>,
+}
+
+/// Series for plots, decimated to at most [`PolaritySeries::MAX_POINTS`] points.
+#[derive(Debug, Clone, Default)]
+pub struct PolaritySeries {
+    /// Time, s.
+    pub t_s: Vec<f64>,
+    /// Measured field minus the fitted drift, sensor frame, nT.
+    pub field_minus_drift_nt: [Vec<f64>; 3],
+    /// Fitted rod response (couplings × lag-shifted commands), sensor frame, nT.
+    pub model_nt: [Vec<f64>; 3],
+    /// Lag-shifted commands, one vector per command column (plan rods first).
+    pub commands: Vec<Vec<f64>>,
+}
+
+impl PolaritySeries {
+    /// Largest number of points kept for plots.
+    pub const MAX_POINTS: usize = 4000;
+}
+
+/// Result of the polarity check; the first keys are those of DESIGN §7.
+#[derive(Debug, Clone, Serialize)]
+pub struct PolarityResult {
+    /// One entry per plan rod, in plan order.
+    pub rods: Vec<RodResult>,
+    /// Command-to-response lag, s (positive: the response follows the command).
+    pub lag_s: f64,
+    /// Every rod `ok`.
+    pub pass: bool,
+    /// Angle limit applied, deg.
+    pub angle_max_deg: f64,
+    /// Where the angle limit came from: "plan" or "default".
+    pub angle_max_source: &'static str,
+    /// SNR threshold for `no-response`.
+    pub snr_min: f64,
+    /// Which sensor's geometry was used.
+    pub sensor: SensorChoice,
+    /// Coupling matrix, sensor frame, nT per command unit: rows = sensor x, y, z;
+    /// columns = rods in plan order.
+    pub coupling_matrix_nt_per_command: Vec<Vec<f64>>,
+    /// White-noise σ per sensor axis, nT (from first differences with every rod off).
+    pub noise_sigma_nt: [f64; 3],
+    /// Residual σ per sensor axis of the final fit, nT.
+    pub residual_sigma_nt: [f64; 3],
+    /// Drift terms used.
+    pub drift: String,
+    /// Rows with non-zero weight in the final fit.
+    pub samples_used: usize,
+    /// Every pulse found.
+    pub pulses: Vec<PulseResult>,
+    /// Anything the user should know (cause and remedy).
+    pub warnings: Vec<String>,
+    /// Decimated series for plots.
+    #[serde(skip)]
+    pub series: PolaritySeries,
+}
+
+/// The sensor's geometry in the body frame.
+struct SensorGeometry {
+    position_m: Vector3<f64>,
+    sensor_to_body: Matrix3<f64>,
+    kind: SensorChoice,
+}
+
+fn sensor_geometry(plan: &Plan, choice: SensorChoice) -> Result<SensorGeometry, Error> {
+    let probe = || {
+        plan.probe.as_ref().map(|p| SensorGeometry {
+            position_m: p.position_m,
+            sensor_to_body: p.sensor_to_body,
+            kind: SensorChoice::Probe,
+        })
+    };
+    let mag = || -> Result<SensorGeometry, Error> {
+        let m = plan.magnetometer.as_ref().ok_or_else(|| {
+            plan.missing(
+                "magnetometer",
+                "polarity needs the magnetometer's position_m and sensor_to_body (or a [probe])",
+            )
+        })?;
+        let position_m = m.position_m.ok_or_else(|| {
+            plan.invalid(
+                "magnetometer.position_m",
+                "polarity needs the magnetometer's position (body frame, m) to predict each rod's field",
+            )
+        })?;
+        Ok(SensorGeometry {
+            position_m,
+            sensor_to_body: m.sensor_to_body,
+            kind: SensorChoice::Magnetometer,
+        })
+    };
+    match choice {
+        SensorChoice::Probe => probe().ok_or_else(|| {
+            plan.missing("probe", "--sensor probe needs the probe's position_m")
+                .into()
+        }),
+        SensorChoice::Magnetometer => mag(),
+        SensorChoice::Auto => match probe() {
+            Some(p) => Ok(p),
+            None => mag(),
+        },
+    }
+}
+
+/// Run the polarity check.
+#[allow(clippy::needless_range_loop)]
+pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> {
+    let plan = req.plan;
+    let log = req.log;
+    if plan.rods.is_empty() {
+        return Err(plan
+            .missing(
+                "[rod]",
+                "polarity needs every torque rod's name, axis_body and position_m",
+            )
+            .into());
+    }
+    if !(req.snr_min.is_finite() && req.snr_min > 0.0) {
+        return Err(Error::Usage(format!(
+            "the SNR threshold must be positive, found {}",
+            req.snr_min
+        )));
+    }
+    let sensor = sensor_geometry(plan, req.sensor)?;
+    let t = log.require_time("polarity needs time for the lag and settle times")?;
+    let b = log.require_field("polarity fits the measured field")?;
+    let mut names: Vec<String> = Vec::new();
+    let mut columns: Vec<&[f64]> = Vec::new();
+    for rod in &plan.rods {
+        let c = log.require_command(&rod.name, &format!("the plan lists rod \"{}\"", rod.name))?;
+        names.push(rod.name.clone());
+        columns.push(&c.values);
+    }
+    let mut warnings = Vec::new();
+    for c in &log.commands {
+        if !names.iter().any(|n| n.eq_ignore_ascii_case(&c.rod)) {
+            warnings.push(format!(
+                "column \"{}\" has no [[rod]] in the plan: it is fitted (so it cannot leak into the others) but gets no verdict",
+                c.header
+            ));
+            names.push(c.rod.clone());
+            columns.push(&c.values);
+        }
+    }
+    let n = t.len();
+    let n_rods = plan.rods.len();
+    if b.iter().any(|c| c.len() != n) || columns.iter().any(|c| c.len() != n) {
+        return Err(Error::Internal(format!(
+            "{}: columns of different lengths in the log",
+            log.path.display()
+        )));
+    }
+    let pulses = timing::find_pulses(&columns);
+    if pulses.is_empty() {
+        return Err(Error::Degenerate(format!(
+            "{}: no pulses: every cmd_ column is zero, so no rod was driven",
+            log.path.display()
+        )));
+    }
+    for (ci, rod) in plan.rods.iter().enumerate() {
+        if !pulses.iter().any(|p| p.column == ci) {
+            return Err(Error::Degenerate(format!(
+                "{}: rod \"{}\" was never pulsed (cmd_{} is zero throughout)",
+                log.path.display(),
+                rod.name,
+                rod.name
+            )));
+        }
+    }
+    if n < 10 {
+        return Err(Error::Degenerate(format!(
+            "{}: {n} rows are too few for a polarity check",
+            log.path.display()
+        )));
+    }
+    let dt = timing::median_interval_s(t)
+        .filter(|d| *d > 0.0)
+        .ok_or_else(|| {
+            Error::Degenerate(format!("{}: time does not advance", log.path.display()))
+        })?;
+    let span = t[n - 1] - t[0];
+    let dur = |p: &Pulse| t.get(p.end).copied().unwrap_or(t[n - 1] + dt) - t[p.start];
+    let longest = pulses.iter().map(dur).fold(0.0, f64::max);
+    let shortest = pulses.iter().map(dur).fold(f64::INFINITY, f64::min);
+    let mut any_on = vec![false; n];
+    for p in &pulses {
+        any_on[p.start..p.end].iter_mut().for_each(|v| *v = true);
+    }
+    if t.windows(2).any(|w| w[1] - w[0] > 5.0 * dt) {
+        warnings.push("the log has gaps longer than five sample intervals; lag and settle times assume even sampling".into());
+    }
+    let noise = timing::noise_sigma_nt(b, &any_on);
+    let basis = timing::drift_basis(req.drift, t[0], span, longest);
+    if basis.len() > 2000 || basis.len() * 4 > n {
+        return Err(Error::Usage(format!(
+            "the drift model needs {} terms for {n} rows ({}); choose wider knots or a lower degree",
+            basis.len(),
+            basis.describe()
+        )));
+    }
+    // Centre the outputs for conditioning.
+    let head = n.min(100);
+    let centre: [f64; 3] = std::array::from_fn(|a| b[a][..head].iter().sum::<f64>() / head as f64);
+
+    // Remanence: after a pulse a rod keeps a small dipole along the sign of that pulse.
+    // Modelled as the held sign of the last pulse, for columns pulsed both ways (with
+    // one sign only it cannot be told from the baseline).
+    let mut rem: Vec<(usize, Vec<f64>)> = Vec::new();
+    for c in 0..columns.len() {
+        let mine: Vec<&Pulse> = pulses.iter().filter(|p| p.column == c).collect();
+        let both = mine.iter().any(|p| p.command > 0.0) && mine.iter().any(|p| p.command < 0.0);
+        if !both {
+            if c < n_rods {
+                warnings.push(format!(
+                    "rod \"{}\" was pulsed with one sign only: its remanence cannot be told from the baseline and is not measured; pulse it both ways",
+                    names[c]
+                ));
+            }
+            continue;
+        }
+        let mut state = vec![0.0; n];
+        let mut k = 0;
+        let mut s = 0.0;
+        for (i, v) in state.iter_mut().enumerate() {
+            while k < mine.len() && mine[k].start <= i {
+                s = mine[k].command.signum();
+                k += 1;
+            }
+            *v = s;
+        }
+        rem.push((c, state));
+    }
+    // Readings at or beyond the sensor's range are saturated: flagged, never used.
+    let range_nt = plan
+        .magnetometer
+        .as_ref()
+        .and_then(|m| m.range_nt)
+        .filter(|_| sensor.kind == SensorChoice::Magnetometer);
+    let excluded: Vec<bool> = (0..n)
+        .map(|i| range_nt.is_some_and(|r| (0..3).any(|a| b[a][i].abs() >= r)))
+        .collect();
+    let saturated = excluded.iter().filter(|x| **x).count();
+    if saturated > 0 {
+        warnings.push(format!(
+            "{saturated} rows reach the magnetometer's range (range_nt = {}) and were left out as saturated",
+            range_nt.unwrap_or(f64::NAN)
+        ));
+    }
+    let mut ctx = FitContext {
+        t,
+        b,
+        columns: &columns,
+        names: &names,
+        rem: &rem,
+        excluded,
+        lag_s: 0.0,
+        basis: &basis,
+        centre,
+    };
+    // Pass 1: no lag, every row.
+    let no_guard = vec![0.0; columns.len()];
+    let fit1 = ctx.fit(&timing::shifted_rows(t, 0.0), &pulses, &no_guard, None)?;
+    let couplings1: Vec<Vector3<f64>> = (0..columns.len()).map(|c| coupling(&fit1, c)).collect();
+    let max_lag_s = req.max_lag_s.unwrap_or((shortest / 2.0).min(2.0));
+    let max_lag_samples = ((max_lag_s / dt).round() as usize).clamp(1, n / 4 + 1);
+    let lag_s = timing::estimate_lag_s(&columns, &couplings1, b, dt, max_lag_samples)
+        .unwrap_or_else(|| {
+            warnings.push(
+                "no command edge lies far enough inside the log to estimate the lag; 0 s assumed"
+                    .into(),
+            );
+            0.0
+        });
+    if lag_s.abs() >= 0.95 * max_lag_samples as f64 * dt {
+        warnings.push(format!(
+            "the lag estimate {lag_s:.4} s is at the edge of the searched range (±{:.4} s): the true lag may be larger",
+            max_lag_samples as f64 * dt
+        ));
+    }
+    let rows = timing::shifted_rows(t, lag_s);
+    ctx.lag_s = lag_s;
+    // Pass 2: lag applied, then again without the rows far off the model (transients
+    // after edges), so that they do not bend the baseline; settle times from its drift.
+    let mut fit2 = ctx.fit(&rows, &pulses, &no_guard, None)?;
+    for _ in 0..2 {
+        let reject = ctx.transients(
+            &fit2,
+            &rows,
+            noise,
+            &pulses,
+            0.5 * shortest + lag_s.max(0.0),
+        );
+        fit2 = ctx.fit(&rows, &pulses, &no_guard, Some(&reject))?;
+    }
+    let (after2, _) = ctx.after_pulses(&fit2, &pulses, lag_s, noise);
+    let guard: Vec<f64> = (0..columns.len())
+        .map(|c| {
+            let settle = after2
+                .iter()
+                .zip(&pulses)
+                .filter(|(_, p)| p.column == c)
+                .filter_map(|(a, _)| a.and_then(|a| a.settle_time_s))
+                .fold(0.0, f64::max);
+            let short = pulses
+                .iter()
+                .filter(|p| p.column == c)
+                .map(dur)
+                .fold(f64::INFINITY, f64::min);
+            settle.min(0.5 * short + lag_s.max(0.0))
+        })
+        .collect();
+    // Pass 3: transients after each edge get zero weight.
+    let fit = ctx.fit(&rows, &pulses, &guard, None)?;
+    let (after, dminus) = ctx.after_pulses(&fit, &pulses, lag_s, noise);
+
+    let pulse_results: Vec<PulseResult> = pulses
+        .iter()
+        .zip(&after)
+        .map(|(p, a)| PulseResult {
+            rod: names[p.column].clone(),
+            t_on_s: t[p.start],
+            t_off_s: t.get(p.end).copied().unwrap_or(t[n - 1]),
+            command: p.command,
+            settle_time_s: a.and_then(|a| a.settle_time_s),
+            step_nt: a.map(|a| a.step_nt.into()),
+            step_sigma_nt: a.map(|a| a.step_sigma_nt.into()),
+        })
+        .collect();
+    let angle_max_deg = plan
+        .limits
+        .polarity_angle_max_deg
+        .unwrap_or(DEFAULT_ANGLE_MAX_DEG);
+    let angle_max_source = if plan.limits.polarity_angle_max_deg.is_some() {
+        "plan"
+    } else {
+        warnings.push(format!("the plan sets no [limits] polarity_angle_max_deg: the default {DEFAULT_ANGLE_MAX_DEG}° is used"));
+        "default"
+    };
+    let measured: Vec<verdict::Measured> = (0..n_rods)
+        .map(|c| {
+            let mine: Vec<(&Pulse, &AfterPulse)> = pulses
+                .iter()
+                .zip(&after)
+                .filter(|(p, _)| p.column == c)
+                .filter_map(|(p, a)| a.as_ref().map(|a| (p, a)))
+                .collect();
+            let rem_index = rem
+                .iter()
+                .position(|(rc, _)| *rc == c)
+                .map(|r| columns.len() + r);
+            verdict::Measured::new(&fit, c, rem_index, &mine)
+        })
+        .collect();
+    let rods = verdict::judge(
+        plan,
+        &sensor.position_m,
+        &sensor.sensor_to_body,
+        &measured,
+        angle_max_deg.to_radians(),
+        req.snr_min,
+        &mut warnings,
+    )?;
+    let pass = rods.iter().all(|r| r.verdict == Verdict::Ok);
+    let coupling_matrix_nt_per_command = (0..3)
+        .map(|a| rods.iter().map(|r| r.coupling_nt_per_command[a]).collect())
+        .collect();
+    let series = ctx.series(&fit, &rows, &dminus);
+    Ok(PolarityResult {
+        rods,
+        lag_s,
+        pass,
+        angle_max_deg,
+        angle_max_source,
+        snr_min: req.snr_min,
+        sensor: sensor.kind,
+        coupling_matrix_nt_per_command,
+        noise_sigma_nt: noise,
+        residual_sigma_nt: std::array::from_fn(|a| fit.residual_sigma(a)),
+        drift: basis.describe(),
+        samples_used: fit.rows_used,
+        pulses: pulse_results,
+        warnings,
+        series,
+    })
+}
+
+/// Coupling of command column `c`, sensor frame, nT per command unit.
+fn coupling(fit: &LinearFit, c: usize) -> Vector3<f64> {
+    Vector3::from_fn(|a, _| fit.coefficients[(c, a)])
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,301 @@
+//! The least-squares passes of the polarity check and what is measured from them: one
+//! fit with lag-shifted commands, remanence and drift terms; transient rows after edges;
+//! the field minus drift; settle times and steps after pulses; decimated plot series.
+
+use crate::fit::linear::{LinearFit, LinearLeastSquares};
+use crate::Error;
+
+use super::timing::{self, AfterPulse, Pulse};
+use super::PolaritySeries;
+
+/// What every fitting pass shares.
+pub(super) struct FitContext<'a> {
+    pub(super) t: &'a [f64],
+    pub(super) b: &'a [Vec<f64>; 3],
+    pub(super) columns: &'a [&'a [f64]],
+    pub(super) names: &'a [String],
+    /// Held sign of the last pulse, per command column that has one.
+    pub(super) rem: &'a [(usize, Vec<f64>)],
+    /// Rows never used: saturated readings.
+    pub(super) excluded: Vec<bool>,
+    /// Lag, s (only for guard windows; the fit's shift comes as `rows`).
+    pub(super) lag_s: f64,
+    pub(super) basis: &'a timing::DriftBasis,
+    pub(super) centre: [f64; 3],
+}
+
+#[allow(clippy::needless_range_loop)] // rows, shifted rows and columns are indexed together
+impl FitContext<'_> {
+    /// One least-squares pass with lag-shifted commands; rows within `guard[c]` seconds
+    /// after an edge of command column c get zero weight.
+    pub(super) fn fit(
+        &self,
+        rows: &[Option<usize>],
+        pulses: &[Pulse],
+        guard: &[f64],
+        reject: Option<&[bool]>,
+    ) -> Result<LinearFit, Error> {
+        let nc = self.columns.len();
+        let nr = self.rem.len();
+        let nd = self.basis.len();
+        let mut names: Vec<String> = self.names.iter().map(|n| format!("cmd_{n}")).collect();
+        names.extend(
+            self.rem
+                .iter()
+                .map(|(c, _)| format!("remanence_{}", self.names[*c])),
+        );
+        names.extend(self.basis.names());
+        let mut ls = LinearLeastSquares::new(names, 3)?;
+        let mut weight = vec![1.0; self.t.len()];
+        let n = self.t.len();
+        for (i, w) in weight.iter_mut().enumerate() {
+            if rows[i].is_none() || self.excluded[i] || reject.is_some_and(|r| r[i]) {
+                *w = 0.0;
+            }
+        }
+        for p in pulses {
+            let g = guard[p.column];
+            if g <= 0.0 {
+                continue;
+            }
+            for edge in [p.start, p.end] {
+                let Some(&t_edge) = self.t.get(edge) else {
+                    continue;
+                };
+                let lo = self
+                    .t
+                    .partition_point(|&x| x < t_edge + self.lag_s.min(0.0));
+                let hi = self.t.partition_point(|&x| x < t_edge + g);
+                weight[lo..hi].iter_mut().for_each(|w| *w = 0.0);
+            }
+        }
+        let mut x = vec![0.0; nc + nr + nd];
+        let mut idx: Vec<usize> = Vec::with_capacity(nc + nr + nd);
+        let mut vals: Vec<f64> = Vec::with_capacity(nc + nr + nd);
+        for i in 0..n {
+            let Some(j) = rows[i] else { continue };
+            if weight[i] <= 0.0 {
+                continue;
+            }
+            idx.clear();
+            vals.clear();
+            for (c, col) in self.columns.iter().enumerate() {
+                idx.push(c);
+                vals.push(col[j]);
+            }
+            for (r, (_, state)) in self.rem.iter().enumerate() {
+                idx.push(nc + r);
+                vals.push(state[j]);
+            }
+            let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
+            for k in range {
+                idx.push(nc + nr + k);
+                vals.push(x[nc + nr + k]);
+            }
+            let y = [
+                self.b[0][i] - self.centre[0],
+                self.b[1][i] - self.centre[1],
+                self.b[2][i] - self.centre[2],
+            ];
+            ls.add_sparse_row(&idx, &vals, &y, weight[i]);
+        }
+        ls.solve()
+    }
+
+    /// Transient rows after command edges: walking forward from each edge (at most
+    /// `max_s`), rows whose residual exceeds 5 times the larger of the white-noise σ and
+    /// the residuals' robust σ (1.4826·MAD) on any axis, up to the first three rows in a
+    /// row that do not. Only the run right after an edge is taken, so the steady part of
+    /// a pulse can never be set aside. The walk does not stop before the lag has passed.
+    pub(super) fn transients(
+        &self,
+        fit: &LinearFit,
+        rows: &[Option<usize>],
+        noise: [f64; 3],
+        pulses: &[Pulse],
+        max_s: f64,
+    ) -> Vec<bool> {
+        let res = self.residuals(fit, rows);
+        let limit: [f64; 3] = std::array::from_fn(|a| {
+            let mut abs: Vec<f64> = res[a]
+                .iter()
+                .filter(|v| v.is_finite())
+                .map(|v| v.abs())
+                .collect();
+            let robust = 1.4826 * timing::median(&mut abs).unwrap_or(0.0);
+            5.0 * robust.max(noise[a]).max(1e-9)
+        });
+        let off = |i: usize| (0..3).any(|a| res[a][i].is_finite() && res[a][i].abs() > limit[a]);
+        let n = self.t.len();
+        let mut reject = vec![false; n];
+        for p in pulses {
+            for edge in [p.start, p.end] {
+                let Some(&t_edge) = self.t.get(edge) else {
+                    continue;
+                };
+                let lo = self
+                    .t
+                    .partition_point(|&x| x < t_edge + self.lag_s.min(0.0));
+                let hi = self.t.partition_point(|&x| x < t_edge + max_s);
+                let mut quiet = 0;
+                let mut last_off = None;
+                for i in lo..hi {
+                    if off(i) {
+                        last_off = Some(i);
+                        quiet = 0;
+                    } else {
+                        quiet += 1;
+                        // Before the lag has passed the model and the data agree trivially.
+                        if quiet >= 3 && self.t[i] >= t_edge + self.lag_s {
+                            break;
+                        }
+                    }
+                }
+                if let Some(last) = last_off {
+                    reject[lo..=last].iter_mut().for_each(|r| *r = true);
+                }
+            }
+        }
+        reject
+    }
+
+    /// Residual of every row per axis (NaN for rows without a shifted command).
+    pub(super) fn residuals(&self, fit: &LinearFit, rows: &[Option<usize>]) -> [Vec<f64>; 3] {
+        let p = fit.names.len();
+        let mut x = vec![0.0; p];
+        let nc = self.columns.len();
+        let nr = self.rem.len();
+        let mut out: [Vec<f64>; 3] = std::array::from_fn(|_| Vec::with_capacity(self.t.len()));
+        for i in 0..self.t.len() {
+            let Some(j) = rows[i] else {
+                out.iter_mut().for_each(|o| o.push(f64::NAN));
+                continue;
+            };
+            {
+                for (c, col) in self.columns.iter().enumerate() {
+                    x[c] = col[j];
+                }
+                for (r, (_, state)) in self.rem.iter().enumerate() {
+                    x[nc + r] = state[j];
+                }
+                let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
+                let used = (0..nc + nr).chain(range.start + nc + nr..range.end + nc + nr);
+                for (a, o) in out.iter_mut().enumerate() {
+                    let model: f64 = used.clone().map(|q| x[q] * fit.coefficients[(q, a)]).sum();
+                    o.push(self.b[a][i] - self.centre[a] - model);
+                }
+            }
+        }
+        out
+    }
+
+    /// Field minus the fitted drift (and centre), per axis.
+    pub(super) fn minus_drift(&self, fit: &LinearFit) -> [Vec<f64>; 3] {
+        let nc = self.columns.len() + self.rem.len();
+        let nd = self.basis.len();
+        let mut out: [Vec<f64>; 3] = std::array::from_fn(|_| Vec::with_capacity(self.t.len()));
+        let mut basis = vec![0.0; nd];
+        for i in 0..self.t.len() {
+            self.basis.fill(self.t[i], &mut basis);
+            for (a, o) in out.iter_mut().enumerate() {
+                let drift: f64 = (0..nd)
+                    .map(|k| basis[k] * fit.coefficients[(nc + k, a)])
+                    .sum();
+                o.push(self.b[a][i] - self.centre[a] - drift);
+            }
+        }
+        out
+    }
+
+    /// Settle time and step after every pulse whose off window is free of other pulses.
+    pub(super) fn after_pulses(
+        &self,
+        fit: &LinearFit,
+        pulses: &[Pulse],
+        lag_s: f64,
+        noise: [f64; 3],
+    ) -> (Vec<Option<AfterPulse>>, [Vec<f64>; 3]) {
+        let d = self.minus_drift(fit);
+        let n = self.t.len();
+        let t = self.t;
+        // Row at or after a time.
+        let row_at = |time: f64| t.partition_point(|&x| x < time);
+        // Latest end among earlier pulses, earliest start among later ones.
+        let mut prev_ends = Vec::with_capacity(pulses.len());
+        let mut latest = 0;
+        for p in pulses {
+            prev_ends.push(latest);
+            latest = latest.max(p.end);
+        }
+        let mut next_starts = vec![n; pulses.len()];
+        let mut earliest = n;
+        for (k, p) in pulses.iter().enumerate().rev() {
+            next_starts[k] = earliest;
+            earliest = earliest.min(p.start);
+        }
+        let out = pulses
+            .iter()
+            .enumerate()
+            .map(|(k, p)| {
+                if p.end >= n {
+                    return None;
+                }
+                let prev_end = prev_ends[k];
+                if prev_end > p.start {
+                    return None; // overlapping pulses: no clean window
+                }
+                let next_start = next_starts[k];
+                if next_start < p.end {
+                    return None;
+                }
+                let shift = |row: usize| {
+                    row_at(t.get(row).copied().unwrap_or(t[n - 1] + 1.0) + lag_s.max(0.0)).min(n)
+                };
+                // A window ends where the next command starts (its response cannot come
+                // earlier unless the lag is negative).
+                let end_at = |row: usize| {
+                    row_at(t.get(row).copied().unwrap_or(t[n - 1] + 1.0) + lag_s.min(0.0)).min(n)
+                };
+                let pre = shift(prev_end)..end_at(p.start).max(shift(prev_end));
+                let post = shift(p.end)..end_at(next_start).max(shift(p.end));
+                timing::after_pulse(&d, t, pre, post, t[p.end], noise)
+            })
+            .collect();
+        (out, d)
+    }
+
+    /// Decimated series for plots.
+    pub(super) fn series(
+        &self,
+        fit: &LinearFit,
+        rows: &[Option<usize>],
+        d: &[Vec<f64>; 3],
+    ) -> PolaritySeries {
+        let n = self.t.len();
+        let step = n.div_ceil(PolaritySeries::MAX_POINTS).max(1);
+        let mut s = PolaritySeries {
+            commands: vec![Vec::new(); self.columns.len()],
+            ..Default::default()
+        };
+        for i in (0..n).step_by(step) {
+            s.t_s.push(self.t[i]);
+            for a in 0..3 {
+                s.field_minus_drift_nt[a].push(d[a][i]);
+                let m: f64 = match rows[i] {
+                    Some(j) => self
+                        .columns
+                        .iter()
+                        .enumerate()
+                        .map(|(c, col)| col[j] * fit.coefficients[(c, a)])
+                        .sum(),
+                    None => 0.0,
+                };
+                s.model_nt[a].push(m);
+            }
+            for (c, col) in self.columns.iter().enumerate() {
+                s.commands[c].push(rows[i].map_or(0.0, |j| col[j]));
+            }
+        }
+        s
+    }
+}

@@ -1,0 +1,304 @@
+//! Round trips through `sim::polarity`: known wiring faults, lag, drift and noise must
+//! come back as the right verdicts and numbers.
+
+use std::path::Path;
+
+use approx::assert_relative_eq;
+use nalgebra::Vector3;
+
+use super::*;
+use crate::log::plan::parse_plan;
+use crate::log::read_sweep_from;
+use crate::sim::polarity::{simulate_polarity, PolarityConfig, PolaritySim};
+
+fn check(sim: &PolaritySim) -> PolarityResult {
+    let plan = parse_plan(&sim.plan_toml, Path::new("sim.plan.toml")).unwrap();
+    let log = read_sweep_from(
+        sim.csv.as_bytes(),
+        Path::new("sim.csv"),
+        &Default::default(),
+        &mut |_| {},
+    )
+    .unwrap();
+    run_polarity(&PolarityRequest::new(&log, &plan)).unwrap()
+}
+
+fn verdicts(r: &PolarityResult) -> Vec<&'static str> {
+    r.rods.iter().map(|r| r.verdict.as_str()).collect()
+}
+
+#[test]
+fn healthy_rods_pass_with_coupling_lag_and_gain() {
+    let sim = simulate_polarity(&PolarityConfig::default(), 11).unwrap();
+    let r = check(&sim);
+    eprintln!("{}", serde_json::to_string_pretty(&r).unwrap());
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+    assert!(r.pass);
+    for (rod, truth) in r.rods.iter().zip(&sim.truth.rods) {
+        let c = Vector3::from(rod.coupling_nt_per_command);
+        let t = Vector3::from(truth.coupling_nt_per_command);
+        assert!((c - t).norm() < 0.03 * t.norm(), "{}: {c} vs {t}", rod.name);
+        assert_relative_eq!(
+            rod.gain_ratio.unwrap(),
+            truth.gain_ratio,
+            max_relative = 0.03
+        );
+        assert!(rod.angle_to_expected_deg.unwrap() < 2.0);
+    }
+    assert!((r.lag_s - sim.truth.lag_s).abs() < 0.02, "lag {}", r.lag_s);
+}
+
+fn assert_close(got: [f64; 3], want: [f64; 3], tol_nt: f64, what: &str) {
+    let d = Vector3::from(got) - Vector3::from(want);
+    assert!(d.norm() < tol_nt, "{what}: got {got:?}, want {want:?}");
+}
+
+#[test]
+fn remanence_and_settle_time_are_measured() {
+    let sim = simulate_polarity(&PolarityConfig::default(), 12).unwrap();
+    let r = check(&sim);
+    for (rod, truth) in r.rods.iter().zip(&sim.truth.rods) {
+        let rem = rod.remanent_offset_nt.unwrap();
+        assert_close(rem, truth.remanent_offset_nt, 3.0, &rod.name);
+        // Lag 0.03 s plus a 0.02 s first-order fall to within 3σ (3·3 nT of ~2000 nT:
+        // ln(2000/9) ≈ 5.4 time constants ≈ 0.11 s), sampled every 0.02 s.
+        let settle = rod.settle_time_s.unwrap();
+        assert!(
+            settle > 0.08 && settle < 0.25,
+            "{}: settle {settle}",
+            rod.name
+        );
+    }
+}
+
+fn run(cfg: &PolarityConfig, seed: u64) -> (PolaritySim, PolarityResult) {
+    let sim = simulate_polarity(cfg, seed).unwrap();
+    let r = check(&sim);
+    (sim, r)
+}
+
+#[test]
+fn reversed_rod_is_called_reversed_and_fails() {
+    let mut cfg = PolarityConfig::default();
+    cfg.rods[1].reversed = true;
+    let (sim, r) = run(&cfg, 21);
+    assert_eq!(verdicts(&r), ["ok", "reversed", "ok"]);
+    assert!(!r.pass);
+    let y = &r.rods[1];
+    assert!(y.angle_to_expected_deg.unwrap() > 178.0);
+    assert_close(
+        y.coupling_nt_per_command,
+        sim.truth.rods[1].coupling_nt_per_command,
+        40.0,
+        "y",
+    );
+}
+
+#[test]
+fn swapped_rods_are_wrong_axis_and_name_each_other() {
+    let cfg = PolarityConfig {
+        swapped: Some((0, 1)),
+        ..Default::default()
+    };
+    let (_, r) = run(&cfg, 22);
+    assert_eq!(verdicts(&r), ["wrong-axis", "wrong-axis", "ok"]);
+    assert_eq!(r.rods[0].matches_rod.as_deref(), Some("y"));
+    assert_eq!(r.rods[1].matches_rod.as_deref(), Some("x"));
+    assert_eq!(r.rods[0].matches_reversed, Some(false));
+}
+
+#[test]
+fn dead_rod_is_no_response() {
+    let mut cfg = PolarityConfig::default();
+    cfg.rods[2].gain = 0.0;
+    cfg.rods[2].remanent_am2 = 0.0;
+    let (_, r) = run(&cfg, 23);
+    assert_eq!(verdicts(&r), ["ok", "ok", "no-response"]);
+    assert!(r.rods[2].snr < 5.0);
+}
+
+// Pure delay of 2.5 samples with edges on the sample grid: a step is only seen at the
+// next sample, so the estimate can be off by up to half a sample.
+#[test]
+fn pure_delay_is_found_within_half_a_sample() {
+    let cfg = PolarityConfig {
+        lag_s: 0.05,
+        rise_time_s: 0.0,
+        ..Default::default()
+    };
+    let (_, r) = run(&cfg, 24);
+    assert!((r.lag_s - 0.05).abs() <= 0.0101, "lag {}", r.lag_s);
+}
+
+// With a first-order rise of time constant τ the response's main step comes between the
+// pure delay and delay + τ.
+#[test]
+fn long_lag_with_rise_time_is_found_and_applied() {
+    let cfg = PolarityConfig {
+        lag_s: 0.2,
+        rise_time_s: 0.02,
+        ..Default::default()
+    };
+    let (sim, r) = run(&cfg, 25);
+    assert!(r.lag_s > 0.19 && r.lag_s < 0.23, "lag {}", r.lag_s);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+    for (rod, t) in r.rods.iter().zip(&sim.truth.rods) {
+        let c = Vector3::from(rod.coupling_nt_per_command);
+        assert!((c - Vector3::from(t.coupling_nt_per_command)).norm() < 0.01 * c.norm());
+    }
+}
+
+// Strong drift and noise: couplings agree with the truth within their stated 1σ (4σ
+// allowed per axis) and the verdicts hold.
+#[test]
+fn strong_drift_and_noise_do_not_leak_into_couplings() {
+    let cfg = PolarityConfig {
+        drift_nt_per_s: Vector3::new(25.0, -40.0, 10.0),
+        wander_nt: 400.0,
+        wander_period_s: 30.0,
+        noise_nt: 40.0,
+        cycles: 4,
+        ..Default::default()
+    };
+    let (sim, r) = run(&cfg, 26);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+    for (rod, t) in r.rods.iter().zip(&sim.truth.rods) {
+        for a in 0..3 {
+            let err = rod.coupling_nt_per_command[a] - t.coupling_nt_per_command[a];
+            let s = rod.coupling_sigma_nt_per_command[a];
+            assert!(
+                err.abs() < 4.0 * s,
+                "{} axis {a}: error {err} vs σ {s}",
+                rod.name
+            );
+        }
+    }
+    assert!((r.noise_sigma_nt[0] - 40.0).abs() < 6.0);
+}
+
+// Broadside to a rod the field opposes its dipole: a healthy rod must be "ok" although
+// its coupling is negative along its own axis (a bare-sign check would call it reversed).
+#[test]
+fn broadside_sensor_sees_opposite_field_and_still_passes() {
+    let mut cfg = PolarityConfig::default();
+    cfg.rods.truncate(1);
+    cfg.rods[0].position_m = Vector3::zeros();
+    cfg.sensor_position_m = Vector3::new(0.0, 0.0, 0.3);
+    let (_, r) = run(&cfg, 27);
+    let x = &r.rods[0];
+    assert_eq!(x.verdict, Verdict::Ok);
+    assert!(x.coupling_nt_per_command[0] < 0.0);
+    // Textbook broadside field −μ0 m/(4π r³) per A·m², here along −x.
+    assert_relative_eq!(
+        x.expected_nt_per_am2[0],
+        -100.0 / 0.027,
+        max_relative = 1e-12
+    );
+}
+
+#[test]
+fn rotated_probe_geometry_is_used() {
+    let cfg = PolarityConfig {
+        as_probe: true,
+        sensor_position_m: Vector3::new(0.25, 0.1, 0.05),
+        sensor_to_body: crate::physics::frames::rotation_from_axes(&["+y", "-x", "+z"]).unwrap(),
+        ..Default::default()
+    };
+    let (_, r) = run(&cfg, 28);
+    assert_eq!(r.sensor, SensorChoice::Probe);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+}
+
+#[test]
+fn rods_with_parallel_expected_fields_are_inconclusive() {
+    let mut cfg = PolarityConfig::default();
+    // Rod y turned to point along x, next to rod x: both give fields along nearly the
+    // same line at the sensor.
+    cfg.rods[1].axis_body = Vector3::x();
+    cfg.rods[1].position_m = Vector3::new(0.0, 0.06, 0.0);
+    let (_, r) = run(&cfg, 29);
+    assert_eq!(verdicts(&r), ["inconclusive", "inconclusive", "ok"]);
+    assert!(!r.pass);
+    assert!(r.warnings.iter().any(|w| w.contains("cannot be seen")));
+}
+
+#[test]
+fn close_sensor_marks_gain_unreliable_and_default_limit_is_said() {
+    let mut cfg = PolarityConfig {
+        angle_max_deg: None,
+        ..Default::default()
+    };
+    cfg.rods[0].length_m = 0.1;
+    let (_, r) = run(&cfg, 30);
+    assert_eq!(r.rods[0].gain_reliable, Some(false));
+    assert_eq!(r.rods[1].gain_reliable, Some(true));
+    assert_eq!(r.angle_max_source, "default");
+    assert!(r.warnings.iter().any(|w| w.contains("30°")));
+    assert!(r
+        .warnings
+        .iter()
+        .any(|w| w.contains("gain ratio is unreliable")));
+}
+
+fn request_error(csv: &str, plan: &str) -> String {
+    let plan = parse_plan(plan, Path::new("p.toml")).unwrap();
+    let log = read_sweep_from(
+        csv.as_bytes(),
+        Path::new("s.csv"),
+        &Default::default(),
+        &mut |_| {},
+    )
+    .unwrap();
+    run_polarity(&PolarityRequest::new(&log, &plan))
+        .unwrap_err()
+        .to_string()
+}
+
+const ONE_ROD: &str = "[magnetometer]\nposition_m = [0, 0, 0.3]\n[[rod]]\nname = \"x\"\naxis_body = [1, 0, 0]\nposition_m = [0, 0, 0]\n";
+
+#[test]
+fn refusals_name_their_reason() {
+    let quiet = "t,bx,by,bz,cmd_x\n0,1,2,3,0\n1,1,2,3,0\n2,1,2,3,0\n";
+    assert!(request_error(quiet, ONE_ROD).contains("no pulses"));
+    let no_col = "t,bx,by,bz,cmd_y\n0,1,2,3,0\n1,1,2,3,1\n2,1,2,3,0\n";
+    assert!(request_error(no_col, ONE_ROD).contains("cmd_x"));
+    let plan_no_rod = "[magnetometer]\nposition_m = [0, 0, 0.3]\n";
+    assert!(request_error(quiet, plan_no_rod).contains("[rod]"));
+    let plan_no_pos = ONE_ROD.replace("position_m = [0, 0, 0.3]\n", "unit = \"nT\"\n");
+    assert!(request_error(quiet, &plan_no_pos).contains("magnetometer.position_m"));
+}
+
+#[test]
+fn readings_at_the_range_are_left_out_and_reported() {
+    let mut sim = simulate_polarity(&PolarityConfig::default(), 31).unwrap();
+    // bz sits near −41 µT and the z rod adds about ±4 µT: the negative pulses reach
+    // beyond 44 µT.
+    sim.plan_toml = sim
+        .plan_toml
+        .replace("unit = \"nT\"", "unit = \"nT\"\nrange_nt = 44000.0");
+    let full = check(&simulate_polarity(&PolarityConfig::default(), 31).unwrap());
+    let r = check(&sim);
+    assert!(
+        r.warnings.iter().any(|w| w.contains("saturated")),
+        "{:?}",
+        r.warnings
+    );
+    assert!(r.samples_used < full.samples_used);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+}
+
+// A logger clock that runs late on the command column makes the response appear to
+// lead: the lag comes out negative and is still applied. Here the delay is exactly five
+// samples, so rounding puts some steps at the fourth sample and some at the fifth: the
+// estimate is good to one sample.
+#[test]
+fn negative_lag_is_reported_as_negative() {
+    let cfg = PolarityConfig {
+        lag_s: -0.1,
+        rise_time_s: 0.0,
+        ..Default::default()
+    };
+    let (_, r) = run(&cfg, 32);
+    assert!((r.lag_s + 0.1).abs() <= 0.0201, "lag {}", r.lag_s);
+    assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
+}

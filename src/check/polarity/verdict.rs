@@ -1,0 +1,309 @@
+//! Per-rod verdicts from the measured couplings and the dipole geometry (DESIGN §7).
+
+use nalgebra::{Matrix3, Vector3};
+use serde::Serialize;
+
+use super::timing::{AfterPulse, Pulse};
+use super::DIPOLE_VALID_ROD_LENGTHS;
+use crate::fit::linear::LinearFit;
+use crate::log::Plan;
+use crate::physics::dipole::dipole_matrix;
+use crate::physics::frames::angle_between;
+use crate::Error;
+
+/// A rod's verdict.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Verdict {
+    /// The response lies within the angle limit of the expected direction.
+    Ok,
+    /// The response lies within the angle limit of the opposite of the expected direction.
+    Reversed,
+    /// The response matches another rod's expected direction (or its opposite).
+    WrongAxis,
+    /// The response is below the SNR threshold.
+    NoResponse,
+    /// The data cannot tell: the response matches no rod, or two rods' expected
+    /// directions at the sensor are too close to tell a swap.
+    Inconclusive,
+}
+
+impl Verdict {
+    /// The verdict as a word, as in the JSON.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Verdict::Ok => "ok",
+            Verdict::Reversed => "reversed",
+            Verdict::WrongAxis => "wrong-axis",
+            Verdict::NoResponse => "no-response",
+            Verdict::Inconclusive => "inconclusive",
+        }
+    }
+}
+
+impl std::fmt::Display for Verdict {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// One rod's result; the first six keys are those of DESIGN §7.
+#[derive(Debug, Clone, Serialize)]
+pub struct RodResult {
+    /// Rod name.
+    pub name: String,
+    /// Verdict.
+    pub verdict: Verdict,
+    /// Angle between measured and expected response, deg; null if the coupling is zero.
+    pub angle_to_expected_deg: Option<f64>,
+    /// Measured response per unit command, sensor frame (S), nT per command unit.
+    pub coupling_nt_per_command: [f64; 3],
+    /// |coupling| over its 1σ along its own direction.
+    pub snr: f64,
+    /// Dipole inferred from the coupling through the geometry over the nominal
+    /// `dipole_per_command_am2`; null without a nominal.
+    pub gain_ratio: Option<f64>,
+    /// 1σ of `gain_ratio`.
+    pub gain_ratio_sigma: Option<f64>,
+    /// False when the sensor is closer than three rod lengths (point-dipole model
+    /// doubtful; common practice); null when the plan gives no `length_m`.
+    pub gain_reliable: Option<bool>,
+    /// 1σ of the coupling per sensor axis, nT per command unit.
+    pub coupling_sigma_nt_per_command: [f64; 3],
+    /// 1σ of the angle, deg.
+    pub angle_sigma_deg: Option<f64>,
+    /// Expected field at the sensor per A·m² of this rod's positive dipole, sensor
+    /// frame (S), nT/(A·m²).
+    pub expected_nt_per_am2: [f64; 3],
+    /// Dipole inferred from the coupling: |coupling| / |expected per A·m²|, A·m² per
+    /// command unit.
+    pub dipole_per_command_am2: f64,
+    /// For `wrong-axis`: the rod whose expected direction the response matches.
+    pub matches_rod: Option<String>,
+    /// For `wrong-axis`: whether it matches that rod's direction reversed.
+    pub matches_reversed: Option<bool>,
+    /// Distance rod centre → sensor, m.
+    pub distance_m: f64,
+    /// Longest settle time over this rod's pulses, s, from command off (includes the
+    /// lag): what a magnetometer blanking window must cover. Null if none was measured.
+    pub settle_time_s: Option<f64>,
+    /// Remanent field once the rod is off after a positive pulse (the opposite after a
+    /// negative one): half the difference between the two, sensor frame, nT; fitted with
+    /// the couplings (rows before the first pulse are taken to sit at the midpoint).
+    /// Null when the rod was pulsed with one sign only.
+    pub remanent_offset_nt: Option<[f64; 3]>,
+    /// 1σ of `remanent_offset_nt` per axis, nT.
+    pub remanent_offset_sigma_nt: Option<[f64; 3]>,
+    /// Why this verdict, in words.
+    pub note: String,
+}
+
+/// What was measured for one rod.
+pub struct Measured {
+    coupling: Vector3<f64>,
+    cov: Matrix3<f64>,
+    settle_time_s: Option<f64>,
+    remanent: Option<(Vector3<f64>, Vector3<f64>)>,
+}
+
+impl Measured {
+    /// From the final fit (command column `c`) and the rod's pulses.
+    pub fn new(
+        fit: &LinearFit,
+        c: usize,
+        rem_index: Option<usize>,
+        pulses: &[(&Pulse, &AfterPulse)],
+    ) -> Self {
+        let coupling = Vector3::from_fn(|a, _| fit.coefficients[(c, a)]);
+        let cov = Matrix3::from_fn(|a, b| fit.covariance(c, a, c, b));
+        let settle_time_s = pulses
+            .iter()
+            .filter_map(|(_, a)| a.settle_time_s)
+            .reduce(f64::max);
+        let remanent = rem_index.map(|r| {
+            let v = Vector3::from_fn(|a, _| fit.coefficients[(r, a)]);
+            let s = Vector3::from_fn(|a, _| fit.covariance(r, a, r, a).max(0.0).sqrt());
+            (v, s)
+        });
+        Self {
+            coupling,
+            cov,
+            settle_time_s,
+            remanent,
+        }
+    }
+}
+
+/// Angle between the lines through a and b (0..90°), rad.
+fn line_angle(a: &Vector3<f64>, b: &Vector3<f64>) -> Option<f64> {
+    let x = angle_between(a, b)?;
+    Some(x.min(std::f64::consts::PI - x))
+}
+
+/// Give every plan rod its verdict.
+pub fn judge(
+    plan: &Plan,
+    sensor_position_m: &Vector3<f64>,
+    sensor_to_body: &Matrix3<f64>,
+    measured: &[Measured],
+    angle_max_rad: f64,
+    snr_min: f64,
+    warnings: &mut Vec<String>,
+) -> Result<Vec<RodResult>, Error> {
+    let body_to_sensor = sensor_to_body.transpose();
+    let mut expected = Vec::with_capacity(plan.rods.len());
+    for (i, rod) in plan.rods.iter().enumerate() {
+        let r = sensor_position_m - rod.position_m;
+        let g = dipole_matrix(&r).ok_or_else(|| {
+            plan.invalid(
+                &format!("rod[{i}].position_m"),
+                "the rod sits at the sensor's position: its field there is undefined",
+            )
+        })?;
+        expected.push(body_to_sensor * g * rod.axis_body);
+    }
+    // Pairs whose expected directions at the sensor cannot be told apart.
+    let mut ambiguous: Vec<Vec<usize>> = vec![Vec::new(); expected.len()];
+    for i in 0..expected.len() {
+        for j in i + 1..expected.len() {
+            if line_angle(&expected[i], &expected[j]).is_some_and(|a| a < angle_max_rad) {
+                ambiguous[i].push(j);
+                ambiguous[j].push(i);
+                warnings.push(format!(
+                    "rods \"{}\" and \"{}\" produce fields along nearly the same line at the sensor ({:.1}° apart, limit {:.1}°): a swap between them cannot be seen, both are inconclusive; move the sensor or use a probe elsewhere",
+                    plan.rods[i].name,
+                    plan.rods[j].name,
+                    line_angle(&expected[i], &expected[j]).unwrap_or(0.0).to_degrees(),
+                    angle_max_rad.to_degrees()
+                ));
+            }
+        }
+    }
+    let mut out = Vec::with_capacity(plan.rods.len());
+    for (i, (rod, m)) in plan.rods.iter().zip(measured).enumerate() {
+        let c = m.coupling;
+        let e = expected[i];
+        let norm = c.norm();
+        let sigma_c = Vector3::from_fn(|a, _| m.cov[(a, a)].max(0.0).sqrt());
+        let (snr, angle_sigma) = match c.try_normalize(0.0) {
+            Some(u) => {
+                let along = (u.transpose() * m.cov * u)[0].max(0.0).sqrt();
+                let perp = ((m.cov.trace() - along * along).max(0.0) / 2.0).sqrt();
+                (
+                    if along > 0.0 {
+                        norm / along
+                    } else {
+                        f64::INFINITY
+                    },
+                    Some((perp / norm).atan().to_degrees()),
+                )
+            }
+            None => (0.0, None),
+        };
+        let angle = angle_between(&c, &e);
+        let e_norm = e.norm();
+        let dipole = norm / e_norm;
+        let (gain_ratio, gain_ratio_sigma) = match rod.dipole_per_command_am2 {
+            Some(m0) if snr.is_finite() => (Some(dipole / m0), Some(dipole / m0 / snr)),
+            Some(m0) => (Some(dipole / m0), Some(0.0)),
+            None => (None, None),
+        };
+        let distance_m = (sensor_position_m - rod.position_m).norm();
+        let gain_reliable = rod
+            .length_m
+            .map(|l| distance_m >= DIPOLE_VALID_ROD_LENGTHS * l);
+        if gain_reliable == Some(false) {
+            warnings.push(format!(
+                "rod \"{}\": the sensor is {:.3} m away, less than {DIPOLE_VALID_ROD_LENGTHS} rod lengths ({:.3} m): the point-dipole model is doubtful there, so the gain ratio is unreliable (the polarity verdict still holds)",
+                rod.name, distance_m, DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0)
+            ));
+        }
+        let mut matches_rod = None;
+        let mut matches_reversed = None;
+        let deg = |x: f64| x.to_degrees();
+        let (verdict, note) = if snr < snr_min {
+            (
+                Verdict::NoResponse,
+                format!("SNR {snr:.1} is below {snr_min}: no measurable response (check wiring, driver and that the rod was powered)"),
+            )
+        } else if !ambiguous[i].is_empty() {
+            let others: Vec<&str> = ambiguous[i]
+                .iter()
+                .map(|&j| plan.rods[j].name.as_str())
+                .collect();
+            (
+                Verdict::Inconclusive,
+                format!(
+                    "expected direction too close to that of rod {} to tell a swap",
+                    others.join(", ")
+                ),
+            )
+        } else if let Some(a) = angle.filter(|a| *a <= angle_max_rad) {
+            (Verdict::Ok, format!("{:.1}° from expected", deg(a)))
+        } else if let Some(a) = angle.filter(|a| std::f64::consts::PI - a <= angle_max_rad) {
+            (
+                Verdict::Reversed,
+                format!(
+                    "{:.1}° from the reverse of expected: the rod pushes backwards",
+                    deg(std::f64::consts::PI - a)
+                ),
+            )
+        } else {
+            let best = (0..expected.len())
+                .filter(|&j| j != i)
+                .filter_map(|j| Some((j, angle_between(&c, &expected[j])?)))
+                .map(|(j, a)| {
+                    (
+                        j,
+                        a.min(std::f64::consts::PI - a),
+                        a > std::f64::consts::FRAC_PI_2,
+                    )
+                })
+                .min_by(|x, y| x.1.total_cmp(&y.1));
+            match best {
+                Some((j, a, rev)) if a <= angle_max_rad => {
+                    matches_rod = Some(plan.rods[j].name.clone());
+                    matches_reversed = Some(rev);
+                    (
+                        Verdict::WrongAxis,
+                        format!(
+                            "responds like rod \"{}\"{} ({:.1}° from it): commands or wiring swapped?",
+                            plan.rods[j].name,
+                            if rev { " reversed" } else { "" },
+                            deg(a)
+                        ),
+                    )
+                }
+                _ => (
+                    Verdict::Inconclusive,
+                    format!(
+                        "{:.1}° from expected, and matches no other rod: check sensor_to_body, positions and axes in the plan",
+                        angle.map_or(f64::NAN, deg)
+                    ),
+                ),
+            }
+        };
+        out.push(RodResult {
+            name: rod.name.clone(),
+            verdict,
+            angle_to_expected_deg: angle.map(deg),
+            coupling_nt_per_command: c.into(),
+            snr,
+            gain_ratio,
+            gain_ratio_sigma,
+            gain_reliable,
+            coupling_sigma_nt_per_command: sigma_c.into(),
+            angle_sigma_deg: angle_sigma,
+            expected_nt_per_am2: e.into(),
+            dipole_per_command_am2: dipole,
+            matches_rod,
+            matches_reversed,
+            distance_m,
+            settle_time_s: m.settle_time_s,
+            remanent_offset_nt: m.remanent.map(|r| r.0.into()),
+            remanent_offset_sigma_nt: m.remanent.map(|r| r.1.into()),
+            note,
+        });
+    }
+    Ok(out)
+}
