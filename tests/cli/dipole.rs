@@ -108,7 +108,7 @@ fn log_without_background_rows_exits_2_with_the_reason() {
         .lines()
         .filter(|l| !l.ends_with(",none"))
         .collect();
-    dir.write("nobg.csv", &csv.join("\n"));
+    dir.write("nobg.csv", csv.join("\n"));
     dir.magproof()
         .args(["dipole", "nobg.csv", "--plan", &plan])
         .assert()
@@ -189,7 +189,7 @@ fn unknown_mount_label_exits_2_naming_file_and_line() {
     let dir = TestDir::new();
     let sim = simulate_turntable(&TurntableConfig::default(), 108).unwrap();
     let (_, plan) = write_sim(&dir, &sim);
-    dir.write("bad.csv", &sim.log_csv.replacen(",upright", ",flipped", 1));
+    dir.write("bad.csv", sim.log_csv.replacen(",upright", ",flipped", 1));
     dir.magproof()
         .args(["dipole", "bad.csv", "--plan", &plan])
         .assert()
