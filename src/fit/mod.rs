@@ -1,2 +1,11 @@
 //! Fits: algebraic ellipsoid fit, geometric refinement with argmin, linear cage fit,
 //! dipole fit, robust weights and covariance (DESIGN §8).
+
+pub mod cage;
+pub mod coverage;
+pub mod ellipsoid;
+pub mod lm;
+pub mod tumble;
+
+pub use error::FitError;
+mod error;

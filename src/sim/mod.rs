@@ -1,1 +1,9 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
+
+pub mod cage;
+pub mod tumble;
+
+pub use cage::{simulate_cage, write_cage_csv, CageConfig, CageGrid, CageSim, CageTruth};
+pub use tumble::{
+    simulate_tumble, write_tumble_csv, SimCoverage, TumbleConfig, TumbleSim, TumbleTruth,
+};
