@@ -1,6 +1,7 @@
 //! Command-line front end: clap definitions (one file per subcommand), turning flags into
 //! validated library requests, and terminal output. The library never sees clap types.
 
+mod calibrate;
 mod common;
 mod inspect;
 
@@ -25,6 +26,8 @@ pub struct Cli {
 enum Command {
     /// Read a log (and a plan) and say what was found, without fitting anything.
     Inspect(inspect::Args),
+    /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
+    Calibrate(calibrate::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -32,6 +35,7 @@ pub fn run() -> anyhow::Result<Outcome> {
     let cli = Cli::parse();
     match cli.command {
         Command::Inspect(args) => inspect::run(args),
+        Command::Calibrate(args) => calibrate::run(args),
     }
 }
 

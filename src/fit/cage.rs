@@ -27,6 +27,9 @@ pub struct CageFit {
     pub response: Matrix3<f64>,
     /// 1σ of each element of A.
     pub response_sigma: Matrix3<f64>,
+    /// Covariance of row a of A (the response of sensor axis a), one 3×3 per axis.
+    /// Rows are independent of each other.
+    pub response_row_cov: [Matrix3<f64>; 3],
     /// Hard iron b₀, sensor frame, nT.
     pub hard_iron_nt: Vector3<f64>,
     /// 1σ of b₀ per axis, nT.
@@ -168,9 +171,12 @@ pub fn fit_cage(
     } else {
         (None, None)
     };
+    let response_row_cov =
+        [0, 1, 2].map(|a| Matrix3::from_fn(|j, l| axis_var[a] * xtx_inv[(j, l)]));
     Ok(CageFit {
         response,
         response_sigma,
+        response_row_cov,
         hard_iron_nt: Vector3::new(beta[(3, 0)], beta[(3, 1)], beta[(3, 2)]),
         hard_iron_sigma_nt: Vector3::new(sd(3, 0), sd(3, 1), sd(3, 2)),
         temp_slope_nt_per_c: slope,
@@ -225,6 +231,24 @@ pub fn polar_decomposition(a: &Matrix3<f64>) -> Option<(Matrix3<f64>, Matrix3<f6
     let r = u * v_t;
     let s = v_t.transpose() * Matrix3::from_diagonal(&svd.singular_values) * v_t;
     Some((r, 0.5 * (s + s.transpose())))
+}
+
+/// 1σ of each element of W = A⁻¹ by first-order propagation,
+/// dW = −W dA W, with the per-row covariances of A (rows independent).
+pub fn inverse_sigma(a_inv: &Matrix3<f64>, row_cov: &[Matrix3<f64>; 3]) -> Matrix3<f64> {
+    Matrix3::from_fn(|i, j| {
+        let mut var = 0.0;
+        for k in 0..3 {
+            // dW_ij = −Σ_l W_ik W_lj dA_kl: a linear form g·dA_k· with g_l = W_ik W_lj.
+            let g = Vector3::new(
+                a_inv[(i, k)] * a_inv[(0, j)],
+                a_inv[(i, k)] * a_inv[(1, j)],
+                a_inv[(i, k)] * a_inv[(2, j)],
+            );
+            var += (g.transpose() * row_cov[k] * g)[0];
+        }
+        var.max(0.0).sqrt()
+    })
 }
 
 /// Rotation angle of a rotation matrix, rad (0..π).
