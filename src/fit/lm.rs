@@ -12,6 +12,11 @@
 //! build a dense Jacobian through argmin's `Operator` + `Jacobian` traits are adapted
 //! by [`DenseProblem`].
 //!
+//! Convergence is judged statistically where possible: the solve stops when the
+//! Gauss–Newton step still available would move the parameters by less than 1e-4 of
+//! their standard error (Newton decrement `−Jᵀr·δ_GN < 1e-8 · Σr²/(n − p)`), or when a
+//! step lowers the cost by less than a relative 1e-12, or the step is negligible.
+//!
 //! The cost is Σ rᵢ² (not ½Σ rᵢ²). The termination reason is always read by
 //! [`solve`]: only [`LmTermination::Converged`] is a clean finish; the caller turns the
 //! others into warnings.
@@ -36,6 +41,8 @@ pub struct NormalEquations {
     pub jtr: DVector<f64>,
     /// Σ rᵢ², in the residual's unit squared.
     pub sum_sq: f64,
+    /// Number of residuals that entered the sums (for the noise estimate Σr²/(n − p)).
+    pub residual_count: usize,
 }
 
 /// A least-squares problem as the solver sees it.
@@ -67,6 +74,7 @@ where
             jtj: j.tr_mul(&j),
             jtr: j.tr_mul(&r),
             sum_sq: r.norm_squared(),
+            residual_count: r.len(),
         })
     }
 }
@@ -80,7 +88,7 @@ pub struct LevenbergMarquardt {
     lambda: f64,
     ftol: f64,
     xtol: f64,
-    gtol: f64,
+    decrement_tol: f64,
     cached: Option<NormalEquations>,
 }
 
@@ -90,7 +98,7 @@ impl Default for LevenbergMarquardt {
             lambda: 1e-3,
             ftol: 1e-12,
             xtol: 1e-12,
-            gtol: 1e-10,
+            decrement_tol: 1e-8,
             cached: None,
         }
     }
@@ -98,7 +106,7 @@ impl Default for LevenbergMarquardt {
 
 impl LevenbergMarquardt {
     /// Solver with the default tolerances (relative cost change 1e-12, relative step
-    /// 1e-12, scaled gradient 1e-10) and initial damping 1e-3.
+    /// 1e-12, Newton decrement 1e-8 of the noise variance) and initial damping 1e-3.
     pub fn new() -> Self {
         Self::default()
     }
@@ -153,11 +161,17 @@ impl<O: LeastSquaresProblem> Solver<O, LmState> for LevenbergMarquardt {
         };
         let cost = ne.sum_sq;
         let np = p.len();
-        // Scaled gradient test: |Jᵀr|_i / sqrt((JᵀJ)_ii · Σr²).
-        let gmax = (0..np)
-            .map(|i| ne.jtr[i].abs() / (ne.jtj[(i, i)] * cost).sqrt().max(f64::MIN_POSITIVE))
-            .fold(0.0, f64::max);
-        if gmax <= self.gtol || cost == 0.0 {
+        // Newton decrement: the cost decrease a full Gauss–Newton step would bring,
+        // against the noise variance Σr²/(n − p).
+        let dof = ne.residual_count.saturating_sub(np).max(1) as f64;
+        let decrement = ne
+            .jtj
+            .clone()
+            .cholesky()
+            .map(|ch| -ne.jtr.dot(&ch.solve(&(-&ne.jtr))))
+            .map(f64::abs);
+        let small_decrement = decrement.is_some_and(|d| d <= self.decrement_tol * cost / dof);
+        if small_decrement || cost == 0.0 {
             return Ok((
                 state
                     .param(p)

@@ -141,9 +141,17 @@ impl TumbleProblem<'_> {
     /// Unweighted residuals of every sample at `p`, nT.
     pub fn residuals(&self, p: &DVector<f64>) -> Vec<f64> {
         let (c, w, k) = self.unpack(p);
-        (0..self.samples_nt.len())
-            .map(|i| self.residual_row(i, &c, &w, &k, None))
-            .collect()
+        let n = self.samples_nt.len();
+        let one = |i: usize| self.residual_row(i, &c, &w, &k, None);
+        if n > 4 * CHUNK {
+            (0..n)
+                .into_par_iter()
+                .with_min_len(CHUNK)
+                .map(one)
+                .collect()
+        } else {
+            (0..n).map(one).collect()
+        }
     }
 
     /// Weighted normal equations accumulated over samples `lo..hi`.
@@ -159,6 +167,7 @@ impl TumbleProblem<'_> {
             }
             let r = self.residual_row(i, &c, &w, &k, Some(&mut j));
             acc.sum_sq += wt * r * r;
+            acc.count += 1;
             for a in 0..np {
                 let wja = wt * j[a];
                 acc.jtr[a] += wja * r;
@@ -176,6 +185,7 @@ struct Acc {
     jtj: [[f64; MAX_P]; MAX_P],
     jtr: [f64; MAX_P],
     sum_sq: f64,
+    count: usize,
 }
 
 impl Default for Acc {
@@ -184,6 +194,7 @@ impl Default for Acc {
             jtj: [[0.0; MAX_P]; MAX_P],
             jtr: [0.0; MAX_P],
             sum_sq: 0.0,
+            count: 0,
         }
     }
 }
@@ -197,6 +208,7 @@ impl Acc {
             }
         }
         self.sum_sq += o.sum_sq;
+        self.count += o.count;
         self
     }
 }
@@ -243,6 +255,7 @@ impl LeastSquaresProblem for TumbleProblem<'_> {
             jtj,
             jtr: DVector::from_column_slice(&acc.jtr[..np]),
             sum_sq: acc.sum_sq,
+            residual_count: acc.count,
         })
     }
 }
@@ -334,6 +347,8 @@ pub struct TumbleOptions {
 
 const MAX_ITERS: u64 = 200;
 const MAX_ROUNDS: usize = 20;
+/// Reweighting stops when no weight changes by more than this between rounds.
+const WEIGHT_TOL: f64 = 2e-3;
 
 /// Fit hard iron, soft iron (and a temperature slope when `temp_c` is given) to tumble
 /// samples (sensor frame, nT). `temp_c`, if given, has one value per sample (°C).
@@ -410,7 +425,7 @@ pub fn fit_tumble(
             change = change.max((nw - *w).abs());
             *w = nw;
         }
-        if change < 1e-4 {
+        if change < WEIGHT_TOL {
             irls_converged = true;
             break;
         }

@@ -194,3 +194,55 @@ pub fn write_flight_params(
     tmp.persist(path).map_err(|e| Error::io(path, e.error))?;
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn params() -> FlightParams {
+        FlightParams {
+            layout: "magproof-magcal-1",
+            generated_by: "magproof test".into(),
+            source_log: "a*/b.csv".into(),
+            method: "tumble".into(),
+            apply: APPLY,
+            frame_in: "sensor",
+            frame_out: "sensor",
+            hard_iron_nt: [1250.5, -830.25, 410.0],
+            soft_iron: [
+                [1.04, 0.015, -0.02],
+                [0.015, 0.97, 0.01],
+                [-0.02, 0.01, 1.01],
+            ],
+            temp_slope_nt_per_c: [0.0; 3],
+            temp_ref_c: 0.0,
+            reference_nt: Some(48_000.0),
+            residual_rms_nt: 50.0,
+            hard_iron_sigma_nt: [2.8, 2.9, 2.8],
+        }
+    }
+
+    #[test]
+    fn c_header_holds_the_numbers_and_closes_its_comments() {
+        let h = params().to_c_header();
+        assert!(h.contains("MAGCAL_HARD_IRON_NT[3] = { 1.250500000e3, -8.302500000e2"));
+        assert!(h.contains("MAGCAL_SOFT_IRON[3][3]"));
+        // A file name containing "*/" must not end the comment early.
+        assert!(!h.contains("a*/b.csv"));
+        assert_eq!(h.matches("/*").count(), h.matches("*/").count());
+        assert_eq!(h.matches('{').count(), h.matches('}').count());
+    }
+
+    #[test]
+    fn format_follows_the_extension() {
+        assert_eq!(
+            ParamsFormat::for_path(Path::new("x/cal.JSON")).unwrap(),
+            ParamsFormat::Json
+        );
+        assert_eq!(
+            ParamsFormat::for_path(Path::new("cal.h")).unwrap(),
+            ParamsFormat::CHeader
+        );
+        assert!(ParamsFormat::for_path(Path::new("cal.txt")).is_err());
+    }
+}

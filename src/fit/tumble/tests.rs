@@ -232,3 +232,31 @@ fn monte_carlo_sigma_is_honest_and_efficiency_near_cramer_rao() {
         assert!((0.7..=1.4).contains(&(rms[a] / mean_sigma[a])), "axis {a}");
     }
 }
+
+#[test]
+#[ignore = "diagnostic: prints work done on a large log"]
+fn work_done_on_a_large_log() {
+    let cfg = TumbleConfig {
+        samples: 200_000,
+        outlier_rate: 0.01,
+        ..TumbleConfig::default()
+    };
+    let sim = simulate_tumble(&cfg, 42).unwrap();
+    let t = std::time::Instant::now();
+    let fit = fit_tumble(
+        &sim.samples_nt,
+        None,
+        &TumbleOptions {
+            reference_nt: Some(cfg.reference_nt),
+            robust: Robust::Tukey,
+        },
+    )
+    .unwrap();
+    eprintln!(
+        "rounds {} iterations {} converged {} in {:?}",
+        fit.irls_rounds,
+        fit.iterations,
+        fit.irls_converged,
+        t.elapsed()
+    );
+}
