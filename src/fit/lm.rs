@@ -241,6 +241,18 @@ pub enum LmTermination {
     Stopped(String),
 }
 
+impl std::fmt::Display for LmTermination {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            LmTermination::Converged => write!(f, "converged"),
+            LmTermination::MaxIterations(n) => {
+                write!(f, "maximum number of iterations reached ({n})")
+            }
+            LmTermination::Stopped(why) => write!(f, "{why}"),
+        }
+    }
+}
+
 /// Outcome of [`solve`].
 #[derive(Debug, Clone)]
 pub struct LmOutcome<O> {

@@ -9,6 +9,8 @@ pub mod coverage;
 pub mod ellipsoid;
 /// Levenberg–Marquardt solver on argmin.
 pub mod lm;
+/// Robust statistics (Tukey biweight, MAD).
+pub mod robust;
 /// Tumble refinement of hard and soft iron.
 pub mod tumble;
 

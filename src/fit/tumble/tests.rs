@@ -3,6 +3,8 @@
 //! Cramér–Rao bound.
 
 use super::*;
+use crate::fit::lm::LeastSquaresProblem;
+use argmin::core::{Jacobian, Operator};
 use crate::sim::{simulate_tumble, SimCoverage, TumbleConfig};
 use approx::assert_relative_eq;
 
