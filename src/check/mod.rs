@@ -1,4 +1,3 @@
 //! Checks: each turns a log and a plan into a result with a verdict (DESIGN §2).
 
-/// Magnetometer calibration (cage or tumble).
 pub mod calibrate;

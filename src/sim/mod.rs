@@ -1,8 +1,6 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
 
-/// Simulated coil-cage sweeps.
 pub mod cage;
-/// Simulated tumble tests.
 pub mod tumble;
 
 pub use cage::{simulate_cage, write_cage_csv, CageConfig, CageGrid, CageSim, CageTruth};
