@@ -26,6 +26,7 @@ fn bench_tumble(c: &mut Criterion) {
                 &TumbleOptions {
                     reference_nt: Some(cfg.reference_nt),
                     robust: Robust::Tukey,
+                    ..TumbleOptions::default()
                 },
             )
             .expect("fit")

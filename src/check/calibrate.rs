@@ -351,6 +351,7 @@ fn calibrate_tumble(
         &TumbleOptions {
             reference_nt: reference,
             robust: ctx.req.robust,
+            ..TumbleOptions::default()
         },
     )?;
     for t in &fit.solver_problems {

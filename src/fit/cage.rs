@@ -299,6 +299,60 @@ mod tests {
     }
 
     #[test]
+    fn temperature_slope_is_fitted_with_the_response() {
+        let cfg = CageConfig::default();
+        let sim = simulate_cage(&cfg, 12).unwrap();
+        let n = sim.samples_nt.len();
+        let k = Vector3::new(2.0, -3.0, 0.5);
+        // Temperature cycles independently of the grid order (a slow sine over the sweep).
+        let temp: Vec<f64> = (0..n)
+            .map(|i| 20.0 + 15.0 * (i as f64 * 0.037).sin())
+            .collect();
+        let tmean = temp.iter().sum::<f64>() / n as f64;
+        let b: Vec<Vector3<f64>> = sim
+            .samples_nt
+            .iter()
+            .zip(&temp)
+            .map(|(b, t)| b + k * (t - tmean))
+            .collect();
+        let fit = fit_cage(&sim.applied_nt, &b, Some(&temp)).unwrap();
+        let got = fit.temp_slope_nt_per_c.unwrap();
+        let sd = fit.temp_slope_sigma_nt_per_c.unwrap();
+        for a in 0..3 {
+            assert!((got[a] - k[a]).abs() < 4.0 * sd[a], "axis {a}: {got}");
+            let e = (fit.hard_iron_nt[a] - cfg.hard_iron_nt[a]).abs();
+            assert!(e < 4.0 * fit.hard_iron_sigma_nt[a]);
+        }
+    }
+
+    #[test]
+    fn monte_carlo_hard_iron_sigma_is_honest() {
+        // Ordinary least squares: the reported σ should match the scatter over runs.
+        let cfg = CageConfig {
+            grid: CageGrid::Cube {
+                per_axis: 3,
+                max_nt: 50_000.0,
+            },
+            repeats: 2,
+            ..CageConfig::default()
+        };
+        let runs = 200;
+        let (mut sq, mut sig) = (0.0, 0.0);
+        for seed in 0..runs {
+            let sim = simulate_cage(&cfg, 500 + seed).unwrap();
+            let fit = fit_cage(&sim.applied_nt, &sim.samples_nt, None).unwrap();
+            let e = fit.hard_iron_nt - cfg.hard_iron_nt;
+            sq += e.norm_squared() / 3.0;
+            sig += fit.hard_iron_sigma_nt.sum() / 3.0;
+        }
+        let ratio = (sq / runs as f64).sqrt() / (sig / runs as f64);
+        assert!(
+            (0.85..=1.15).contains(&ratio),
+            "RMS error / mean σ = {ratio}"
+        );
+    }
+
+    #[test]
     fn planar_grid_is_refused_naming_z() {
         let cfg = CageConfig {
             grid: CageGrid::PlaneXy {

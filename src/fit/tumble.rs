@@ -92,16 +92,27 @@ pub struct TumbleFit {
 }
 
 /// Options of [`fit_tumble`].
-#[derive(Debug, Clone, Copy, Default)]
+#[derive(Debug, Clone, Copy)]
 pub struct TumbleOptions {
     /// Reference magnitude R, nT; `None` fixes the scale from the algebraic fit so that
     /// det W = 1 (the result is then unanchored).
     pub reference_nt: Option<f64>,
     /// Robust reweighting.
     pub robust: Robust,
+    /// Iteration limit of each Levenberg–Marquardt solve (default 200).
+    pub max_iterations: u64,
 }
 
-const MAX_ITERS: u64 = 200;
+impl Default for TumbleOptions {
+    fn default() -> Self {
+        TumbleOptions {
+            reference_nt: None,
+            robust: Robust::Tukey,
+            max_iterations: 200,
+        }
+    }
+}
+
 const MAX_ROUNDS: usize = 20;
 /// Reweighting stops when no weight changes by more than this between rounds.
 const WEIGHT_TOL: f64 = 2e-3;
@@ -159,7 +170,7 @@ pub fn fit_tumble(
             weights: Some(&weights),
             reference_nt: r,
         };
-        let out = solve(prob, p.clone(), MAX_ITERS)?;
+        let out = solve(prob, p.clone(), opts.max_iterations.max(1))?;
         iterations += out.iterations;
         if out.termination != LmTermination::Converged {
             solver_problems.push(out.termination.clone());

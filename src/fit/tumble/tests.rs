@@ -4,9 +4,9 @@
 
 use super::*;
 use crate::fit::lm::LeastSquaresProblem;
-use argmin::core::{Jacobian, Operator};
 use crate::sim::{simulate_tumble, SimCoverage, TumbleConfig};
 use approx::assert_relative_eq;
+use argmin::core::{Jacobian, Operator};
 
 fn params(c: Vector3<f64>, w: &Matrix3<f64>, k: Option<Vector3<f64>>) -> DVector<f64> {
     let mut v: Vec<f64> = c.iter().copied().collect();
@@ -78,6 +78,7 @@ fn recovers_truth_and_rejects_torque_rod_firings() {
         &TumbleOptions {
             reference_nt: Some(cfg.reference_nt),
             robust: Robust::Tukey,
+            ..TumbleOptions::default()
         },
     )
     .unwrap();
@@ -118,6 +119,7 @@ fn temperature_slope_is_recovered() {
         &TumbleOptions {
             reference_nt: Some(cfg.reference_nt),
             robust: Robust::Tukey,
+            ..TumbleOptions::default()
         },
     )
     .unwrap();
@@ -204,6 +206,7 @@ fn monte_carlo_sigma_is_honest_and_efficiency_near_cramer_rao() {
             &TumbleOptions {
                 reference_nt: Some(cfg.reference_nt),
                 robust: Robust::Tukey,
+                ..TumbleOptions::default()
             },
         )
         .unwrap();
@@ -251,6 +254,7 @@ fn work_done_on_a_large_log() {
         &TumbleOptions {
             reference_nt: Some(cfg.reference_nt),
             robust: Robust::Tukey,
+            ..TumbleOptions::default()
         },
     )
     .unwrap();
@@ -260,5 +264,27 @@ fn work_done_on_a_large_log() {
         fit.iterations,
         fit.irls_converged,
         t.elapsed()
+    );
+}
+
+#[test]
+fn iteration_limit_is_reported_not_passed_silently() {
+    let sim = simulate_tumble(&TumbleConfig::default(), 77).unwrap();
+    let fit = fit_tumble(
+        &sim.samples_nt,
+        None,
+        &TumbleOptions {
+            reference_nt: Some(48_000.0),
+            robust: Robust::Off,
+            max_iterations: 1,
+        },
+    )
+    .unwrap();
+    assert!(
+        fit.solver_problems
+            .iter()
+            .any(|t| matches!(t, LmTermination::MaxIterations(1))),
+        "{:?}",
+        fit.solver_problems
     );
 }
