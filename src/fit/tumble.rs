@@ -182,7 +182,9 @@ pub fn fit_tumble(
         rounds += 1;
         let res = out.problem.residuals(&p);
         sigma = robust_sigma(&res);
-        if !(sigma > 0.0) {
+        // Noise below 1e-9 of the field (noise-free data): nothing to reweight.
+        if !(sigma > 1e-9 * r) {
+            sigma = 0.0;
             irls_converged = true;
             break;
         }
@@ -259,7 +261,13 @@ fn finish(
             continue;
         }
         rss += res * res;
-        match info.robust {
+        // σ̂ = 0 (noise-free data): the biweight is undefined; use plain least squares.
+        let robust = if sigma > 0.0 {
+            info.robust
+        } else {
+            Robust::Off
+        };
+        match robust {
             Robust::Off => {
                 psi2 += res * res;
                 dpsi += 1.0;

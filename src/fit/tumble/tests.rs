@@ -288,3 +288,24 @@ fn iteration_limit_is_reported_not_passed_silently() {
         fit.solver_problems
     );
 }
+
+#[test]
+fn noise_free_data_fit_exactly_with_the_robust_default() {
+    let cfg = TumbleConfig {
+        noise_nt: 0.0,
+        ..TumbleConfig::default()
+    };
+    let sim = simulate_tumble(&cfg, 6).unwrap();
+    let fit = fit_tumble(
+        &sim.samples_nt,
+        None,
+        &TumbleOptions {
+            reference_nt: Some(cfg.reference_nt),
+            ..TumbleOptions::default()
+        },
+    )
+    .unwrap();
+    assert_relative_eq!(fit.hard_iron_nt, cfg.hard_iron_nt, epsilon = 1e-6);
+    assert_relative_eq!(fit.soft_iron, cfg.soft_iron, epsilon = 1e-10);
+    assert_eq!(fit.samples_rejected, 0);
+}
