@@ -4,6 +4,8 @@
 #[path = "cli/util.rs"]
 mod util;
 
+#[path = "cli/calibrate.rs"]
+mod calibrate;
 #[path = "cli/dipole.rs"]
 mod dipole;
 #[path = "cli/field.rs"]

@@ -1,4 +1,5 @@
 //! Checks: each turns a log and a plan into a result with a verdict (DESIGN §2).
-pub mod dipole;
 
+pub mod calibrate;
+pub mod dipole;
 pub mod polarity;

@@ -1,6 +1,7 @@
 //! Command-line front end: clap definitions (one file per subcommand), turning flags into
 //! validated library requests, and terminal output. The library never sees clap types.
 
+mod calibrate;
 mod common;
 mod dipole;
 mod field;
@@ -38,6 +39,8 @@ enum Command {
     Dipole(dipole::Args),
     /// Check every torque rod's polarity and coupling from a pulse log.
     Polarity(polarity::Args),
+    /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
+    Calibrate(calibrate::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -49,6 +52,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::History(args) => history::run(args),
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
+        Command::Calibrate(args) => calibrate::run(args),
     }
 }
 

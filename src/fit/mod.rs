@@ -1,5 +1,14 @@
 //! Fits: algebraic ellipsoid fit, geometric refinement with argmin, linear cage fit,
 //! dipole fit, robust weights and covariance (DESIGN §8).
-pub mod dipole;
 
+pub mod cage;
+pub mod coverage;
+pub mod dipole;
+pub mod ellipsoid;
 pub mod linear;
+pub mod lm;
+pub mod robust;
+pub mod tumble;
+
+pub use error::FitError;
+mod error;

@@ -5,6 +5,7 @@
 //! `report.html` (self-contained), `result.json` and each plot as its own SVG.
 
 pub mod atomic;
+pub mod flight_params;
 pub mod html;
 pub mod model;
 pub mod plot;

@@ -1,4 +1,11 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
-pub mod dipole;
 
+pub mod cage;
+pub mod dipole;
 pub mod polarity;
+pub mod tumble;
+
+pub use cage::{simulate_cage, write_cage_csv, CageConfig, CageGrid, CageSim, CageTruth};
+pub use tumble::{
+    simulate_tumble, write_tumble_csv, SimCoverage, TumbleConfig, TumbleSim, TumbleTruth,
+};

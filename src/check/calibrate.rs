@@ -1,0 +1,476 @@
+//! `calibrate`: magnetometer calibration from a coil-cage sweep (when the log has
+//! `hx hy hz`) or a tumble test (otherwise), turned into a [`CalibrationResult`] whose
+//! JSON keys are those of DESIGN §7.
+//!
+//! Methods (DESIGN §8; details in `docs/calibration.md`): cage — linear least squares
+//! `b = A h + b₀` ([`crate::fit::cage`]); tumble — Li & Griffiths (2004) algebraic
+//! ellipsoid fit refined by Levenberg–Marquardt on the magnitude residual with Tukey
+//! reweighting ([`crate::fit::tumble`]; Alonso & Shuster 2002, Crassidis et al. 2005,
+//! Vasconcelos et al. 2011).
+//!
+//! Frames: readings are in the sensor frame (S). The correction is
+//! `b_true ≈ W (b_meas − hard_iron)`; `soft_iron_frame` says which frame `b_true` is in:
+//! S for a tumble (a tumble cannot see misalignment), the cage frame (C) for a cage
+//! sweep, or the body frame (B) when the plan gives `[cage] article_to_cage`
+//! (then `W = article_to_cageᵀ · A⁻¹`).
+
+mod cage;
+mod warnings;
+
+use std::path::PathBuf;
+
+use nalgebra::{Matrix3, Vector3};
+use serde::Serialize;
+
+pub use warnings::CalibrationWarning;
+
+use crate::fit::coverage::{axis_name, direction_spread};
+use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
+use crate::log::plan::Site;
+use crate::log::{read_sweep, Plan, ReadOptions, SweepLog};
+use crate::Error;
+
+/// Temperature span above which a bias slope is fitted, °C.
+pub const TEMP_SPAN_FOR_SLOPE_C: f64 = 10.0;
+
+/// Tumble coverage below which a warning is given (a hemisphere gives 0.5).
+pub const LOW_COVERAGE: f64 = 0.6;
+
+/// What to calibrate, validated by the caller (the CLI or `closeout`).
+#[derive(Debug, Clone)]
+pub struct CalibrateRequest {
+    /// The sweep log.
+    pub log: PathBuf,
+    /// The test plan, if any: `[site]`, `[cage]`, `[magnetometer] range_nt` and
+    /// `[limits] calibration_residual_max_nt` are used.
+    pub plan: Option<Plan>,
+    /// Reference field magnitude, nT (`--reference-nt`; beats the plan).
+    pub reference_nt: Option<f64>,
+    /// How to read the log (unit, skipping bad rows).
+    pub read: ReadOptions,
+    /// Robust reweighting of the tumble fit.
+    pub robust: Robust,
+}
+
+/// Which fit was done.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Method {
+    /// Coil-cage sweep with known applied fields.
+    Cage,
+    /// Tumble test in the ambient field.
+    Tumble,
+}
+
+/// Where the reference magnitude came from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ReferenceSource {
+    /// `--reference-nt`.
+    Flag,
+    /// The plan's `[site] reference_nt`.
+    Plan,
+    /// The plan's `[site]` through the geomagnetic model.
+    Model,
+    /// None: scale fixed by det W = 1.
+    Unanchored,
+    /// A cage sweep needs none (the applied fields are the reference).
+    AppliedField,
+}
+
+/// Temperature dependence, when the log's `temp` spans more than 10 °C.
+#[derive(Debug, Clone, Serialize)]
+pub struct TemperatureFit {
+    /// Span of the temperature column, °C.
+    pub span_c: f64,
+    /// Mean temperature the hard iron refers to, °C.
+    pub reference_c: f64,
+    /// Bias slope, sensor frame, nT/°C.
+    pub slope_nt_per_c: [f64; 3],
+    /// 1σ of the slope, nT/°C.
+    pub slope_sigma_nt_per_c: [f64; 3],
+}
+
+/// Cage-only details.
+#[derive(Debug, Clone, Serialize)]
+pub struct CageDetails {
+    /// Response A (reading in S per applied field in the reference frame), rows.
+    pub response: [[f64; 3]; 3],
+    /// 1σ of each element of A.
+    pub response_sigma: [[f64; 3]; 3],
+    /// Scale factor of each sensor axis (row lengths of A), dimensionless.
+    pub scale_factors: [f64; 3],
+    /// Non-orthogonality of the sensor axes xy, xz, yz: 90° minus the angle between
+    /// their sensitive directions, deg.
+    pub non_orthogonality_deg: [f64; 3],
+    /// Rotation R of the polar decomposition A = R·S (reference frame → sensor).
+    pub rotation: [[f64; 3]; 3],
+    /// Symmetric part S of A = R·S.
+    pub stretch: [[f64; 3]; 3],
+    /// Angle between R and the nominal mounting, deg (nominal: `[magnetometer]
+    /// sensor_to_body` with `[cage]`, else sensor axes parallel to the cage axes).
+    pub misalignment_deg: f64,
+    /// Largest residual vector length, nT.
+    pub worst_residual_nt: f64,
+    /// File line of the worst residual.
+    pub worst_residual_line: u64,
+    /// Residual standard deviation per sensor axis, nT.
+    pub axis_sigma_nt: [f64; 3],
+    /// Condition number of the (equilibrated) normal matrix.
+    pub condition_number: f64,
+}
+
+/// Per-sample data kept for plots and reports (not in the JSON).
+#[derive(Debug, Clone, Default)]
+pub struct CalibrationData {
+    /// Readings used by the fit, sensor frame, nT.
+    pub samples_nt: Vec<Vector3<f64>>,
+    /// Corrected field `W (b − hard_iron)` per sample, `soft_iron_frame`, nT.
+    pub corrected_nt: Vec<Vector3<f64>>,
+    /// Residual per sample, nT (tumble: magnitude residual; cage: residual length).
+    pub residuals_nt: Vec<f64>,
+    /// Whether each sample was kept (false: rejected by the robust fit).
+    pub kept: Vec<bool>,
+    /// File line of each sample.
+    pub lines: Vec<u64>,
+    /// Time of each sample, s, when the log has one.
+    pub t_s: Option<Vec<f64>>,
+}
+
+/// Result of a calibration. The first eleven fields are the stable keys of DESIGN §7.
+#[derive(Debug, Clone, Serialize)]
+pub struct CalibrationResult {
+    /// `"cage"` or `"tumble"`.
+    pub method: Method,
+    /// Hard iron, sensor frame (S), nT.
+    pub hard_iron_nt: [f64; 3],
+    /// Correction W, rows: `b_true ≈ W (b_meas − hard_iron)`, into `soft_iron_frame`.
+    pub soft_iron: [[f64; 3]; 3],
+    /// Reference field magnitude used, nT (null for a cage sweep or when unanchored).
+    pub reference_nt: Option<f64>,
+    /// RMS residual, nT (tumble: of |W(b−c)| − R over kept samples; cage: of the
+    /// residual vector's length).
+    pub residual_rms_nt: f64,
+    /// Samples the fit used.
+    pub samples_used: usize,
+    /// Samples given zero weight by the robust fit or flagged unusable (saturated).
+    pub samples_rejected: usize,
+    /// 1σ of the hard iron per axis, nT.
+    pub hard_iron_sigma_nt: [f64; 3],
+    /// Direction coverage 0..1 (fraction of 48 equal-area sphere cells hit).
+    pub coverage: f64,
+    /// Warnings, each with cause and remedy.
+    pub warnings: Vec<String>,
+    /// Verdict against `[limits] calibration_residual_max_nt`; null without a limit.
+    pub pass: Option<bool>,
+    // ---- further keys ----
+    /// The log file.
+    pub log: String,
+    /// Frame of `W (b − hard_iron)`: "sensor", "cage" or "body".
+    pub soft_iron_frame: &'static str,
+    /// 1σ of each element of W.
+    pub soft_iron_sigma: [[f64; 3]; 3],
+    /// Where `reference_nt` came from.
+    pub reference_source: ReferenceSource,
+    /// The residual limit applied, nT.
+    pub residual_limit_nt: Option<f64>,
+    /// Robust noise estimate (1.4826 × MAD of residuals), nT (tumble).
+    pub robust_sigma_nt: Option<f64>,
+    /// Temperature dependence, when fitted.
+    pub temperature: Option<TemperatureFit>,
+    /// Cage-only details.
+    pub cage: Option<CageDetails>,
+    /// Solver iterations (tumble, summed over reweighting rounds).
+    pub iterations: Option<u64>,
+    /// Rows the reader skipped (`--skip-bad-rows`).
+    pub rows_skipped: usize,
+    /// Facts about the method the reader should keep in mind.
+    pub notes: Vec<String>,
+    /// The warnings as values.
+    #[serde(skip)]
+    pub warning_kinds: Vec<CalibrationWarning>,
+    /// Per-sample data for plots.
+    #[serde(skip)]
+    pub data: CalibrationData,
+}
+
+/// Run a calibration: read the log, choose the fit, compute the result and verdict.
+pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error> {
+    if let Some(r) = req.reference_nt {
+        if !(r.is_finite() && r > 0.0) {
+            return Err(Error::Usage(format!(
+                "--reference-nt must be a positive number of nT, found {r}"
+            )));
+        }
+    }
+    let log = read_sweep(&req.log, &req.read)?;
+    let b = log.require_field("a calibration needs the measured field")?;
+    let range_nt = req
+        .plan
+        .as_ref()
+        .and_then(|p| p.magnetometer.as_ref()?.range_nt);
+    let mut warnings = Vec::new();
+    let mut notes = Vec::new();
+    // Usable rows: drop saturated readings.
+    let mut idx = Vec::with_capacity(log.len());
+    for i in 0..log.len() {
+        let sat = range_nt.is_some_and(|r| b.iter().any(|col| col[i].abs() >= r));
+        if !sat {
+            idx.push(i);
+        }
+    }
+    let saturated = log.len() - idx.len();
+    if let Some(r) = range_nt {
+        if saturated > 0 {
+            warnings.push(CalibrationWarning::Saturated {
+                count: saturated,
+                range_nt: r,
+            });
+        }
+    }
+    if !log.skipped_rows.is_empty() {
+        warnings.push(CalibrationWarning::SkippedRows {
+            count: log.skipped_rows.len(),
+        });
+    }
+    let samples: Vec<Vector3<f64>> = idx
+        .iter()
+        .map(|&i| Vector3::new(b[0][i], b[1][i], b[2][i]))
+        .collect();
+    let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
+        let v: Vec<f64> = idx.iter().map(|&i| t[i]).collect();
+        let (lo, hi) = v
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &x| {
+                (l.min(x), h.max(x))
+            });
+        (v, hi - lo)
+    });
+    let temp_for_fit = match &temp {
+        Some((v, span)) if *span > TEMP_SPAN_FOR_SLOPE_C => Some((v.as_slice(), *span)),
+        Some((_, span)) => {
+            notes.push(CalibrationWarning::TemperatureSpanSmall { span_c: *span }.to_string());
+            None
+        }
+        None => None,
+    };
+    let ctx = Ctx {
+        req,
+        log: &log,
+        idx: &idx,
+        samples,
+        temp: temp_for_fit,
+        saturated,
+    };
+    let mut res = if log.h_nt.is_some() {
+        cage::calibrate_cage(&ctx, &mut warnings, &mut notes)?
+    } else {
+        calibrate_tumble(&ctx, &mut warnings, &mut notes)?
+    };
+    let limit = req
+        .plan
+        .as_ref()
+        .and_then(|p| p.limits.calibration_residual_max_nt);
+    res.residual_limit_nt = limit;
+    res.pass = limit.map(|l| res.residual_rms_nt <= l);
+    res.warnings = warnings.iter().map(ToString::to_string).collect();
+    res.warning_kinds = warnings;
+    res.notes = notes;
+    res.rows_skipped = log.skipped_rows.len();
+    Ok(res)
+}
+
+struct Ctx<'a> {
+    req: &'a CalibrateRequest,
+    log: &'a SweepLog,
+    idx: &'a [usize],
+    samples: Vec<Vector3<f64>>,
+    temp: Option<(&'a [f64], f64)>,
+    saturated: usize,
+}
+
+/// The reference magnitude from a plan's `[site]` through the geomagnetic model.
+///
+/// TODO(merge): wire to `crate::physics::igrf::igrf_field(site.lat_deg, site.lon_deg,
+/// site.alt_m, date)?.total_nt` once the geomagnetic-model branch is merged (map its
+/// `GeomagError` into `Error::Usage`/`Degenerate`, and require `site.date`). Until
+/// then a `[site]` without `reference_nt` is refused with this usage error.
+fn reference_from_site(_site: &Site) -> Result<f64, Error> {
+    Err(Error::Usage(
+        "no reference: give --reference-nt or [site] reference_nt".into(),
+    ))
+}
+
+/// Flag, else plan `[site] reference_nt`, else the plan's site through the model,
+/// else none (unanchored).
+fn resolve_reference(req: &CalibrateRequest) -> Result<(Option<f64>, ReferenceSource), Error> {
+    if let Some(r) = req.reference_nt {
+        return Ok((Some(r), ReferenceSource::Flag));
+    }
+    if let Some(site) = req.plan.as_ref().and_then(|p| p.site.as_ref()) {
+        if let Some(r) = site.reference_nt {
+            return Ok((Some(r), ReferenceSource::Plan));
+        }
+        return Ok((Some(reference_from_site(site)?), ReferenceSource::Model));
+    }
+    Ok((None, ReferenceSource::Unanchored))
+}
+
+fn rows(m: &Matrix3<f64>) -> [[f64; 3]; 3] {
+    [0, 1, 2].map(|i| [m[(i, 0)], m[(i, 1)], m[(i, 2)]])
+}
+
+/// Warn when the hard-iron covariance is much wider along one axis.
+fn conditioning_warning(cov: &Matrix3<f64>) -> Option<CalibrationWarning> {
+    let eig = nalgebra::SymmetricEigen::new(*cov);
+    let (imax, vmax) = eig.eigenvalues.argmax();
+    let vmin = eig.eigenvalues.min().max(0.0);
+    if vmax > 9.0 * vmin {
+        Some(CalibrationWarning::IllConditioned {
+            axis: axis_name(&eig.eigenvectors.column(imax).into_owned()),
+            worst_sigma_nt: vmax.sqrt(),
+            best_sigma_nt: vmin.sqrt(),
+        })
+    } else {
+        None
+    }
+}
+
+fn calibrate_tumble(
+    ctx: &Ctx,
+    warnings: &mut Vec<CalibrationWarning>,
+    notes: &mut Vec<String>,
+) -> Result<CalibrationResult, Error> {
+    let (reference, source) = resolve_reference(ctx.req)?;
+    if reference.is_none() {
+        warnings.push(CalibrationWarning::Unanchored);
+    }
+    let fit = fit_tumble(
+        &ctx.samples,
+        ctx.temp.map(|t| t.0),
+        &TumbleOptions {
+            reference_nt: reference,
+            robust: ctx.req.robust,
+            ..TumbleOptions::default()
+        },
+    )?;
+    for t in &fit.solver_problems {
+        warnings.push(CalibrationWarning::NotConverged {
+            reason: t.to_string(),
+        });
+    }
+    if !fit.irls_converged {
+        warnings.push(CalibrationWarning::ReweightingUnsettled {
+            rounds: fit.irls_rounds,
+        });
+    }
+    let total = ctx.samples.len() + ctx.saturated;
+    if fit.samples_rejected * 10 > ctx.samples.len() {
+        warnings.push(CalibrationWarning::ManyRejected {
+            rejected: fit.samples_rejected,
+            total,
+        });
+    }
+    if reference.is_some() {
+        let dev = fit.soft_iron.determinant().cbrt() - 1.0;
+        if dev.abs() > 0.2 {
+            warnings.push(CalibrationWarning::ScaleMismatch { deviation: dev });
+        }
+    }
+    let c = fit.hard_iron_nt;
+    let w = fit.soft_iron;
+    let k = fit.temp_slope_nt_per_c.unwrap_or_else(Vector3::zeros);
+    let tmean = ctx
+        .temp
+        .map(|(t, _)| t.iter().sum::<f64>() / t.len() as f64)
+        .unwrap_or(0.0);
+    let corrected: Vec<Vector3<f64>> = ctx
+        .samples
+        .iter()
+        .enumerate()
+        .map(|(i, b)| {
+            let tau = ctx.temp.map(|(t, _)| t[i] - tmean).unwrap_or(0.0);
+            w * (b - c - k * tau)
+        })
+        .collect();
+    let kept: Vec<bool> = fit.weights.iter().map(|&x| x > 0.0).collect();
+    let spread = direction_spread(
+        corrected
+            .iter()
+            .zip(&kept)
+            .filter(|(_, k)| **k)
+            .map(|(v, _)| v),
+    )
+    .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
+    if spread.coverage < LOW_COVERAGE {
+        warnings.push(CalibrationWarning::LowCoverage {
+            coverage: spread.coverage,
+        });
+    }
+    let cov_c: Matrix3<f64> = fit.covariance.fixed_view::<3, 3>(0, 0).into_owned();
+    warnings.extend(conditioning_warning(&cov_c));
+    notes.push(
+        "a tumble cannot see misalignment (W is symmetric): misalignment needs a cage sweep \
+         or a reference attitude"
+            .into(),
+    );
+    let mut w_sigma = Matrix3::zeros();
+    for (m, &(i, j)) in SYM_INDEX.iter().enumerate() {
+        let s = fit.covariance[(3 + m, 3 + m)].max(0.0).sqrt();
+        w_sigma[(i, j)] = s;
+        w_sigma[(j, i)] = s;
+    }
+    let temperature = match (
+        fit.temp_slope_nt_per_c,
+        fit.temp_slope_sigma_nt_per_c,
+        ctx.temp,
+    ) {
+        (Some(k), Some(ks), Some((_, span))) => Some(TemperatureFit {
+            span_c: span,
+            reference_c: tmean,
+            slope_nt_per_c: k.into(),
+            slope_sigma_nt_per_c: ks.into(),
+        }),
+        _ => None,
+    };
+    Ok(CalibrationResult {
+        method: Method::Tumble,
+        hard_iron_nt: c.into(),
+        soft_iron: rows(&w),
+        reference_nt: reference,
+        residual_rms_nt: fit.residual_rms_nt,
+        samples_used: fit.samples_used,
+        samples_rejected: fit.samples_rejected + ctx.saturated,
+        hard_iron_sigma_nt: fit.hard_iron_sigma_nt.into(),
+        coverage: spread.coverage,
+        warnings: Vec::new(),
+        pass: None,
+        log: ctx.log.path.display().to_string(),
+        soft_iron_frame: "sensor",
+        soft_iron_sigma: rows(&w_sigma),
+        reference_source: source,
+        residual_limit_nt: None,
+        robust_sigma_nt: (ctx.req.robust == Robust::Tukey).then_some(fit.robust_sigma_nt),
+        temperature,
+        cage: None,
+        iterations: Some(fit.iterations),
+        rows_skipped: 0,
+        notes: Vec::new(),
+        warning_kinds: Vec::new(),
+        data: CalibrationData {
+            samples_nt: ctx.samples.clone(),
+            corrected_nt: corrected,
+            residuals_nt: fit.residuals_nt,
+            kept,
+            lines: ctx.idx.iter().map(|&i| ctx.log.lines[i]).collect(),
+            t_s: ctx
+                .log
+                .t_s
+                .as_ref()
+                .map(|t| ctx.idx.iter().map(|&i| t[i]).collect()),
+        },
+    })
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,149 @@
+//! The cage branch of `calibrate`: linear fit, frames (cage or body), polar
+//! decomposition and the cage details of the result.
+
+use nalgebra::{Matrix3, Vector3};
+
+use super::{
+    conditioning_warning, rows, CageDetails, CalibrationData, CalibrationResult,
+    CalibrationWarning, Ctx, Method, ReferenceSource, TemperatureFit,
+};
+use crate::fit::cage::{
+    fit_cage, inverse_sigma, polar_decomposition, rotation_angle, scale_and_non_orthogonality,
+};
+use crate::fit::coverage::direction_spread;
+use crate::Error;
+
+pub(super) fn calibrate_cage(
+    ctx: &Ctx,
+    warnings: &mut Vec<CalibrationWarning>,
+    notes: &mut Vec<String>,
+) -> Result<CalibrationResult, Error> {
+    let h = ctx
+        .log
+        .h_nt
+        .as_ref()
+        .ok_or_else(|| Error::Internal("cage fit without applied field".into()))?;
+    let applied: Vec<Vector3<f64>> = ctx
+        .idx
+        .iter()
+        .map(|&i| Vector3::new(h[0][i], h[1][i], h[2][i]))
+        .collect();
+    let fit = fit_cage(&applied, &ctx.samples, ctx.temp.map(|t| t.0))?;
+    let plan = ctx.req.plan.as_ref();
+    let article_to_cage = plan
+        .and_then(|p| p.cage.as_ref())
+        .map(|c| c.article_to_cage);
+    // A maps the reference frame F to S. F = body when [cage] is given: b = A·a2c·h_B.
+    let (a_f, frame) = match article_to_cage {
+        Some(a2c) => (fit.response * a2c, "body"),
+        None => (fit.response, "cage"),
+    };
+    let a_inv = fit.response.try_inverse().ok_or_else(|| {
+        Error::Degenerate(
+            "the fitted cage response is singular: the sensor does not respond on every axis"
+                .into(),
+        )
+    })?;
+    let w_sigma_c = inverse_sigma(&a_inv, &fit.response_row_cov);
+    // W in F: cage→body is a2cᵀ; a rotation moves the sigmas only approximately, so
+    // propagate element sigmas through |R| (exact for axis permutations).
+    let (w, w_sigma) = match article_to_cage {
+        Some(a2c) => {
+            let c2b = a2c.transpose();
+            let abs = c2b.map(f64::abs);
+            let var = abs.component_mul(&abs) * w_sigma_c.component_mul(&w_sigma_c);
+            (c2b * a_inv, var.map(|v| v.max(0.0).sqrt()))
+        }
+        None => (a_inv, w_sigma_c),
+    };
+    if fit.response.determinant() < 0.0 {
+        warnings.push(CalibrationWarning::Reflection);
+    }
+    let (r, s) = polar_decomposition(&a_f)
+        .ok_or_else(|| Error::Internal("SVD of the cage response failed".into()))?;
+    // Nominal F→S: body→sensor from [magnetometer] when F is the body, else identity.
+    let nominal = match (article_to_cage, plan.and_then(|p| p.magnetometer.as_ref())) {
+        (Some(_), Some(m)) => m.sensor_to_body.transpose(),
+        _ => Matrix3::identity(),
+    };
+    let misalignment_deg = rotation_angle(&(r * nominal.transpose())).to_degrees();
+    let (scale, nonorth) = scale_and_non_orthogonality(&a_f);
+    let spread = direction_spread(&applied)
+        .ok_or_else(|| Error::Degenerate("the applied field is always zero".into()))?;
+    warnings.extend(conditioning_warning(&Matrix3::from_diagonal(
+        &fit.hard_iron_sigma_nt
+            .component_mul(&fit.hard_iron_sigma_nt),
+    )));
+    notes.push(format!(
+        "W maps readings (sensor frame) to the {frame} frame; the applied field is taken as \
+         the truth, so the cage's own calibration bounds this result"
+    ));
+    let corrected: Vec<Vector3<f64>> = ctx
+        .samples
+        .iter()
+        .map(|b| w * (b - fit.hard_iron_nt))
+        .collect();
+    let temperature = match (
+        fit.temp_slope_nt_per_c,
+        fit.temp_slope_sigma_nt_per_c,
+        ctx.temp,
+    ) {
+        (Some(k), Some(ks), Some((t, span))) => Some(TemperatureFit {
+            span_c: span,
+            reference_c: t.iter().sum::<f64>() / t.len() as f64,
+            slope_nt_per_c: k.into(),
+            slope_sigma_nt_per_c: ks.into(),
+        }),
+        _ => None,
+    };
+    let n = ctx.samples.len();
+    Ok(CalibrationResult {
+        method: Method::Cage,
+        hard_iron_nt: fit.hard_iron_nt.into(),
+        soft_iron: rows(&w),
+        reference_nt: None,
+        residual_rms_nt: fit.residual_rms_nt,
+        samples_used: n,
+        samples_rejected: ctx.saturated,
+        hard_iron_sigma_nt: fit.hard_iron_sigma_nt.into(),
+        coverage: spread.coverage,
+        warnings: Vec::new(),
+        pass: None,
+        log: ctx.log.path.display().to_string(),
+        soft_iron_frame: frame,
+        soft_iron_sigma: rows(&w_sigma),
+        reference_source: ReferenceSource::AppliedField,
+        residual_limit_nt: None,
+        robust_sigma_nt: None,
+        temperature,
+        cage: Some(CageDetails {
+            response: rows(&a_f),
+            response_sigma: rows(&fit.response_sigma),
+            scale_factors: scale.into(),
+            non_orthogonality_deg: nonorth.map(f64::to_degrees),
+            rotation: rows(&r),
+            stretch: rows(&s),
+            misalignment_deg,
+            worst_residual_nt: fit.worst_residual.0,
+            worst_residual_line: ctx.log.lines[ctx.idx[fit.worst_residual.1]],
+            axis_sigma_nt: fit.axis_sigma_nt.into(),
+            condition_number: fit.condition,
+        }),
+        iterations: None,
+        rows_skipped: 0,
+        notes: Vec::new(),
+        warning_kinds: Vec::new(),
+        data: CalibrationData {
+            samples_nt: ctx.samples.clone(),
+            corrected_nt: corrected,
+            residuals_nt: fit.residuals_nt.iter().map(|r| r.norm()).collect(),
+            kept: vec![true; n],
+            lines: ctx.idx.iter().map(|&i| ctx.log.lines[i]).collect(),
+            t_s: ctx
+                .log
+                .t_s
+                .as_ref()
+                .map(|t| ctx.idx.iter().map(|&i| t[i]).collect()),
+        },
+    })
+}
