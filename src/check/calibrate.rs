@@ -289,16 +289,10 @@ struct Ctx<'a> {
     saturated: usize,
 }
 
-/// The reference magnitude from a plan's `[site]` through the geomagnetic model.
-///
-/// TODO(merge): wire to `crate::physics::igrf::igrf_field(site.lat_deg, site.lon_deg,
-/// site.alt_m, date)?.total_nt` once the geomagnetic-model branch is merged (map its
-/// `GeomagError` into `Error::Usage`/`Degenerate`, and require `site.date`). Until
-/// then a `[site]` without `reference_nt` is refused with this usage error.
-fn reference_from_site(_site: &Site) -> Result<f64, Error> {
-    Err(Error::Usage(
-        "no reference: give --reference-nt or [site] reference_nt".into(),
-    ))
+/// The reference magnitude from a plan's `[site]` through the geomagnetic model
+/// (IGRF-14 total field at the site's latitude, longitude, altitude and date).
+fn reference_from_site(site: &Site) -> Result<f64, Error> {
+    Ok(crate::physics::geomag::site_reference(site)?.total_nt)
 }
 
 /// Flag, else plan `[site] reference_nt`, else the plan's site through the model,

@@ -358,9 +358,9 @@ fn outliers_are_rejected_and_counted_and_temperature_slope_reported() {
 }
 
 #[test]
-fn site_without_reference_is_a_usage_error_until_the_model_is_wired() {
-    // Until the geomagnetic model is merged, [site] without reference_nt cannot give a
-    // reference and says so (exit 2). When the model is wired, this test changes.
+fn site_without_date_or_reference_is_refused() {
+    // The geomagnetic model needs the date of the test; without it (and without
+    // reference_nt) the plan cannot give a reference, and says which key is missing.
     let dir = temp_dir();
     let plan = write(
         dir.path(),
@@ -374,5 +374,40 @@ fn site_without_reference_is_a_usage_error_until_the_model_is_wired() {
         .output()
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("no reference"));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("date"));
+}
+
+#[test]
+fn site_reference_comes_from_the_geomagnetic_model() {
+    // The plan's [site] gives the reference magnitude through IGRF-14: it must equal the
+    // total field `magproof field` reports for the same site and date (IGRF itself is
+    // checked against ppigrf in tests/cli/field.rs and src/physics/igrf_tests.rs).
+    let dir = temp_dir();
+    let plan = write(
+        dir.path(),
+        "p.toml",
+        "[site]\nlat_deg = 47.0\nlon_deg = 8.0\nalt_m = 400.0\ndate = \"2026-11-20\"\n",
+    );
+    let out = bin()
+        .args(["calibrate", "--json", "--plan"])
+        .arg(&plan)
+        .arg(data("calib_tumble.csv"))
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let cal = json_of(&out);
+    let field = bin()
+        .args(["field", "--lat", "47", "--lon", "8", "--alt-m", "400"])
+        .args(["--date", "2026-11-20", "--json"])
+        .output()
+        .unwrap();
+    let total = json_of(&field)["total_nt"].as_f64().unwrap();
+    let reference = cal["reference_nt"].as_f64().unwrap();
+    assert!((reference - total).abs() < 1e-6, "{reference} vs {total}");
+    assert_eq!(cal["reference_source"], "model");
 }
