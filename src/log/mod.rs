@@ -2,8 +2,11 @@
 //! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
 
 mod error;
+mod fast_row;
 pub mod hash;
 mod header;
+mod lines;
+mod number;
 pub mod plan;
 mod sweep;
 pub mod units;

@@ -4,12 +4,15 @@
 //! small row buffer and, once the whole row is good, appended to columns of `f64`. The
 //! file is never held in memory as one string.
 
+use std::collections::HashMap;
 use std::fs::File;
-use std::io::{BufRead, BufReader, Read};
+use std::io::Read;
 use std::path::{Path, PathBuf};
 
 use super::error::{LogError, Shown};
+use super::fast_row::FastRow;
 use super::header::{parse_header, ColumnKind, Header, TimeUnit};
+use super::lines::LineReader;
 use super::units::FieldUnit;
 
 /// How to read a sweep log.
@@ -154,27 +157,44 @@ pub fn read_sweep_from(
     options: &ReadOptions,
     progress: &mut dyn FnMut(u64),
 ) -> Result<SweepLog, LogError> {
-    let mut reader = BufReader::with_capacity(1 << 16, reader);
+    read_sweep_impl(reader, path, options, progress, RowPath::Fast)
+}
+
+/// Which row parser reads the plain rows (tests compare the two).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum RowPath {
+    /// Plain numeric rows take [`FastRow`]; the rest the general parser.
+    Fast,
+    /// Every row goes through the general parser.
+    #[cfg_attr(not(test), allow(dead_code))]
+    GeneralOnly,
+}
+
+pub(crate) fn read_sweep_impl(
+    reader: impl Read,
+    path: &Path,
+    options: &ReadOptions,
+    progress: &mut dyn FnMut(u64),
+    row_path: RowPath,
+) -> Result<SweepLog, LogError> {
+    let mut lines = LineReader::new(reader);
     let shown = || Shown(path.to_path_buf());
     let io_err = |source| LogError::Io {
         path: Shown(path.to_path_buf()),
         source,
     };
-    let mut buf: Vec<u8> = Vec::with_capacity(256);
     let mut line_no: u64 = 0;
-    let mut bytes_read: u64 = 0;
     let mut next_report: u64 = 1 << 22;
+    let mut bytes_read: u64;
 
     // Header: the first line that is neither blank nor a comment.
     let header: Header = loop {
-        buf.clear();
-        let n = reader.read_until(b'\n', &mut buf).map_err(io_err)?;
-        if n == 0 {
+        let Some((buf, consumed)) = lines.next_line().map_err(io_err)? else {
             return Err(LogError::NoHeader { path: shown() });
-        }
-        bytes_read += n as u64;
+        };
         line_no += 1;
-        let mut text: &[u8] = trim_line_end(&buf);
+        bytes_read = consumed;
+        let mut text: &[u8] = trim_line_end(buf);
         if line_no == 1 {
             text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
         }
@@ -196,22 +216,30 @@ pub fn read_sweep_from(
     };
     let mut builder = ColumnsBuilder::new(&header);
     let mut row = RowParser::new(&header);
+    let fast = FastRow::new(&header).filter(|_| row_path == RowPath::Fast);
 
-    loop {
-        buf.clear();
-        let n = reader.read_until(b'\n', &mut buf).map_err(io_err)?;
-        if n == 0 {
-            break;
-        }
-        bytes_read += n as u64;
+    while let Some((buf, consumed)) = lines.next_line().map_err(io_err)? {
         line_no += 1;
+        bytes_read = consumed;
         if bytes_read >= next_report {
             progress(bytes_read);
             next_report = bytes_read + (1 << 22);
         }
-        let text = trim_line_end(&buf);
+        let text = trim_line_end(buf);
         if is_blank_or_comment(text) {
             continue;
+        }
+        // Plain numeric rows take the fast path; anything else, including every row
+        // that would be refused, is read by the general parser.
+        if let (Some(fast), false) = (&fast, row.time_is_iso == Some(true)) {
+            if let Some(time) = fast.parse(text, &mut row.numbers, builder.last_time()) {
+                if time.is_some() {
+                    row.time_is_iso = Some(false);
+                }
+                row.time_s = time;
+                builder.push(&row, line_no, &mut log.mount_labels);
+                continue;
+            }
         }
         match row.parse(text, path, line_no, &header, builder.last_time()) {
             Ok(()) => {
@@ -271,7 +299,10 @@ fn is_blank_or_comment(text: &[u8]) -> bool {
 /// Parsed cells of one row, before they are committed to the columns.
 struct RowParser {
     numbers: Vec<f64>,
-    mount: Option<Option<String>>,
+    /// The row's mount label, valid when `has_label` (a reused buffer: no per-row
+    /// allocation).
+    mount_label: String,
+    has_label: bool,
     time_s: Option<f64>,
     fields: Vec<(usize, usize)>,
     first_epoch_s: Option<f64>,
@@ -283,7 +314,8 @@ impl RowParser {
     fn new(header: &Header) -> Self {
         RowParser {
             numbers: vec![0.0; header.columns.len()],
-            mount: None,
+            mount_label: String::new(),
+            has_label: false,
             time_s: None,
             fields: Vec::with_capacity(header.columns.len()),
             first_epoch_s: None,
@@ -309,7 +341,7 @@ impl RowParser {
                 found: self.fields.len(),
             });
         }
-        self.mount = None;
+        self.has_label = false;
         self.time_s = None;
         for (k, col) in header.columns.iter().enumerate() {
             let (a, b) = self.fields[k];
@@ -327,11 +359,11 @@ impl RowParser {
                     let s = std::str::from_utf8(cell)
                         .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
                     let s = s.trim();
-                    self.mount = Some(if s.is_empty() || s.eq_ignore_ascii_case("none") {
-                        None
-                    } else {
-                        Some(s.to_string())
-                    });
+                    self.has_label = !(s.is_empty() || s.eq_ignore_ascii_case("none"));
+                    if self.has_label {
+                        self.mount_label.clear();
+                        self.mount_label.push_str(s);
+                    }
                 }
                 ColumnKind::Time(unit) => {
                     let t = self.parse_time(cell, *unit, &cell_err)?;
@@ -462,6 +494,8 @@ struct ColumnsBuilder {
     lines: Vec<u64>,
     has_time: bool,
     has_mount: bool,
+    /// Index of each mount label in `SweepLog::mount_labels` (first-seen order).
+    label_index: HashMap<String, u32>,
 }
 
 impl ColumnsBuilder {
@@ -489,6 +523,7 @@ impl ColumnsBuilder {
                 .columns
                 .iter()
                 .any(|c| matches!(c.kind, ColumnKind::Mount)),
+            label_index: HashMap::new(),
         }
     }
 
@@ -506,12 +541,15 @@ impl ColumnsBuilder {
             self.time.push(row.time_s.unwrap_or(f64::NAN));
         }
         if self.has_mount {
-            let idx = row.mount.as_ref().and_then(|m| m.as_ref()).map(|label| {
-                match labels.iter().position(|l| l == label) {
-                    Some(i) => i as u32,
+            let idx = row.has_label.then(|| {
+                let label = row.mount_label.as_str();
+                match self.label_index.get(label) {
+                    Some(&i) => i,
                     None => {
-                        labels.push(label.clone());
-                        (labels.len() - 1) as u32
+                        let i = labels.len() as u32;
+                        labels.push(label.to_string());
+                        self.label_index.insert(label.to_string(), i);
+                        i
                     }
                 }
             });
