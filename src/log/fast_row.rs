@@ -64,28 +64,32 @@ impl FastRow {
         let mut pos = 0usize;
         let mut time = None;
         for (k, cell) in self.cells.iter().enumerate() {
-            let rest = text.get(pos..)?;
-            let (value, used) = match cell {
+            let value = match cell {
                 Cell::Skip => {
-                    let end = rest
-                        .iter()
-                        .position(|&c| c == self.delimiter || c == b'"')
-                        .unwrap_or(rest.len());
-                    if rest.get(end) == Some(&b'"') {
-                        return None;
+                    while let Some(&c) = text.get(pos) {
+                        if c == self.delimiter {
+                            break;
+                        }
+                        if c == b'"' {
+                            return None;
+                        }
+                        pos += 1;
                     }
-                    (0.0, end)
+                    0.0
                 }
-                _ => match scan_decimal(rest) {
-                    Scan::Value(v, used) => (v, used),
-                    Scan::General(used) => {
-                        let v: f64 = fast_float2::parse(rest.get(..used)?).ok()?;
-                        (v, used)
+                _ => match scan_decimal(text, pos) {
+                    Scan::Value(v, end) => {
+                        pos = end;
+                        v
+                    }
+                    Scan::General(end) => {
+                        let v: f64 = fast_float2::parse(text.get(pos..end)?).ok()?;
+                        pos = end;
+                        v
                     }
                     Scan::Unusual => return None,
                 },
             };
-            pos += used;
             if k < last {
                 if text.get(pos) != Some(&self.delimiter) {
                     return None;
@@ -98,17 +102,14 @@ impl FastRow {
                 Cell::Skip => {}
                 Cell::Number(scale) => {
                     let x = value * scale;
-                    if !value.is_finite() || !x.is_finite() {
+                    if !x.is_finite() {
                         return None;
                     }
                     *numbers.get_mut(k)? = x;
                 }
                 Cell::Time(to_s) => {
-                    if !value.is_finite() {
-                        return None;
-                    }
                     let t = value * to_s;
-                    if last_time.is_some_and(|prev| t < prev) {
+                    if !t.is_finite() || last_time.is_some_and(|prev| t < prev) {
                         return None;
                     }
                     time = Some(t);

@@ -18,69 +18,63 @@ const POW10: [f64; 23] = [
 /// Largest mantissa the fast path takes: every integer up to 2⁵³ is exact in binary64.
 const MAX_EXACT_MANTISSA: u64 = 1 << 53;
 
-/// Outcome of scanning one cell with the fast path.
+/// Outcome of scanning one cell.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) enum Scan {
-    /// A plain decimal, parsed exactly; the value and the bytes it used.
+    /// A plain decimal, parsed exactly; the value and the position after it.
     Value(f64, usize),
     /// The cell starts like a number but needs the general parser (exponent, many
-    /// digits, …); `usize` is where the cell's number-like bytes end.
+    /// digits, …); the position where the cell's number-like bytes end.
     General(usize),
     /// The cell holds something the fast path does not handle at all.
     Unusual,
 }
 
-/// Scan `[+-]?digits[.digits]` at the start of `bytes`, stopping at the first byte that
+/// Scan `[+-]?digits[.digits]` in `text` from `start`, stopping at the first byte that
 /// cannot belong to a number. Returns [`Scan::General`] when the number-like run also
-/// contains `e`/`E`, a second sign or more than 19 significant digits, and
-/// [`Scan::Unusual`] when there is no digit at all.
+/// contains `e`/`E`, another sign or dot, or more than 19 significant digits, and
+/// [`Scan::Unusual`] when there is no digit at all. Positions are indices into `text`.
 #[inline]
-pub(crate) fn scan_decimal(bytes: &[u8]) -> Scan {
-    let mut i = 0;
-    let negative = match bytes.first() {
+pub(crate) fn scan_decimal(text: &[u8], start: usize) -> Scan {
+    let mut i = start;
+    let negative = match text.get(i) {
         Some(b'-') => {
-            i = 1;
+            i += 1;
             true
         }
         Some(b'+') => {
-            i = 1;
+            i += 1;
             false
         }
         _ => false,
     };
+    let digits_start = i;
     let mut mantissa: u64 = 0;
-    let mut digits = 0u32;
-    // Integer part.
-    while let Some(&c) = bytes.get(i) {
+    // Index of the dot, if any (digits after it are fraction digits).
+    let mut dot = usize::MAX;
+    while let Some(&c) = text.get(i) {
         let d = c.wrapping_sub(b'0');
-        if d > 9 {
+        if d <= 9 {
+            mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
+        } else if c == b'.' && dot == usize::MAX {
+            dot = i;
+        } else {
             break;
         }
-        mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
-        digits += 1;
         i += 1;
     }
-    let mut frac_digits = 0u32;
-    if bytes.get(i) == Some(&b'.') {
-        i += 1;
-        while let Some(&c) = bytes.get(i) {
-            let d = c.wrapping_sub(b'0');
-            if d > 9 {
-                break;
-            }
-            mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
-            digits += 1;
-            frac_digits += 1;
-            i += 1;
-        }
-    }
+    let (digits, frac_digits) = if dot == usize::MAX {
+        (i - digits_start, 0)
+    } else {
+        (i - digits_start - 1, i - dot - 1)
+    };
     if digits == 0 {
         return Scan::Unusual;
     }
-    if matches!(bytes.get(i), Some(b'e' | b'E' | b'+' | b'-' | b'.')) {
+    if matches!(text.get(i), Some(b'e' | b'E' | b'+' | b'-' | b'.')) {
         // An exponent or a malformed run: let the general parser judge the whole run.
         while matches!(
-            bytes.get(i),
+            text.get(i),
             Some(b'0'..=b'9' | b'e' | b'E' | b'+' | b'-' | b'.')
         ) {
             i += 1;
@@ -89,12 +83,12 @@ pub(crate) fn scan_decimal(bytes: &[u8]) -> Scan {
     }
     // 19 digits always fit in u64 without wrapping; beyond that the mantissa may have
     // wrapped, so let the general parser do it.
-    if digits > 19 || mantissa > MAX_EXACT_MANTISSA || frac_digits as usize >= POW10.len() {
+    if digits > 19 || mantissa > MAX_EXACT_MANTISSA || frac_digits >= POW10.len() {
         return Scan::General(i);
     }
     let mut v = mantissa as f64;
     if frac_digits > 0 {
-        v /= POW10[frac_digits as usize];
+        v /= POW10[frac_digits];
     }
     if negative {
         v = -v;
@@ -106,7 +100,7 @@ pub(crate) fn scan_decimal(bytes: &[u8]) -> Scan {
 /// anything else (the caller then uses the general parser).
 #[cfg(test)]
 pub(crate) fn parse_plain_decimal(cell: &[u8]) -> Option<f64> {
-    match scan_decimal(cell) {
+    match scan_decimal(cell, 0) {
         Scan::Value(v, used) if used == cell.len() => Some(v),
         _ => None,
     }
@@ -178,9 +172,10 @@ mod tests {
         assert_eq!(parse_plain_decimal(b"12345678901234567890"), None);
         assert_eq!(parse_plain_decimal(b"9007199254740993"), None);
         assert_eq!(parse_plain_decimal(b"0.00000000000000000000001"), None);
-        assert_eq!(scan_decimal(b"1e5,2"), Scan::General(3));
-        assert_eq!(scan_decimal(b"12,3"), Scan::Value(12.0, 2));
-        assert_eq!(scan_decimal(b",3"), Scan::Unusual);
+        assert_eq!(scan_decimal(b"1e5,2", 0), Scan::General(3));
+        assert_eq!(scan_decimal(b"7,-1.5,2", 2), Scan::Value(-1.5, 6));
+        assert_eq!(scan_decimal(b"12,3", 0), Scan::Value(12.0, 2));
+        assert_eq!(scan_decimal(b",3", 0), Scan::Unusual);
     }
 
     proptest! {

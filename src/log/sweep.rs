@@ -489,6 +489,8 @@ pub(crate) fn split_fields(text: &[u8], delimiter: u8, out: &mut Vec<(usize, usi
 /// Accumulates good rows into columns.
 struct ColumnsBuilder {
     numbers: Vec<Vec<f64>>,
+    /// Indices of the numeric columns (the ones with a vector in `numbers`).
+    numeric: Vec<usize>,
     time: Vec<f64>,
     mount: Vec<Option<u32>>,
     lines: Vec<u64>,
@@ -512,6 +514,9 @@ impl ColumnsBuilder {
                     }
                 })
                 .collect(),
+            numeric: (0..header.columns.len())
+                .filter(|&k| header.columns[k].kind.is_numeric())
+                .collect(),
             time: Vec::new(),
             mount: Vec::new(),
             lines: Vec::with_capacity(1024),
@@ -532,9 +537,9 @@ impl ColumnsBuilder {
     }
 
     fn push(&mut self, row: &RowParser, line: u64, labels: &mut Vec<String>) {
-        for (k, col) in self.numbers.iter_mut().enumerate() {
-            if col.capacity() > 0 {
-                col.push(row.numbers[k]);
+        for &k in &self.numeric {
+            if let (Some(col), Some(&v)) = (self.numbers.get_mut(k), row.numbers.get(k)) {
+                col.push(v);
             }
         }
         if self.has_time {
