@@ -184,8 +184,9 @@ mod tests {
         assert!(FastRow::new(&h).is_none());
     }
 
-    /// Reading with the fast path must give exactly what the general parser alone gives:
-    /// the same columns bit for bit, lines, skipped rows, or the same error.
+    /// Reading with the fast path, on one thread or in parallel parts, must give exactly
+    /// what the general parser alone gives: the same columns bit for bit, lines, skipped
+    /// rows, or the same error.
     fn same_as_general(text: &str, skip: bool) {
         use crate::log::sweep::{read_sweep_impl, RowPath};
         let opts = crate::log::ReadOptions {
@@ -197,7 +198,12 @@ mod tests {
                 .map(|log| format!("{log:?}"))
                 .map_err(|e| e.to_string())
         };
-        assert_eq!(read(RowPath::Fast), read(RowPath::GeneralOnly), "{text:?}");
+        let general = read(RowPath::GeneralOnly);
+        assert_eq!(read(RowPath::Fast), general, "{text:?}");
+        // Blocks cut into parts read on several threads: same result.
+        for parts in [2, 3, 7] {
+            assert_eq!(read(RowPath::Parallel(parts)), general, "{parts}: {text:?}");
+        }
     }
 
     fn cell() -> impl Strategy<Value = String> {

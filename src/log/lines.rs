@@ -7,7 +7,7 @@
 use std::io::{self, Read};
 
 /// Bytes read from the file at a time.
-pub(crate) const BLOCK_BYTES: usize = 1 << 20;
+pub(crate) const BLOCK_BYTES: usize = 1 << 22;
 
 /// Hands out the lines of a reader, without their `\n`.
 pub(crate) struct LineReader<R> {
@@ -62,17 +62,47 @@ impl<R: Read> LineReader<R> {
         }
     }
 
-    /// Move the unfinished line to the front and read more after it.
-    fn refill(&mut self) -> io::Result<()> {
+    /// As many complete lines as the buffer holds (each ending with `\n`), after
+    /// filling the buffer, with the bytes handed out so far; `None` when no complete
+    /// line is left (the caller then goes on with [`LineReader::next_line`]).
+    pub fn next_block(&mut self) -> io::Result<Option<(&[u8], u64)>> {
+        while !self.eof && (self.start > 0 || self.end < self.buf.len()) {
+            if self.start == 0 && self.end < self.buf.len() {
+                self.read_more()?;
+            } else {
+                self.compact();
+            }
+        }
+        let pending = &self.buf[self.start..self.end];
+        let Some(last) = memchr::memrchr(b'\n', pending) else {
+            return Ok(None);
+        };
+        let a = self.start;
+        self.start += last + 1;
+        self.consumed += last as u64 + 1;
+        Ok(Some((&self.buf[a..self.start], self.consumed)))
+    }
+
+    fn compact(&mut self) {
         if self.start > 0 {
             self.buf.copy_within(self.start..self.end, 0);
             self.end -= self.start;
             self.start = 0;
         }
+    }
+
+    /// Move the unfinished line to the front and read more after it.
+    fn refill(&mut self) -> io::Result<()> {
+        self.compact();
         if self.end == self.buf.len() {
             let grown = self.buf.len() * 2;
             self.buf.resize(grown, 0);
         }
+        self.read_more()
+    }
+
+    /// One read into the free end of the buffer (which must have room).
+    fn read_more(&mut self) -> io::Result<()> {
         loop {
             match self.inner.read(&mut self.buf[self.end..]) {
                 Ok(0) => {
@@ -111,6 +141,27 @@ mod tests {
             let (got, consumed) = lines(text, block);
             assert_eq!(got, want, "block {block}");
             assert_eq!(consumed, text.len() as u64);
+        }
+    }
+
+    #[test]
+    fn blocks_then_lines_give_the_same_lines() {
+        let text = b"a,b\r\n\n1,2\nlonger line here\n\nlast";
+        let want: Vec<Vec<u8>> = text.split(|&c| c == b'\n').map(|l| l.to_vec()).collect();
+        for block in 1..12 {
+            let mut r = LineReader::with_block(&text[..], block);
+            let mut got = Vec::new();
+            // One line, then blocks, then the rest line by line.
+            got.push(r.next_line().unwrap().unwrap().0.to_vec());
+            while let Some((b, _)) = r.next_block().unwrap() {
+                assert!(b.ends_with(b"\n"));
+                got.extend(b[..b.len() - 1].split(|&c| c == b'\n').map(|l| l.to_vec()));
+            }
+            while let Some((l, _)) = r.next_line().unwrap() {
+                got.push(l.to_vec());
+            }
+            assert_eq!(got, want, "block {block}");
+            assert_eq!(r.consumed, text.len() as u64);
         }
     }
 

@@ -7,6 +7,7 @@ pub mod hash;
 mod header;
 mod lines;
 mod number;
+mod parallel;
 pub mod plan;
 mod sweep;
 pub mod units;

@@ -13,6 +13,7 @@ use super::error::{LogError, Shown};
 use super::fast_row::FastRow;
 use super::header::{parse_header, ColumnKind, Header, TimeUnit};
 use super::lines::LineReader;
+use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
 use super::units::FieldUnit;
 
 /// How to read a sweep log.
@@ -168,6 +169,96 @@ pub(crate) enum RowPath {
     /// Every row goes through the general parser.
     #[cfg_attr(not(test), allow(dead_code))]
     GeneralOnly,
+    /// As `Fast`, with every block split into this many parts whatever its size.
+    #[cfg_attr(not(test), allow(dead_code))]
+    Parallel(usize),
+}
+
+/// Where rows go: the parsers, the columns and the log being built.
+struct RowSink<'a> {
+    path: &'a Path,
+    header: &'a Header,
+    options: &'a ReadOptions,
+    fast: Option<FastRow>,
+    builder: ColumnsBuilder,
+    row: RowParser,
+    log: SweepLog,
+}
+
+impl RowSink<'_> {
+    /// Read one line (without `\n`) that is line `line_no` of the file.
+    fn line(&mut self, buf: &[u8], line_no: u64) -> Result<(), LogError> {
+        let text = trim_line_end(buf);
+        if is_blank_or_comment(text) {
+            return Ok(());
+        }
+        let (row, builder) = (&mut self.row, &mut self.builder);
+        // Plain numeric rows take the fast path; anything else, including every row
+        // that would be refused, is read by the general parser.
+        if let (Some(fast), false) = (&self.fast, row.time_is_iso == Some(true)) {
+            if let Some(time) = fast.parse(text, &mut row.numbers, builder.last_time()) {
+                if time.is_some() {
+                    row.time_is_iso = Some(false);
+                }
+                row.time_s = time;
+                builder.push(row, line_no, &mut self.log.mount_labels);
+                return Ok(());
+            }
+        }
+        match row.parse(text, self.path, line_no, self.header, builder.last_time()) {
+            Ok(()) => {
+                builder.push(row, line_no, &mut self.log.mount_labels);
+            }
+            Err(e) if self.options.skip_bad_rows && e.line().is_some() => {
+                self.log.skipped_rows.push(SkippedRow {
+                    line: line_no,
+                    reason: e.to_string(),
+                });
+            }
+            Err(e) => return Err(e),
+        }
+        Ok(())
+    }
+
+    /// Read every line of `bytes` (complete lines, each ending with `\n`), the first
+    /// being line `before + 1`. Returns the number of lines.
+    fn lines(&mut self, bytes: &[u8], before: u64) -> Result<u64, LogError> {
+        let mut count = 0;
+        let mut pos = 0;
+        while pos < bytes.len() {
+            let end = memchr::memchr(b'\n', &bytes[pos..]).map_or(bytes.len(), |i| pos + i);
+            count += 1;
+            self.line(&bytes[pos..end], before + count)?;
+            pos = end + 1;
+        }
+        Ok(count)
+    }
+
+    /// Take a part read in parallel: its plain rows if they fit after the rows so far,
+    /// then the rest of it line by line. `bytes` is the part, its first line is line
+    /// `before + 1`. Returns the number of lines.
+    fn part(&mut self, bytes: &[u8], part: &Part, before: u64) -> Result<u64, LogError> {
+        let first_time = part.time.first().copied();
+        let fits = self.row.time_is_iso != Some(true)
+            && match (first_time, self.builder.last_time()) {
+                (Some(t), Some(prev)) => t >= prev,
+                _ => true,
+            };
+        if !fits {
+            return self.lines(bytes, before);
+        }
+        self.builder.append(part, before);
+        if first_time.is_some() {
+            self.row.time_is_iso = Some(false);
+        }
+        match part.stop {
+            None => Ok(part.line_count),
+            Some((offset, lines_before)) => {
+                let rest = bytes.get(offset..).unwrap_or(&[]);
+                Ok(lines_before + self.lines(rest, before + lines_before)?)
+            }
+        }
+    }
 }
 
 pub(crate) fn read_sweep_impl(
@@ -208,15 +299,58 @@ pub(crate) fn read_sweep_impl(
         break parse_header(text, path, line_no, options.default_unit)?;
     };
 
-    let mut log = SweepLog {
+    let log = SweepLog {
         path: path.to_path_buf(),
         header_line: line_no,
         ignored_columns: header.ignored.clone(),
         ..SweepLog::default()
     };
-    let mut builder = ColumnsBuilder::new(&header);
-    let mut row = RowParser::new(&header);
-    let fast = FastRow::new(&header).filter(|_| row_path == RowPath::Fast);
+    let mut sink = RowSink {
+        path,
+        header: &header,
+        options,
+        fast: FastRow::new(&header).filter(|_| row_path != RowPath::GeneralOnly),
+        builder: ColumnsBuilder::new(&header),
+        row: RowParser::new(&header),
+        log,
+    };
+
+    // Large plain blocks: parts parsed on all cores, appended in order (see parallel.rs).
+    let threads = match row_path {
+        RowPath::Parallel(n) => n,
+        _ => rayon::current_num_threads(),
+    };
+    if threads > 1 {
+        while let Some(fast) = sink.fast.clone() {
+            let Some((block, consumed)) = lines.next_block().map_err(io_err)? else {
+                break;
+            };
+            bytes_read = consumed;
+            let min_bytes = match row_path {
+                RowPath::Parallel(_) => 0,
+                _ => MIN_PARALLEL_BYTES,
+            };
+            if block.len() < min_bytes {
+                line_no += sink.lines(block, line_no)?;
+            } else {
+                let pieces = split_block(block, threads);
+                let parts = parse_parts(
+                    &pieces,
+                    &fast,
+                    header.columns.len(),
+                    &sink.builder.numeric,
+                    sink.builder.has_time,
+                );
+                for (bytes, part) in pieces.iter().zip(&parts) {
+                    line_no += sink.part(bytes, part, line_no)?;
+                }
+            }
+            if bytes_read >= next_report {
+                progress(bytes_read);
+                next_report = bytes_read + (1 << 22);
+            }
+        }
+    }
 
     while let Some((buf, consumed)) = lines.next_line().map_err(io_err)? {
         line_no += 1;
@@ -225,35 +359,14 @@ pub(crate) fn read_sweep_impl(
             progress(bytes_read);
             next_report = bytes_read + (1 << 22);
         }
-        let text = trim_line_end(buf);
-        if is_blank_or_comment(text) {
-            continue;
-        }
-        // Plain numeric rows take the fast path; anything else, including every row
-        // that would be refused, is read by the general parser.
-        if let (Some(fast), false) = (&fast, row.time_is_iso == Some(true)) {
-            if let Some(time) = fast.parse(text, &mut row.numbers, builder.last_time()) {
-                if time.is_some() {
-                    row.time_is_iso = Some(false);
-                }
-                row.time_s = time;
-                builder.push(&row, line_no, &mut log.mount_labels);
-                continue;
-            }
-        }
-        match row.parse(text, path, line_no, &header, builder.last_time()) {
-            Ok(()) => {
-                builder.push(&row, line_no, &mut log.mount_labels);
-            }
-            Err(e) if options.skip_bad_rows && e.line().is_some() => {
-                log.skipped_rows.push(SkippedRow {
-                    line: line_no,
-                    reason: e.to_string(),
-                });
-            }
-            Err(e) => return Err(e),
-        }
+        sink.line(buf, line_no)?;
     }
+    let RowSink {
+        builder,
+        mut row,
+        mut log,
+        ..
+    } = sink;
     progress(bytes_read);
     if builder.lines.is_empty() {
         if log.skipped_rows.is_empty() {
@@ -281,7 +394,7 @@ pub(crate) fn read_sweep_impl(
     Ok(log)
 }
 
-fn trim_line_end(buf: &[u8]) -> &[u8] {
+pub(crate) fn trim_line_end(buf: &[u8]) -> &[u8] {
     let mut end = buf.len();
     while end > 0 && (buf[end - 1] == b'\n' || buf[end - 1] == b'\r') {
         end -= 1;
@@ -289,7 +402,7 @@ fn trim_line_end(buf: &[u8]) -> &[u8] {
     &buf[..end]
 }
 
-fn is_blank_or_comment(text: &[u8]) -> bool {
+pub(crate) fn is_blank_or_comment(text: &[u8]) -> bool {
     match text.iter().position(|c| !c.is_ascii_whitespace()) {
         None => true,
         Some(i) => text[i] == b'#',
@@ -530,6 +643,23 @@ impl ColumnsBuilder {
                 .any(|c| matches!(c.kind, ColumnKind::Mount)),
             label_index: HashMap::new(),
         }
+    }
+
+    /// Append the plain rows of a part whose first line is line `before + 1`.
+    fn append(&mut self, part: &Part, before: u64) {
+        for (&k, values) in self.numeric.iter().zip(&part.numbers) {
+            if let Some(col) = self.numbers.get_mut(k) {
+                col.extend_from_slice(values);
+            }
+        }
+        if self.has_time {
+            self.time.extend_from_slice(&part.time);
+        }
+        if self.has_mount {
+            // Not reached: the fast path refuses headers with a mount column.
+            self.mount.extend(part.lines.iter().map(|_| None));
+        }
+        self.lines.extend(part.lines.iter().map(|l| before + l));
     }
 
     fn last_time(&self) -> Option<f64> {
