@@ -1,6 +1,7 @@
 //! Readers for what the user brings: sweep logs (CSV, DESIGN §4) and test plans (TOML,
 //! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
 
+mod columns;
 mod error;
 mod fast_row;
 pub mod hash;

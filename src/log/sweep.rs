@@ -4,11 +4,11 @@
 //! small row buffer and, once the whole row is good, appended to columns of `f64`. The
 //! file is never held in memory as one string.
 
-use std::collections::HashMap;
 use std::fs::File;
 use std::io::Read;
 use std::path::{Path, PathBuf};
 
+use super::columns::ColumnsBuilder;
 use super::error::{LogError, Shown};
 use super::fast_row::FastRow;
 use super::header::{parse_header, ColumnKind, Header, TimeUnit};
@@ -410,13 +410,13 @@ pub(crate) fn is_blank_or_comment(text: &[u8]) -> bool {
 }
 
 /// Parsed cells of one row, before they are committed to the columns.
-struct RowParser {
-    numbers: Vec<f64>,
+pub(super) struct RowParser {
+    pub(super) numbers: Vec<f64>,
     /// The row's mount label, valid when `has_label` (a reused buffer: no per-row
     /// allocation).
-    mount_label: String,
-    has_label: bool,
-    time_s: Option<f64>,
+    pub(super) mount_label: String,
+    pub(super) has_label: bool,
+    pub(super) time_s: Option<f64>,
     fields: Vec<(usize, usize)>,
     first_epoch_s: Option<f64>,
     first_iso: Option<String>,
@@ -597,139 +597,6 @@ pub(crate) fn split_fields(text: &[u8], delimiter: u8, out: &mut Vec<(usize, usi
         }
     }
     out.push((start, text.len()));
-}
-
-/// Accumulates good rows into columns.
-struct ColumnsBuilder {
-    numbers: Vec<Vec<f64>>,
-    /// Indices of the numeric columns (the ones with a vector in `numbers`).
-    numeric: Vec<usize>,
-    time: Vec<f64>,
-    mount: Vec<Option<u32>>,
-    lines: Vec<u64>,
-    has_time: bool,
-    has_mount: bool,
-    /// Index of each mount label in `SweepLog::mount_labels` (first-seen order).
-    label_index: HashMap<String, u32>,
-}
-
-impl ColumnsBuilder {
-    fn new(header: &Header) -> Self {
-        ColumnsBuilder {
-            numbers: header
-                .columns
-                .iter()
-                .map(|c| {
-                    if c.kind.is_numeric() {
-                        Vec::with_capacity(1024)
-                    } else {
-                        Vec::new()
-                    }
-                })
-                .collect(),
-            numeric: (0..header.columns.len())
-                .filter(|&k| header.columns[k].kind.is_numeric())
-                .collect(),
-            time: Vec::new(),
-            mount: Vec::new(),
-            lines: Vec::with_capacity(1024),
-            has_time: header
-                .columns
-                .iter()
-                .any(|c| matches!(c.kind, ColumnKind::Time(_))),
-            has_mount: header
-                .columns
-                .iter()
-                .any(|c| matches!(c.kind, ColumnKind::Mount)),
-            label_index: HashMap::new(),
-        }
-    }
-
-    /// Append the plain rows of a part whose first line is line `before + 1`.
-    fn append(&mut self, part: &Part, before: u64) {
-        for (&k, values) in self.numeric.iter().zip(&part.numbers) {
-            if let Some(col) = self.numbers.get_mut(k) {
-                col.extend_from_slice(values);
-            }
-        }
-        if self.has_time {
-            self.time.extend_from_slice(&part.time);
-        }
-        if self.has_mount {
-            // Not reached: the fast path refuses headers with a mount column.
-            self.mount.extend(part.lines.iter().map(|_| None));
-        }
-        self.lines.extend(part.lines.iter().map(|l| before + l));
-    }
-
-    fn last_time(&self) -> Option<f64> {
-        self.time.last().copied()
-    }
-
-    fn push(&mut self, row: &RowParser, line: u64, labels: &mut Vec<String>) {
-        for &k in &self.numeric {
-            if let (Some(col), Some(&v)) = (self.numbers.get_mut(k), row.numbers.get(k)) {
-                col.push(v);
-            }
-        }
-        if self.has_time {
-            self.time.push(row.time_s.unwrap_or(f64::NAN));
-        }
-        if self.has_mount {
-            let idx = row.has_label.then(|| {
-                let label = row.mount_label.as_str();
-                match self.label_index.get(label) {
-                    Some(&i) => i,
-                    None => {
-                        let i = labels.len() as u32;
-                        labels.push(label.to_string());
-                        self.label_index.insert(label.to_string(), i);
-                        i
-                    }
-                }
-            });
-            self.mount.push(idx);
-        }
-        self.lines.push(line);
-    }
-
-    fn finish(mut self, header: &Header, log: &mut SweepLog) {
-        let mut take = |kind: &ColumnKind| -> Option<Vec<f64>> {
-            let k = header.columns.iter().position(|c| &c.kind == kind)?;
-            Some(std::mem::take(&mut self.numbers[k]))
-        };
-        use ColumnKind as K;
-        let triple = |a: Option<Vec<f64>>, b: Option<Vec<f64>>, c: Option<Vec<f64>>| match (a, b, c)
-        {
-            (Some(a), Some(b), Some(c)) => Some([a, b, c]),
-            _ => None,
-        };
-        log.b_nt = triple(take(&K::Field(0)), take(&K::Field(1)), take(&K::Field(2)));
-        log.h_nt = triple(
-            take(&K::Applied(0)),
-            take(&K::Applied(1)),
-            take(&K::Applied(2)),
-        );
-        log.probe_m = triple(take(&K::Probe(0)), take(&K::Probe(1)), take(&K::Probe(2)));
-        log.temp_c = take(&K::Temperature);
-        log.angle_rad = take(&K::Angle);
-        for (k, col) in header.columns.iter().enumerate() {
-            if let ColumnKind::Command(rod) = &col.kind {
-                log.commands.push(CommandColumn {
-                    rod: rod.clone(),
-                    header: col.raw.clone(),
-                    values: std::mem::take(&mut self.numbers[k]),
-                });
-            }
-        }
-        if self.has_time {
-            log.t_s = Some(self.time);
-        }
-        if self.has_mount {
-            log.mount = Some(self.mount);
-        }
-        log.lines = self.lines;
-    }
 }
 
 #[cfg(test)]
