@@ -54,10 +54,8 @@ pub fn run_and_record(
         .iter()
         .map(|s| {
             let log = result.plan.resolve(&s.log);
-            Ok(
-                NewRun::from_plan(&result.plan, s.result.kind(), &log, s.result.to_json()?)
-                    .map_err(magproof::Error::from)?,
-            )
+            NewRun::from_plan(&result.plan, s.result.kind(), &log, s.result.to_json()?)
+                .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
     let recorded = Ledger::open(path)
