@@ -18,23 +18,20 @@
 //!   covariance `s² (AᵀA)⁻¹` with `s² = RSS / (3n − 3)`.
 //! * [`fit_moment_and_offset`]: `m` and `o` together (six unknowns, nonlinear), solved by
 //!   a damped Gauss–Newton (Levenberg–Marquardt; Levenberg 1944, Marquardt 1963) written
-//!   as an argmin [`Solver`](argmin::core::Solver), seeded from the linear fit at `o = 0`; covariance
+//!   as an argmin `Solver` (the project's one damped solver, [`crate::fit::lm`]), seeded from
+//!   the linear fit at `o = 0`; covariance
 //!   `s² (JᵀJ)⁻¹` at the solution.
 //!
 //! Requirements: samples must be background-subtracted (the model has no constant term)
 //! and the probe must be well away from the article (point-dipole model; common practice:
 //! a distance of several times the article's largest size).
 
-use argmin::core::{
-    CostFunction, Error as ArgminError, Executor, Jacobian, Operator, State, TerminationReason,
-};
+use argmin::core::{CostFunction, Error as ArgminError, Jacobian, Operator};
 use nalgebra::{DMatrix, DVector, Matrix3, Matrix6, SymmetricEigen, Vector3, Vector6};
 
 use crate::physics::dipole::{dipole_matrix, MU0_OVER_4PI_NT_M_PER_A};
 
-mod damped;
-
-pub use damped::{LevenbergMarquardt, LmState};
+use crate::fit::lm::{solve, DenseProblem, LmTermination};
 
 /// One background-subtracted field sample.
 #[derive(Debug, Clone, Copy)]
@@ -335,25 +332,16 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
     let seed = fit_moment(samples, &Vector3::zeros())?;
     let m0 = seed.moment_body_am2;
     let p0 = DVector::from_vec(vec![m0.x, m0.y, m0.z, 0.0, 0.0, 0.0]);
-    let problem = OffsetProblem::new(samples);
-    let res = Executor::new(problem, LevenbergMarquardt::new())
-        .configure(|s| s.param(p0).max_iters(200))
-        .run()
+    // The project's damped solver (fit::lm, Levenberg–Marquardt on argmin's Solver).
+    let out = solve(DenseProblem(OffsetProblem::new(samples)), p0, 200)
         .map_err(|e| DipoleFitError::NotConverged(e.to_string()))?;
-    let state = res.state();
-    match state.get_termination_reason() {
-        Some(TerminationReason::SolverConverged) => {}
-        other => {
-            return Err(DipoleFitError::NotConverged(format!(
-                "solver stopped: {}",
-                other.map(|r| r.text()).unwrap_or("for an unknown reason")
-            )))
-        }
+    if !matches!(out.termination, LmTermination::Converged) {
+        return Err(DipoleFitError::NotConverged(format!(
+            "solver stopped: {}",
+            out.termination
+        )));
     }
-    let p = state
-        .get_best_param()
-        .ok_or_else(|| DipoleFitError::NotConverged("no parameters returned".into()))?
-        .clone();
+    let p = out.param;
     let problem = OffsetProblem::new(samples);
     let j = problem
         .jacobian(&p)
@@ -382,7 +370,7 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
         offset_sigma_m: Some(Vector3::new(sig[3], sig[4], sig[5])),
         residual_rms_nt: (rss / (3 * samples.len()) as f64).sqrt(),
         samples: samples.len(),
-        iterations: state.get_iter(),
+        iterations: out.iterations,
     })
 }
 
