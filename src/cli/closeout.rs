@@ -53,8 +53,8 @@ pub fn run_and_record(
         .steps
         .iter()
         .map(|s| {
-            let log = result.plan.resolve(&s.log);
-            NewRun::from_plan(&result.plan, s.result.kind(), &log, s.result.to_json()?)
+            // Step log paths are already resolved against the plan's folder.
+            NewRun::from_plan(&result.plan, s.result.kind(), &s.log, s.result.to_json()?)
                 .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
