@@ -9,6 +9,7 @@ mod history;
 mod inspect;
 mod polarity;
 mod record;
+mod simulate;
 
 use clap::{Parser, Subcommand};
 
@@ -41,6 +42,8 @@ enum Command {
     Polarity(polarity::Args),
     /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
     Calibrate(calibrate::Args),
+    /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
+    Simulate(Box<simulate::Args>),
 }
 
 /// Parse the command line and run the chosen command.
@@ -53,6 +56,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
         Command::Calibrate(args) => calibrate::run(args),
+        Command::Simulate(args) => simulate::run(*args),
     }
 }
 
