@@ -42,6 +42,18 @@ pub enum Error {
     /// The ledger could not be opened, read or written.
     #[error(transparent)]
     Ledger(#[from] LedgerError),
+    /// A closeout step could not run; the source says why.
+    #[error("step {index} ({kind}, {}): {source}", log.display())]
+    Step {
+        /// 1-based position of the step in the plan.
+        index: usize,
+        /// The step's kind.
+        kind: &'static str,
+        /// The step's log.
+        log: PathBuf,
+        /// Why it could not run.
+        source: Box<Error>,
+    },
     /// A bug in magproof: an invariant that should hold did not.
     #[error("internal error (please report): {0}")]
     Internal(String),
@@ -52,6 +64,7 @@ impl Error {
     pub fn exit_code(&self) -> u8 {
         match self {
             Error::Internal(_) => 3,
+            Error::Step { source, .. } => source.exit_code(),
             Error::Geomag(GeomagError::Table(_)) => 3,
             Error::Ledger(e) => e.exit_code(),
             Error::Io { source, .. } if source.kind() == std::io::ErrorKind::NotFound => 2,

@@ -6,6 +6,8 @@ mod util;
 
 #[path = "cli/calibrate.rs"]
 mod calibrate;
+#[path = "cli/closeout.rs"]
+mod closeout;
 #[path = "cli/dipole.rs"]
 mod dipole;
 #[path = "cli/field.rs"]

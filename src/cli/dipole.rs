@@ -136,7 +136,7 @@ fn wrap(text: &str, indent: &str, width: usize) -> String {
 }
 
 /// The terminal summary (fits 80 columns).
-fn render(log: &std::path::Path, r: &DipoleResult) -> String {
+pub(crate) fn render(log: &std::path::Path, r: &DipoleResult) -> String {
     use std::fmt::Write as _;
     let mut s = String::new();
     let method = match r.method {

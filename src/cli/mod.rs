@@ -2,6 +2,7 @@
 //! validated library requests, and terminal output. The library never sees clap types.
 
 mod calibrate;
+mod closeout;
 mod common;
 mod dipole;
 mod field;
@@ -30,6 +31,8 @@ pub struct Cli {
 
 #[derive(Debug, Subcommand)]
 enum Command {
+    /// Every step of a plan in order, one summary, one ledger record per step.
+    Closeout(closeout::Args),
     /// Read a log (and a plan) and say what was found, without fitting anything.
     Inspect(inspect::Args),
     /// Geomagnetic reference field (IGRF-14) at a site: N/E/down, total, declination, inclination.
@@ -50,6 +53,7 @@ enum Command {
 pub fn run() -> anyhow::Result<Outcome> {
     let cli = Cli::parse();
     match cli.command {
+        Command::Closeout(args) => closeout::run(args),
         Command::Inspect(args) => inspect::run(args),
         Command::Field(args) => field::run(args),
         Command::History(args) => history::run(args),

@@ -1,9 +1,14 @@
 //! Readers for what the user brings: sweep logs (CSV, DESIGN §4) and test plans (TOML,
 //! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
 
+mod columns;
 mod error;
+mod fast_row;
 pub mod hash;
 mod header;
+mod lines;
+mod number;
+mod parallel;
 pub mod plan;
 pub mod saturation;
 mod sweep;

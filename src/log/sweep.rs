@@ -5,11 +5,15 @@
 //! file is never held in memory as one string.
 
 use std::fs::File;
-use std::io::{BufRead, BufReader, Read};
+use std::io::Read;
 use std::path::{Path, PathBuf};
 
+use super::columns::ColumnsBuilder;
 use super::error::{LogError, Shown};
+use super::fast_row::FastRow;
 use super::header::{parse_header, ColumnKind, Header, TimeUnit};
+use super::lines::LineReader;
+use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
 use super::units::FieldUnit;
 
 /// How to read a sweep log.
@@ -154,27 +158,134 @@ pub fn read_sweep_from(
     options: &ReadOptions,
     progress: &mut dyn FnMut(u64),
 ) -> Result<SweepLog, LogError> {
-    let mut reader = BufReader::with_capacity(1 << 16, reader);
+    read_sweep_impl(reader, path, options, progress, RowPath::Fast)
+}
+
+/// Which row parser reads the plain rows (tests compare the two).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum RowPath {
+    /// Plain numeric rows take [`FastRow`]; the rest the general parser.
+    Fast,
+    /// Every row goes through the general parser.
+    #[cfg_attr(not(test), allow(dead_code))]
+    GeneralOnly,
+    /// As `Fast`, with every block split into this many parts whatever its size.
+    #[cfg_attr(not(test), allow(dead_code))]
+    Parallel(usize),
+}
+
+/// Where rows go: the parsers, the columns and the log being built.
+struct RowSink<'a> {
+    path: &'a Path,
+    header: &'a Header,
+    options: &'a ReadOptions,
+    fast: Option<FastRow>,
+    builder: ColumnsBuilder,
+    row: RowParser,
+    log: SweepLog,
+}
+
+impl RowSink<'_> {
+    /// Read one line (without `\n`) that is line `line_no` of the file.
+    fn line(&mut self, buf: &[u8], line_no: u64) -> Result<(), LogError> {
+        let text = trim_line_end(buf);
+        if is_blank_or_comment(text) {
+            return Ok(());
+        }
+        let (row, builder) = (&mut self.row, &mut self.builder);
+        // Plain numeric rows take the fast path; anything else, including every row
+        // that would be refused, is read by the general parser.
+        if let (Some(fast), false) = (&self.fast, row.time_is_iso == Some(true)) {
+            if let Some(time) = fast.parse(text, &mut row.numbers, builder.last_time()) {
+                if time.is_some() {
+                    row.time_is_iso = Some(false);
+                }
+                row.time_s = time;
+                builder.push(row, line_no, &mut self.log.mount_labels);
+                return Ok(());
+            }
+        }
+        match row.parse(text, self.path, line_no, self.header, builder.last_time()) {
+            Ok(()) => {
+                builder.push(row, line_no, &mut self.log.mount_labels);
+            }
+            Err(e) if self.options.skip_bad_rows && e.line().is_some() => {
+                self.log.skipped_rows.push(SkippedRow {
+                    line: line_no,
+                    reason: e.to_string(),
+                });
+            }
+            Err(e) => return Err(e),
+        }
+        Ok(())
+    }
+
+    /// Read every line of `bytes` (complete lines, each ending with `\n`), the first
+    /// being line `before + 1`. Returns the number of lines.
+    fn lines(&mut self, bytes: &[u8], before: u64) -> Result<u64, LogError> {
+        let mut count = 0;
+        let mut pos = 0;
+        while pos < bytes.len() {
+            let end = memchr::memchr(b'\n', &bytes[pos..]).map_or(bytes.len(), |i| pos + i);
+            count += 1;
+            self.line(&bytes[pos..end], before + count)?;
+            pos = end + 1;
+        }
+        Ok(count)
+    }
+
+    /// Take a part read in parallel: its plain rows if they fit after the rows so far,
+    /// then the rest of it line by line. `bytes` is the part, its first line is line
+    /// `before + 1`. Returns the number of lines.
+    fn part(&mut self, bytes: &[u8], part: &Part, before: u64) -> Result<u64, LogError> {
+        let first_time = part.time.first().copied();
+        let fits = self.row.time_is_iso != Some(true)
+            && match (first_time, self.builder.last_time()) {
+                (Some(t), Some(prev)) => t >= prev,
+                _ => true,
+            };
+        if !fits {
+            return self.lines(bytes, before);
+        }
+        self.builder.append(part, before);
+        if first_time.is_some() {
+            self.row.time_is_iso = Some(false);
+        }
+        match part.stop {
+            None => Ok(part.line_count),
+            Some((offset, lines_before)) => {
+                let rest = bytes.get(offset..).unwrap_or(&[]);
+                Ok(lines_before + self.lines(rest, before + lines_before)?)
+            }
+        }
+    }
+}
+
+pub(crate) fn read_sweep_impl(
+    reader: impl Read,
+    path: &Path,
+    options: &ReadOptions,
+    progress: &mut dyn FnMut(u64),
+    row_path: RowPath,
+) -> Result<SweepLog, LogError> {
+    let mut lines = LineReader::new(reader);
     let shown = || Shown(path.to_path_buf());
     let io_err = |source| LogError::Io {
         path: Shown(path.to_path_buf()),
         source,
     };
-    let mut buf: Vec<u8> = Vec::with_capacity(256);
     let mut line_no: u64 = 0;
-    let mut bytes_read: u64 = 0;
     let mut next_report: u64 = 1 << 22;
+    let mut bytes_read: u64;
 
     // Header: the first line that is neither blank nor a comment.
     let header: Header = loop {
-        buf.clear();
-        let n = reader.read_until(b'\n', &mut buf).map_err(io_err)?;
-        if n == 0 {
+        let Some((buf, consumed)) = lines.next_line().map_err(io_err)? else {
             return Err(LogError::NoHeader { path: shown() });
-        }
-        bytes_read += n as u64;
+        };
         line_no += 1;
-        let mut text: &[u8] = trim_line_end(&buf);
+        bytes_read = consumed;
+        let mut text: &[u8] = trim_line_end(buf);
         if line_no == 1 {
             text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
         }
@@ -188,44 +299,74 @@ pub fn read_sweep_from(
         break parse_header(text, path, line_no, options.default_unit)?;
     };
 
-    let mut log = SweepLog {
+    let log = SweepLog {
         path: path.to_path_buf(),
         header_line: line_no,
         ignored_columns: header.ignored.clone(),
         ..SweepLog::default()
     };
-    let mut builder = ColumnsBuilder::new(&header);
-    let mut row = RowParser::new(&header);
+    let mut sink = RowSink {
+        path,
+        header: &header,
+        options,
+        fast: FastRow::new(&header).filter(|_| row_path != RowPath::GeneralOnly),
+        builder: ColumnsBuilder::new(&header),
+        row: RowParser::new(&header),
+        log,
+    };
 
-    loop {
-        buf.clear();
-        let n = reader.read_until(b'\n', &mut buf).map_err(io_err)?;
-        if n == 0 {
-            break;
+    // Large plain blocks: parts parsed on all cores, appended in order (see parallel.rs).
+    let threads = match row_path {
+        RowPath::Parallel(n) => n,
+        _ => rayon::current_num_threads(),
+    };
+    if threads > 1 {
+        while let Some(fast) = sink.fast.clone() {
+            let Some((block, consumed)) = lines.next_block().map_err(io_err)? else {
+                break;
+            };
+            bytes_read = consumed;
+            let min_bytes = match row_path {
+                RowPath::Parallel(_) => 0,
+                _ => MIN_PARALLEL_BYTES,
+            };
+            if block.len() < min_bytes {
+                line_no += sink.lines(block, line_no)?;
+            } else {
+                let pieces = split_block(block, threads);
+                let parts = parse_parts(
+                    &pieces,
+                    &fast,
+                    header.columns.len(),
+                    &sink.builder.numeric,
+                    sink.builder.has_time,
+                );
+                for (bytes, part) in pieces.iter().zip(&parts) {
+                    line_no += sink.part(bytes, part, line_no)?;
+                }
+            }
+            if bytes_read >= next_report {
+                progress(bytes_read);
+                next_report = bytes_read + (1 << 22);
+            }
         }
-        bytes_read += n as u64;
+    }
+
+    while let Some((buf, consumed)) = lines.next_line().map_err(io_err)? {
         line_no += 1;
+        bytes_read = consumed;
         if bytes_read >= next_report {
             progress(bytes_read);
             next_report = bytes_read + (1 << 22);
         }
-        let text = trim_line_end(&buf);
-        if is_blank_or_comment(text) {
-            continue;
-        }
-        match row.parse(text, path, line_no, &header, builder.last_time()) {
-            Ok(()) => {
-                builder.push(&row, line_no, &mut log.mount_labels);
-            }
-            Err(e) if options.skip_bad_rows && e.line().is_some() => {
-                log.skipped_rows.push(SkippedRow {
-                    line: line_no,
-                    reason: e.to_string(),
-                });
-            }
-            Err(e) => return Err(e),
-        }
+        sink.line(buf, line_no)?;
     }
+    let RowSink {
+        builder,
+        mut row,
+        mut log,
+        ..
+    } = sink;
     progress(bytes_read);
     if builder.lines.is_empty() {
         if log.skipped_rows.is_empty() {
@@ -253,7 +394,7 @@ pub fn read_sweep_from(
     Ok(log)
 }
 
-fn trim_line_end(buf: &[u8]) -> &[u8] {
+pub(crate) fn trim_line_end(buf: &[u8]) -> &[u8] {
     let mut end = buf.len();
     while end > 0 && (buf[end - 1] == b'\n' || buf[end - 1] == b'\r') {
         end -= 1;
@@ -261,7 +402,7 @@ fn trim_line_end(buf: &[u8]) -> &[u8] {
     &buf[..end]
 }
 
-fn is_blank_or_comment(text: &[u8]) -> bool {
+pub(crate) fn is_blank_or_comment(text: &[u8]) -> bool {
     match text.iter().position(|c| !c.is_ascii_whitespace()) {
         None => true,
         Some(i) => text[i] == b'#',
@@ -269,10 +410,13 @@ fn is_blank_or_comment(text: &[u8]) -> bool {
 }
 
 /// Parsed cells of one row, before they are committed to the columns.
-struct RowParser {
-    numbers: Vec<f64>,
-    mount: Option<Option<String>>,
-    time_s: Option<f64>,
+pub(super) struct RowParser {
+    pub(super) numbers: Vec<f64>,
+    /// The row's mount label, valid when `has_label` (a reused buffer: no per-row
+    /// allocation).
+    pub(super) mount_label: String,
+    pub(super) has_label: bool,
+    pub(super) time_s: Option<f64>,
     fields: Vec<(usize, usize)>,
     first_epoch_s: Option<f64>,
     first_iso: Option<String>,
@@ -283,7 +427,8 @@ impl RowParser {
     fn new(header: &Header) -> Self {
         RowParser {
             numbers: vec![0.0; header.columns.len()],
-            mount: None,
+            mount_label: String::new(),
+            has_label: false,
             time_s: None,
             fields: Vec::with_capacity(header.columns.len()),
             first_epoch_s: None,
@@ -309,7 +454,7 @@ impl RowParser {
                 found: self.fields.len(),
             });
         }
-        self.mount = None;
+        self.has_label = false;
         self.time_s = None;
         for (k, col) in header.columns.iter().enumerate() {
             let (a, b) = self.fields[k];
@@ -327,11 +472,11 @@ impl RowParser {
                     let s = std::str::from_utf8(cell)
                         .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
                     let s = s.trim();
-                    self.mount = Some(if s.is_empty() || s.eq_ignore_ascii_case("none") {
-                        None
-                    } else {
-                        Some(s.to_string())
-                    });
+                    self.has_label = !(s.is_empty() || s.eq_ignore_ascii_case("none"));
+                    if self.has_label {
+                        self.mount_label.clear();
+                        self.mount_label.push_str(s);
+                    }
                 }
                 ColumnKind::Time(unit) => {
                     let t = self.parse_time(cell, *unit, &cell_err)?;
@@ -452,111 +597,6 @@ pub(crate) fn split_fields(text: &[u8], delimiter: u8, out: &mut Vec<(usize, usi
         }
     }
     out.push((start, text.len()));
-}
-
-/// Accumulates good rows into columns.
-struct ColumnsBuilder {
-    numbers: Vec<Vec<f64>>,
-    time: Vec<f64>,
-    mount: Vec<Option<u32>>,
-    lines: Vec<u64>,
-    has_time: bool,
-    has_mount: bool,
-}
-
-impl ColumnsBuilder {
-    fn new(header: &Header) -> Self {
-        ColumnsBuilder {
-            numbers: header
-                .columns
-                .iter()
-                .map(|c| {
-                    if c.kind.is_numeric() {
-                        Vec::with_capacity(1024)
-                    } else {
-                        Vec::new()
-                    }
-                })
-                .collect(),
-            time: Vec::new(),
-            mount: Vec::new(),
-            lines: Vec::with_capacity(1024),
-            has_time: header
-                .columns
-                .iter()
-                .any(|c| matches!(c.kind, ColumnKind::Time(_))),
-            has_mount: header
-                .columns
-                .iter()
-                .any(|c| matches!(c.kind, ColumnKind::Mount)),
-        }
-    }
-
-    fn last_time(&self) -> Option<f64> {
-        self.time.last().copied()
-    }
-
-    fn push(&mut self, row: &RowParser, line: u64, labels: &mut Vec<String>) {
-        for (k, col) in self.numbers.iter_mut().enumerate() {
-            if col.capacity() > 0 {
-                col.push(row.numbers[k]);
-            }
-        }
-        if self.has_time {
-            self.time.push(row.time_s.unwrap_or(f64::NAN));
-        }
-        if self.has_mount {
-            let idx = row.mount.as_ref().and_then(|m| m.as_ref()).map(|label| {
-                match labels.iter().position(|l| l == label) {
-                    Some(i) => i as u32,
-                    None => {
-                        labels.push(label.clone());
-                        (labels.len() - 1) as u32
-                    }
-                }
-            });
-            self.mount.push(idx);
-        }
-        self.lines.push(line);
-    }
-
-    fn finish(mut self, header: &Header, log: &mut SweepLog) {
-        let mut take = |kind: &ColumnKind| -> Option<Vec<f64>> {
-            let k = header.columns.iter().position(|c| &c.kind == kind)?;
-            Some(std::mem::take(&mut self.numbers[k]))
-        };
-        use ColumnKind as K;
-        let triple = |a: Option<Vec<f64>>, b: Option<Vec<f64>>, c: Option<Vec<f64>>| match (a, b, c)
-        {
-            (Some(a), Some(b), Some(c)) => Some([a, b, c]),
-            _ => None,
-        };
-        log.b_nt = triple(take(&K::Field(0)), take(&K::Field(1)), take(&K::Field(2)));
-        log.h_nt = triple(
-            take(&K::Applied(0)),
-            take(&K::Applied(1)),
-            take(&K::Applied(2)),
-        );
-        log.probe_m = triple(take(&K::Probe(0)), take(&K::Probe(1)), take(&K::Probe(2)));
-        log.temp_c = take(&K::Temperature);
-        log.angle_rad = take(&K::Angle);
-        for (k, col) in header.columns.iter().enumerate() {
-            if let ColumnKind::Command(rod) = &col.kind {
-                log.commands.push(CommandColumn {
-                    rod: rod.clone(),
-                    header: col.raw.clone(),
-                    values: std::mem::take(&mut self.numbers[k]),
-                });
-            }
-        }
-        if self.has_time {
-            log.t_s = Some(self.time);
-        }
-        if self.has_mount {
-            log.mount = Some(self.mount);
-        }
-        log.lines = self.lines;
-    }
 }
 
 #[cfg(test)]

@@ -144,6 +144,9 @@ impl TestDir {
     /// Write a file inside the folder and return its path.
     pub fn write(&self, name: &str, contents: impl AsRef<[u8]>) -> PathBuf {
         let p = self.join(name);
+        if let Some(parent) = p.parent() {
+            std::fs::create_dir_all(parent).expect("create test folder");
+        }
         std::fs::write(&p, contents).expect("write test file");
         p
     }

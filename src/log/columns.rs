@@ -1,0 +1,141 @@
+//! Columns of a sweep log as rows are accepted: one `f64` vector per numeric column,
+//! time, mount label indices (first-seen order) and the file line of each row.
+
+use std::collections::HashMap;
+
+use super::header::{ColumnKind, Header};
+use super::parallel::Part;
+use super::sweep::{CommandColumn, RowParser, SweepLog};
+
+/// Accumulates good rows into columns.
+pub(super) struct ColumnsBuilder {
+    pub(super) numbers: Vec<Vec<f64>>,
+    /// Indices of the numeric columns (the ones with a vector in `numbers`).
+    pub(super) numeric: Vec<usize>,
+    pub(super) time: Vec<f64>,
+    pub(super) mount: Vec<Option<u32>>,
+    pub(super) lines: Vec<u64>,
+    pub(super) has_time: bool,
+    pub(super) has_mount: bool,
+    /// Index of each mount label in `SweepLog::mount_labels` (first-seen order).
+    label_index: HashMap<String, u32>,
+}
+
+impl ColumnsBuilder {
+    pub(super) fn new(header: &Header) -> Self {
+        ColumnsBuilder {
+            numbers: header
+                .columns
+                .iter()
+                .map(|c| {
+                    if c.kind.is_numeric() {
+                        Vec::with_capacity(1024)
+                    } else {
+                        Vec::new()
+                    }
+                })
+                .collect(),
+            numeric: (0..header.columns.len())
+                .filter(|&k| header.columns[k].kind.is_numeric())
+                .collect(),
+            time: Vec::new(),
+            mount: Vec::new(),
+            lines: Vec::with_capacity(1024),
+            has_time: header
+                .columns
+                .iter()
+                .any(|c| matches!(c.kind, ColumnKind::Time(_))),
+            has_mount: header
+                .columns
+                .iter()
+                .any(|c| matches!(c.kind, ColumnKind::Mount)),
+            label_index: HashMap::new(),
+        }
+    }
+
+    /// Append the plain rows of a part whose first line is line `before + 1`.
+    pub(super) fn append(&mut self, part: &Part, before: u64) {
+        for (&k, values) in self.numeric.iter().zip(&part.numbers) {
+            if let Some(col) = self.numbers.get_mut(k) {
+                col.extend_from_slice(values);
+            }
+        }
+        if self.has_time {
+            self.time.extend_from_slice(&part.time);
+        }
+        if self.has_mount {
+            // Not reached: the fast path refuses headers with a mount column.
+            self.mount.extend(part.lines.iter().map(|_| None));
+        }
+        self.lines.extend(part.lines.iter().map(|l| before + l));
+    }
+
+    pub(super) fn last_time(&self) -> Option<f64> {
+        self.time.last().copied()
+    }
+
+    pub(super) fn push(&mut self, row: &RowParser, line: u64, labels: &mut Vec<String>) {
+        for &k in &self.numeric {
+            if let (Some(col), Some(&v)) = (self.numbers.get_mut(k), row.numbers.get(k)) {
+                col.push(v);
+            }
+        }
+        if self.has_time {
+            self.time.push(row.time_s.unwrap_or(f64::NAN));
+        }
+        if self.has_mount {
+            let idx = row.has_label.then(|| {
+                let label = row.mount_label.as_str();
+                match self.label_index.get(label) {
+                    Some(&i) => i,
+                    None => {
+                        let i = labels.len() as u32;
+                        labels.push(label.to_string());
+                        self.label_index.insert(label.to_string(), i);
+                        i
+                    }
+                }
+            });
+            self.mount.push(idx);
+        }
+        self.lines.push(line);
+    }
+
+    pub(super) fn finish(mut self, header: &Header, log: &mut SweepLog) {
+        let mut take = |kind: &ColumnKind| -> Option<Vec<f64>> {
+            let k = header.columns.iter().position(|c| &c.kind == kind)?;
+            Some(std::mem::take(&mut self.numbers[k]))
+        };
+        use ColumnKind as K;
+        let triple = |a: Option<Vec<f64>>, b: Option<Vec<f64>>, c: Option<Vec<f64>>| match (a, b, c)
+        {
+            (Some(a), Some(b), Some(c)) => Some([a, b, c]),
+            _ => None,
+        };
+        log.b_nt = triple(take(&K::Field(0)), take(&K::Field(1)), take(&K::Field(2)));
+        log.h_nt = triple(
+            take(&K::Applied(0)),
+            take(&K::Applied(1)),
+            take(&K::Applied(2)),
+        );
+        log.probe_m = triple(take(&K::Probe(0)), take(&K::Probe(1)), take(&K::Probe(2)));
+        log.temp_c = take(&K::Temperature);
+        log.angle_rad = take(&K::Angle);
+        for (k, col) in header.columns.iter().enumerate() {
+            if let ColumnKind::Command(rod) = &col.kind {
+                log.commands.push(CommandColumn {
+                    rod: rod.clone(),
+                    header: col.raw.clone(),
+                    values: std::mem::take(&mut self.numbers[k]),
+                });
+            }
+        }
+        if self.has_time {
+            log.t_s = Some(self.time);
+        }
+        if self.has_mount {
+            log.mount = Some(self.mount);
+        }
+        log.lines = self.lines;
+    }
+}

@@ -1,0 +1,274 @@
+//! Fast path for plain numeric rows of a sweep log (issue 10).
+//!
+//! Most rows are unquoted decimals separated by the delimiter, with no blanks. This path
+//! reads such a row in one left-to-right pass: it finds each cell's end while parsing
+//! its number ([`super::number::scan_decimal`]). Whenever a row holds anything else — a
+//! quote, a blank, an empty or non-numeric cell, a wrong field count, a value that is not
+//! finite, time that goes backwards, a mount column, ISO-8601 time — it gives up and the
+//! general row parser reads the row from scratch. So every refusal, its message and its
+//! line come from the one general parser, and the fast path only ever accepts rows the
+//! general parser would accept with the same values.
+
+use super::header::{ColumnKind, Header};
+use super::number::{scan_decimal, Scan};
+
+/// What the fast path does with one column.
+#[derive(Debug, Clone, Copy)]
+enum Cell {
+    /// A numeric column: value × scale.
+    Number(f64),
+    /// Time given as numbers: value × seconds per unit.
+    Time(f64),
+    /// An ignored column: skipped (no quote allowed).
+    Skip,
+}
+
+/// The fast row parser for one header; `None` from [`FastRow::new`] when the header has
+/// a column the fast path does not handle.
+#[derive(Debug, Clone)]
+pub(crate) struct FastRow {
+    cells: Vec<Cell>,
+    delimiter: u8,
+}
+
+impl FastRow {
+    /// Plan the fast path for a header; `None` when it has a mount column.
+    pub fn new(header: &Header) -> Option<Self> {
+        let mut cells = Vec::with_capacity(header.columns.len());
+        for col in &header.columns {
+            cells.push(match &col.kind {
+                ColumnKind::Mount => return None,
+                ColumnKind::Ignored => Cell::Skip,
+                ColumnKind::Time(unit) => Cell::Time(unit.to_seconds()),
+                _ => Cell::Number(col.scale),
+            });
+        }
+        Some(FastRow {
+            cells,
+            delimiter: header.delimiter,
+        })
+    }
+
+    /// Parse a plain numeric row into `numbers` (indexed like the header's columns).
+    /// Returns `Some(time_s)` (time `None` without a time column) when the row was read,
+    /// `None` when the general parser must read it. `last_time` is the previous kept
+    /// row's time; a row whose time is before it is left to the general parser.
+    #[inline]
+    pub fn parse(
+        &self,
+        text: &[u8],
+        numbers: &mut [f64],
+        last_time: Option<f64>,
+    ) -> Option<Option<f64>> {
+        let last = self.cells.len().checked_sub(1)?;
+        let mut pos = 0usize;
+        let mut time = None;
+        for (k, cell) in self.cells.iter().enumerate() {
+            let value = match cell {
+                Cell::Skip => {
+                    while let Some(&c) = text.get(pos) {
+                        if c == self.delimiter {
+                            break;
+                        }
+                        if c == b'"' {
+                            return None;
+                        }
+                        pos += 1;
+                    }
+                    0.0
+                }
+                _ => match scan_decimal(text, pos) {
+                    Scan::Value(v, end) => {
+                        pos = end;
+                        v
+                    }
+                    Scan::General(end) => {
+                        let v: f64 = fast_float2::parse(text.get(pos..end)?).ok()?;
+                        pos = end;
+                        v
+                    }
+                    Scan::Unusual => return None,
+                },
+            };
+            if k < last {
+                if text.get(pos) != Some(&self.delimiter) {
+                    return None;
+                }
+                pos += 1;
+            } else if pos != text.len() {
+                return None;
+            }
+            match *cell {
+                Cell::Skip => {}
+                Cell::Number(scale) => {
+                    let x = value * scale;
+                    if !x.is_finite() {
+                        return None;
+                    }
+                    *numbers.get_mut(k)? = x;
+                }
+                Cell::Time(to_s) => {
+                    let t = value * to_s;
+                    if !t.is_finite() || last_time.is_some_and(|prev| t < prev) {
+                        return None;
+                    }
+                    time = Some(t);
+                }
+            }
+        }
+        Some(time)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::log::header::parse_header;
+    use crate::log::units::FieldUnit;
+    use proptest::prelude::*;
+    use std::path::Path;
+
+    fn fast(header: &str) -> FastRow {
+        let h = parse_header(header, Path::new("h.csv"), 1, FieldUnit::Nanotesla).unwrap();
+        FastRow::new(&h).unwrap()
+    }
+
+    #[test]
+    fn plain_rows_are_read_with_units() {
+        let f = fast("t [ms],bx [uT],by,bz,rssi");
+        let mut n = [0.0; 5];
+        assert_eq!(
+            f.parse(b"500,1.5,-2,3e2,-70", &mut n, None),
+            Some(Some(0.5))
+        );
+        assert_eq!(&n[1..4], &[1500.0, -2.0, 300.0]);
+    }
+
+    #[test]
+    fn anything_unusual_goes_to_the_general_parser() {
+        let f = fast("t,bx,by,bz");
+        let mut n = [0.0; 4];
+        for row in [
+            "0,1,2",
+            "0,1,2,3,4",
+            "0,1, 2,3",
+            "0,1,2 ,3",
+            "0,\"1\",2,3",
+            "0,1,,3",
+            "0,1,x,3",
+            "0,1,nan,3",
+            "0,1,1e999,3",
+            "0,1,2,3\r",
+            "2026-01-01T00:00:00Z,1,2,3",
+        ] {
+            assert_eq!(f.parse(row.as_bytes(), &mut n, None), None, "{row}");
+        }
+        // Time before the previous row: the general parser reports it.
+        assert_eq!(f.parse(b"1,1,2,3", &mut n, Some(2.0)), None);
+        assert_eq!(f.parse(b"2,1,2,3", &mut n, Some(2.0)), Some(Some(2.0)));
+        // A quote in an ignored column may hide a delimiter.
+        let g = fast("bx,by,bz,note");
+        assert_eq!(g.parse(b"1,2,3,\"a,b\"", &mut n, None), None);
+        assert_eq!(g.parse(b"1,2,3,ok", &mut n, None), Some(None));
+    }
+
+    #[test]
+    fn mount_columns_are_not_taken() {
+        let h = parse_header(
+            "bx,by,bz,mount",
+            Path::new("h.csv"),
+            1,
+            FieldUnit::Nanotesla,
+        )
+        .unwrap();
+        assert!(FastRow::new(&h).is_none());
+    }
+
+    /// Reading with the fast path, on one thread or in parallel parts, must give exactly
+    /// what the general parser alone gives: the same columns bit for bit, lines, skipped
+    /// rows, or the same error.
+    fn same_as_general(text: &str, skip: bool) {
+        use crate::log::sweep::{read_sweep_impl, RowPath};
+        let opts = crate::log::ReadOptions {
+            skip_bad_rows: skip,
+            ..Default::default()
+        };
+        let read = |p| {
+            read_sweep_impl(text.as_bytes(), Path::new("e.csv"), &opts, &mut |_| {}, p)
+                .map(|log| format!("{log:?}"))
+                .map_err(|e| e.to_string())
+        };
+        let general = read(RowPath::GeneralOnly);
+        assert_eq!(read(RowPath::Fast), general, "{text:?}");
+        // Blocks cut into parts read on several threads: same result.
+        for parts in [2, 3, 7] {
+            assert_eq!(read(RowPath::Parallel(parts)), general, "{parts}: {text:?}");
+        }
+    }
+
+    fn cell() -> impl Strategy<Value = String> {
+        prop_oneof![
+            8 => (-1e5f64..1e5, 0usize..5).prop_map(|(x, d)| format!("{x:.d$}")),
+            1 => any::<f64>().prop_map(|x| format!("{x:e}")),
+            1 => prop::sample::select(vec![
+                "", " 1", "2 ", "\"3\"", "nan", "inf", "-0", "1e400", "x", "1.2.3", "+.5",
+                "\"4,5\"", "12345678901234567890.5", "0.00000000000000000000001",
+            ])
+            .prop_map(String::from),
+        ]
+    }
+
+    fn row() -> impl Strategy<Value = String> {
+        prop_oneof![
+            12 => prop::collection::vec(cell(), 4..=4).prop_map(|c| c.join(",")),
+            1 => prop::collection::vec(cell(), 3..=5).prop_map(|c| c.join(",")),
+            1 => prop::sample::select(vec!["", "# note", "  ", "\r"]).prop_map(String::from),
+        ]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 3_000, failure_persistence: None, ..ProptestConfig::default() })]
+
+        #[test]
+        fn fast_and_general_paths_agree(
+            header in prop::sample::select(vec!["t,bx,by,bz", "t [ms],bx [uT],by,rssi", "bx [G],by,bz,note"]),
+            rows in prop::collection::vec((row(), 0u8..10), 1..30),
+            crlf in any::<bool>(),
+            skip in any::<bool>(),
+        ) {
+            let end = if crlf { "\r\n" } else { "\n" };
+            let mut text = format!("{header}{end}");
+            let mut t = 0.0f64;
+            for (r, dt) in rows {
+                // Time mostly goes forward, sometimes back: the first cell becomes t.
+                t += f64::from(dt) - 1.5;
+                let r = if header.starts_with('t') && dt > 1 {
+                    match r.split_once(',') {
+                        Some((_, rest)) => format!("{t:.2},{rest}"),
+                        None => r,
+                    }
+                } else {
+                    r
+                };
+                text.push_str(&r);
+                text.push_str(end);
+            }
+            same_as_general(&text, skip);
+        }
+    }
+
+    #[test]
+    fn hand_written_logs_agree() {
+        for text in [
+            "t,bx,by,bz\n0,1,2,3\n1,1,2,3\n0.5,1,2,3\n2,1,2,3\n",
+            "t;bx;by;bz\r\n0;1;2;3\r\n1;1;x;3\r\n2;1;2;3",
+            "t,bx,by,bz\n2026-01-01T00:00:00Z,1,2,3\n5,1,2,3\n",
+            "t,bx,by,bz\n5,1,2,3\n2026-01-01T00:00:00Z,1,2,3\n6,1,2,3\n",
+            "\u{feff}t,bx,by,bz,mount\n0,1,2,3,a\n1,1,2,3,\"b, c\"\n2,1,2,3,a\n",
+            "bx [T],by,bz\n1e300,1,1\n1,1,1\n",
+        ] {
+            same_as_general(text, false);
+            same_as_general(text, true);
+        }
+    }
+}
