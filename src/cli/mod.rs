@@ -4,6 +4,7 @@
 mod calibrate;
 mod closeout;
 mod common;
+mod demo;
 mod dipole;
 mod field;
 mod history;
@@ -47,6 +48,8 @@ enum Command {
     Calibrate(calibrate::Args),
     /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
     Simulate(Box<simulate::Args>),
+    /// The whole closeout of the bundled, invented demo scenario (three builds), from any folder.
+    Demo(demo::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -61,6 +64,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Polarity(args) => polarity::run(args),
         Command::Calibrate(args) => calibrate::run(args),
         Command::Simulate(args) => simulate::run(*args),
+        Command::Demo(args) => demo::run(args),
     }
 }
 
