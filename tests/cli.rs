@@ -8,6 +8,8 @@ mod util;
 mod calibrate;
 #[path = "cli/closeout.rs"]
 mod closeout;
+#[path = "cli/demo.rs"]
+mod demo;
 #[path = "cli/dipole.rs"]
 mod dipole;
 #[path = "cli/field.rs"]
@@ -18,3 +20,5 @@ mod history;
 mod input;
 #[path = "cli/polarity.rs"]
 mod polarity;
+#[path = "cli/simulate.rs"]
+mod simulate;

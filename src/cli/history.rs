@@ -163,7 +163,7 @@ fn write_atomically(file: &Path, bytes: &[u8], force: bool) -> anyhow::Result<()
 // ---- terminal view (80 columns) ----------------------------------------------------
 
 /// Terminal text: runs per serial and build, then the changes with a flag each.
-fn render(path: &Path, runs: &[Run], changes: &[Change], rules: &ChangeRules) -> String {
+pub(crate) fn render(path: &Path, runs: &[Run], changes: &[Change], rules: &ChangeRules) -> String {
     let grouped = group_by_build(runs);
     let mut s = format!(
         "Ledger {}: {} run{}, {} serial{}\n",

@@ -4,12 +4,14 @@
 mod calibrate;
 mod closeout;
 mod common;
+mod demo;
 mod dipole;
 mod field;
 mod history;
 mod inspect;
 mod polarity;
 mod record;
+mod simulate;
 
 use clap::{Parser, Subcommand};
 
@@ -44,6 +46,10 @@ enum Command {
     Polarity(polarity::Args),
     /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
     Calibrate(calibrate::Args),
+    /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
+    Simulate(Box<simulate::Args>),
+    /// The whole closeout of the bundled, invented demo scenario (three builds), from any folder.
+    Demo(demo::Args),
 }
 
 /// Parse the command line and run the chosen command.
@@ -57,6 +63,8 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
         Command::Calibrate(args) => calibrate::run(args),
+        Command::Simulate(args) => simulate::run(*args),
+        Command::Demo(args) => demo::run(args),
     }
 }
 

@@ -1,0 +1,202 @@
+//! `magproof demo [--out DIR] [--force]`: the whole closeout of the bundled, invented
+//! scenario (sample-logs/: vehicle TMR-0207, builds B1–B3), from any folder. The sample
+//! logs are embedded in the binary, written into DIR, and each build's plan is closed out
+//! in order into a fresh ledger in DIR; then the per-build verdicts, the history of
+//! changes and where everything went are printed. Exit 0 when it ran: the failing build
+//! (B1, a rod wired backwards) is part of the story.
+
+use std::path::{Path, PathBuf};
+
+use clap::Args as ClapArgs;
+
+use super::closeout::{render as render_closeout, run_and_record};
+use super::common::Outcome;
+use magproof::check::closeout::{CloseoutResult, StepResult};
+use magproof::ledger::{changes, ChangeRules, Ledger, RunFilter};
+use magproof::report::atomic::write_atomic;
+use magproof::Error;
+
+/// Flags of `magproof demo`.
+#[derive(Debug, ClapArgs)]
+pub struct Args {
+    /// Folder to write into (default: a new `magproof-demo-<UTC time>` here).
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
+    /// Use an existing non-empty folder, replacing the demo's files in it.
+    #[arg(long)]
+    force: bool,
+}
+
+macro_rules! embedded {
+    ($($rel:literal),* $(,)?) => {
+        &[$(($rel, include_str!(concat!("../../sample-logs/", $rel)))),*]
+    };
+}
+
+/// The sample logs, as committed in `sample-logs/`: (path relative to it, text).
+const SAMPLE_FILES: &[(&str, &str)] = embedded![
+    "README.md",
+    "tmr-0207-b1/plan.toml",
+    "tmr-0207-b1/tumble.csv",
+    "tmr-0207-b1/rod-pulses.csv",
+    "tmr-0207-b1/turntable.csv",
+    "tmr-0207-b2/plan.toml",
+    "tmr-0207-b2/tumble.csv",
+    "tmr-0207-b2/rod-pulses.csv",
+    "tmr-0207-b2/turntable.csv",
+    "tmr-0207-b3/plan.toml",
+    "tmr-0207-b3/tumble.csv",
+    "tmr-0207-b3/rod-pulses.csv",
+    "tmr-0207-b3/turntable.csv",
+];
+
+/// The builds' folders, in the order they are closed out.
+const BUILDS: [&str; 3] = ["tmr-0207-b1", "tmr-0207-b2", "tmr-0207-b3"];
+
+fn default_out() -> Result<PathBuf, Error> {
+    let fmt = time::macros::format_description!("[year][month][day]-[hour][minute][second]");
+    let stamp = time::OffsetDateTime::now_utc()
+        .format(&fmt)
+        .map_err(|e| Error::Internal(format!("timestamp: {e}")))?;
+    Ok(PathBuf::from(format!("magproof-demo-{stamp}")))
+}
+
+/// Refuse an existing non-empty folder without `--force`; create it otherwise.
+fn prepare_out(dir: &Path, force: bool) -> Result<(), Error> {
+    if dir.exists() {
+        let mut entries = std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))?;
+        if entries.next().is_some() && !force {
+            return Err(Error::Usage(format!(
+                "{} exists and is not empty; choose another --out or add --force",
+                dir.display()
+            )));
+        }
+    }
+    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))
+}
+
+fn write_samples(root: &Path) -> Result<(), Error> {
+    for (rel, text) in SAMPLE_FILES {
+        let path = root.join(rel);
+        if let Some(parent) = path.parent() {
+            std::fs::create_dir_all(parent).map_err(|e| Error::io(parent, e))?;
+        }
+        write_atomic(&path, text.as_bytes(), true)?;
+    }
+    Ok(())
+}
+
+fn word(pass: Option<bool>) -> &'static str {
+    match pass {
+        Some(true) => "PASS",
+        Some(false) => "FAIL",
+        None => "NO LIMIT",
+    }
+}
+
+/// One line per step with the number that matters for the story.
+fn step_line(s: &StepResult) -> String {
+    match s {
+        StepResult::Calibrate(r) => {
+            let h = r.hard_iron_nt;
+            format!(
+                "hard iron ({:+.0}, {:+.0}, {:+.0}) nT, residual {:.1} nT RMS",
+                h[0], h[1], h[2], r.residual_rms_nt
+            )
+        }
+        StepResult::Polarity(r) => r
+            .rods
+            .iter()
+            .map(|rod| format!("{} {}", rod.name, rod.verdict))
+            .collect::<Vec<_>>()
+            .join(", "),
+        StepResult::Dipole(r) => {
+            let limit = r
+                .residual_dipole_max_am2
+                .map(|l| format!(" (limit {:.1})", l * 1e3))
+                .unwrap_or_default();
+            format!(
+                "|m| = {:.2} ± {:.2} mA·m²{limit}",
+                r.magnitude_am2 * 1e3,
+                r.magnitude_sigma_am2 * 1e3
+            )
+        }
+    }
+}
+
+fn build_summary(result: &CloseoutResult) -> String {
+    let (serial, build) = result
+        .plan
+        .article
+        .as_ref()
+        .map_or(("?", "?"), |a| (a.serial.as_str(), a.build.as_str()));
+    let mut s = format!("{serial} {build}: {}\n", word(result.pass()));
+    for step in &result.steps {
+        s += &format!(
+            "  {:<10} {:<5} {}\n",
+            step.result.kind().as_str(),
+            word(step.result.pass()),
+            step_line(&step.result)
+        );
+    }
+    s
+}
+
+/// Run `demo`.
+pub fn run(args: Args) -> anyhow::Result<Outcome> {
+    let out = match args.out {
+        Some(d) => d,
+        None => default_out()?,
+    };
+    prepare_out(&out, args.force)?;
+    // Closeout is given absolute plan paths so log paths resolve the same from anywhere.
+    let out = out.canonicalize().map_err(|e| Error::io(&out, e))?;
+    let samples = out.join("sample-logs");
+    write_samples(&samples)?;
+    let ledger_path = out.join("ledger.db");
+    if ledger_path.exists() {
+        // --force: the demo's ledger starts fresh every time.
+        std::fs::remove_file(&ledger_path).map_err(|e| Error::io(&ledger_path, e))?;
+    }
+
+    println!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three");
+    println!("builds closed out in order into a fresh ledger. All data are simulated.\n");
+    let mut reports = Vec::new();
+    for folder in BUILDS {
+        let plan = samples.join(folder).join("plan.toml");
+        let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false)?;
+        print!("{}", build_summary(&result));
+        let dir = out.join("reports").join(folder);
+        std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
+        let text = render_closeout(&result, recorded.as_ref());
+        write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
+        let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
+        write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
+        reports.push(dir);
+    }
+
+    let ledger = Ledger::open_existing(&ledger_path).map_err(Error::from)?;
+    let runs = ledger.runs(&RunFilter::default()).map_err(Error::from)?;
+    let rules = ChangeRules::default();
+    let changes = changes(&runs, &rules);
+    println!();
+    print!(
+        "{}",
+        super::history::render(&ledger_path, &runs, &changes, &rules)
+    );
+
+    println!("\nWhere things are (under {}):", out.display());
+    println!("  sample logs and plans   {}", samples.display());
+    println!("  ledger                  {}", ledger_path.display());
+    for r in &reports {
+        println!(
+            "  closeout report         {}",
+            r.join("closeout.txt").display()
+        );
+    }
+    println!(
+        "Look again with: magproof history --ledger {}",
+        ledger_path.display()
+    );
+    Ok(Outcome::Passed)
+}

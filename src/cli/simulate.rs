@@ -1,0 +1,361 @@
+//! `magproof simulate tumble|cage|polarity|dipole --seed N --out DIR [options]`: a
+//! synthetic log, a matching plan and the truth behind them (JSON), from the simulators
+//! in `magproof::sim`, so that a check can be rehearsed and its answer compared with the
+//! truth. Files are written atomically; an existing non-empty DIR needs `--force`.
+
+use std::path::{Path, PathBuf};
+
+use clap::{Args as ClapArgs, ValueEnum};
+use nalgebra::{Matrix3, Vector3};
+use serde::Serialize;
+
+use super::common::Outcome;
+use magproof::report::atomic::write_atomic;
+use magproof::sim::dipole::{simulate_static, simulate_turntable, StaticConfig, TurntableConfig};
+use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
+use magproof::sim::{
+    simulate_cage, simulate_tumble, write_cage_csv, write_tumble_csv, CageConfig, SimCoverage,
+    TumbleConfig,
+};
+use magproof::Error;
+
+/// What to simulate.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+enum Kind {
+    /// A tumble test in the ambient field.
+    Tumble,
+    /// A coil-cage sweep.
+    Cage,
+    /// Torque-rod pulses.
+    Polarity,
+    /// A residual-dipole run (turntable or static map).
+    Dipole,
+}
+
+/// Directions a tumble visits.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+enum CoverageArg {
+    /// The whole sphere.
+    Full,
+    /// Half the sphere (u_z ≥ 0).
+    Hemisphere,
+    /// One great circle: coplanar data.
+    Plane,
+}
+
+/// Residual-dipole method.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+enum DipoleMethodArg {
+    /// Article turned on a turntable under each mount, probe fixed.
+    Turntable,
+    /// Article fixed, probe at six positions.
+    Static,
+}
+
+/// Flags of `magproof simulate`.
+#[derive(Debug, ClapArgs)]
+pub struct Args {
+    /// What to simulate.
+    #[arg(value_enum)]
+    kind: Kind,
+    /// Random seed (the same seed and options give byte-identical files).
+    #[arg(long)]
+    seed: u64,
+    /// Folder to write into (created; an existing non-empty one needs --force).
+    #[arg(long, value_name = "DIR")]
+    out: PathBuf,
+    /// Write into an existing non-empty folder, replacing files of the same name.
+    #[arg(long)]
+    force: bool,
+    /// White noise per axis, 1σ, nT (default: the simulator's).
+    #[arg(long, value_name = "NT")]
+    noise_nt: Option<f64>,
+    /// Tumble/cage: hard iron, sensor frame, nT: X,Y,Z.
+    #[arg(long, value_name = "X,Y,Z", value_parser = parse_vec3, allow_hyphen_values = true)]
+    hard_iron_nt: Option<Vector3<f64>>,
+    /// Tumble/cage: soft-iron correction W: D1,D2,D3 (diagonal) or D1,D2,D3,W12,W13,W23.
+    #[arg(long, value_name = "LIST", value_parser = parse_soft_iron, conflicts_with = "soft_iron_scale")]
+    soft_iron: Option<Matrix3<f64>>,
+    /// Tumble/cage: soft-iron correction W = S·I (a pure scale).
+    #[arg(long, value_name = "S")]
+    soft_iron_scale: Option<f64>,
+    /// Tumble: fraction of samples hit by a 3000 nT outlier (0..1).
+    #[arg(long, value_name = "RATE")]
+    outlier_rate: Option<f64>,
+    /// Tumble: directions visited.
+    #[arg(long, value_enum)]
+    coverage: Option<CoverageArg>,
+    /// Tumble: number of samples.
+    #[arg(long)]
+    samples: Option<usize>,
+    /// Tumble: reference field magnitude, nT (written to the plan's [site]).
+    #[arg(long, value_name = "NT")]
+    reference_nt: Option<f64>,
+    /// Polarity: a rod (x, y or z) wired backwards; repeatable.
+    #[arg(long, value_name = "ROD")]
+    reverse: Vec<String>,
+    /// Polarity: two rods whose command lines are swapped: A,B.
+    #[arg(long, value_name = "A,B")]
+    swap: Option<String>,
+    /// Polarity: command-to-current lag, s.
+    #[arg(long, value_name = "SECONDS")]
+    lag_s: Option<f64>,
+    /// Polarity/dipole: linear drift of the ambient field, nT/s: X,Y,Z.
+    #[arg(long, value_name = "X,Y,Z", value_parser = parse_vec3, allow_hyphen_values = true)]
+    drift_nt_per_s: Option<Vector3<f64>>,
+    /// Dipole: true moment, body frame, A·m²: X,Y,Z.
+    #[arg(long, value_name = "X,Y,Z", value_parser = parse_vec3, allow_hyphen_values = true)]
+    moment_am2: Option<Vector3<f64>>,
+    /// Dipole: number of turntable mounts (1 = upright only, 2 = upright and on-side).
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2))]
+    mounts: Option<u8>,
+    /// Dipole: turntable run or static map.
+    #[arg(long, value_enum, default_value = "turntable")]
+    method: DipoleMethodArg,
+}
+
+fn parse_list(s: &str) -> Result<Vec<f64>, String> {
+    s.split(',')
+        .map(|p| {
+            let p = p.trim();
+            p.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite())
+                .ok_or_else(|| format!("{p:?} is not a finite number"))
+        })
+        .collect()
+}
+
+fn parse_vec3(s: &str) -> Result<Vector3<f64>, String> {
+    match parse_list(s)?.as_slice() {
+        [x, y, z] => Ok(Vector3::new(*x, *y, *z)),
+        v => Err(format!("need three numbers X,Y,Z, got {}", v.len())),
+    }
+}
+
+fn parse_soft_iron(s: &str) -> Result<Matrix3<f64>, String> {
+    match parse_list(s)?.as_slice() {
+        [a, b, c] => Ok(Matrix3::from_diagonal(&Vector3::new(*a, *b, *c))),
+        [a, b, c, xy, xz, yz] => Ok(Matrix3::new(*a, *xy, *xz, *xy, *b, *yz, *xz, *yz, *c)),
+        v => Err(format!(
+            "need D1,D2,D3 or D1,D2,D3,W12,W13,W23, got {} numbers",
+            v.len()
+        )),
+    }
+}
+
+impl Args {
+    fn soft_iron(&self) -> Option<Matrix3<f64>> {
+        self.soft_iron
+            .or(self.soft_iron_scale.map(|s| Matrix3::identity() * s))
+    }
+}
+
+/// Refuse an existing non-empty folder without `--force`; create it otherwise.
+fn prepare_out(dir: &Path, force: bool) -> Result<(), Error> {
+    if dir.exists() {
+        let mut entries = std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))?;
+        if entries.next().is_some() && !force {
+            return Err(Error::Usage(format!(
+                "{} exists and is not empty; choose another --out or add --force",
+                dir.display()
+            )));
+        }
+    }
+    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))
+}
+
+#[derive(Serialize)]
+struct TruthFile<'a, T: Serialize> {
+    kind: &'a str,
+    log: &'a str,
+    plan: &'a str,
+    truth: T,
+}
+
+/// The simulated files: (file name, text); the truth last.
+fn simulate(args: &Args) -> Result<Vec<(String, String)>, Error> {
+    let csv = |f: &dyn Fn(&mut Vec<u8>) -> std::io::Result<()>| -> Result<String, Error> {
+        let mut buf = Vec::new();
+        f(&mut buf).map_err(|e| Error::Internal(format!("CSV: {e}")))?;
+        String::from_utf8(buf).map_err(|e| Error::Internal(format!("CSV: {e}")))
+    };
+    let truth_json = |kind: &str, log: &str, truth: &dyn erased::Truth| -> Result<String, Error> {
+        truth.to_json(kind, log)
+    };
+    let plan_head = |kind: &str| {
+        format!(
+            "# synthetic {kind} plan (magproof simulate, seed {})\n[article]\nserial = \"SIM-{}\"\nbuild = \"S1\"\n\n",
+            args.seed,
+            kind.to_uppercase()
+        )
+    };
+    Ok(match args.kind {
+        Kind::Tumble => {
+            let mut cfg = TumbleConfig {
+                samples: 2000,
+                noise_nt: 20.0,
+                ..TumbleConfig::default()
+            };
+            set(&mut cfg.noise_nt, args.noise_nt);
+            set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
+            set(&mut cfg.soft_iron, args.soft_iron());
+            set(&mut cfg.outlier_rate, args.outlier_rate);
+            set(&mut cfg.samples, args.samples);
+            set(&mut cfg.reference_nt, args.reference_nt);
+            if let Some(c) = args.coverage {
+                cfg.coverage = match c {
+                    CoverageArg::Full => SimCoverage::FullSphere,
+                    CoverageArg::Hemisphere => SimCoverage::Hemisphere,
+                    CoverageArg::Plane => SimCoverage::Plane,
+                };
+            }
+            let sim = simulate_tumble(&cfg, args.seed)?;
+            let plan = format!(
+                "{}[site]\nlat_deg = 0.0\nlon_deg = 0.0\nreference_nt = {}\n\n\
+                 [[step]]\nkind = \"calibrate\"\nlog = \"tumble.csv\"\n",
+                plan_head("tumble"),
+                cfg.reference_nt
+            );
+            vec![
+                ("tumble.csv".into(), csv(&|b| write_tumble_csv(&sim, b))?),
+                ("plan.toml".into(), plan),
+                (
+                    "truth.json".into(),
+                    truth_json("tumble", "tumble.csv", &sim.truth)?,
+                ),
+            ]
+        }
+        Kind::Cage => {
+            let mut cfg = CageConfig::default();
+            set(&mut cfg.noise_nt, args.noise_nt);
+            set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
+            if let Some(w) = args.soft_iron() {
+                cfg.response = w
+                    .try_inverse()
+                    .ok_or_else(|| Error::Usage("--soft-iron: the matrix is singular".into()))?;
+            }
+            let sim = simulate_cage(&cfg, args.seed)?;
+            let plan = format!(
+                "{}[[step]]\nkind = \"calibrate\"\nlog = \"cage.csv\"\n",
+                plan_head("cage")
+            );
+            vec![
+                ("cage.csv".into(), csv(&|b| write_cage_csv(&sim, b))?),
+                ("plan.toml".into(), plan),
+                (
+                    "truth.json".into(),
+                    truth_json("cage", "cage.csv", &sim.truth)?,
+                ),
+            ]
+        }
+        Kind::Polarity => {
+            let mut cfg = PolarityConfig::default();
+            set(&mut cfg.noise_nt, args.noise_nt);
+            set(&mut cfg.lag_s, args.lag_s);
+            set(&mut cfg.drift_nt_per_s, args.drift_nt_per_s);
+            let names: Vec<String> = cfg.rods.iter().map(|r| r.name.clone()).collect();
+            let index = |name: &str| {
+                names.iter().position(|r| r == name.trim()).ok_or_else(|| {
+                    Error::Usage(format!("no rod named {name:?}; the rods are x, y, z"))
+                })
+            };
+            for r in &args.reverse {
+                let i = index(r)?;
+                cfg.rods[i].reversed = true;
+            }
+            if let Some(s) = &args.swap {
+                let (a, b) = s
+                    .split_once(',')
+                    .ok_or_else(|| Error::Usage(format!("--swap {s:?}: give two rods A,B")))?;
+                cfg.swapped = Some((index(a)?, index(b)?));
+            }
+            let sim = simulate_polarity(&cfg, args.seed)?;
+            let plan = format!(
+                "{}\n[[step]]\nkind = \"polarity\"\nlog = \"pulses.csv\"\n",
+                sim.plan_toml
+            );
+            vec![
+                ("pulses.csv".into(), sim.csv),
+                ("plan.toml".into(), plan),
+                (
+                    "truth.json".into(),
+                    truth_json("polarity", "pulses.csv", &sim.truth)?,
+                ),
+            ]
+        }
+        Kind::Dipole => {
+            let sim = match args.method {
+                DipoleMethodArg::Turntable => {
+                    let mut cfg = TurntableConfig::default();
+                    set(&mut cfg.article.noise_nt, args.noise_nt);
+                    set(&mut cfg.article.moment_body_am2, args.moment_am2);
+                    set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
+                    if let Some(n) = args.mounts {
+                        cfg.mounts.truncate(usize::from(n));
+                    }
+                    simulate_turntable(&cfg, args.seed)?
+                }
+                DipoleMethodArg::Static => {
+                    let mut cfg = StaticConfig::default();
+                    set(&mut cfg.article.noise_nt, args.noise_nt);
+                    set(&mut cfg.article.moment_body_am2, args.moment_am2);
+                    set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
+                    simulate_static(&cfg, args.seed)?
+                }
+            };
+            // The simulator's plan names its log `<stem>.csv` with the method in the stem.
+            let log = format!("dipole-{}.csv", sim.truth.method);
+            vec![
+                (log.clone(), sim.log_csv.clone()),
+                ("plan.toml".into(), sim.plan_toml.clone()),
+                ("truth.json".into(), truth_json("dipole", &log, &sim.truth)?),
+            ]
+        }
+    })
+}
+
+fn set<T>(slot: &mut T, value: Option<T>) {
+    if let Some(v) = value {
+        *slot = v;
+    }
+}
+
+mod erased {
+    //! A truth of any simulator, as the JSON of the truth file.
+    use super::TruthFile;
+    use magproof::Error;
+
+    /// Anything that can be written as the `truth` of a truth file.
+    pub trait Truth {
+        /// The whole truth file, pretty JSON.
+        fn to_json(&self, kind: &str, log: &str) -> Result<String, Error>;
+    }
+
+    impl<T: serde::Serialize> Truth for T {
+        fn to_json(&self, kind: &str, log: &str) -> Result<String, Error> {
+            let file = TruthFile {
+                kind,
+                log,
+                plan: "plan.toml",
+                truth: self,
+            };
+            serde_json::to_string_pretty(&file)
+                .map(|s| s + "\n")
+                .map_err(|e| Error::Internal(format!("truth JSON: {e}")))
+        }
+    }
+}
+
+/// Run `simulate`.
+pub fn run(args: Args) -> anyhow::Result<Outcome> {
+    // Simulate first: a bad option must not leave an empty folder behind.
+    let files = simulate(&args)?;
+    prepare_out(&args.out, args.force)?;
+    for (name, text) in &files {
+        let path = args.out.join(name);
+        write_atomic(&path, text.as_bytes(), true)?;
+        println!("{}", path.display());
+    }
+    Ok(Outcome::Passed)
+}

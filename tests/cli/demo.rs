@@ -1,0 +1,108 @@
+//! `magproof demo`: the bundled scenario runs from an empty folder and tells its story —
+//! B1's y rod reversed, B2 passing, B3's dipole jump flagged by history — and exits 0.
+
+use super::util::{assert_code, assert_stderr_has, magproof, Dir};
+use serde_json::Value;
+
+fn json_file(path: &std::path::Path) -> Value {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
+fn step<'a>(closeout: &'a Value, kind: &str) -> &'a Value {
+    closeout["steps"]
+        .as_array()
+        .expect("steps")
+        .iter()
+        .find(|s| s["kind"] == kind)
+        .unwrap_or_else(|| panic!("no {kind} step in {closeout}"))
+}
+
+#[test]
+fn demo_tells_the_three_build_story_and_exits_0() {
+    let d = Dir::new();
+    let run = magproof(&d, &["demo"]);
+    assert_code(&run, 0);
+    // Default output: one new magproof-demo-<time> folder in the current one.
+    let made: Vec<_> = std::fs::read_dir(d.path())
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with("magproof-demo-"))
+        .collect();
+    assert_eq!(made.len(), 1, "expected one demo folder, found {made:?}");
+    let out = d.join(&made[0]);
+    let reports = out.join("reports");
+
+    // B1: the polarity step fails on rod y, reversed; the others pass.
+    let b1 = json_file(&reports.join("tmr-0207-b1/closeout.json"));
+    assert_eq!(b1["pass"], false);
+    let pol = step(&b1, "polarity");
+    assert_eq!(pol["pass"], false);
+    let rods = pol["result"]["rods"].as_array().expect("rods");
+    let verdicts: Vec<(&str, &str)> = rods
+        .iter()
+        .map(|r| (r["name"].as_str().unwrap(), r["verdict"].as_str().unwrap()))
+        .collect();
+    assert_eq!(verdicts, [("x", "ok"), ("y", "reversed"), ("z", "ok")]);
+    assert_eq!(step(&b1, "calibrate")["pass"], true);
+    assert_eq!(step(&b1, "dipole")["pass"], true);
+
+    // B2: everything passes.
+    let b2 = json_file(&reports.join("tmr-0207-b2/closeout.json"));
+    assert_eq!(b2["pass"], true);
+
+    // B3: the dipole jump is flagged significant by history, against B2.
+    let hist = magproof(
+        &d,
+        &[
+            "history",
+            "--ledger",
+            out.join("ledger.db").to_str().unwrap(),
+            "--json",
+        ],
+    );
+    assert_code(&hist, 0);
+    let changes = hist.json()["changes"].as_array().expect("changes").clone();
+    let flag = |q: &str, from: &str, to: &str| -> String {
+        changes
+            .iter()
+            .find(|c| c["quantity"] == q && c["from_build"] == from && c["to_build"] == to)
+            .unwrap_or_else(|| panic!("no change {q} {from}→{to}"))["flag"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    assert_eq!(flag("dipole_magnitude_am2", "B2", "B3"), "significant");
+    assert_eq!(flag("dipole_magnitude_am2", "B1", "B2"), "within-noise");
+
+    // What the user sees: the summary, the flagged change and where things are.
+    for part in [
+        "TMR-0207 B1: FAIL",
+        "y reversed",
+        "TMR-0207 B2: PASS",
+        "TMR-0207 B3: PASS",
+        "significant !",
+        "closeout report",
+        "ledger.db",
+    ] {
+        assert!(
+            run.stdout.contains(part),
+            "stdout lacks {part:?}:\n{}",
+            run.stdout
+        );
+    }
+}
+
+#[test]
+fn demo_refuses_an_occupied_folder_without_force() {
+    let d = Dir::new();
+    d.write("busy/keep.txt", "mine");
+    let run = magproof(&d, &["demo", "--out", "busy"]);
+    assert_code(&run, 2);
+    assert_stderr_has(&run, &["not empty", "--force"]);
+    assert_eq!(
+        std::fs::read_to_string(d.join("busy/keep.txt")).unwrap(),
+        "mine"
+    );
+}
