@@ -9,6 +9,7 @@ mod history;
 mod inspect;
 mod polarity;
 mod record;
+mod report_out;
 
 use clap::{Parser, Subcommand};
 
