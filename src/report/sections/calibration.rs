@@ -292,6 +292,7 @@ fn calibration_figures(r: &CalibrationResult) -> Result<Vec<Figure>, Error> {
     }
     let mut time_plot = XyPlot::new("Residual over the run", x_label, &format!("{what} [nT]"))
         .with(Series::points("kept", kept_pts, 0));
+    time_plot.size = (520, 340);
     if !rej_pts.is_empty() {
         time_plot = time_plot.with(Series::points("rejected", rej_pts, 3));
     }

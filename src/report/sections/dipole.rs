@@ -147,11 +147,11 @@ fn dipole_figures(r: &DipoleResult) -> Result<Vec<Figure>, Error> {
             continue;
         }
         if turntable {
-            pts.sort_by(|a, b| a.angle_rad.total_cmp(&b.angle_rad));
+            pts.sort_by(|a, b| wrap_deg(a.angle_rad).total_cmp(&wrap_deg(b.angle_rad)));
         }
         let x_of = |k: usize, angle: f64| {
             if turntable {
-                angle.to_degrees()
+                wrap_deg(angle)
             } else {
                 k as f64
             }
@@ -176,7 +176,7 @@ fn dipole_figures(r: &DipoleResult) -> Result<Vec<Figure>, Error> {
                 .enumerate()
                 .map(|(k, p)| (x_of(k, p.angle_rad), p.measured_nt[a]))
                 .collect();
-            plot = plot.with(Series::points(&format!("B{} measured", AXES[a]), meas, a));
+            plot = plot.with(Series::points(&format!("B{}", AXES[a]), meas, a));
         }
         for a in 0..3 {
             let model = pts
@@ -184,21 +184,29 @@ fn dipole_figures(r: &DipoleResult) -> Result<Vec<Figure>, Error> {
                 .enumerate()
                 .map(|(k, p)| (x_of(k, p.angle_rad), p.model_nt[a]))
                 .collect();
-            plot = plot.with(Series::line(&format!("B{} model", AXES[a]), model, a));
+            plot = plot.with(Series::line("", model, a));
         }
-        plot.size = (620, 360);
+        plot.size = (540, 360);
+        if turntable {
+            plot.x_range = Some((-5.0, 365.0));
+        }
         figs.push(figure(
             &format!("dipole-mount-{}.svg", m + 1),
             &format!(
                 "Mount {label}: field at the probe minus the interpolated background, table \
                  frame (dots), and the fitted dipole's field (lines), same colour per \
-                 component. A pure dipole gives sinusoids in the angle; misfit shows as dots \
+                 component; angles folded into 0–360°. A pure dipole gives sinusoids in the angle; misfit shows as dots \
                  off their line."
             ),
             draw_xy(&plot)?,
         ));
     }
     Ok(figs)
+}
+
+/// A table angle in degrees within [0, 360).
+fn wrap_deg(angle_rad: f64) -> f64 {
+    angle_rad.to_degrees().rem_euclid(360.0)
 }
 
 #[cfg(test)]

@@ -189,9 +189,9 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
             "field along expected direction [nT]",
         )
         .with(Series::points("measured", meas, 0))
-        .with(Series::dashed("command × |coupling|", command, 1))
-        .with(Series::line("fitted model", model, 3));
-        plot.size = (620, 340);
+        .with(Series::dashed("command×|c|", command, 1))
+        .with(Series::line("model", model, 3));
+        plot.size = (540, 340);
         figs.push(figure(
             &format!("polarity-rod-{}.svg", file_safe(&rod.name, k)),
             &format!(
