@@ -145,8 +145,15 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
             })
             .collect(),
     };
-    let mut shown: Vec<&Change> = changes.iter().filter(|c| c.flag.is_alert()).collect();
-    shown.extend(changes.iter().filter(|c| !c.flag.is_alert()));
+    // Most severe first (bad, then amber, then good news, then the rest); stable within.
+    let rank = |c: &&Change| match flag_tone(c.flag) {
+        Tone::Bad => 0,
+        Tone::Warn => 1,
+        Tone::Good => 2,
+        Tone::Plain => 3,
+    };
+    let mut shown: Vec<&Change> = changes.iter().collect();
+    shown.sort_by_key(rank);
     shown.truncate(MAX_CHANGE_ROWS);
     let change_table = Table {
         caption: "Changes between consecutive builds (attention first)".into(),
@@ -253,7 +260,9 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
             }
         }
         if !pts.is_empty() {
-            dip = dip.with(Series::line(s, pts, k % 3));
+            dip = dip
+                .with(Series::points("", pts.clone(), k % 3))
+                .with(Series::line(s, pts, k % 3));
         }
     }
     let has_dipole = !dip.series.is_empty();
@@ -261,6 +270,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         dip = dip.with(Series::dashed("limit", limit_steps(&limits), 3));
     }
     dip.x_range = x_range;
+    dip.size = (540, 340);
     if has_dipole {
         figs.push(figure(
             "history-dipole.svg",
@@ -279,6 +289,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
                 .filter_map(|r| Some((r.ordinal, vec3(&r.calibrate?.result, "hard_iron_nt")?[a])))
                 .collect();
             if !pts.is_empty() {
+                hi = hi.with(Series::points("", pts.clone(), a));
                 let name = if serials.len() > 1 {
                     format!("{s} {}", ["x", "y", "z"][a])
                 } else {
@@ -289,6 +300,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         }
     }
     hi.x_range = x_range;
+    hi.size = (540, 340);
     if !hi.series.is_empty() {
         figs.push(figure(
             "history-hard-iron.svg",
@@ -315,7 +327,9 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
             }
         }
         if !pts.is_empty() {
-            res = res.with(Series::line(s, pts, k % 3));
+            res = res
+                .with(Series::points("", pts.clone(), k % 3))
+                .with(Series::line(s, pts, k % 3));
         }
     }
     let has_res = !res.series.is_empty();
@@ -323,6 +337,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         res = res.with(Series::dashed("limit", limit_steps(&limits), 3));
     }
     res.x_range = x_range;
+    res.size = (540, 340);
     if has_res {
         figs.push(figure(
             "history-calibration-residual.svg",
