@@ -20,5 +20,7 @@ mod history;
 mod input;
 #[path = "cli/polarity.rs"]
 mod polarity;
+#[path = "cli/report.rs"]
+mod report;
 #[path = "cli/simulate.rs"]
 mod simulate;

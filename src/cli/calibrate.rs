@@ -14,6 +14,9 @@ use magproof::check::calibrate::{
 use magproof::fit::tumble::Robust;
 use magproof::log::{read_plan, ReadOptions};
 use magproof::report::flight_params::{write_flight_params, ParamsFormat};
+use magproof::report::sections::calibration_section;
+
+use super::report_out::write_section_report;
 
 /// Robust reweighting of the tumble fit.
 #[derive(Debug, Clone, Copy, ValueEnum)]
@@ -45,15 +48,6 @@ pub struct Args {
     input: InputArgs,
     #[command(flatten)]
     output: OutputArgs,
-}
-
-/// Hook for the HTML report (another part of the tool writes it).
-// TODO(merge): the lead wires this to report::html.
-fn write_report(_result: &CalibrationResult, dir: &Path, _force: bool) -> anyhow::Result<()> {
-    anyhow::bail!(
-        "--report {}: the HTML report is not available yet",
-        dir.display()
-    )
 }
 
 /// Run `calibrate`.
@@ -89,7 +83,19 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             .with_context(|| format!("writing flight parameters to {}", p.display()))?;
     }
     if let Some(dir) = &args.output.report {
-        write_report(&result, dir, args.output.force)?;
+        let mut inputs: Vec<&Path> = vec![&args.log];
+        if let Some(p) = &args.plan {
+            inputs.push(p);
+        }
+        write_section_report(
+            dir,
+            args.output.force,
+            "Magnetometer calibration",
+            req.plan.as_ref(),
+            &inputs,
+            calibration_section(&result)?,
+            &serde_json::to_value(&result)?,
+        )?;
     }
     if args.output.json {
         println!("{}", serde_json::to_string_pretty(&result)?);

@@ -8,9 +8,12 @@ use clap::Args as ClapArgs;
 
 use super::common::{InputArgs, Outcome, OutputArgs};
 use magproof::check::dipole::{
-    run_dipole, DipolePosition, DipoleRequest, DipoleResult, DEFAULT_ALTITUDE_KM,
+    evaluate_dipole, DipolePosition, DipoleRequest, DipoleResult, DEFAULT_ALTITUDE_KM,
 };
 use magproof::log::{read_plan, ReadOptions};
+use magproof::report::sections::dipole_section;
+
+use super::report_out::{read_log, write_section_report};
 
 /// Flags of `magproof dipole`.
 #[derive(Debug, ClapArgs)]
@@ -39,14 +42,6 @@ pub struct Args {
 
 /// Run `dipole`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    if let Some(dir) = &args.output.report {
-        return Err(magproof::Error::Usage(format!(
-            "--report {}: the HTML report for `dipole` is not available yet in this build; \
-             use --json for the full result",
-            dir.display()
-        ))
-        .into());
-    }
     let plan = read_plan(&args.plan).map_err(magproof::Error::from)?;
     let unit = args
         .input
@@ -65,7 +60,20 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     } else {
         DipolePosition::AtTableOrigin
     };
-    let result = run_dipole(&req)?;
+    let log = read_log(&args.log, &req.read_options).map_err(magproof::Error::from)?;
+    let result = evaluate_dipole(&log, &req)?;
+    drop(log);
+    if let Some(dir) = &args.output.report {
+        write_section_report(
+            dir,
+            args.output.force,
+            "Residual magnetic dipole",
+            Some(&req.plan),
+            &[args.log.as_path(), args.plan.as_path()],
+            dipole_section(&result)?,
+            &serde_json::to_value(&result)?,
+        )?;
+    }
     if args.output.json {
         println!("{}", serde_json::to_string_pretty(&result)?);
     } else {

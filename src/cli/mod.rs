@@ -11,6 +11,7 @@ mod history;
 mod inspect;
 mod polarity;
 mod record;
+mod report_out;
 mod simulate;
 
 use clap::{Parser, Subcommand};

@@ -11,8 +11,11 @@ use super::common::{InputArgs, Outcome, OutputArgs};
 use magproof::check::polarity::{
     run_polarity, DriftModel, PolarityRequest, PolarityResult, SensorChoice, DEFAULT_SNR_MIN,
 };
-use magproof::log::{read_plan, read_sweep, ReadOptions};
+use magproof::log::{read_plan, ReadOptions};
 use magproof::report::polarity_params::write_polarity_params;
+use magproof::report::sections::polarity_section;
+
+use super::report_out::{read_log, write_section_report};
 
 /// Flags of `magproof polarity`.
 #[derive(Debug, ClapArgs)]
@@ -81,12 +84,6 @@ fn parse_drift(s: &str) -> Result<DriftModel, String> {
 
 /// Run `polarity`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    if args.output.report.is_some() {
-        return Err(magproof::Error::Usage(
-            "--report: the HTML report for polarity is not available yet; use --json for the full result".into(),
-        )
-        .into());
-    }
     if let Some(m) = args.max_lag_s {
         if !(m.is_finite() && m > 0.0) {
             return Err(
@@ -109,7 +106,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         default_unit: unit,
         skip_bad_rows: args.input.skip_bad_rows,
     };
-    let log = read_sweep(&args.log, &opts).map_err(magproof::Error::from)?;
+    let log = read_log(&args.log, &opts).map_err(magproof::Error::from)?;
     let req = PolarityRequest {
         sensor,
         snr_min: args.snr_min,
@@ -128,6 +125,17 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     if let Some(path) = &args.params_out {
         write_polarity_params(&result, path, args.output.force)
             .with_context(|| format!("writing {}", path.display()))?;
+    }
+    if let Some(dir) = &args.output.report {
+        write_section_report(
+            dir,
+            args.output.force,
+            "Torque-rod polarity",
+            Some(&plan),
+            &[args.log.as_path(), args.plan.as_path()],
+            polarity_section(&result)?,
+            &serde_json::to_value(&result)?,
+        )?;
     }
     let text = if args.output.json {
         serde_json::to_string_pretty(&result)? + "\n"

@@ -31,7 +31,7 @@ body { margin:0; background:var(--paper); color:var(--ink);
 header { background:var(--accent); color:#fff; padding:18px 28px; }
 header h1 { margin:0; font-size:22px; font-weight:600; }
 header .sub { opacity:.85; margin-top:4px; }
-main { max-width:1180px; margin:0 auto; padding:18px 28px 40px; }
+main { max-width:1240px; margin:0 auto; padding:18px 28px 40px; }
 .overall { display:flex; align-items:center; gap:14px; margin:6px 0 18px; font-size:17px; }
 .badge { display:inline-block; padding:3px 12px; border-radius:4px; font-weight:700;
          letter-spacing:.04em; color:#fff; border:2px solid transparent; }
@@ -56,7 +56,7 @@ ul.notes { color:var(--muted); }
 .figs { display:flex; flex-wrap:wrap; gap:14px; }
 figure { margin:0; border:1px solid var(--line); border-radius:4px; padding:6px; background:#fff; }
 figure svg { display:block; max-width:100%; height:auto; }
-figcaption { color:var(--muted); font-size:13px; padding:4px 2px 0; max-width:560px; }
+figcaption { color:var(--muted); font-size:13px; padding:4px 2px 0; max-width:440px; }
 footer { border-top:1px solid var(--line); margin-top:26px; padding-top:12px; color:var(--muted); font-size:13px; }
 footer code { font-size:12px; }
 "#;

@@ -10,6 +10,7 @@ pub mod html;
 pub mod model;
 pub mod plot;
 pub mod polarity_params;
+pub mod sections;
 pub mod terminal;
 
 use std::path::{Path, PathBuf};

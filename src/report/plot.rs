@@ -152,6 +152,28 @@ fn thin(points: &[(f64, f64)]) -> impl Iterator<Item = (f64, f64)> + '_ {
         .filter(|(x, y)| x.is_finite() && y.is_finite())
 }
 
+/// A tick label for an axis spanning `span`: as many decimals as a step of about a
+/// sixth of the span needs, so that labels stay short (`-40000`, not `-40000.0`).
+fn tick(v: f64, span: f64) -> String {
+    let step = (span / 6.0).abs();
+    let d = if step > 0.0 && step.is_finite() {
+        (1 - step.log10().floor() as i32).clamp(0, 6) as usize
+    } else {
+        2
+    };
+    let d = if step >= 5.0 { 0 } else { d };
+    let text = format!("{v:.d$}");
+    if text
+        .trim_start_matches('-')
+        .trim_matches(|c| c == '0' || c == '.')
+        .is_empty()
+    {
+        "0".to_string()
+    } else {
+        text
+    }
+}
+
 /// Draw an x–y plot as an SVG document.
 pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
     let xs = plot
@@ -193,6 +215,10 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
             .map_err(plot_err)?;
         chart
             .configure_mesh()
+            .x_labels(7)
+            .y_labels(7)
+            .x_label_formatter(&|v| tick(*v, x1 - x0))
+            .y_label_formatter(&|v| tick(*v, y1 - y0))
             .x_desc(&plot.x_label)
             .y_desc(&plot.y_label)
             .light_line_style(RGBColor(0xee, 0xee, 0xee))
@@ -271,6 +297,9 @@ pub fn draw_histogram(
             .map_err(plot_err)?;
         chart
             .configure_mesh()
+            .x_labels(7)
+            .x_label_formatter(&|v| tick(*v, hi - lo))
+            .y_label_formatter(&|v| tick(*v, top))
             .x_desc(x_label)
             .y_desc("samples")
             .light_line_style(RGBColor(0xee, 0xee, 0xee))
@@ -331,6 +360,14 @@ mod tests {
         assert!(draw_xy(&one).is_ok());
         assert!(draw_histogram("h", "r [nT]", &[], 10).is_ok());
         assert!(draw_histogram("h", "r [nT]", &[1.0, 1.0, f64::NAN], 10).is_ok());
+    }
+
+    #[test]
+    fn tick_labels_stay_short() {
+        assert_eq!(tick(-40000.0, 120_000.0), "-40000");
+        assert_eq!(tick(0.25, 1.2), "0.25");
+        assert_eq!(tick(-0.0, 10.0), "0");
+        assert_eq!(tick(12.4, 60.0), "12");
     }
 
     #[test]

@@ -118,18 +118,6 @@ fn log_without_background_rows_exits_2_with_the_reason() {
 }
 
 #[test]
-fn report_flag_is_refused_as_not_available_yet() {
-    let dir = TestDir::new();
-    let sim = simulate_turntable(&TurntableConfig::default(), 105).unwrap();
-    let (log, plan) = write_sim(&dir, &sim);
-    dir.magproof()
-        .args(["dipole", &log, "--plan", &plan, "--report", "out"])
-        .assert()
-        .code(2)
-        .stderr(predicates::str::contains("not available yet"));
-}
-
-#[test]
 fn static_map_with_fit_offset_reports_position_with_uncertainty() {
     let dir = TestDir::new();
     let mut cfg = StaticConfig::default();

@@ -151,21 +151,6 @@ fn params_out_writes_json_and_c_header() {
 }
 
 #[test]
-fn report_flag_is_refused_for_now() {
-    let dir = TestDir::new();
-    let (csv, plan) = simulated(&dir, &PolarityConfig::default());
-    let out = dir
-        .magproof()
-        .args(["polarity", "--report", "rep", "--plan"])
-        .arg(&plan)
-        .arg(&csv)
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("not available yet"));
-}
-
-#[test]
 fn missing_rod_column_is_named_with_exit_two() {
     let dir = TestDir::new();
     let (_, plan) = simulated(&dir, &PolarityConfig::default());

@@ -1,0 +1,416 @@
+//! History section: per serial and build, the residual dipole, the hard iron and the
+//! calibration residual with their limits, the verdicts, and what changed between builds.
+
+use serde_json::Value;
+
+use super::{figure, pass_tone, pm, to_json};
+use crate::ledger::{group_by_build, Change, Flag, Run};
+use crate::log::plan::StepKind;
+use crate::report::model::{Cell, Figure, Section, Table, Tone, Verdict};
+use crate::report::plot::{draw_xy, Series, XyPlot};
+use crate::Error;
+
+/// Most change rows shown in the table (all are in the JSON).
+const MAX_CHANGE_ROWS: usize = 80;
+
+fn num(v: &Value, key: &str) -> Option<f64> {
+    v.get(key)?.as_f64().filter(|x| x.is_finite())
+}
+
+fn vec3(v: &Value, key: &str) -> Option<[f64; 3]> {
+    let a = v.get(key)?.as_array()?;
+    if a.len() != 3 {
+        return None;
+    }
+    let mut out = [0.0; 3];
+    for (o, x) in out.iter_mut().zip(a) {
+        *o = x.as_f64().filter(|f| f.is_finite())?;
+    }
+    Some(out)
+}
+
+/// One build's latest run of each kind.
+struct BuildRow<'a> {
+    serial: &'a str,
+    build: &'a str,
+    ordinal: f64,
+    calibrate: Option<&'a Run>,
+    polarity: Option<&'a Run>,
+    dipole: Option<&'a Run>,
+}
+
+fn build_rows(runs: &[Run]) -> Vec<BuildRow<'_>> {
+    let mut rows = Vec::new();
+    for serial in group_by_build(runs) {
+        for (k, b) in serial.builds.iter().enumerate() {
+            let last = |kind: StepKind| b.runs.iter().rev().find(|r| r.kind == kind).copied();
+            rows.push(BuildRow {
+                serial: serial.serial,
+                build: b.build,
+                ordinal: (k + 1) as f64,
+                calibrate: last(StepKind::Calibrate),
+                polarity: last(StepKind::Polarity),
+                dipole: last(StepKind::Dipole),
+            });
+        }
+    }
+    rows
+}
+
+fn verdict_cell(run: Option<&Run>) -> Cell {
+    match run {
+        Some(r) => Cell::toned(Verdict::from_pass(r.pass).word(), pass_tone(r.pass)),
+        None => Cell::plain("-"),
+    }
+}
+
+fn flag_tone(f: Flag) -> Tone {
+    match f {
+        Flag::LimitCrossed | Flag::VerdictChanged => Tone::Bad,
+        Flag::Significant => Tone::Warn,
+        Flag::LimitCleared => Tone::Good,
+        Flag::WithinNoise | Flag::NoSigma | Flag::Unchanged => Tone::Plain,
+    }
+}
+
+/// Build the history section from ledger runs and the changes between builds.
+pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
+    let rows = build_rows(runs);
+    let latest: Vec<Option<bool>> = rows
+        .iter()
+        .enumerate()
+        .filter(|(i, r)| rows.get(i + 1).map_or(true, |n| n.serial != r.serial))
+        .flat_map(|(_, r)| [r.calibrate, r.polarity, r.dipole])
+        .flatten()
+        .map(|r| r.pass)
+        .collect();
+    let verdict = if latest.contains(&Some(false)) {
+        Verdict::Fail
+    } else if latest.contains(&Some(true)) {
+        Verdict::Pass
+    } else {
+        Verdict::Info
+    };
+    let serials = group_by_build(runs).len();
+    let alerts = changes.iter().filter(|c| c.flag.is_alert()).count();
+    let fom = vec![
+        (
+            "ledger".to_string(),
+            format!(
+                "{} run(s), {} serial(s), {} build(s)",
+                runs.len(),
+                serials,
+                rows.len()
+            ),
+        ),
+        (
+            "changes".into(),
+            format!(
+                "{} between builds, {alerts} needing attention",
+                changes.len()
+            ),
+        ),
+    ];
+    let build_table = Table {
+        caption: "Latest run of each check per build (verdict of the latest build decides)".into(),
+        header: vec![
+            "serial".into(),
+            "build".into(),
+            "|m| [A·m²]".into(),
+            "dipole".into(),
+            "hard iron x/y/z [nT]".into(),
+            "calibration".into(),
+            "polarity".into(),
+        ],
+        rows: rows
+            .iter()
+            .map(|b| {
+                let m = b.dipole.and_then(|r| {
+                    let v = num(&r.result, "magnitude_am2")?;
+                    Some(pm(v, num(&r.result, "magnitude_sigma_am2"), ""))
+                });
+                let h = b.calibrate.and_then(|r| {
+                    let h = vec3(&r.result, "hard_iron_nt")?;
+                    Some(format!("{:.0} / {:.0} / {:.0}", h[0], h[1], h[2]))
+                });
+                vec![
+                    Cell::plain(b.serial),
+                    Cell::plain(b.build),
+                    Cell::plain(m.unwrap_or_else(|| "-".into()).trim_end().to_string()),
+                    verdict_cell(b.dipole),
+                    Cell::plain(h.unwrap_or_else(|| "-".into())),
+                    verdict_cell(b.calibrate),
+                    verdict_cell(b.polarity),
+                ]
+            })
+            .collect(),
+    };
+    // Most severe first (bad, then amber, then good news, then the rest); stable within.
+    let rank = |c: &&Change| match flag_tone(c.flag) {
+        Tone::Bad => 0,
+        Tone::Warn => 1,
+        Tone::Good => 2,
+        Tone::Plain => 3,
+    };
+    let mut shown: Vec<&Change> = changes.iter().collect();
+    shown.sort_by_key(rank);
+    shown.truncate(MAX_CHANGE_ROWS);
+    let change_table = Table {
+        caption: "Changes between consecutive builds (attention first)".into(),
+        header: vec![
+            "serial".into(),
+            "builds".into(),
+            "quantity".into(),
+            "change".into(),
+            "flag".into(),
+        ],
+        rows: shown
+            .iter()
+            .map(|c| {
+                let delta = match c.delta {
+                    Some(d) => pm(d, c.sigma, c.unit),
+                    None => format!("{} → {}", short_value(&c.from), short_value(&c.to)),
+                };
+                vec![
+                    Cell::plain(c.serial.clone()),
+                    Cell::plain(format!("{} → {}", c.from_build, c.to_build)),
+                    Cell::plain(c.quantity.clone()),
+                    Cell::plain(delta.trim_end().to_string()),
+                    Cell::toned(c.flag.as_str(), flag_tone(c.flag)),
+                ]
+            })
+            .collect(),
+    };
+    let mut notes = vec![
+        "Builds are numbered 1, 2, … per serial in the order they were first recorded; the \
+         plots use these numbers (see the table for the labels)."
+            .to_string(),
+    ];
+    if changes.len() > MAX_CHANGE_ROWS {
+        notes.push(format!(
+            "{} more changes are in result.json",
+            changes.len() - MAX_CHANGE_ROWS
+        ));
+    }
+    let warnings = changes
+        .iter()
+        .filter(|c| c.flag == Flag::LimitCrossed)
+        .map(|c| {
+            format!(
+                "{} {}: {} went from pass to fail between builds {} and {}; find what was \
+                 added or changed in that build",
+                c.serial,
+                c.kind.as_str(),
+                c.quantity,
+                c.from_build,
+                c.to_build
+            )
+        })
+        .collect();
+    Ok(Section {
+        kind: "history".into(),
+        title: "History across builds".into(),
+        verdict,
+        figures_of_merit: fom,
+        tables: vec![build_table, change_table],
+        figures: history_figures(&rows)?,
+        warnings,
+        notes,
+        result: serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? }),
+    })
+}
+
+fn short_value(v: &Value) -> String {
+    match v {
+        Value::String(s) => s.clone(),
+        Value::Null => "absent".into(),
+        other => other.to_string(),
+    }
+}
+
+/// A limit drawn as a step across each build (±0.4 around its ordinal).
+fn limit_steps(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
+    points
+        .iter()
+        .flat_map(|&(x, l)| [(x - 0.4, l), (x + 0.4, l)])
+        .collect()
+}
+
+fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
+    let mut serials: Vec<&str> = rows.iter().map(|r| r.serial).collect();
+    serials.dedup();
+    let mut figs = Vec::new();
+    let n_builds = rows.iter().map(|r| r.ordinal).fold(1.0, f64::max);
+    let x_range = Some((0.5, n_builds + 0.5));
+
+    let mut dip = XyPlot::new("Residual dipole across builds", "build", "|m| [A·m²]");
+    let mut limits = Vec::new();
+    for (k, s) in serials.iter().enumerate() {
+        let pts: Vec<(f64, f64)> = rows
+            .iter()
+            .filter(|r| r.serial == *s)
+            .filter_map(|r| Some((r.ordinal, num(&r.dipole?.result, "magnitude_am2")?)))
+            .collect();
+        for r in rows.iter().filter(|r| r.serial == *s) {
+            if let Some(l) = r
+                .dipole
+                .and_then(|d| num(&d.result, "residual_dipole_max_am2"))
+            {
+                limits.push((r.ordinal, l));
+            }
+        }
+        if !pts.is_empty() {
+            dip = dip
+                .with(Series::points("", pts.clone(), k % 3))
+                .with(Series::line(s, pts, k % 3));
+        }
+    }
+    let has_dipole = !dip.series.is_empty();
+    if !limits.is_empty() {
+        dip = dip.with(Series::dashed("limit", limit_steps(&limits), 3));
+    }
+    dip.x_range = x_range;
+    dip.size = (540, 340);
+    if has_dipole {
+        figs.push(figure(
+            "history-dipole.svg",
+            "Residual dipole magnitude of the latest dipole run per build (line per serial) \
+             and the plan's limit (dashed).",
+            draw_xy(&dip)?,
+        ));
+    }
+
+    let mut hi = XyPlot::new("Hard iron across builds", "build", "hard iron [nT]");
+    for s in &serials {
+        for a in 0..3 {
+            let pts: Vec<(f64, f64)> = rows
+                .iter()
+                .filter(|r| r.serial == *s)
+                .filter_map(|r| Some((r.ordinal, vec3(&r.calibrate?.result, "hard_iron_nt")?[a])))
+                .collect();
+            if !pts.is_empty() {
+                hi = hi.with(Series::points("", pts.clone(), a));
+                let name = if serials.len() > 1 {
+                    format!("{s} {}", ["x", "y", "z"][a])
+                } else {
+                    ["x", "y", "z"][a].to_string()
+                };
+                hi = hi.with(Series::line(&name, pts, a));
+            }
+        }
+    }
+    hi.x_range = x_range;
+    hi.size = (540, 340);
+    if !hi.series.is_empty() {
+        figs.push(figure(
+            "history-hard-iron.svg",
+            "Hard iron per sensor axis from the latest calibration per build. A jump between \
+             builds means magnetic material was added near the magnetometer.",
+            draw_xy(&hi)?,
+        ));
+    }
+
+    let mut res = XyPlot::new("Calibration residual across builds", "build", "RMS [nT]");
+    let mut limits = Vec::new();
+    for (k, s) in serials.iter().enumerate() {
+        let pts: Vec<(f64, f64)> = rows
+            .iter()
+            .filter(|r| r.serial == *s)
+            .filter_map(|r| Some((r.ordinal, num(&r.calibrate?.result, "residual_rms_nt")?)))
+            .collect();
+        for r in rows.iter().filter(|r| r.serial == *s) {
+            if let Some(l) = r
+                .calibrate
+                .and_then(|c| num(&c.result, "residual_limit_nt"))
+            {
+                limits.push((r.ordinal, l));
+            }
+        }
+        if !pts.is_empty() {
+            res = res
+                .with(Series::points("", pts.clone(), k % 3))
+                .with(Series::line(s, pts, k % 3));
+        }
+    }
+    let has_res = !res.series.is_empty();
+    if !limits.is_empty() {
+        res = res.with(Series::dashed("limit", limit_steps(&limits), 3));
+    }
+    res.x_range = x_range;
+    res.size = (540, 340);
+    if has_res {
+        figs.push(figure(
+            "history-calibration-residual.svg",
+            "Calibration residual RMS per build and the plan's limit (dashed).",
+            draw_xy(&res)?,
+        ));
+    }
+    Ok(figs)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::ledger::{changes, ChangeRules, RunId};
+    use serde_json::json;
+
+    fn run(id: i64, build: &str, kind: StepKind, pass: bool, result: Value) -> Run {
+        Run {
+            id: RunId(id),
+            serial: "QX-7".into(),
+            build: build.into(),
+            kind,
+            recorded_at: format!("2026-11-2{id}T09:00:00.000Z"),
+            tool_version: Some("0.1.0".into()),
+            pass: Some(pass),
+            result,
+            inputs: vec![],
+        }
+    }
+
+    #[test]
+    fn crossing_the_dipole_limit_fails_and_is_flagged_in_words() {
+        let dip = |m: f64, pass| {
+            json!({"moment_body_am2": [m, 0.0, 0.0], "magnitude_am2": m,
+                   "moment_sigma_am2": [0.001, 0.001, 0.001], "magnitude_sigma_am2": 0.001,
+                   "residual_dipole_max_am2": 0.05, "pass": pass})
+        };
+        let cal = |h: f64| {
+            json!({"hard_iron_nt": [h, 10.0, -5.0], "hard_iron_sigma_nt": [2.0, 2.0, 2.0],
+                   "residual_rms_nt": 40.0, "residual_limit_nt": 100.0, "pass": true})
+        };
+        let runs = vec![
+            run(1, "B1", StepKind::Dipole, true, dip(0.02, true)),
+            run(2, "B1", StepKind::Calibrate, true, cal(100.0)),
+            run(3, "B2", StepKind::Dipole, false, dip(0.09, false)),
+            run(4, "B2", StepKind::Calibrate, true, cal(400.0)),
+        ];
+        let ch = changes(&runs, &ChangeRules::default());
+        let s = history_section(&runs, &ch).unwrap();
+        assert_eq!(s.verdict, Verdict::Fail);
+        let names: Vec<&str> = s.figures.iter().map(|f| f.file_name.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "history-dipole.svg",
+                "history-hard-iron.svg",
+                "history-calibration-residual.svg"
+            ]
+        );
+        assert!(s.figures[0].svg.contains("limit"));
+        let flags: Vec<&Cell> = s.tables[1].rows.iter().map(|r| &r[4]).collect();
+        assert!(flags
+            .iter()
+            .any(|c| c.text == "limit-crossed" && c.tone == Tone::Bad));
+        assert!(!s.warnings.is_empty());
+        assert_eq!(s.result["changes"].as_array().unwrap().len(), ch.len());
+        assert_eq!(s.tables[0].rows[1][3].text, "FAIL");
+    }
+
+    #[test]
+    fn empty_ledger_gives_a_section_without_plots() {
+        let s = history_section(&[], &[]).unwrap();
+        assert_eq!(s.verdict, Verdict::Info);
+        assert!(s.figures.is_empty());
+    }
+}

@@ -1,0 +1,72 @@
+//! Check-specific report sections: each builder turns one result struct into a
+//! [`Section`](super::Section) with figures of merit (units, ±1σ), tables with verdict
+//! words, warnings, notes, plots and the §7 JSON. The writers in the parent module only
+//! lay sections out; nothing here recomputes a fitted number.
+
+mod calibration;
+mod dipole;
+mod history;
+mod polarity;
+
+pub use calibration::calibration_section;
+pub use dipole::dipole_section;
+pub use history::history_section;
+pub use polarity::polarity_section;
+
+use super::model::{Figure, Tone};
+use crate::Error;
+
+/// A figure from an SVG and its caption.
+fn figure(file_name: &str, caption: &str, svg: String) -> Figure {
+    Figure {
+        file_name: file_name.to_string(),
+        caption: caption.to_string(),
+        svg,
+    }
+}
+
+/// The §7 JSON of a result.
+fn to_json(value: &impl serde::Serialize) -> Result<serde_json::Value, Error> {
+    serde_json::to_value(value).map_err(|e| Error::Internal(format!("result JSON: {e}")))
+}
+
+/// Tone of an optional pass flag.
+fn pass_tone(pass: Option<bool>) -> Tone {
+    match pass {
+        Some(true) => Tone::Good,
+        Some(false) => Tone::Bad,
+        None => Tone::Warn,
+    }
+}
+
+/// `value ± sigma unit` via the terminal formatter, or the value alone without a σ.
+fn pm(value: f64, sigma: Option<f64>, unit: &str) -> String {
+    match sigma {
+        Some(s) if s.is_finite() && s > 0.0 => {
+            let big = value.abs().max(s);
+            if (1e-3..1e6).contains(&big) {
+                super::terminal::value_sigma(value, s, unit)
+            } else {
+                let exp = big.log10().floor() as i32;
+                let scale = 10f64.powi(exp);
+                let d = super::terminal::decimals_for(s / scale);
+                format!("({:.d$} ± {:.d$})e{exp} {unit}", value / scale, s / scale)
+            }
+        }
+        _ => format!("{} {unit}", short(value)),
+    }
+}
+
+/// A number with about four significant digits.
+fn short(v: f64) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return format!("{v}");
+    }
+    let a = v.abs();
+    if (1e-3..1e6).contains(&a) {
+        let d = (3 - a.log10().floor() as i32).clamp(0, 9) as usize;
+        format!("{v:.d$}")
+    } else {
+        format!("{v:.3e}")
+    }
+}
