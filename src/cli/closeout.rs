@@ -9,6 +9,7 @@ use clap::Args as ClapArgs;
 use super::common::{LedgerArgs, Outcome, OutputArgs};
 use magproof::check::closeout::{run_closeout, CloseoutRequest, CloseoutResult, StepResult};
 use magproof::ledger::{Ledger, NewRun, Recorded};
+use magproof::report::sections::{calibration_section, dipole_section, polarity_section};
 
 /// Flags of `magproof closeout`.
 #[derive(Debug, ClapArgs)]
@@ -132,17 +133,62 @@ pub fn render(result: &CloseoutResult, recorded: Option<&RecordedSteps>) -> Stri
     out
 }
 
+/// Write the combined report of a closeout: one section per step, with every log and
+/// the plan as hashed inputs. Returns the report folder.
+pub fn write_report(
+    result: &CloseoutResult,
+    dir: &std::path::Path,
+    force: bool,
+) -> anyhow::Result<PathBuf> {
+    let mut sections = Vec::with_capacity(result.steps.len());
+    for s in &result.steps {
+        let mut section = match &s.result {
+            StepResult::Calibrate(r) => calibration_section(r)?,
+            StepResult::Polarity(r) => polarity_section(r)?,
+            StepResult::Dipole(r) => dipole_section(r)?,
+        };
+        // Figure files must stay unique when a plan has two steps of one kind.
+        for f in &mut section.figures {
+            f.file_name = format!("step{}-{}", s.index, f.file_name);
+        }
+        section.title = format!("Step {} · {}", s.index, section.title);
+        sections.push(section);
+    }
+    let mut inputs: Vec<&std::path::Path> = vec![&result.plan.path];
+    inputs.extend(result.steps.iter().map(|s| s.log.as_path()));
+    let title = match &result.plan.article {
+        Some(a) => format!("Closeout of {} build {}", a.serial, a.build),
+        None => "Closeout".to_string(),
+    };
+    super::report_out::write_run_report(
+        dir,
+        force,
+        &title,
+        Some(&result.plan),
+        &inputs,
+        sections,
+        &result.to_json()?,
+    )
+}
+
 /// Run `closeout`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    if args.output.report.is_some() {
-        // The combined HTML report is written by report::sections (issue 8).
-        return Err(magproof::Error::Usage(
-            "--report for closeout is not available in this build yet".into(),
-        )
-        .into());
+    if let Some(dir) = &args.output.report {
+        // Refuse an existing folder before any step runs or anything is recorded.
+        if dir.exists() && !args.output.force {
+            return Err(magproof::Error::Usage(format!(
+                "report folder {} exists; add --force to replace it",
+                dir.display()
+            ))
+            .into());
+        }
     }
     let ledger = (!args.no_record).then(|| args.ledger.path());
     let (result, recorded) = run_and_record(&args.plan, ledger.as_deref(), args.skip_bad_rows)?;
+    if let Some(dir) = &args.output.report {
+        let path = write_report(&result, dir, args.output.force)?;
+        eprintln!("report written to {}", path.display());
+    }
     if args.output.json {
         println!("{}", serde_json::to_string_pretty(&result.to_json()?)?);
     } else {

@@ -167,7 +167,9 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false)?;
         print!("{}", build_summary(&result));
         let dir = out.join("reports").join(folder);
-        std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
+        std::fs::create_dir_all(out.join("reports")).map_err(|e| Error::io(&dir, e))?;
+        // report.html, result.json and plots; then the terminal text beside them.
+        super::closeout::write_report(&result, &dir, true)?;
         let text = render_closeout(&result, recorded.as_ref());
         write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
         let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
@@ -191,9 +193,25 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     for r in &reports {
         println!(
             "  closeout report         {}",
-            r.join("closeout.txt").display()
+            r.join("report.html").display()
         );
     }
+    let history_dir = out.join("reports").join("history");
+    let section = magproof::report::sections::history_section(&runs, &changes)?;
+    let json = section.result.clone();
+    let path = super::report_out::write_run_report(
+        &history_dir,
+        true,
+        "History of TMR-0207",
+        None,
+        &[ledger_path.as_path()],
+        vec![section],
+        &json,
+    )?;
+    println!(
+        "  history report          {}",
+        path.join("report.html").display()
+    );
     println!(
         "Look again with: magproof history --ledger {}",
         ledger_path.display()

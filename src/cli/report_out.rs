@@ -24,6 +24,21 @@ pub fn write_section_report(
     section: Section,
     result: &serde_json::Value,
 ) -> anyhow::Result<()> {
+    let path = write_run_report(dir, force, title, plan, inputs, vec![section], result)?;
+    eprintln!("report written to {}", path.display());
+    Ok(())
+}
+
+/// Write a report folder with several sections (closeout, demo); returns its path.
+pub fn write_run_report(
+    dir: &Path,
+    force: bool,
+    title: &str,
+    plan: Option<&Plan>,
+    inputs: &[&Path],
+    sections: Vec<Section>,
+    result: &serde_json::Value,
+) -> anyhow::Result<std::path::PathBuf> {
     let mut files = Vec::with_capacity(inputs.len());
     for p in inputs {
         let sha256 = sha256_file(p).with_context(|| format!("hashing {}", p.display()))?;
@@ -40,11 +55,9 @@ pub fn write_section_report(
         generated_at: now_utc_iso(),
         tool_version: env!("CARGO_PKG_VERSION").to_string(),
         inputs: files,
-        sections: vec![section],
+        sections,
     };
-    let path = write_report_dir(dir, force, &report, result)?;
-    eprintln!("report written to {}", path.display());
-    Ok(())
+    Ok(write_report_dir(dir, force, &report, result)?)
 }
 
 /// Read a sweep log; a log over [`PROGRESS_MIN_BYTES`] shows a progress bar on stderr

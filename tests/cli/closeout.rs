@@ -155,3 +155,47 @@ fn plan_without_article_or_steps_is_refused() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("[step]"));
 }
+
+#[test]
+fn closeout_report_has_one_section_per_step_and_refuses_an_existing_folder() {
+    let dir = TestDir::new();
+    let plan = scenario(&dir, "B1", false, 5);
+    let report = dir.join("rep");
+    let out = dir
+        .magproof()
+        .args(["closeout", "--no-record", "--report"])
+        .arg(&report)
+        .arg(&plan)
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let html = std::fs::read_to_string(report.join("report.html")).unwrap();
+    for title in ["Step 1", "Step 2", "Step 3"] {
+        assert!(html.contains(title), "{title} missing");
+    }
+    assert!(report.join("result.json").is_file());
+    assert!(std::fs::read_dir(&report).unwrap().any(|e| e
+        .unwrap()
+        .file_name()
+        .to_string_lossy()
+        .starts_with("step2-polarity")));
+    assert!(
+        !dir.join("ledger.db").exists(),
+        "--no-record writes no ledger"
+    );
+
+    let again = dir
+        .magproof()
+        .args(["closeout", "--no-record", "--report"])
+        .arg(&report)
+        .arg(&plan)
+        .output()
+        .unwrap();
+    assert_eq!(again.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
+}

@@ -52,6 +52,16 @@ fn demo_tells_the_three_build_story_and_exits_0() {
     let b2 = json_file(&reports.join("tmr-0207-b2/closeout.json"));
     assert_eq!(b2["pass"], true);
 
+    // Each build has its HTML report (with result.json equal to closeout.json), and the
+    // history has one too.
+    for b in ["tmr-0207-b1", "tmr-0207-b2", "tmr-0207-b3", "history"] {
+        assert!(
+            reports.join(b).join("report.html").is_file(),
+            "{b}: no report.html"
+        );
+    }
+    assert_eq!(json_file(&reports.join("tmr-0207-b1/result.json")), b1);
+
     // B3: the dipole jump is flagged significant by history, against B2.
     let hist = magproof(
         &d,
