@@ -16,3 +16,5 @@ mod history;
 mod input;
 #[path = "cli/polarity.rs"]
 mod polarity;
+#[path = "cli/reliability.rs"]
+mod reliability;

@@ -212,6 +212,7 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     }
     let log = read_sweep(&req.log, &req.read)?;
     let b = log.require_field("a calibration needs the measured field")?;
+    crate::log::plausible::check_field_scale(&log)?;
     let range_nt = req.range_nt.or_else(|| {
         req.plan
             .as_ref()

@@ -233,6 +233,7 @@ fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
 /// Run the dipole check on a log already read (`req.log` is not read again).
 /// Saturated rows are dropped first and counted in `samples_saturated`.
 pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
+    crate::log::plausible::check_field_scale(log)?;
     let sat = screen_log(log, req.range_nt)?;
     if sat.count() == 0 {
         return evaluate_unsaturated(log, req);

@@ -5,6 +5,7 @@ mod error;
 pub mod hash;
 mod header;
 pub mod plan;
+pub mod plausible;
 pub mod saturation;
 mod sweep;
 pub mod units;

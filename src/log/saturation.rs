@@ -212,6 +212,10 @@ fn rail_value(col: &[f64], high: bool) -> Option<f64> {
     } else {
         col.iter().copied().fold(f64::INFINITY, f64::min)
     };
+    // A constant axis is not clipped but stuck or idle: the fits refuse it by name.
+    if col.iter().all(|v| v.to_bits() == extreme.to_bits()) {
+        return None;
+    }
     let at_extreme = col
         .iter()
         .filter(|v| v.to_bits() == extreme.to_bits())

@@ -238,6 +238,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let sensor = sensor_geometry(plan, req.sensor)?;
     let t = log.require_time("polarity needs time for the lag and settle times")?;
     let b = log.require_field("polarity fits the measured field")?;
+    crate::log::plausible::check_field_scale(log)?;
     let mut names: Vec<String> = Vec::new();
     let mut columns: Vec<&[f64]> = Vec::new();
     for rod in &plan.rods {
