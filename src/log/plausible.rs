@@ -21,7 +21,10 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
     for (prefix, cols) in groups {
         let Some(cols) = cols else { continue };
         for (axis, col) in cols.iter().enumerate() {
-            if let Some(i) = col.iter().position(|v| v.is_nan() || v.abs() > MAX_FIELD_NT) {
+            if let Some(i) = col
+                .iter()
+                .position(|v| v.is_nan() || v.abs() > MAX_FIELD_NT)
+            {
                 let line = log.lines.get(i).copied().unwrap_or(0);
                 return Err(Error::Degenerate(format!(
                     "{}:{line}: {prefix}{} = {:e} nT is beyond any physical field (limit \
