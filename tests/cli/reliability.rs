@@ -359,3 +359,111 @@ fn docs_table_lists_every_case() {
         assert!(row.contains(fragment), "{id}: \"{fragment}\"\n{row}");
     }
 }
+
+/// Bytes and modification time of a file.
+fn snapshot(p: &Path) -> (Vec<u8>, std::time::SystemTime) {
+    (
+        std::fs::read(p).unwrap(),
+        std::fs::metadata(p).unwrap().modified().unwrap(),
+    )
+}
+
+#[test]
+fn every_command_leaves_its_inputs_untouched() {
+    let d = TestDir::new();
+    let (pcsv, pplan) = polarity_files(&d);
+    let sim = simulate_turntable(&TurntableConfig::default(), 104).unwrap();
+    let dfiles = sim.write_to(d.path()).unwrap();
+    tumble(&d, "t.csv", &TumbleConfig::default());
+    let tlog = d.join("t.csv");
+    let inputs = [&pcsv, &pplan, &dfiles.log, &dfiles.plan, &tlog];
+    let before: Vec<_> = inputs.iter().map(|p| snapshot(p)).collect();
+    let runs: Vec<Vec<&str>> = vec![
+        vec!["inspect", "--plan", s(&pplan), s(&pcsv)],
+        vec!["inspect", "--plan", s(&dfiles.plan), s(&dfiles.log)],
+        vec!["calibrate", "--params-out", "cal.json", s(&tlog)],
+        vec!["calibrate", "--plan", s(&pplan), s(&pcsv)],
+        vec![
+            "polarity",
+            "--params-out",
+            "pol.h",
+            "--plan",
+            s(&pplan),
+            s(&pcsv),
+        ],
+        vec![
+            "dipole",
+            "--json",
+            "--plan",
+            s(&dfiles.plan),
+            s(&dfiles.log),
+        ],
+    ];
+    for args in &runs {
+        let out = d.magproof().args(args).output().unwrap();
+        assert!(!stderr(&out).contains("panicked"), "{args:?}");
+        assert!(
+            matches!(out.status.code(), Some(0..=2)),
+            "{args:?}: {}",
+            stderr(&out)
+        );
+    }
+    for (p, b) in inputs.iter().zip(&before) {
+        assert!(snapshot(p) == *b, "{} changed", p.display());
+    }
+}
+
+#[test]
+fn existing_outputs_are_not_replaced_without_force() {
+    let d = TestDir::new();
+    tumble(&d, "t.csv", &TumbleConfig::default());
+    let (pcsv, pplan) = polarity_files(&d);
+    for (file, args) in [
+        (
+            "cal.json",
+            vec!["calibrate", "--params-out", "cal.json", "t.csv"],
+        ),
+        (
+            "pol.json",
+            vec![
+                "polarity",
+                "--params-out",
+                "pol.json",
+                "--plan",
+                s(&pplan),
+                s(&pcsv),
+            ],
+        ),
+    ] {
+        d.write(file, "keep me\n");
+        let out = d.magproof().args(&args).output().unwrap();
+        assert_eq!(out.status.code(), Some(2), "{args:?}: {}", stderr(&out));
+        assert!(stderr(&out).contains("--force"), "{}", stderr(&out));
+        assert_eq!(file_text(&d, file), "keep me\n");
+        let out = d.magproof().args(&args).arg("--force").output().unwrap();
+        assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+        assert!(file_text(&d, file).starts_with('{'), "{file} not replaced");
+        // No temporary file is left beside it.
+        let stray: Vec<_> = std::fs::read_dir(d.path())
+            .unwrap()
+            .filter_map(|e| e.ok())
+            .filter(|e| e.file_name().to_string_lossy().ends_with(".tmp"))
+            .collect();
+        assert!(stray.is_empty(), "{stray:?}");
+    }
+    // History export: the same rule.
+    d.write("h.csv", "keep me\n");
+    let out = d
+        .magproof()
+        .args([
+            "history", "--ledger", "none.db", "--export", "csv", "--out", "h.csv",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
+    assert_eq!(file_text(&d, "h.csv"), "keep me\n");
+}
+
+fn file_text(d: &TestDir, name: &str) -> String {
+    std::fs::read_to_string(d.join(name)).unwrap()
+}
