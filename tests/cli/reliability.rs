@@ -452,16 +452,18 @@ fn existing_outputs_are_not_replaced_without_force() {
         assert!(stray.is_empty(), "{stray:?}");
     }
     // History export: the same rule.
+    drop(magproof::ledger::Ledger::open(&d.join("l.db")).unwrap());
     d.write("h.csv", "keep me\n");
-    let out = d
-        .magproof()
-        .args([
-            "history", "--ledger", "none.db", "--export", "csv", "--out", "h.csv",
-        ])
-        .output()
-        .unwrap();
+    let export = [
+        "history", "--ledger", "l.db", "--export", "csv", "--out", "h.csv",
+    ];
+    let out = d.magproof().args(export).output().unwrap();
     assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
+    assert!(stderr(&out).contains("--force"), "{}", stderr(&out));
     assert_eq!(file_text(&d, "h.csv"), "keep me\n");
+    let out = d.magproof().args(export).arg("--force").output().unwrap();
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+    assert_ne!(file_text(&d, "h.csv"), "keep me\n");
 }
 
 fn file_text(d: &TestDir, name: &str) -> String {
