@@ -20,6 +20,8 @@ mod history;
 mod input;
 #[path = "cli/polarity.rs"]
 mod polarity;
+#[path = "cli/reliability.rs"]
+mod reliability;
 #[path = "cli/report.rs"]
 mod report;
 #[path = "cli/simulate.rs"]

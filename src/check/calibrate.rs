@@ -27,6 +27,7 @@ pub use warnings::CalibrationWarning;
 use crate::fit::coverage::{axis_name, direction_spread};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
+use crate::log::saturation::screen_log;
 use crate::log::{read_sweep, Plan, ReadOptions, SweepLog};
 use crate::Error;
 
@@ -50,6 +51,9 @@ pub struct CalibrateRequest {
     pub read: ReadOptions,
     /// Robust reweighting of the tumble fit.
     pub robust: Robust,
+    /// Full-scale range per axis, nT (`--range`; beats the plan's `[magnetometer]
+    /// range_nt`). Readings at or beyond it, or piled up on a rail, are left out.
+    pub range_nt: Option<f64>,
 }
 
 /// Which fit was done.
@@ -184,6 +188,9 @@ pub struct CalibrationResult {
     pub iterations: Option<u64>,
     /// Rows the reader skipped (`--skip-bad-rows`).
     pub rows_skipped: usize,
+    /// Rows flagged as saturated (beyond the range or on a rail) and left out; they are
+    /// also counted in `samples_rejected`.
+    pub samples_saturated: usize,
     /// Facts about the method the reader should keep in mind.
     pub notes: Vec<String>,
     /// The warnings as values.
@@ -205,28 +212,25 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     }
     let log = read_sweep(&req.log, &req.read)?;
     let b = log.require_field("a calibration needs the measured field")?;
-    let range_nt = req
-        .plan
-        .as_ref()
-        .and_then(|p| p.magnetometer.as_ref()?.range_nt);
+    crate::log::plausible::check_field_scale(&log)?;
+    let range_nt = req.range_nt.or_else(|| {
+        req.plan
+            .as_ref()
+            .and_then(|p| p.magnetometer.as_ref()?.range_nt)
+    });
     let mut warnings = Vec::new();
     let mut notes = Vec::new();
-    // Usable rows: drop saturated readings.
-    let mut idx = Vec::with_capacity(log.len());
-    for i in 0..log.len() {
-        let sat = range_nt.is_some_and(|r| b.iter().any(|col| col[i].abs() >= r));
-        if !sat {
-            idx.push(i);
-        }
-    }
+    // Usable rows: drop saturated readings (beyond the range, or piled up on a rail).
+    let sat = screen_log(&log, range_nt)?;
+    let idx: Vec<usize> = (0..log.len())
+        .filter(|&i| !sat.flagged.get(i).copied().unwrap_or(false))
+        .collect();
     let saturated = log.len() - idx.len();
-    if let Some(r) = range_nt {
-        if saturated > 0 {
-            warnings.push(CalibrationWarning::Saturated {
-                count: saturated,
-                range_nt: r,
-            });
-        }
+    for (a, detail) in sat.axes.iter().zip(sat.warnings()) {
+        warnings.push(CalibrationWarning::Saturated {
+            count: a.count,
+            detail,
+        });
     }
     if !log.skipped_rows.is_empty() {
         warnings.push(CalibrationWarning::SkippedRows {
@@ -277,6 +281,7 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     res.warning_kinds = warnings;
     res.notes = notes;
     res.rows_skipped = log.skipped_rows.len();
+    res.samples_saturated = saturated;
     Ok(res)
 }
 
@@ -449,6 +454,7 @@ fn calibrate_tumble(
         cage: None,
         iterations: Some(fit.iterations),
         rows_skipped: 0,
+        samples_saturated: 0,
         notes: Vec::new(),
         warning_kinds: Vec::new(),
         data: CalibrationData {

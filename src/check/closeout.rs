@@ -185,6 +185,7 @@ pub fn run_step(
             log: log.to_path_buf(),
             plan: Some(plan.clone()),
             reference_nt: None,
+            range_nt: None,
             read,
             robust: Robust::Tukey,
         })?)),

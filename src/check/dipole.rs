@@ -32,6 +32,7 @@ use serde::Serialize;
 use crate::fit::dipole::{
     fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
 };
+use crate::log::saturation::{screen_log, without_rows};
 use crate::log::{read_sweep, LogError, Plan, ReadOptions, Shown, SweepLog};
 use crate::physics::frames::rotation_z;
 use crate::Error;
@@ -83,6 +84,9 @@ pub struct DipoleRequest {
     pub inclination_deg: Option<f64>,
     /// Dipole at the table origin, or fitted.
     pub position: DipolePosition,
+    /// Probe full-scale range per axis, nT (`--range`). Readings at or beyond it, or
+    /// piled up on a rail, are left out (DESIGN §4).
+    pub range_nt: Option<f64>,
 }
 
 impl DipoleRequest {
@@ -95,6 +99,7 @@ impl DipoleRequest {
             altitude_km: DEFAULT_ALTITUDE_KM,
             inclination_deg: None,
             position: DipolePosition::AtTableOrigin,
+            range_nt: None,
         }
     }
 }
@@ -191,6 +196,8 @@ pub struct DipoleResult {
     pub background_segments: usize,
     /// Log rows skipped under `--skip-bad-rows`.
     pub rows_skipped: usize,
+    /// Rows flagged as saturated (beyond the range or on a rail) and left out.
+    pub samples_saturated: usize,
     /// Solver iterations of the offset fit (0 for the linear fit).
     pub iterations: u64,
     /// Body directions ("x", "y", "z" or a unit vector) the mounts given cannot resolve
@@ -224,7 +231,25 @@ fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
 }
 
 /// Run the dipole check on a log already read (`req.log` is not read again).
+/// Saturated rows are dropped first and counted in `samples_saturated`.
 pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
+    crate::log::plausible::check_field_scale(log)?;
+    let sat = screen_log(log, req.range_nt)?;
+    if sat.count() == 0 {
+        return evaluate_unsaturated(log, req);
+    }
+    let kept = without_rows(log, &sat.flagged);
+    let mut res = evaluate_unsaturated(&kept, req)?;
+    res.samples_saturated = sat.count();
+    res.warnings.extend(
+        sat.warnings()
+            .into_iter()
+            .map(|detail| DipoleWarning::Saturated { detail }),
+    );
+    Ok(res)
+}
+
+fn evaluate_unsaturated(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
     let inclination_deg = req.inclination_deg.unwrap_or(DEFAULT_INCLINATION_DEG);
     validate_orbit(req.altitude_km, inclination_deg)?;
     let plan = &req.plan;
@@ -501,6 +526,7 @@ fn assemble(
         background_samples: bg.segments.iter().map(|s| s.rows).sum(),
         background_segments: bg.segments.len(),
         rows_skipped: log.skipped_rows.len(),
+        samples_saturated: 0,
         iterations: fit.iterations,
         hidden_components: warnings
             .iter()

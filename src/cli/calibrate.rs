@@ -72,6 +72,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             default_unit: unit,
             skip_bad_rows: args.input.skip_bad_rows,
         },
+        range_nt: args.input.range,
         robust: match args.robust {
             RobustArg::Tukey => Robust::Tukey,
             RobustArg::None => Robust::Off,

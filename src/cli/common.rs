@@ -45,6 +45,17 @@ pub struct InputArgs {
     /// Skip rows with a bad cell (counted and reported) instead of refusing the log.
     #[arg(long)]
     pub skip_bad_rows: bool,
+    /// Sensor full-scale range per axis, nT: readings at or beyond it are flagged as
+    /// saturated and left out. Beats the plan's [magnetometer] range_nt.
+    #[arg(long, value_name = "NT", value_parser = parse_range)]
+    pub range: Option<f64>,
+}
+
+fn parse_range(s: &str) -> Result<f64, String> {
+    match s.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 => Ok(v),
+        _ => Err(format!("expected a positive number of nT, found \"{s}\"")),
+    }
 }
 
 fn parse_unit(s: &str) -> Result<FieldUnit, String> {

@@ -53,6 +53,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         default_unit: unit,
         skip_bad_rows: args.input.skip_bad_rows,
     };
+    req.range_nt = args.input.range;
     req.altitude_km = args.altitude_km;
     req.inclination_deg = args.inclination_deg;
     req.position = if args.fit_offset {

@@ -139,25 +139,9 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
 }
 
 /// Write a file through a temporary file in the same folder and a rename, so a reader
-/// never sees half of it.
+/// never sees half of it ([`magproof::report::atomic::write_atomic`]).
 fn write_atomically(file: &Path, bytes: &[u8], force: bool) -> anyhow::Result<()> {
-    if file.exists() && !force {
-        return Err(magproof::Error::Usage(format!(
-            "{}: already exists; add --force to replace it",
-            file.display()
-        ))
-        .into());
-    }
-    let dir = match file.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d,
-        _ => Path::new("."),
-    };
-    let io = |e| magproof::Error::io(file, e);
-    let mut tmp = tempfile::NamedTempFile::new_in(dir).map_err(io)?;
-    tmp.write_all(bytes).map_err(io)?;
-    tmp.as_file().sync_all().map_err(io)?;
-    tmp.persist(file).map_err(|e| io(e.error))?;
-    Ok(())
+    Ok(magproof::report::atomic::write_atomic(file, bytes, force)?)
 }
 
 // ---- terminal view (80 columns) ----------------------------------------------------

@@ -112,6 +112,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         snr_min: args.snr_min,
         drift: args.drift,
         max_lag_s: args.max_lag_s,
+        range_nt: args.input.range,
         ..PolarityRequest::new(&log, &plan)
     };
     let mut result = run_polarity(&req)?;

@@ -6,7 +6,7 @@
 //!
 //! Guarantees (see `docs/ledger.md`):
 //! - every call of [`Ledger::record_runs`] is one transaction: all its runs or none;
-//! - the file is in WAL mode with a 10 s busy timeout, so two processes writing at once
+//! - the file is in WAL mode with a 30 s busy timeout, so two processes writing at once
 //!   both succeed (the second waits for the first's commit);
 //! - `synchronous = FULL`: a committed run survives the process being killed (and power
 //!   loss on a disk that honours flushes);
@@ -22,9 +22,9 @@ mod record;
 mod schema;
 
 use std::path::{Path, PathBuf};
-use std::time::Duration;
+use std::time::{Duration, Instant};
 
-use rusqlite::{params, Connection, OpenFlags, OptionalExtension, TransactionBehavior};
+use rusqlite::{params, Connection, ErrorCode, OpenFlags, OptionalExtension, TransactionBehavior};
 
 use crate::log::plan::StepKind;
 use crate::log::{Plan, Shown};
@@ -36,7 +36,38 @@ pub use record::{parse_kind, InputFile, InputRole, NewRun, Recorded, Run, RunFil
 pub use schema::{APPLICATION_ID, CURRENT_VERSION};
 
 /// How long a writer waits for another process's transaction before giving up.
-pub const BUSY_TIMEOUT: Duration = Duration::from_secs(10);
+pub const BUSY_TIMEOUT: Duration = Duration::from_secs(30);
+
+/// Whether SQLite said another connection holds a lock (SQLITE_BUSY or SQLITE_LOCKED,
+/// any extended code).
+fn is_busy(e: &LedgerError) -> bool {
+    let source = match e {
+        LedgerError::Database { source, .. } | LedgerError::CannotOpen { source, .. } => source,
+        _ => return false,
+    };
+    matches!(
+        source.sqlite_error_code(),
+        Some(ErrorCode::DatabaseBusy | ErrorCode::DatabaseLocked)
+    )
+}
+
+/// Run `attempt` again, with growing pauses, while it fails because the file is busy,
+/// until [`BUSY_TIMEOUT`] has passed; then the last error stands.
+fn retry_busy<T>(mut attempt: impl FnMut() -> Result<T, LedgerError>) -> Result<T, LedgerError> {
+    let start = Instant::now();
+    // A per-process offset keeps two retrying processes from staying in step.
+    let offset = Duration::from_micros(u64::from(std::process::id() % 13) * 150);
+    let mut pause = Duration::from_millis(1);
+    loop {
+        match attempt() {
+            Err(e) if is_busy(&e) && start.elapsed() < BUSY_TIMEOUT => {
+                std::thread::sleep(pause + offset);
+                pause = (pause * 2).min(Duration::from_millis(64));
+            }
+            other => return other,
+        }
+    }
+}
 
 /// An open ledger file.
 #[derive(Debug)]
@@ -52,7 +83,39 @@ impl Ledger {
         let flags = OpenFlags::SQLITE_OPEN_READ_WRITE
             | OpenFlags::SQLITE_OPEN_CREATE
             | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+        if !path.exists() {
+            // Failing here is not final: opening below reports the cause by name.
+            let _ = Self::create_whole(path, flags);
+        }
         Self::open_with(path, flags, schema::OnEmpty::Create)
+    }
+
+    /// Build a new ledger (schema and WAL journaling) in a private file beside `path`
+    /// and link it into place only if `path` is still absent. Two processes creating the
+    /// same ledger at once then never meet a half-made file or a rollback-journal phase,
+    /// where SQLite can answer "database is locked" without waiting.
+    fn create_whole(path: &Path, flags: OpenFlags) -> Result<(), LedgerError> {
+        let name = path.file_name().map(|n| n.to_string_lossy().into_owned());
+        let tmp = path.with_file_name(format!(
+            ".{}.{}.new",
+            name.unwrap_or_else(|| "ledger".into()),
+            std::process::id()
+        ));
+        let made = Self::open_once(&tmp, flags, schema::OnEmpty::Create).map(drop);
+        let linked = made.and_then(|()| match std::fs::hard_link(&tmp, path) {
+            Ok(()) => Ok(()),
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => Ok(()),
+            Err(e) => Err(LedgerError::NotALedger {
+                path: Shown(path.to_path_buf()),
+                reason: format!("cannot link the new ledger into place: {e}"),
+            }),
+        });
+        for suffix in ["", "-wal", "-shm"] {
+            let mut p = tmp.clone().into_os_string();
+            p.push(suffix);
+            let _ = std::fs::remove_file(p);
+        }
+        linked
     }
 
     /// Open an existing ledger for reading: fails with [`LedgerError::Missing`] rather
@@ -69,6 +132,18 @@ impl Ledger {
     }
 
     fn open_with(
+        path: &Path,
+        flags: OpenFlags,
+        on_empty: schema::OnEmpty,
+    ) -> Result<Ledger, LedgerError> {
+        // SQLite does not call its busy handler in every case: taking the write lock
+        // for the journal-mode switch or the schema creation while another process is
+        // creating, closing (checkpoint) or upgrading a lock on the same new file can
+        // fail with SQLITE_BUSY at once. Each attempt starts on a fresh connection.
+        retry_busy(|| Self::open_once(path, flags, on_empty))
+    }
+
+    fn open_once(
         path: &Path,
         flags: OpenFlags,
         on_empty: schema::OnEmpty,
@@ -132,6 +207,15 @@ impl Ledger {
             r.validate()?;
         }
         let recorded_at = utc_now_iso8601();
+        // A busy failure rolls the whole transaction back, so trying again is safe.
+        retry_busy(|| self.record_once(runs, &recorded_at))
+    }
+
+    fn record_once(
+        &mut self,
+        runs: &[NewRun],
+        recorded_at: &str,
+    ) -> Result<Vec<Recorded>, LedgerError> {
         let path = self.path.clone();
         let db = |source| LedgerError::Database {
             path: Shown(path.clone()),

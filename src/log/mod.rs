@@ -10,6 +10,7 @@ mod lines;
 mod number;
 mod parallel;
 pub mod plan;
+pub mod plausible;
 pub mod saturation;
 mod sweep;
 pub mod units;

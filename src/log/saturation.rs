@@ -9,6 +9,10 @@
 //! many readings as any other single value among the 5 % of readings nearest that end.
 
 use std::collections::HashMap;
+use std::path::Path;
+
+use super::SweepLog;
+use crate::Error;
 
 /// Why a reading was flagged.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -39,6 +43,8 @@ pub struct SaturationReport {
     pub flagged: Vec<bool>,
     /// Findings per axis.
     pub axes: Vec<AxisSaturation>,
+    /// Rows flagged on each axis (x, y, z), whatever the cause.
+    pub rows_per_axis: [usize; 3],
 }
 
 impl SaturationReport {
@@ -46,6 +52,101 @@ impl SaturationReport {
     pub fn count(&self) -> usize {
         self.flagged.iter().filter(|f| **f).count()
     }
+
+    /// One warning per finding, naming the axis, the level and what was done.
+    pub fn warnings(&self) -> Vec<String> {
+        self.axes
+            .iter()
+            .map(|a| {
+                let axis = AXIS_NAMES.get(a.axis).copied().unwrap_or("?");
+                match a.cause {
+                    SaturationCause::BeyondRange => format!(
+                        "sensor {axis}: {} readings at or beyond the range ±{} nT were flagged \
+                         as saturated and left out",
+                        a.count, a.level_nt
+                    ),
+                    SaturationCause::Rail => format!(
+                        "sensor {axis}: {} readings piled up at {} nT (the axis's rail) were \
+                         flagged as saturated and left out; give --range if that is not the \
+                         sensor's full scale",
+                        a.count, a.level_nt
+                    ),
+                }
+            })
+            .collect()
+    }
+
+    /// Refuse (`Error::Degenerate`) when every row of some axis is flagged: nothing of
+    /// that axis is left to use.
+    pub fn refuse_if_axis_saturated(&self, path: &Path) -> Result<(), Error> {
+        let n = self.flagged.len();
+        if n == 0 {
+            return Ok(());
+        }
+        for (axis, &rows) in self.rows_per_axis.iter().enumerate() {
+            if rows < n {
+                continue;
+            }
+            let levels: Vec<String> = self
+                .axes
+                .iter()
+                .filter(|a| a.axis == axis)
+                .map(|a| match a.cause {
+                    SaturationCause::BeyondRange => format!("at or beyond ±{} nT", a.level_nt),
+                    SaturationCause::Rail => format!("on the rail {} nT", a.level_nt),
+                })
+                .collect();
+            return Err(Error::Degenerate(format!(
+                "{}: every one of the {n} readings of sensor {} is saturated ({}): nothing \
+                 usable is left on that axis; check the sensor range (--range, [magnetometer] \
+                 range_nt), the field unit, or whether the axis is stuck",
+                path.display(),
+                AXIS_NAMES.get(axis).copied().unwrap_or("?"),
+                levels.join(", ")
+            )));
+        }
+        Ok(())
+    }
+}
+
+const AXIS_NAMES: [&str; 3] = ["x", "y", "z"];
+
+/// Screen a log for saturation: flag rows (range from `range_nt`, else the rail
+/// heuristic only), refuse when an axis is saturated throughout. `None` without a
+/// field.
+pub fn screen_log(log: &SweepLog, range_nt: Option<f64>) -> Result<SaturationReport, Error> {
+    let Some(b) = log.b_nt.as_ref() else {
+        return Ok(SaturationReport::default());
+    };
+    let report = find_saturation(b, range_nt);
+    report.refuse_if_axis_saturated(&log.path)?;
+    Ok(report)
+}
+
+/// A copy of `log` without the rows where `drop` is true (per-row columns only).
+pub fn without_rows(log: &SweepLog, drop: &[bool]) -> SweepLog {
+    let keep = |i: usize| !drop.get(i).copied().unwrap_or(false);
+    fn pick<T: Clone>(v: &[T], keep: &dyn Fn(usize) -> bool) -> Vec<T> {
+        v.iter()
+            .enumerate()
+            .filter(|(i, _)| keep(*i))
+            .map(|(_, x)| x.clone())
+            .collect()
+    }
+    let pick3 = |c: &[Vec<f64>; 3]| [pick(&c[0], &keep), pick(&c[1], &keep), pick(&c[2], &keep)];
+    let mut out = log.clone();
+    out.t_s = log.t_s.as_ref().map(|v| pick(v, &keep));
+    out.b_nt = log.b_nt.as_ref().map(pick3);
+    out.h_nt = log.h_nt.as_ref().map(pick3);
+    out.temp_c = log.temp_c.as_ref().map(|v| pick(v, &keep));
+    for c in &mut out.commands {
+        c.values = pick(&c.values, &keep);
+    }
+    out.angle_rad = log.angle_rad.as_ref().map(|v| pick(v, &keep));
+    out.mount = log.mount.as_ref().map(|v| pick(v, &keep));
+    out.probe_m = log.probe_m.as_ref().map(pick3);
+    out.lines = pick(&log.lines, &keep);
+    out
 }
 
 /// Flag saturated readings of the three field columns `b_nt` (sensor frame, nT).
@@ -55,13 +156,17 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
     let mut report = SaturationReport {
         flagged: vec![false; n],
         axes: Vec::new(),
+        rows_per_axis: [0; 3],
     };
+    let mut on_axis = vec![false; n];
     for (axis, col) in b_nt.iter().enumerate() {
+        on_axis.iter_mut().for_each(|f| *f = false);
         if let Some(range) = range_nt {
             let mut count = 0;
             for (i, v) in col.iter().enumerate() {
                 if v.abs() >= range {
                     report.flagged[i] = true;
+                    on_axis[i] = true;
                     count += 1;
                 }
             }
@@ -80,6 +185,7 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
                 for (i, v) in col.iter().enumerate() {
                     if v.to_bits() == level.to_bits() {
                         report.flagged[i] = true;
+                        on_axis[i] = true;
                         count += 1;
                     }
                 }
@@ -91,6 +197,7 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
                 });
             }
         }
+        report.rows_per_axis[axis] = on_axis.iter().filter(|f| **f).count();
     }
     report
 }
@@ -105,6 +212,10 @@ fn rail_value(col: &[f64], high: bool) -> Option<f64> {
     } else {
         col.iter().copied().fold(f64::INFINITY, f64::min)
     };
+    // A constant axis is not clipped but stuck or idle: the fits refuse it by name.
+    if col.iter().all(|v| v.to_bits() == extreme.to_bits()) {
+        return None;
+    }
     let at_extreme = col
         .iter()
         .filter(|v| v.to_bits() == extreme.to_bits())

@@ -5,7 +5,6 @@
 //! `b_corr = W · (b_meas − hard_iron − temp_slope · (T − temp_ref))`, with b_meas in the
 //! sensor frame (nT), b_corr in the frame named `frame_out`, W row-major.
 
-use std::io::Write;
 use std::path::Path;
 
 use serde::Serialize;
@@ -183,16 +182,7 @@ pub fn write_flight_params(
         }
         ParamsFormat::CHeader => params.to_c_header(),
     };
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d,
-        _ => Path::new("."),
-    };
-    let mut tmp = tempfile::NamedTempFile::new_in(dir).map_err(|e| Error::io(dir, e))?;
-    tmp.write_all(text.as_bytes())
-        .and_then(|_| tmp.as_file().sync_all())
-        .map_err(|e| Error::io(tmp.path(), e))?;
-    tmp.persist(path).map_err(|e| Error::io(path, e.error))?;
-    Ok(())
+    crate::report::atomic::write_atomic(path, text.as_bytes(), force)
 }
 
 #[cfg(test)]

@@ -5,7 +5,6 @@
 //! same folder, then renamed), so a reader never sees half a file.
 
 use std::fmt::Write as _;
-use std::io::Write as _;
 use std::path::Path;
 
 use serde::Serialize;
@@ -163,23 +162,9 @@ fn c_ident(name: &str) -> String {
 }
 
 /// Write `text` to `path` atomically. Refuses to replace an existing file unless `force`.
+/// (Kept for callers; the work is [`crate::report::atomic::write_atomic`].)
 pub fn write_atomically(path: &Path, text: &str, force: bool) -> Result<(), Error> {
-    if path.exists() && !force {
-        return Err(Error::Usage(format!(
-            "{}: exists; give --force to replace it",
-            path.display()
-        )));
-    }
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p,
-        _ => Path::new("."),
-    };
-    let mut tmp = tempfile::NamedTempFile::new_in(dir).map_err(|e| Error::io(dir, e))?;
-    tmp.write_all(text.as_bytes())
-        .and_then(|_| tmp.as_file().sync_all())
-        .map_err(|e| Error::io(tmp.path(), e))?;
-    tmp.persist(path).map_err(|e| Error::io(path, e.error))?;
-    Ok(())
+    crate::report::atomic::write_atomic(path, text.as_bytes(), force)
 }
 
 /// Write the coupling parameters of `result` to `path` (format from the extension).

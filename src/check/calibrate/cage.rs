@@ -131,6 +131,7 @@ pub(super) fn calibrate_cage(
         }),
         iterations: None,
         rows_skipped: 0,
+        samples_saturated: 0,
         notes: Vec::new(),
         warning_kinds: Vec::new(),
         data: CalibrationData {

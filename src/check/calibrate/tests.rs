@@ -11,6 +11,7 @@ use nalgebra::Rotation3;
 
 fn request(log: PathBuf, plan: Option<&str>, reference_nt: Option<f64>) -> CalibrateRequest {
     CalibrateRequest {
+        range_nt: None,
         log,
         plan: plan.map(|t| parse_plan(t, Path::new("plan.toml")).unwrap()),
         reference_nt,

@@ -38,12 +38,13 @@ pub enum CalibrationWarning {
         /// All samples.
         total: usize,
     },
-    /// Readings at or beyond the sensor's range were left out.
+    /// Saturated readings on one axis (at or beyond the range, or on a rail) were
+    /// left out.
     Saturated {
-        /// Samples left out.
+        /// Readings flagged on that axis.
         count: usize,
-        /// The range, nT.
-        range_nt: f64,
+        /// What was found: axis, level and cause.
+        detail: String,
     },
     /// Rows were skipped by the reader under `--skip-bad-rows`.
     SkippedRows {
@@ -103,10 +104,7 @@ impl fmt::Display for CalibrationWarning {
                 "{rejected} of {total} samples were rejected as outliers: check for torque-rod \
                  firings, moving magnetic objects or a varying ambient field during the test"
             ),
-            W::Saturated { count, range_nt } => write!(
-                f,
-                "{count} samples at or beyond the sensor range ({range_nt:.0} nT) were left out"
-            ),
+            W::Saturated { detail, .. } => write!(f, "{detail}"),
             W::SkippedRows { count } => {
                 write!(
                     f,

@@ -37,6 +37,11 @@ pub enum DipoleWarning {
     },
     /// The inclination was not given; the default was used.
     DefaultInclination,
+    /// Saturated readings on one axis were left out.
+    Saturated {
+        /// Axis, level, count and cause, in words.
+        detail: String,
+    },
     /// The verdict lies within 2σ of the limit.
     NearLimit {
         /// The limit, A·m².
@@ -81,6 +86,7 @@ impl fmt::Display for DipoleWarning {
                 "orbit inclination not given: {DEFAULT_INCLINATION_DEG}° (sun-synchronous) \
                  assumed; give --inclination-deg"
             ),
+            DipoleWarning::Saturated { detail } => write!(f, "{detail}"),
             DipoleWarning::NearLimit { limit_am2 } => write!(
                 f,
                 "the magnitude lies within 2σ of the limit {limit_am2} A·m²: the verdict is \

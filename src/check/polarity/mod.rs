@@ -72,6 +72,9 @@ pub struct PolarityRequest<'a> {
     pub drift: DriftModel,
     /// Largest lag searched, s (default: half the shortest pulse, at most 2 s).
     pub max_lag_s: Option<f64>,
+    /// The recording sensor's full-scale range per axis, nT (`--range`); without it the
+    /// plan's `[magnetometer] range_nt` applies when the magnetometer recorded the log.
+    pub range_nt: Option<f64>,
 }
 
 impl<'a> PolarityRequest<'a> {
@@ -84,6 +87,7 @@ impl<'a> PolarityRequest<'a> {
             snr_min: DEFAULT_SNR_MIN,
             drift: DriftModel::Auto,
             max_lag_s: None,
+            range_nt: None,
         }
     }
 }
@@ -154,6 +158,8 @@ pub struct PolarityResult {
     pub drift: String,
     /// Rows with non-zero weight in the final fit.
     pub samples_used: usize,
+    /// Rows flagged as saturated (beyond the range or on a rail) and left out.
+    pub samples_saturated: usize,
     /// Every pulse found.
     pub pulses: Vec<PulseResult>,
     /// Anything the user should know (cause and remedy).
@@ -232,6 +238,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let sensor = sensor_geometry(plan, req.sensor)?;
     let t = log.require_time("polarity needs time for the lag and settle times")?;
     let b = log.require_field("polarity fits the measured field")?;
+    crate::log::plausible::check_field_scale(log)?;
     let mut names: Vec<String> = Vec::new();
     let mut columns: Vec<&[f64]> = Vec::new();
     for rod in &plan.rods {
@@ -338,22 +345,20 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         }
         rem.push((c, state));
     }
-    // Readings at or beyond the sensor's range are saturated: flagged, never used.
-    let range_nt = plan
-        .magnetometer
-        .as_ref()
-        .and_then(|m| m.range_nt)
-        .filter(|_| sensor.kind == SensorChoice::Magnetometer);
-    let excluded: Vec<bool> = (0..n)
-        .map(|i| range_nt.is_some_and(|r| (0..3).any(|a| b[a][i].abs() >= r)))
-        .collect();
-    let saturated = excluded.iter().filter(|x| **x).count();
-    if saturated > 0 {
-        warnings.push(format!(
-            "{saturated} rows reach the magnetometer's range (range_nt = {}) and were left out as saturated",
-            range_nt.unwrap_or(f64::NAN)
-        ));
-    }
+    // Saturated readings (at or beyond the range, or piled up on a rail): flagged,
+    // never used.
+    let range_nt = req.range_nt.or_else(|| {
+        plan.magnetometer
+            .as_ref()
+            .and_then(|m| m.range_nt)
+            .filter(|_| sensor.kind == SensorChoice::Magnetometer)
+    });
+    let sat = crate::log::saturation::find_saturation(b, range_nt);
+    sat.refuse_if_axis_saturated(&log.path)?;
+    let mut excluded = sat.flagged.clone();
+    excluded.resize(n, false);
+    let saturated = sat.count();
+    warnings.extend(sat.warnings());
     let mut ctx = FitContext {
         t,
         b,
@@ -486,6 +491,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         residual_sigma_nt: std::array::from_fn(|a| fit.residual_sigma(a)),
         drift: basis.describe(),
         samples_used: fit.rows_used,
+        samples_saturated: saturated,
         pulses: pulse_results,
         warnings,
         series,

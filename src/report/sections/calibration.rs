@@ -361,6 +361,7 @@ mod tests {
             log: path,
             plan: None,
             reference_nt: Some(sim.truth.reference_nt),
+            range_nt: None,
             read: ReadOptions::default(),
             robust: Robust::Tukey,
         })
