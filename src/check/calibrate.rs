@@ -210,7 +210,7 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
             )));
         }
     }
-    let log = read_sweep(&req.log, &req.read)?;
+    let mut log = read_sweep(&req.log, &req.read)?;
     let b = log.require_field("a calibration needs the measured field")?;
     crate::log::plausible::check_field_scale(&log)?;
     let range_nt = req.range_nt.or_else(|| {
@@ -241,6 +241,8 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
         .iter()
         .map(|&i| Vector3::new(b[0][i], b[1][i], b[2][i]))
         .collect();
+    // The field columns now live in `samples`; free them before the fit.
+    log.b_nt = None;
     let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
         let v: Vec<f64> = idx.iter().map(|&i| t[i]).collect();
         let (lo, hi) = v
@@ -282,6 +284,19 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     res.notes = notes;
     res.rows_skipped = log.skipped_rows.len();
     res.samples_saturated = saturated;
+    // Per-sample data: moved, not copied, when no row was dropped.
+    res.data.samples_nt = ctx.samples;
+    let all_rows = idx.len() == log.len();
+    res.data.lines = if all_rows {
+        std::mem::take(&mut log.lines)
+    } else {
+        idx.iter().map(|&i| log.lines[i]).collect()
+    };
+    res.data.t_s = match log.t_s.take() {
+        Some(t) if all_rows => Some(t),
+        Some(t) => Some(idx.iter().map(|&i| t[i]).collect()),
+        None => None,
+    };
     Ok(res)
 }
 
@@ -458,16 +473,13 @@ fn calibrate_tumble(
         notes: Vec::new(),
         warning_kinds: Vec::new(),
         data: CalibrationData {
-            samples_nt: ctx.samples.clone(),
+            // Filled by `run_calibrate` by moving, not copying (1e6-sample logs).
+            samples_nt: Vec::new(),
             corrected_nt: corrected,
             residuals_nt: fit.residuals_nt,
             kept,
-            lines: ctx.idx.iter().map(|&i| ctx.log.lines[i]).collect(),
-            t_s: ctx
-                .log
-                .t_s
-                .as_ref()
-                .map(|t| ctx.idx.iter().map(|&i| t[i]).collect()),
+            lines: Vec::new(),
+            t_s: None,
         },
     })
 }

@@ -157,66 +157,142 @@ pub fn fit_tumble(
     for (m, &(i, j)) in SYM_INDEX.iter().enumerate() {
         p[3 + m] = w0[(i, j)];
     }
+    let mut st = Irls {
+        iterations: 0,
+        solver_problems: Vec::new(),
+        rounds: 0,
+        converged: opts.robust == Robust::Off,
+        sigma: 0.0,
+    };
     let mut weights = vec![1.0; n];
-    let mut iterations = 0;
-    let mut solver_problems = Vec::new();
-    let mut rounds = 0;
-    let mut irls_converged = opts.robust == Robust::Off;
-    let mut sigma = 0.0;
-    loop {
-        let prob = TumbleProblem {
-            samples_nt,
-            temp_dev_c: tdev.as_deref(),
-            weights: Some(&weights),
-            reference_nt: r,
+    if opts.robust == Robust::Tukey && n >= SEED_MIN_SAMPLES {
+        // Large log: run the reweighting on an evenly decimated subsample first, then
+        // start the full-data rounds from its parameters and weights; the full rounds
+        // reach the same fixed point in one or two solves instead of many.
+        let stride = n / SEED_SAMPLES;
+        let sub: Vec<Vector3<f64>> = samples_nt.iter().step_by(stride).copied().collect();
+        let sub_t: Option<Vec<f64>> = tdev
+            .as_ref()
+            .map(|t| t.iter().step_by(stride).copied().collect());
+        let mut seed = Irls {
+            iterations: 0,
+            solver_problems: Vec::new(),
+            rounds: 0,
+            converged: false,
+            sigma: 0.0,
         };
-        let out = solve(prob, p.clone(), opts.max_iterations.max(1))?;
-        iterations += out.iterations;
-        if out.termination != LmTermination::Converged {
-            solver_problems.push(out.termination.clone());
-        }
-        p = out.param;
-        if opts.robust == Robust::Off || rounds >= MAX_ROUNDS {
-            break;
-        }
-        rounds += 1;
-        let res = out.problem.residuals(&p);
-        sigma = robust_sigma(&res);
-        // Noise below 1e-9 of the field (noise-free data): nothing to reweight.
-        if !(sigma > 1e-9 * r) {
-            sigma = 0.0;
-            irls_converged = true;
-            break;
-        }
-        let mut change: f64 = 0.0;
-        for (w, r) in weights.iter_mut().zip(&res) {
-            let nw = tukey_weight(*r / (TUKEY_C * sigma));
-            change = change.max((nw - *w).abs());
-            *w = nw;
-        }
-        if change < WEIGHT_TOL {
-            irls_converged = true;
-            break;
+        let mut sub_w = vec![1.0; sub.len()];
+        p = irls(&sub, sub_t.as_deref(), r, p, &mut sub_w, opts, &mut seed)?.0;
+        st.iterations += seed.iterations;
+        if seed.sigma > 0.0 {
+            let prob = TumbleProblem {
+                samples_nt,
+                temp_dev_c: tdev.as_deref(),
+                weights: None,
+                reference_nt: r,
+            };
+            let res = prob.residuals(&p);
+            let sigma = robust_sigma(&res);
+            if sigma > 1e-9 * r {
+                for (w, r) in weights.iter_mut().zip(&res) {
+                    *w = tukey_weight(*r / (TUKEY_C * sigma));
+                }
+            }
         }
     }
+    let (p, res) = irls(
+        samples_nt,
+        tdev.as_deref(),
+        r,
+        p,
+        &mut weights,
+        opts,
+        &mut st,
+    )?;
     finish(
         samples_nt,
         tdev.as_deref(),
         r,
         p,
         weights,
-        sigma,
+        st.sigma,
         FinishInfo {
             robust: opts.robust,
-            iterations,
-            rounds,
-            irls_converged,
-            solver_problems,
+            iterations: st.iterations,
+            rounds: st.rounds,
+            irls_converged: st.converged,
+            solver_problems: st.solver_problems,
+            residuals_nt: res,
         },
     )
 }
 
+/// Logs at least this long are first fitted on a decimated subsample.
+const SEED_MIN_SAMPLES: usize = 200_000;
+/// Size of that subsample (about).
+const SEED_SAMPLES: usize = 50_000;
+
+/// Book-keeping of the reweighting rounds.
+struct Irls {
+    iterations: u64,
+    solver_problems: Vec<LmTermination>,
+    rounds: usize,
+    converged: bool,
+    sigma: f64,
+}
+
+/// Solve, reweight, repeat until the weights settle. Returns the parameters and, when
+/// computed at them, the residuals of every sample.
+fn irls(
+    samples_nt: &[Vector3<f64>],
+    tdev: Option<&[f64]>,
+    r: f64,
+    mut p: DVector<f64>,
+    weights: &mut [f64],
+    opts: &TumbleOptions,
+    st: &mut Irls,
+) -> Result<(DVector<f64>, Option<Vec<f64>>), FitError> {
+    loop {
+        let prob = TumbleProblem {
+            samples_nt,
+            temp_dev_c: tdev,
+            weights: Some(weights),
+            reference_nt: r,
+        };
+        let out = solve(prob, p.clone(), opts.max_iterations.max(1))?;
+        st.iterations += out.iterations;
+        if out.termination != LmTermination::Converged {
+            st.solver_problems.push(out.termination.clone());
+        }
+        p = out.param;
+        if opts.robust == Robust::Off || st.rounds >= MAX_ROUNDS {
+            return Ok((p, None));
+        }
+        st.rounds += 1;
+        let res = out.problem.residuals(&p);
+        st.sigma = robust_sigma(&res);
+        // Noise below 1e-9 of the field (noise-free data): nothing to reweight.
+        if !(st.sigma > 1e-9 * r) {
+            st.sigma = 0.0;
+            st.converged = true;
+            return Ok((p, Some(res)));
+        }
+        let mut change: f64 = 0.0;
+        for (w, r) in weights.iter_mut().zip(&res) {
+            let nw = tukey_weight(*r / (TUKEY_C * st.sigma));
+            change = change.max((nw - *w).abs());
+            *w = nw;
+        }
+        if change < WEIGHT_TOL {
+            st.converged = true;
+            return Ok((p, Some(res)));
+        }
+    }
+}
+
 struct FinishInfo {
+    /// Residuals at the final parameters, when the last round computed them.
+    residuals_nt: Option<Vec<f64>>,
     robust: Robust,
     iterations: u64,
     rounds: usize,
@@ -243,7 +319,10 @@ fn finish(
         weights: Some(&kept),
         reference_nt: r,
     };
-    let residuals_nt = prob.residuals(&p);
+    let residuals_nt = match info.residuals_nt {
+        Some(r) => r,
+        None => prob.residuals(&p),
+    };
     let ne = prob
         .normal_equations(&p)
         .map_err(|e| FitError::Solver(e.to_string()))?;

@@ -135,16 +135,13 @@ pub(super) fn calibrate_cage(
         notes: Vec::new(),
         warning_kinds: Vec::new(),
         data: CalibrationData {
-            samples_nt: ctx.samples.clone(),
+            // Filled by `run_calibrate` by moving, not copying (1e6-sample logs).
+            samples_nt: Vec::new(),
             corrected_nt: corrected,
             residuals_nt: fit.residuals_nt.iter().map(|r| r.norm()).collect(),
             kept: vec![true; n],
-            lines: ctx.idx.iter().map(|&i| ctx.log.lines[i]).collect(),
-            t_s: ctx
-                .log
-                .t_s
-                .as_ref()
-                .map(|t| ctx.idx.iter().map(|&i| t[i]).collect()),
+            lines: Vec::new(),
+            t_s: None,
         },
     })
 }

@@ -71,77 +71,131 @@ impl TumbleProblem<'_> {
     }
 
     /// Unweighted residual of sample `i`, nT, and (into `jrow`) its Jacobian row.
-    #[inline]
     fn residual_row(
         &self,
         i: usize,
         c: &Vector3<f64>,
         w: &Matrix3<f64>,
         k: &Vector3<f64>,
-        jrow: Option<&mut [f64; MAX_P]>,
+        jrow: &mut [f64; MAX_P],
     ) -> f64 {
-        let tau = self.tau(i);
-        let d = self.samples_nt[i] - c - k * tau;
-        let v = w * d;
-        let n = v.norm();
-        if let Some(j) = jrow {
-            let vh = if n > 0.0 { v / n } else { Vector3::zeros() };
-            let wv = w * vh; // W symmetric: ∂n/∂d = (W v̂)ᵀ
-            for a in 0..3 {
-                j[a] = -wv[a];
-                j[9 + a] = -wv[a] * tau;
-            }
-            for (m, &(a, b)) in SYM_INDEX.iter().enumerate() {
-                j[3 + m] = if a == b {
-                    vh[a] * d[a]
-                } else {
-                    vh[a] * d[b] + vh[b] * d[a]
-                };
-            }
-        }
-        n - self.reference_nt
+        jacobian_row(&self.samples_nt[i], self.tau(i), c, w, k, jrow) - self.reference_nt
     }
 
     /// Unweighted residuals of every sample at `p`, nT.
     pub fn residuals(&self, p: &DVector<f64>) -> Vec<f64> {
         let (c, w, k) = self.unpack(p);
         let n = self.samples_nt.len();
-        let one = |i: usize| self.residual_row(i, &c, &w, &k, None);
+        let mut out = vec![0.0; n];
+        let fill = |lo: usize, dst: &mut [f64]| {
+            let b = &self.samples_nt[lo..lo + dst.len()];
+            match self.temp_dev_c.and_then(|t| t.get(lo..lo + dst.len())) {
+                Some(t) => {
+                    for ((o, bi), &tau) in dst.iter_mut().zip(b).zip(t) {
+                        *o = (w * (bi - c - k * tau)).norm() - self.reference_nt;
+                    }
+                }
+                None => {
+                    for (o, bi) in dst.iter_mut().zip(b) {
+                        *o = (w * (bi - c)).norm() - self.reference_nt;
+                    }
+                }
+            }
+        };
         if n > 4 * CHUNK {
-            (0..n)
-                .into_par_iter()
-                .with_min_len(CHUNK)
-                .map(one)
-                .collect()
+            out.par_chunks_mut(CHUNK)
+                .enumerate()
+                .for_each(|(ch, dst)| fill(ch * CHUNK, dst));
         } else {
-            (0..n).map(one).collect()
+            fill(0, &mut out);
         }
+        out
     }
 
     /// Weighted normal equations accumulated over samples `lo..hi`.
     fn accumulate(&self, p: &DVector<f64>, lo: usize, hi: usize) -> Acc {
         let (c, w, k) = self.unpack(p);
-        let np = self.num_params();
+        if self.num_params() == 12 {
+            self.accumulate_np::<12>(&c, &w, &k, lo, hi)
+        } else {
+            self.accumulate_np::<9>(&c, &w, &k, lo, hi)
+        }
+    }
+
+    /// The accumulation loop with the parameter count known at compile time, so the
+    /// Jacobian row stays in registers and the triangle of JᵀJ is fully unrolled.
+    #[inline(always)]
+    fn accumulate_np<const NP: usize>(
+        &self,
+        c: &Vector3<f64>,
+        w: &Matrix3<f64>,
+        k: &Vector3<f64>,
+        lo: usize,
+        hi: usize,
+    ) -> Acc {
         let mut acc = Acc::default();
+        let mut jtj = [[0.0; NP]; NP];
+        let mut jtr = [0.0; NP];
         let mut j = [0.0; MAX_P];
-        for i in lo..hi {
-            let wt = self.weight(i);
+        let b = &self.samples_nt[lo..hi];
+        let wts = self.weights.and_then(|x| x.get(lo..hi));
+        let taus = self.temp_dev_c.and_then(|x| x.get(lo..hi));
+        for (i, bi) in b.iter().enumerate() {
+            let wt = wts.map_or(1.0, |x| x[i]);
             if wt <= 0.0 {
                 continue;
             }
-            let r = self.residual_row(i, &c, &w, &k, Some(&mut j));
+            let tau = if NP == 12 {
+                taus.map_or(0.0, |x| x[i])
+            } else {
+                0.0
+            };
+            let r = jacobian_row(bi, tau, c, w, k, &mut j) - self.reference_nt;
             acc.sum_sq += wt * r * r;
             acc.count += 1;
-            for a in 0..np {
+            for a in 0..NP {
                 let wja = wt * j[a];
-                acc.jtr[a] += wja * r;
-                for b in a..np {
-                    acc.jtj[a][b] += wja * j[b];
+                jtr[a] += wja * r;
+                for bb in a..NP {
+                    jtj[a][bb] += wja * j[bb];
                 }
             }
         }
+        for a in 0..NP {
+            acc.jtr[a] = jtr[a];
+            acc.jtj[a][..NP].copy_from_slice(&jtj[a]);
+        }
         acc
     }
+}
+
+/// |W d| with d = b − c − k τ (nT), and into `j` its derivatives with respect to the
+/// parameters (c, the six elements of W, k).
+#[inline(always)]
+fn jacobian_row(
+    b: &Vector3<f64>,
+    tau: f64,
+    c: &Vector3<f64>,
+    w: &Matrix3<f64>,
+    k: &Vector3<f64>,
+    j: &mut [f64; MAX_P],
+) -> f64 {
+    let d = b - c - k * tau;
+    let v = w * d;
+    let n = v.norm();
+    let vh = if n > 0.0 { v / n } else { Vector3::zeros() };
+    let wv = w * vh; // W symmetric: ∂n/∂d = (W v̂)ᵀ
+    for a in 0..3 {
+        j[a] = -wv[a];
+        j[9 + a] = -wv[a] * tau;
+    }
+    j[3] = vh[0] * d[0];
+    j[4] = vh[1] * d[1];
+    j[5] = vh[2] * d[2];
+    j[6] = vh[0] * d[1] + vh[1] * d[0];
+    j[7] = vh[0] * d[2] + vh[2] * d[0];
+    j[8] = vh[1] * d[2] + vh[2] * d[1];
+    n
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -180,20 +234,30 @@ impl Acc {
 impl LeastSquaresProblem for TumbleProblem<'_> {
     fn sum_sq(&self, p: &DVector<f64>) -> Result<f64, ArgminError> {
         let (c, w, k) = self.unpack(p);
-        let one = |i: usize| {
-            let wt = self.weight(i);
-            if wt <= 0.0 {
-                0.0
-            } else {
-                let r = self.residual_row(i, &c, &w, &k, None);
-                wt * r * r
+        let part = |lo: usize, hi: usize| -> f64 {
+            let b = &self.samples_nt[lo..hi];
+            let wts = self.weights.and_then(|x| x.get(lo..hi));
+            let taus = self.temp_dev_c.and_then(|x| x.get(lo..hi));
+            let mut s = 0.0;
+            for (i, bi) in b.iter().enumerate() {
+                let wt = wts.map_or(1.0, |x| x[i]);
+                if wt <= 0.0 {
+                    continue;
+                }
+                let tau = taus.map_or(0.0, |x| x[i]);
+                let r = (w * (bi - c - k * tau)).norm() - self.reference_nt;
+                s += wt * r * r;
             }
+            s
         };
         let n = self.samples_nt.len();
         Ok(if n > 4 * CHUNK {
-            (0..n).into_par_iter().with_min_len(CHUNK).map(one).sum()
+            (0..n.div_ceil(CHUNK))
+                .into_par_iter()
+                .map(|ch| part(ch * CHUNK, ((ch + 1) * CHUNK).min(n)))
+                .sum()
         } else {
-            (0..n).map(one).sum()
+            part(0, n)
         })
     }
 
@@ -250,7 +314,7 @@ impl Jacobian for TumbleProblem<'_> {
         let mut jac = DMatrix::zeros(n, np);
         let mut j = [0.0; MAX_P];
         for i in 0..n {
-            self.residual_row(i, &c, &w, &k, Some(&mut j));
+            self.residual_row(i, &c, &w, &k, &mut j);
             let s = self.weight(i).max(0.0).sqrt();
             for a in 0..np {
                 jac[(i, a)] = s * j[a];

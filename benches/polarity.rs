@@ -1,0 +1,52 @@
+//! Benchmark of the torque-rod polarity check (pulse finding, lag estimate and the
+//! per-rod regression) on simulated logs with a fixed seed (`magproof::sim`) at about
+//! 1e4, 1e5 and 1e6 rows, reported as rows per second. The log is read once in setup;
+//! the figure is the check alone.
+//!
+//! Run: `cargo bench --bench polarity`. The check's cost grows faster than N (27 ms at
+//! 1e4 rows, 2.0 s at 1e5 on the development machine; see docs/performance.md), so the
+//! 1e6 case runs only with `MAGPROOF_BENCH_1E6=1` (expect minutes per sample).
+
+use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
+use magproof::check::polarity::{run_polarity, PolarityRequest};
+use magproof::log::plan::read_plan;
+use magproof::log::{read_sweep, ReadOptions};
+use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
+
+fn bench_polarity(c: &mut Criterion) {
+    let dir = std::env::temp_dir().join(format!("magproof-bench-polarity-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let mut g = c.benchmark_group("polarity_check");
+    g.sample_size(10);
+    let mut sizes = vec![10_000usize, 100_000];
+    if std::env::var_os("MAGPROOF_BENCH_1E6").is_some() {
+        sizes.push(1_000_000);
+    }
+    for n in sizes {
+        let base = PolarityConfig::default();
+        // Rows per cycle: rods × (+, −) × (pulse + gap) × rate.
+        let per_cycle =
+            base.rods.len() as f64 * 2.0 * (base.pulse_s + base.gap_s) * base.sample_rate_hz;
+        let cfg = PolarityConfig {
+            cycles: ((n as f64 / per_cycle).round() as usize).max(1),
+            ..base
+        };
+        let sim = simulate_polarity(&cfg, 42).expect("simulation");
+        let [csv, plan, _] = sim.write(&dir, &format!("pol{n}")).expect("write");
+        let log = read_sweep(&csv, &ReadOptions::default()).expect("log");
+        let plan = read_plan(&plan).expect("plan");
+        g.throughput(Throughput::Elements(log.len() as u64));
+        g.bench_with_input(
+            BenchmarkId::new("check", n),
+            &(log, plan),
+            |b, (log, plan)| {
+                b.iter(|| run_polarity(&PolarityRequest::new(log, plan)).expect("check"))
+            },
+        );
+    }
+    g.finish();
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+criterion_group!(benches, bench_polarity);
+criterion_main!(benches);
