@@ -48,6 +48,8 @@ pub struct Args {
     input: InputArgs,
     #[command(flatten)]
     output: OutputArgs,
+    #[command(flatten)]
+    record: super::record::RecordArgs,
 }
 
 /// Run `calibrate`.
@@ -79,6 +81,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         },
     };
     let result = run_calibrate(&req)?;
+    super::record::record_if_asked(
+        &args.record,
+        req.plan.as_ref(),
+        magproof::log::plan::StepKind::Calibrate,
+        &args.log,
+        &result,
+    )?;
     if let Some(p) = &args.params_out {
         write_flight_params(&result, p, args.output.force)
             .with_context(|| format!("writing flight parameters to {}", p.display()))?;

@@ -38,6 +38,8 @@ pub struct Args {
     input: InputArgs,
     #[command(flatten)]
     output: OutputArgs,
+    #[command(flatten)]
+    record: super::record::RecordArgs,
 }
 
 /// Run `dipole`.
@@ -63,6 +65,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     };
     let log = read_log(&args.log, &req.read_options).map_err(magproof::Error::from)?;
     let result = evaluate_dipole(&log, &req)?;
+    super::record::record_if_asked(
+        &args.record,
+        Some(&req.plan),
+        magproof::log::plan::StepKind::Dipole,
+        &args.log,
+        &result,
+    )?;
     drop(log);
     if let Some(dir) = &args.output.report {
         write_section_report(

@@ -29,6 +29,8 @@ pub struct Args {
     input: InputArgs,
     #[command(flatten)]
     output: OutputArgs,
+    #[command(flatten)]
+    record: super::record::RecordArgs,
     /// Write the coupling matrix (nT per command, sensor frame) for flight software:
     /// a C header if FILE ends in .h, else JSON.
     #[arg(long, value_name = "FILE")]
@@ -123,6 +125,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             log.skipped_rows[0].reason
         ));
     }
+    super::record::record_if_asked(
+        &args.record,
+        Some(&plan),
+        magproof::log::plan::StepKind::Polarity,
+        &args.log,
+        &result,
+    )?;
     if let Some(path) = &args.params_out {
         write_polarity_params(&result, path, args.output.force)
             .with_context(|| format!("writing {}", path.display()))?;

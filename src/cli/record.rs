@@ -12,7 +12,6 @@ use magproof::log::plan::StepKind;
 use magproof::log::Plan;
 
 /// `--record [--ledger PATH]`, to flatten into a check's flags.
-#[allow(dead_code)] // used by the single checks once they take --record
 #[derive(Debug, Clone, Args)]
 pub struct RecordArgs {
     /// Also record this run in the ledger, under the plan's [article] serial and build.
@@ -25,7 +24,6 @@ pub struct RecordArgs {
 /// If `--record` was given, record `result` (the check's §7 object) with the log and
 /// the plan as inputs, and say on stderr what happened. Without a plan, or with a plan
 /// lacking `[article]`, refuse with a usage error (exit 2) naming what is missing.
-#[allow(dead_code)] // used by the single checks once they take --record
 pub fn record_if_asked(
     args: &RecordArgs,
     plan: Option<&Plan>,

@@ -199,3 +199,48 @@ fn closeout_report_has_one_section_per_step_and_refuses_an_existing_folder() {
     assert_eq!(again.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
 }
+
+#[test]
+fn single_checks_record_only_when_asked() {
+    let dir = TestDir::new();
+    let plan = scenario(&dir, "B1", false, 7);
+    let ledger = dir.join("single.db");
+    let run = |extra: &[&str]| {
+        dir.magproof()
+            .args(["polarity", "--json", "--plan"])
+            .arg(&plan)
+            .arg(dir.join("B1/pulses.csv"))
+            .args(extra)
+            .arg("--ledger")
+            .arg(&ledger)
+            .output()
+            .unwrap()
+    };
+    let out = run(&[]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(!ledger.exists(), "no --record, no ledger (DESIGN §6)");
+    let out = run(&["--record"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // stdout stays one JSON object; the note goes to stderr.
+    let _: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert!(String::from_utf8_lossy(&out.stderr).contains("recorded as run"));
+    let hist = dir
+        .magproof()
+        .args(["history", "--json", "--ledger"])
+        .arg(&ledger)
+        .output()
+        .unwrap();
+    let h: serde_json::Value = serde_json::from_slice(&hist.stdout).unwrap();
+    assert_eq!(h["runs"].as_array().unwrap().len(), 1);
+    assert_eq!(h["runs"][0]["kind"], "polarity");
+}
