@@ -28,7 +28,7 @@ use crate::fit::coverage::{axis_name, direction_spread};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
 use crate::log::saturation::screen_log;
-use crate::log::{read_sweep, Plan, ReadOptions, SweepLog};
+use crate::log::{read_sweep_with_progress, Plan, ReadOptions, SweepLog};
 use crate::Error;
 
 /// Temperature span above which a bias slope is fitted, °C.
@@ -203,6 +203,15 @@ pub struct CalibrationResult {
 
 /// Run a calibration: read the log, choose the fit, compute the result and verdict.
 pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error> {
+    run_calibrate_with_progress(req, &mut |_| {})
+}
+
+/// As [`run_calibrate`], calling `progress(bytes_read)` while the log is read (for a
+/// progress bar on large logs).
+pub fn run_calibrate_with_progress(
+    req: &CalibrateRequest,
+    progress: &mut dyn FnMut(u64),
+) -> Result<CalibrationResult, Error> {
     if let Some(r) = req.reference_nt {
         if !(r.is_finite() && r > 0.0) {
             return Err(Error::Usage(format!(
@@ -210,7 +219,7 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
             )));
         }
     }
-    let mut log = read_sweep(&req.log, &req.read)?;
+    let mut log = read_sweep_with_progress(&req.log, &req.read, progress)?;
     let b = log.require_field("a calibration needs the measured field")?;
     crate::log::plausible::check_field_scale(&log)?;
     let range_nt = req.range_nt.or_else(|| {

@@ -9,7 +9,8 @@ use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
 use magproof::check::calibrate::{
-    run_calibrate, CalibrateRequest, CalibrationResult, Method, ReferenceSource,
+    run_calibrate, run_calibrate_with_progress, CalibrateRequest, CalibrationResult, Method,
+    ReferenceSource,
 };
 use magproof::fit::tumble::Robust;
 use magproof::log::{read_plan, ReadOptions};
@@ -80,7 +81,14 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             RobustArg::None => Robust::Off,
         },
     };
-    let result = run_calibrate(&req)?;
+    let result = match super::report_out::progress_bar(&args.log) {
+        None => run_calibrate(&req)?,
+        Some(bar) => {
+            let r = run_calibrate_with_progress(&req, &mut |b| bar.set_position(b));
+            bar.finish_and_clear();
+            r?
+        }
+    };
     super::record::record_if_asked(
         &args.record,
         req.plan.as_ref(),
@@ -119,7 +127,9 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
 }
 
 fn fmt_w(v: f64, s: f64) -> String {
-    format!("{v:+.5} ±{s:.5}")
+    // Five or six decimals: six when the 1σ needs them to show; the line stays ≤ 80 columns.
+    let d = magproof::report::terminal::decimals_for(s).clamp(5, 6);
+    format!("{v:+.d$} ±{s:.d$}")
 }
 
 /// The terminal summary (each line ≤ 80 columns).
@@ -182,8 +192,8 @@ pub(crate) fn render(r: &CalibrationResult) -> String {
         _ => String::new(),
     };
     o += &format!(
-        "  residual     {:.1} ± {:.1} nT RMS{verdict}\n",
-        r.residual_rms_nt, rms_sd
+        "  residual     {}{verdict}\n",
+        magproof::report::terminal::value_sigma(r.residual_rms_nt, rms_sd, "nT RMS")
     );
     o += &format!(
         "  coverage     {:.2} of the sphere (48 equal-area cells)\n",

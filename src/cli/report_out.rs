@@ -60,12 +60,12 @@ pub fn write_run_report(
     Ok(write_report_dir(dir, force, &report, result)?)
 }
 
-/// Read a sweep log; a log over [`PROGRESS_MIN_BYTES`] shows a progress bar on stderr
-/// when stderr is a terminal (never otherwise).
-pub fn read_log(path: &Path, options: &ReadOptions) -> Result<SweepLog, LogError> {
+/// A progress bar on stderr for reading `path`, when the file is larger than
+/// [`PROGRESS_MIN_BYTES`] and stderr is a terminal; `None` otherwise.
+pub fn progress_bar(path: &Path) -> Option<indicatif::ProgressBar> {
     let size = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
     if size <= PROGRESS_MIN_BYTES || !std::io::stderr().is_terminal() {
-        return read_sweep_with_progress(path, options, &mut |_| {});
+        return None;
     }
     let bar = indicatif::ProgressBar::with_draw_target(
         Some(size),
@@ -81,7 +81,18 @@ pub fn read_log(path: &Path, options: &ReadOptions) -> Result<SweepLog, LogError
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_default(),
     );
-    let out = read_sweep_with_progress(path, options, &mut |bytes| bar.set_position(bytes));
-    bar.finish_and_clear();
-    out
+    Some(bar)
+}
+
+/// Read a sweep log; a log over [`PROGRESS_MIN_BYTES`] shows a progress bar on stderr
+/// when stderr is a terminal (never otherwise).
+pub fn read_log(path: &Path, options: &ReadOptions) -> Result<SweepLog, LogError> {
+    match progress_bar(path) {
+        None => read_sweep_with_progress(path, options, &mut |_| {}),
+        Some(bar) => {
+            let out = read_sweep_with_progress(path, options, &mut |b| bar.set_position(b));
+            bar.finish_and_clear();
+            out
+        }
+    }
 }
