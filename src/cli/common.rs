@@ -97,3 +97,19 @@ impl LedgerArgs {
         }
     }
 }
+
+/// Refuse an existing non-empty output folder without `--force`; create it otherwise
+/// (`demo --out`, `simulate --out`).
+pub fn prepare_out(dir: &std::path::Path, force: bool) -> Result<(), magproof::Error> {
+    use magproof::Error;
+    if dir.exists() {
+        let mut entries = std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))?;
+        if entries.next().is_some() && !force {
+            return Err(Error::Usage(format!(
+                "{} exists and is not empty; choose another --out or add --force",
+                dir.display()
+            )));
+        }
+    }
+    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))
+}

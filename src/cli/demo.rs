@@ -61,20 +61,6 @@ fn default_out() -> Result<PathBuf, Error> {
     Ok(PathBuf::from(format!("magproof-demo-{stamp}")))
 }
 
-/// Refuse an existing non-empty folder without `--force`; create it otherwise.
-fn prepare_out(dir: &Path, force: bool) -> Result<(), Error> {
-    if dir.exists() {
-        let mut entries = std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))?;
-        if entries.next().is_some() && !force {
-            return Err(Error::Usage(format!(
-                "{} exists and is not empty; choose another --out or add --force",
-                dir.display()
-            )));
-        }
-    }
-    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))
-}
-
 fn write_samples(root: &Path) -> Result<(), Error> {
     for (rel, text) in SAMPLE_FILES {
         let path = root.join(rel);
@@ -148,7 +134,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         Some(d) => d,
         None => default_out()?,
     };
-    prepare_out(&out, args.force)?;
+    super::common::prepare_out(&out, args.force)?;
     // Closeout is given absolute plan paths so log paths resolve the same from anywhere.
     let out = out.canonicalize().map_err(|e| Error::io(&out, e))?;
     let samples = out.join("sample-logs");

@@ -3,7 +3,7 @@
 //! in `magproof::sim`, so that a check can be rehearsed and its answer compared with the
 //! truth. Files are written atomically; an existing non-empty DIR needs `--force`.
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use clap::{Args as ClapArgs, ValueEnum};
 use nalgebra::{Matrix3, Vector3};
@@ -149,20 +149,6 @@ impl Args {
         self.soft_iron
             .or(self.soft_iron_scale.map(|s| Matrix3::identity() * s))
     }
-}
-
-/// Refuse an existing non-empty folder without `--force`; create it otherwise.
-fn prepare_out(dir: &Path, force: bool) -> Result<(), Error> {
-    if dir.exists() {
-        let mut entries = std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))?;
-        if entries.next().is_some() && !force {
-            return Err(Error::Usage(format!(
-                "{} exists and is not empty; choose another --out or add --force",
-                dir.display()
-            )));
-        }
-    }
-    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))
 }
 
 #[derive(Serialize)]
@@ -351,7 +337,7 @@ mod erased {
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
     // Simulate first: a bad option must not leave an empty folder behind.
     let files = simulate(&args)?;
-    prepare_out(&args.out, args.force)?;
+    super::common::prepare_out(&args.out, args.force)?;
     for (name, text) in &files {
         let path = args.out.join(name);
         write_atomic(&path, text.as_bytes(), true)?;
