@@ -109,7 +109,7 @@ fn format_pm(value: f64, sigma: f64, signed: bool) -> String {
         return format!("{value} ± {sigma}");
     }
     if (1e-3..1e5).contains(&big) {
-        let dec = decimals(sigma);
+        let dec = magproof::report::terminal::decimals_for(sigma);
         return if signed {
             format!("{value:+.dec$} ± {sigma:.dec$}")
         } else {
@@ -118,20 +118,12 @@ fn format_pm(value: f64, sigma: f64, signed: bool) -> String {
     }
     let exp = big.log10().floor() as i32;
     let scale = 10f64.powi(exp);
-    let dec = decimals(sigma / scale);
+    let dec = magproof::report::terminal::decimals_for(sigma / scale);
     let (v, sg) = (value / scale, sigma / scale);
     if signed {
         format!("({v:+.dec$} ± {sg:.dec$})e{exp}")
     } else {
         format!("({v:.dec$} ± {sg:.dec$})e{exp}")
-    }
-}
-
-fn decimals(sigma: f64) -> usize {
-    if sigma > 0.0 && sigma.is_finite() {
-        (1 - sigma.log10().floor() as i32).clamp(0, 8) as usize
-    } else {
-        3
     }
 }
 
