@@ -20,11 +20,12 @@ mod warnings;
 use std::path::PathBuf;
 
 use nalgebra::{Matrix3, Vector3};
+use rayon::prelude::*;
 use serde::Serialize;
 
 pub use warnings::CalibrationWarning;
 
-use crate::fit::coverage::{axis_name, direction_spread};
+use crate::fit::coverage::{axis_name, direction_spread_of_kept};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
 use crate::log::saturation::screen_log;
@@ -231,9 +232,7 @@ pub fn run_calibrate_with_progress(
     let mut notes = Vec::new();
     // Usable rows: drop saturated readings (beyond the range, or piled up on a rail).
     let sat = screen_log(&log, range_nt)?;
-    let idx: Vec<usize> = (0..log.len())
-        .filter(|&i| !sat.flagged.get(i).copied().unwrap_or(false))
-        .collect();
+    let idx = UsedRows::new(log.len(), &sat.flagged);
     let saturated = log.len() - idx.len();
     for (a, detail) in sat.axes.iter().zip(sat.warnings()) {
         warnings.push(CalibrationWarning::Saturated {
@@ -246,14 +245,18 @@ pub fn run_calibrate_with_progress(
             count: log.skipped_rows.len(),
         });
     }
-    let samples: Vec<Vector3<f64>> = idx
-        .iter()
-        .map(|&i| Vector3::new(b[0][i], b[1][i], b[2][i]))
+    let samples: Vec<Vector3<f64>> = (0..idx.len())
+        .into_par_iter()
+        .with_min_len(PAR_MIN_LEN)
+        .map(|j| {
+            let i = idx.row(j);
+            Vector3::new(b[0][i], b[1][i], b[2][i])
+        })
         .collect();
     // The field columns now live in `samples`; free them before the fit.
     log.b_nt = None;
     let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
-        let v: Vec<f64> = idx.iter().map(|&i| t[i]).collect();
+        let v: Vec<f64> = idx.iter().map(|i| t[i]).collect();
         let (lo, hi) = v
             .iter()
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &x| {
@@ -299,20 +302,64 @@ pub fn run_calibrate_with_progress(
     res.data.lines = if all_rows {
         std::mem::take(&mut log.lines)
     } else {
-        idx.iter().map(|&i| log.lines[i]).collect()
+        idx.iter().map(|i| log.lines[i]).collect()
     };
     res.data.t_s = match log.t_s.take() {
         Some(t) if all_rows => Some(t),
-        Some(t) => Some(idx.iter().map(|&i| t[i]).collect()),
+        Some(t) => Some(idx.iter().map(|i| t[i]).collect()),
         None => None,
     };
     Ok(res)
 }
 
+/// The log rows a fit uses: every row, or the rows left after dropping flagged ones
+/// (kept as a list only then, so a clean million-row log costs no index vector).
+enum UsedRows {
+    All(usize),
+    Listed(Vec<usize>),
+}
+
+impl UsedRows {
+    fn new(rows: usize, flagged: &[bool]) -> Self {
+        if flagged.iter().any(|&f| f) {
+            UsedRows::Listed(
+                (0..rows)
+                    .filter(|&i| !flagged.get(i).copied().unwrap_or(false))
+                    .collect(),
+            )
+        } else {
+            UsedRows::All(rows)
+        }
+    }
+
+    fn len(&self) -> usize {
+        match self {
+            UsedRows::All(n) => *n,
+            UsedRows::Listed(v) => v.len(),
+        }
+    }
+
+    /// Log row of the `i`-th used sample.
+    fn row(&self, i: usize) -> usize {
+        match self {
+            UsedRows::All(_) => i,
+            UsedRows::Listed(v) => v[i],
+        }
+    }
+
+    /// Log rows in order.
+    fn iter(&self) -> impl Iterator<Item = usize> + '_ {
+        (0..self.len()).map(|i| self.row(i))
+    }
+}
+
+/// Per-sample work on logs longer than this many samples a task is split over threads.
+const PAR_MIN_LEN: usize = 16_384;
+
 struct Ctx<'a> {
     req: &'a CalibrateRequest,
     log: &'a SweepLog,
-    idx: &'a [usize],
+    idx: &'a UsedRows,
     samples: Vec<Vector3<f64>>,
     temp: Option<(&'a [f64], f64)>,
     saturated: usize,
@@ -409,7 +456,8 @@ fn calibrate_tumble(
         .unwrap_or(0.0);
     let corrected: Vec<Vector3<f64>> = ctx
         .samples
-        .iter()
+        .par_iter()
+        .with_min_len(PAR_MIN_LEN)
         .enumerate()
         .map(|(i, b)| {
             let tau = ctx.temp.map(|(t, _)| t[i] - tmean).unwrap_or(0.0);
@@ -417,14 +465,8 @@ fn calibrate_tumble(
         })
         .collect();
     let kept: Vec<bool> = fit.weights.iter().map(|&x| x > 0.0).collect();
-    let spread = direction_spread(
-        corrected
-            .iter()
-            .zip(&kept)
-            .filter(|(_, k)| **k)
-            .map(|(v, _)| v),
-    )
-    .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
+    let spread = direction_spread_of_kept(&corrected, &kept)
+        .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
     if spread.coverage < LOW_COVERAGE {
         warnings.push(CalibrationWarning::LowCoverage {
             coverage: spread.coverage,

@@ -16,6 +16,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::needless_range_loop)]
 
 use nalgebra::{Matrix3, SymmetricEigen, Vector3};
+use rayon::prelude::*;
 
 /// Number of latitude bands (equal height in z).
 pub const BANDS: usize = 6;
@@ -35,13 +36,102 @@ pub struct DirectionSpread {
     pub mean_direction_length: f64,
 }
 
-/// Cell index of a unit vector (0..48).
+/// Cell index of a unit vector (0..48): band from z, sector from the longitude
+/// φ = atan2(y, x), sector k covering φ + π in [k·45°, (k+1)·45°).
 fn cell(u: &Vector3<f64>) -> usize {
     let z = u.z.clamp(-1.0, 1.0);
     let band = (((z + 1.0) * 0.5 * BANDS as f64) as usize).min(BANDS - 1);
-    let phi = u.y.atan2(u.x) + std::f64::consts::PI; // 0..2π
-    let sector = ((phi / std::f64::consts::TAU * SECTORS as f64) as usize).min(SECTORS - 1);
-    band * SECTORS + sector
+    band * SECTORS + sector(u.x, u.y)
+}
+
+/// Longitude sector 0..8 of (x, y) by comparisons alone (no `atan2`; this runs once per
+/// sample of a million-sample log): the signs of x and y give the quadrant and |x|
+/// against |y| the half of it. Equal to the `atan2` definition except exactly on a
+/// sector boundary, where either neighbour is a fair answer.
+fn sector(x: f64, y: f64) -> usize {
+    let (ax, ay) = (x.abs(), y.abs());
+    if y < 0.0 {
+        if x < 0.0 {
+            if ay < ax {
+                0
+            } else {
+                1
+            }
+        } else if ay > ax {
+            2
+        } else {
+            3
+        }
+    } else if x > 0.0 {
+        if y < x {
+            4
+        } else {
+            5
+        }
+    } else if y > ax {
+        6
+    } else {
+        7
+    }
+}
+
+/// Running sums of [`direction_spread`]; two of them merge by adding.
+#[derive(Clone, Copy)]
+struct SpreadSums {
+    hit: [bool; BANDS * SECTORS],
+    scatter: Matrix3<f64>,
+    mean: Vector3<f64>,
+    n: usize,
+}
+
+impl SpreadSums {
+    fn new() -> Self {
+        SpreadSums {
+            hit: [false; BANDS * SECTORS],
+            scatter: Matrix3::zeros(),
+            mean: Vector3::zeros(),
+            n: 0,
+        }
+    }
+
+    #[inline]
+    fn add(&mut self, v: &Vector3<f64>) {
+        let norm = v.norm();
+        if !(norm.is_finite() && norm > 0.0) {
+            return;
+        }
+        let u = v / norm;
+        self.hit[cell(&u)] = true;
+        self.scatter += u * u.transpose();
+        self.mean += u;
+        self.n += 1;
+    }
+
+    fn merge(mut self, o: SpreadSums) -> SpreadSums {
+        for (h, oh) in self.hit.iter_mut().zip(o.hit) {
+            *h |= oh;
+        }
+        self.scatter += o.scatter;
+        self.mean += o.mean;
+        self.n += o.n;
+        self
+    }
+
+    fn finish(self) -> Option<DirectionSpread> {
+        if self.n == 0 {
+            return None;
+        }
+        let n = self.n as f64;
+        let eig = SymmetricEigen::new(self.scatter / n);
+        let mut idx = [0usize, 1, 2];
+        idx.sort_by(|&a, &b| eig.eigenvalues[a].total_cmp(&eig.eigenvalues[b]));
+        Some(DirectionSpread {
+            coverage: self.hit.iter().filter(|h| **h).count() as f64 / self.hit.len() as f64,
+            scatter_eigenvalues: idx.map(|i| eig.eigenvalues[i]),
+            weakest_direction: eig.eigenvectors.column(idx[0]).into_owned(),
+            mean_direction_length: (self.mean / n).norm(),
+        })
+    }
 }
 
 /// Spread of the directions of `vectors` (zero or non-finite vectors are skipped).
@@ -49,34 +139,42 @@ fn cell(u: &Vector3<f64>) -> usize {
 pub fn direction_spread<'a>(
     vectors: impl IntoIterator<Item = &'a Vector3<f64>>,
 ) -> Option<DirectionSpread> {
-    let mut hit = [false; BANDS * SECTORS];
-    let mut m = Matrix3::zeros();
-    let mut mean = Vector3::zeros();
-    let mut n = 0usize;
+    let mut sums = SpreadSums::new();
     for v in vectors {
-        let norm = v.norm();
-        if !(norm.is_finite() && norm > 0.0) {
-            continue;
+        sums.add(v);
+    }
+    sums.finish()
+}
+
+/// [`direction_spread`] of the `vectors[i]` with `keep[i]` true (pairs beyond the
+/// shorter slice are ignored), in parallel chunks for long logs. Equal to the serial
+/// form up to the order of the sums.
+pub fn direction_spread_of_kept(
+    vectors: &[Vector3<f64>],
+    keep: &[bool],
+) -> Option<DirectionSpread> {
+    const CHUNK: usize = 16_384;
+    let n = vectors.len().min(keep.len());
+    let part = |lo: usize, hi: usize| {
+        let mut sums = SpreadSums::new();
+        for (v, _) in vectors[lo..hi]
+            .iter()
+            .zip(&keep[lo..hi])
+            .filter(|(_, k)| **k)
+        {
+            sums.add(v);
         }
-        let u = v / norm;
-        hit[cell(&u)] = true;
-        m += u * u.transpose();
-        mean += u;
-        n += 1;
-    }
-    if n == 0 {
-        return None;
-    }
-    m /= n as f64;
-    let eig = SymmetricEigen::new(m);
-    let mut idx = [0usize, 1, 2];
-    idx.sort_by(|&a, &b| eig.eigenvalues[a].total_cmp(&eig.eigenvalues[b]));
-    Some(DirectionSpread {
-        coverage: hit.iter().filter(|h| **h).count() as f64 / hit.len() as f64,
-        scatter_eigenvalues: idx.map(|i| eig.eigenvalues[i]),
-        weakest_direction: eig.eigenvectors.column(idx[0]).into_owned(),
-        mean_direction_length: (mean / n as f64).norm(),
-    })
+        sums
+    };
+    let sums = if n > 4 * CHUNK {
+        (0..n.div_ceil(CHUNK))
+            .into_par_iter()
+            .map(|ch| part(ch * CHUNK, ((ch + 1) * CHUNK).min(n)))
+            .reduce(SpreadSums::new, SpreadSums::merge)
+    } else {
+        part(0, n)
+    };
+    sums.finish()
 }
 
 /// Name the axis a direction lies closest to, e.g. `"z"` or `"x/y diagonal"`.
@@ -120,6 +218,64 @@ mod tests {
         let upper: Vec<_> = all.into_iter().filter(|u| u.z > 0.0).collect();
         let h = direction_spread(&upper).unwrap();
         assert_relative_eq!(h.coverage, 0.5);
+    }
+
+    /// The sector by its definition, through `atan2` (the reference for [`sector`]).
+    fn sector_by_atan2(x: f64, y: f64) -> usize {
+        let phi = y.atan2(x) + std::f64::consts::PI;
+        ((phi / std::f64::consts::TAU * SECTORS as f64) as usize).min(SECTORS - 1)
+    }
+
+    #[test]
+    fn sector_by_comparison_equals_the_atan2_definition() {
+        // A fixed-seed grid of directions, plus the axes; boundary rays (|x| = |y| or a
+        // zero coordinate) are checked only where atan2 is exact.
+        let mut checked = 0;
+        for i in 0..20_000 {
+            let a = (i as f64) * 0.000_314_159 * 1.000_1 - std::f64::consts::PI;
+            let (x, y) = (
+                a.cos() * (1.0 + (i % 7) as f64),
+                a.sin() * (1.0 + (i % 7) as f64),
+            );
+            let off_boundary = (x.abs() - y.abs()).abs() > 1e-9 && x.abs() > 1e-9 && y.abs() > 1e-9;
+            if off_boundary {
+                assert_eq!(sector(x, y), sector_by_atan2(x, y), "({x}, {y})");
+                checked += 1;
+            }
+        }
+        assert!(checked > 19_000);
+        for (x, y) in [
+            (1.0, 0.0),
+            (0.0, 1.0),
+            (-1.0, 0.5),
+            (0.0, -1.0),
+            (0.3, -0.1),
+        ] {
+            assert_eq!(sector(x, y), sector_by_atan2(x, y), "({x}, {y})");
+        }
+    }
+
+    #[test]
+    fn parallel_spread_of_kept_equals_the_serial_form() {
+        // Long enough to be split over threads; every third vector dropped.
+        let all = spiral(100_000);
+        let keep: Vec<bool> = (0..all.len()).map(|i| i % 3 != 0).collect();
+        let serial =
+            direction_spread(all.iter().zip(&keep).filter(|(_, k)| **k).map(|(v, _)| v)).unwrap();
+        let par = direction_spread_of_kept(&all, &keep).unwrap();
+        assert_relative_eq!(par.coverage, serial.coverage);
+        assert_relative_eq!(
+            par.mean_direction_length,
+            serial.mean_direction_length,
+            epsilon = 1e-12
+        );
+        for k in 0..3 {
+            assert_relative_eq!(
+                par.scatter_eigenvalues[k],
+                serial.scatter_eigenvalues[k],
+                epsilon = 1e-12
+            );
+        }
     }
 
     #[test]

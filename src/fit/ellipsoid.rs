@@ -17,8 +17,12 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::needless_range_loop)]
 
 use nalgebra::{Matrix3, Matrix6, SMatrix, Vector3, Vector4, Vector6};
+use rayon::prelude::*;
 
 use super::FitError;
+
+/// Samples per parallel chunk of the scatter pass.
+const CHUNK: usize = 16_384;
 
 /// Result of the algebraic fit: the ellipsoid `|shape · (b − centre_nt)| = 1`.
 #[derive(Debug, Clone)]
@@ -35,20 +39,8 @@ type Matrix10 = SMatrix<f64, 10, 10>;
 /// Degree in x, y, z of each column of D (for undoing the scaling).
 const DEGREE: [i32; 10] = [2, 2, 2, 2, 2, 2, 1, 1, 1, 0];
 
-/// Fit an ellipsoid to `samples_nt` (Li & Griffiths 2004).
-///
-/// Returns [`FitError::Degenerate`] when the samples do not define an ellipsoid
-/// (too few, singular scatter matrix, or the fitted quadric is not an ellipsoid).
-pub fn fit_ellipsoid(samples_nt: &[Vector3<f64>]) -> Result<EllipsoidFit, FitError> {
-    let n = samples_nt.len();
-    if n < 10 {
-        return Err(FitError::Degenerate(format!(
-            "an ellipsoid needs at least 10 samples, found {n}"
-        )));
-    }
-    // Pass 1: mean.
-    let mean = samples_nt.iter().fold(Vector3::zeros(), |a, b| a + b) / n as f64;
-    // Pass 2: scatter matrix of the centred (unscaled) design rows, upper triangle.
+/// Upper triangle of DᵀD for the rows of `samples_nt` centred on `mean`, and Σ|b − mean|².
+fn scatter(samples_nt: &[Vector3<f64>], mean: &Vector3<f64>) -> (Matrix10, f64) {
     let mut s = Matrix10::zeros();
     let mut sum_sq = 0.0;
     for b in samples_nt {
@@ -73,6 +65,32 @@ pub fn fit_ellipsoid(samples_nt: &[Vector3<f64>]) -> Result<EllipsoidFit, FitErr
             }
         }
     }
+    (s, sum_sq)
+}
+
+/// Fit an ellipsoid to `samples_nt` (Li & Griffiths 2004).
+///
+/// Returns [`FitError::Degenerate`] when the samples do not define an ellipsoid
+/// (too few, singular scatter matrix, or the fitted quadric is not an ellipsoid).
+pub fn fit_ellipsoid(samples_nt: &[Vector3<f64>]) -> Result<EllipsoidFit, FitError> {
+    let n = samples_nt.len();
+    if n < 10 {
+        return Err(FitError::Degenerate(format!(
+            "an ellipsoid needs at least 10 samples, found {n}"
+        )));
+    }
+    // Pass 1: mean.
+    let mean = samples_nt.iter().fold(Vector3::zeros(), |a, b| a + b) / n as f64;
+    // Pass 2: scatter matrix of the centred (unscaled) design rows, upper triangle; in
+    // parallel chunks for long logs (exact up to the order of the sums).
+    let (mut s, sum_sq) = if n > 4 * CHUNK {
+        samples_nt
+            .par_chunks(CHUNK)
+            .map(|ch| scatter(ch, &mean))
+            .reduce(|| (Matrix10::zeros(), 0.0), |a, b| (a.0 + b.0, a.1 + b.1))
+    } else {
+        scatter(samples_nt, &mean)
+    };
     let scale = (sum_sq / n as f64).sqrt();
     if !(scale.is_finite() && scale > 0.0) {
         return Err(FitError::Degenerate(

@@ -34,6 +34,7 @@ use super::lm::{solve, LeastSquaresProblem, LmTermination};
 pub use super::robust::{robust_sigma, tukey_weight};
 use super::FitError;
 
+mod large;
 mod problem;
 pub use problem::{sym_from_params, TumbleProblem};
 
@@ -163,12 +164,14 @@ pub fn fit_tumble(
         rounds: 0,
         converged: opts.robust == Robust::Off,
         sigma: 0.0,
+        weight_tol: WEIGHT_TOL,
     };
     let mut weights = vec![1.0; n];
     if opts.robust == Robust::Tukey && n >= SEED_MIN_SAMPLES {
         // Large log: run the reweighting on an evenly decimated subsample first, then
-        // start the full-data rounds from its parameters and weights; the full rounds
-        // reach the same fixed point in one or two solves instead of many.
+        // reach the same fixed point on all samples with one-pass Newton iterations
+        // (`large`), or, if those do not settle, with the damped rounds started from
+        // the subsample's parameters and weights.
         let stride = n / SEED_SAMPLES;
         let sub: Vec<Vector3<f64>> = samples_nt.iter().step_by(stride).copied().collect();
         let sub_t: Option<Vec<f64>> = tdev
@@ -180,11 +183,38 @@ pub fn fit_tumble(
             rounds: 0,
             converged: false,
             sigma: 0.0,
+            weight_tol: WEIGHT_TOL,
         };
         let mut sub_w = vec![1.0; sub.len()];
         p = irls(&sub, sub_t.as_deref(), r, p, &mut sub_w, opts, &mut seed)?.0;
         st.iterations += seed.iterations;
         if seed.sigma > 0.0 {
+            if let Some(s) = large::reweighted_gauss_newton(
+                samples_nt,
+                tdev.as_deref(),
+                r,
+                p.clone(),
+                seed.sigma,
+            ) {
+                return finish(
+                    samples_nt,
+                    tdev.as_deref(),
+                    r,
+                    s.p,
+                    s.weights,
+                    s.sigma_nt,
+                    FinishInfo {
+                        robust: opts.robust,
+                        iterations: st.iterations + s.passes as u64,
+                        rounds: s.passes,
+                        irls_converged: true,
+                        solver_problems: st.solver_problems,
+                        residuals_nt: Some(s.residuals_nt),
+                        jtj_kept: Some(s.jtj_kept),
+                    },
+                );
+            }
+            // The one-pass iterations did not settle: the damped rounds, from the seed.
             let prob = TumbleProblem {
                 samples_nt,
                 temp_dev_c: tdev.as_deref(),
@@ -223,6 +253,7 @@ pub fn fit_tumble(
             irls_converged: st.converged,
             solver_problems: st.solver_problems,
             residuals_nt: res,
+            jtj_kept: None,
         },
     )
 }
@@ -239,6 +270,8 @@ struct Irls {
     rounds: usize,
     converged: bool,
     sigma: f64,
+    /// Stop when no weight changes by more than this between rounds.
+    weight_tol: f64,
 }
 
 /// Solve, reweight, repeat until the weights settle. Returns the parameters and, when
@@ -283,7 +316,7 @@ fn irls(
             change = change.max((nw - *w).abs());
             *w = nw;
         }
-        if change < WEIGHT_TOL {
+        if change < st.weight_tol {
             st.converged = true;
             return Ok((p, Some(res)));
         }
@@ -293,6 +326,8 @@ fn irls(
 struct FinishInfo {
     /// Residuals at the final parameters, when the last round computed them.
     residuals_nt: Option<Vec<f64>>,
+    /// Unweighted JᵀJ of the kept samples at the final parameters, when computed.
+    jtj_kept: Option<DMatrix<f64>>,
     robust: Robust,
     iterations: u64,
     rounds: usize,
@@ -309,25 +344,36 @@ fn finish(
     sigma: f64,
     info: FinishInfo,
 ) -> Result<TumbleFit, FitError> {
-    let kept: Vec<f64> = weights
-        .iter()
-        .map(|&w| if w > 0.0 { 1.0 } else { 0.0 })
-        .collect();
-    let prob = TumbleProblem {
-        samples_nt,
-        temp_dev_c: tdev,
-        weights: Some(&kept),
-        reference_nt: r,
-    };
     let residuals_nt = match info.residuals_nt {
         Some(r) => r,
-        None => prob.residuals(&p),
+        None => TumbleProblem {
+            samples_nt,
+            temp_dev_c: tdev,
+            weights: None,
+            reference_nt: r,
+        }
+        .residuals(&p),
     };
-    let ne = prob
-        .normal_equations(&p)
-        .map_err(|e| FitError::Solver(e.to_string()))?;
+    let jtj = match info.jtj_kept {
+        Some(m) => m,
+        None => {
+            let kept: Vec<f64> = weights
+                .iter()
+                .map(|&w| if w > 0.0 { 1.0 } else { 0.0 })
+                .collect();
+            TumbleProblem {
+                samples_nt,
+                temp_dev_c: tdev,
+                weights: Some(&kept),
+                reference_nt: r,
+            }
+            .normal_equations(&p)
+            .map_err(|e| FitError::Solver(e.to_string()))?
+            .jtj
+        }
+    };
     let np = p.len();
-    let used = kept.iter().filter(|&&k| k > 0.0).count();
+    let used = weights.iter().filter(|&&w| w > 0.0).count();
     if used <= np {
         return Err(FitError::Degenerate(format!(
             "only {used} samples kept after outlier rejection, fewer than the {} unknowns",
@@ -366,7 +412,7 @@ fn finish(
         ));
     }
     let s2 = psi2 / (used - np) as f64 / (mean_dpsi * mean_dpsi);
-    let inv = ne.jtj.clone().try_inverse().ok_or_else(|| {
+    let inv = jtj.try_inverse().ok_or_else(|| {
         FitError::Degenerate(
             "the fit's normal matrix is singular: the directions do not constrain every \
              parameter"

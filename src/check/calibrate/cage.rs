@@ -26,7 +26,7 @@ pub(super) fn calibrate_cage(
     let applied: Vec<Vector3<f64>> = ctx
         .idx
         .iter()
-        .map(|&i| Vector3::new(h[0][i], h[1][i], h[2][i]))
+        .map(|i| Vector3::new(h[0][i], h[1][i], h[2][i]))
         .collect();
     let fit = fit_cage(&applied, &ctx.samples, ctx.temp.map(|t| t.0))?;
     let plan = ctx.req.plan.as_ref();
@@ -125,7 +125,7 @@ pub(super) fn calibrate_cage(
             stretch: rows(&s),
             misalignment_deg,
             worst_residual_nt: fit.worst_residual.0,
-            worst_residual_line: ctx.log.lines[ctx.idx[fit.worst_residual.1]],
+            worst_residual_line: ctx.log.lines[ctx.idx.row(fit.worst_residual.1)],
             axis_sigma_nt: fit.axis_sigma_nt.into(),
             condition_number: fit.condition,
         }),

@@ -13,8 +13,8 @@ use rayon::prelude::*;
 use super::SYM_INDEX;
 use crate::fit::lm::{LeastSquaresProblem, NormalEquations};
 
-const MAX_P: usize = 12;
-const CHUNK: usize = 16_384;
+pub(super) const MAX_P: usize = 12;
+pub(super) const CHUNK: usize = 16_384;
 
 /// The magnitude-residual problem for fixed per-sample weights.
 #[derive(Debug, Clone)]
@@ -172,7 +172,7 @@ impl TumbleProblem<'_> {
 /// |W d| with d = b − c − k τ (nT), and into `j` its derivatives with respect to the
 /// parameters (c, the six elements of W, k).
 #[inline(always)]
-fn jacobian_row(
+pub(super) fn jacobian_row(
     b: &Vector3<f64>,
     tau: f64,
     c: &Vector3<f64>,

@@ -309,3 +309,160 @@ fn noise_free_data_fit_exactly_with_the_robust_default() {
     assert_relative_eq!(fit.soft_iron, cfg.soft_iron, epsilon = 1e-10);
     assert_eq!(fit.samples_rejected, 0);
 }
+
+/// The Tukey M-estimate's fixed point (Beaton & Tukey 1974; Huber 1981): weights and σ̂
+/// from the residuals at p, weighted gradient zero. Reached here by the damped
+/// reweighting rounds run to a weight tolerance of 1e-10 instead of 2e-3.
+fn tight_fixed_point(
+    samples: &[Vector3<f64>],
+    tdev: Option<&[f64]>,
+    r: f64,
+    p0: DVector<f64>,
+) -> (DVector<f64>, f64) {
+    let mut st = Irls {
+        iterations: 0,
+        solver_problems: Vec::new(),
+        rounds: 0,
+        converged: false,
+        sigma: 0.0,
+        weight_tol: 1e-10,
+    };
+    let opts = TumbleOptions {
+        reference_nt: Some(r),
+        robust: Robust::Tukey,
+        max_iterations: 200,
+    };
+    let mut w = vec![1.0; samples.len()];
+    let (p, _) = irls(samples, tdev, r, p0, &mut w, &opts, &mut st).unwrap();
+    (p, st.sigma)
+}
+
+#[test]
+fn one_pass_newton_settles_on_the_reweighting_fixed_point() {
+    for with_temp in [false, true] {
+        let cfg = TumbleConfig {
+            samples: 20_000,
+            outlier_rate: 0.01,
+            temp_range_c: with_temp.then_some((-10.0, 35.0)),
+            temp_slope_nt_per_c: Vector3::new(2.0, -1.5, 0.8),
+            ..TumbleConfig::default()
+        };
+        let sim = simulate_tumble(&cfg, 5).unwrap();
+        let r = cfg.reference_nt;
+        let tdev: Option<Vec<f64>> = sim.temp_c.as_ref().map(|t| {
+            let m = t.iter().sum::<f64>() / t.len() as f64;
+            t.iter().map(|x| x - m).collect()
+        });
+        let ell = fit_ellipsoid(&sim.samples_nt).unwrap();
+        let mut p0 = params(
+            ell.centre_nt,
+            &(ell.shape_per_nt * r),
+            with_temp.then(Vector3::zeros),
+        );
+        let (p_fixed, sigma_fixed) =
+            tight_fixed_point(&sim.samples_nt, tdev.as_deref(), r, p0.clone());
+        // Start as the long-log route does: from a fit to every 10th sample.
+        let sub: Vec<Vector3<f64>> = sim.samples_nt.iter().step_by(10).copied().collect();
+        let sub_t: Option<Vec<f64>> = tdev
+            .as_ref()
+            .map(|t| t.iter().step_by(10).copied().collect());
+        let (p_sub, sigma_sub) = tight_fixed_point(&sub, sub_t.as_deref(), r, p0.clone());
+        p0 = p_sub;
+        let s = large::reweighted_gauss_newton(&sim.samples_nt, tdev.as_deref(), r, p0, sigma_sub)
+            .expect("the passes settle");
+        assert!(s.passes <= 4, "{} passes", s.passes);
+        // Standard errors of the parameters at the fixed point (the damped route's fit).
+        let reference = fit_tumble(
+            &sim.samples_nt,
+            sim.temp_c.as_deref(),
+            &TumbleOptions {
+                reference_nt: Some(r),
+                robust: Robust::Tukey,
+                ..TumbleOptions::default()
+            },
+        )
+        .unwrap();
+        for k in 0..p_fixed.len() {
+            let sd = reference.covariance[(k, k)].sqrt();
+            let off = (s.p[k] - p_fixed[k]).abs() / sd;
+            assert!(
+                off < 0.03,
+                "temp {with_temp} parameter {k}: {off:.4} σ from the fixed point"
+            );
+        }
+        assert_relative_eq!(s.sigma_nt, sigma_fixed, max_relative = 2e-3);
+        // The settled point's weights, σ̂ and residuals belong together.
+        for (i, (res, w)) in s
+            .residuals_nt
+            .iter()
+            .zip(&s.weights)
+            .enumerate()
+            .step_by(97)
+        {
+            assert_relative_eq!(
+                *w,
+                tukey_weight(res / (TUKEY_C * s.sigma_nt)),
+                epsilon = 1e-15
+            );
+            let c = Vector3::new(s.p[0], s.p[1], s.p[2]);
+            let wm = sym_from_params(&s.p.as_slice()[3..9]);
+            let k = if with_temp {
+                Vector3::new(s.p[9], s.p[10], s.p[11])
+            } else {
+                Vector3::zeros()
+            };
+            let tau = tdev.as_ref().map_or(0.0, |t| t[i]);
+            let expect = (wm * (sim.samples_nt[i] - c - k * tau)).norm() - r;
+            assert_relative_eq!(*res, expect, epsilon = 1e-9);
+        }
+        // The kept samples' JᵀJ equals the one the damped route builds for the covariance.
+        let kept: Vec<f64> = s
+            .weights
+            .iter()
+            .map(|&w| if w > 0.0 { 1.0 } else { 0.0 })
+            .collect();
+        let dense = TumbleProblem {
+            samples_nt: &sim.samples_nt,
+            temp_dev_c: tdev.as_deref(),
+            weights: Some(&kept),
+            reference_nt: r,
+        }
+        .normal_equations(&s.p)
+        .unwrap();
+        assert_relative_eq!(s.jtj_kept, dense.jtj, max_relative = 1e-9);
+    }
+}
+
+#[test]
+fn a_long_log_takes_the_one_pass_route_and_recovers_truth() {
+    let cfg = TumbleConfig {
+        samples: SEED_MIN_SAMPLES,
+        outlier_rate: 0.01,
+        ..TumbleConfig::default()
+    };
+    let sim = simulate_tumble(&cfg, 23).unwrap();
+    let fit = fit_tumble(
+        &sim.samples_nt,
+        None,
+        &TumbleOptions {
+            reference_nt: Some(cfg.reference_nt),
+            ..TumbleOptions::default()
+        },
+    )
+    .unwrap();
+    assert!(fit.irls_converged && fit.solver_problems.is_empty());
+    // The one-pass route reports its passes as rounds: a handful, not the damped
+    // route's several solves.
+    assert!(fit.irls_rounds <= 4, "{} rounds", fit.irls_rounds);
+    for a in 0..3 {
+        let err = (fit.hard_iron_nt[a] - cfg.hard_iron_nt[a]).abs();
+        assert!(err < 4.0 * fit.hard_iron_sigma_nt[a], "axis {a}: {err} nT");
+    }
+    // σ of the hard iron against the Cramér–Rao bound for this geometry (within 10 %).
+    let crb = crb_hard_iron(&sim.samples_nt, &cfg);
+    for a in 0..3 {
+        assert_relative_eq!(fit.hard_iron_sigma_nt[a], crb[a], max_relative = 0.1);
+    }
+    assert!(fit.samples_rejected >= sim.truth.outliers * 8 / 10);
+    assert!(fit.samples_rejected <= sim.truth.outliers + 50);
+}
