@@ -79,8 +79,10 @@ fn sector(x: f64, y: f64) -> usize {
 #[derive(Clone, Copy)]
 struct SpreadSums {
     hit: [bool; BANDS * SECTORS],
-    scatter: Matrix3<f64>,
-    mean: Vector3<f64>,
+    /// Σ u uᵀ, unique elements: xx yy zz xy xz yz.
+    scatter: [f64; 6],
+    /// Σ u.
+    sum: [f64; 3],
     n: usize,
 }
 
@@ -88,22 +90,32 @@ impl SpreadSums {
     fn new() -> Self {
         SpreadSums {
             hit: [false; BANDS * SECTORS],
-            scatter: Matrix3::zeros(),
-            mean: Vector3::zeros(),
+            scatter: [0.0; 6],
+            sum: [0.0; 3],
             n: 0,
         }
     }
 
+    /// Add the direction of `v` (scalar code: this runs once per sample).
     #[inline]
     fn add(&mut self, v: &Vector3<f64>) {
-        let norm = v.norm();
-        if !(norm.is_finite() && norm > 0.0) {
+        let n2 = v.x * v.x + v.y * v.y + v.z * v.z;
+        if !(n2.is_finite() && n2 > 0.0) {
             return;
         }
-        let u = v / norm;
+        let inv = 1.0 / n2.sqrt();
+        let u = Vector3::new(v.x * inv, v.y * inv, v.z * inv);
         self.hit[cell(&u)] = true;
-        self.scatter += u * u.transpose();
-        self.mean += u;
+        let s = &mut self.scatter;
+        s[0] += u.x * u.x;
+        s[1] += u.y * u.y;
+        s[2] += u.z * u.z;
+        s[3] += u.x * u.y;
+        s[4] += u.x * u.z;
+        s[5] += u.y * u.z;
+        self.sum[0] += u.x;
+        self.sum[1] += u.y;
+        self.sum[2] += u.z;
         self.n += 1;
     }
 
@@ -111,8 +123,12 @@ impl SpreadSums {
         for (h, oh) in self.hit.iter_mut().zip(o.hit) {
             *h |= oh;
         }
-        self.scatter += o.scatter;
-        self.mean += o.mean;
+        for (a, b) in self.scatter.iter_mut().zip(o.scatter) {
+            *a += b;
+        }
+        for (a, b) in self.sum.iter_mut().zip(o.sum) {
+            *a += b;
+        }
         self.n += o.n;
         self
     }
@@ -122,14 +138,16 @@ impl SpreadSums {
             return None;
         }
         let n = self.n as f64;
-        let eig = SymmetricEigen::new(self.scatter / n);
+        let s = self.scatter;
+        let m = Matrix3::new(s[0], s[3], s[4], s[3], s[1], s[5], s[4], s[5], s[2]) / n;
+        let eig = SymmetricEigen::new(m);
         let mut idx = [0usize, 1, 2];
         idx.sort_by(|&a, &b| eig.eigenvalues[a].total_cmp(&eig.eigenvalues[b]));
         Some(DirectionSpread {
             coverage: self.hit.iter().filter(|h| **h).count() as f64 / self.hit.len() as f64,
             scatter_eigenvalues: idx.map(|i| eig.eigenvalues[i]),
             weakest_direction: eig.eigenvectors.column(idx[0]).into_owned(),
-            mean_direction_length: (self.mean / n).norm(),
+            mean_direction_length: (Vector3::from(self.sum) / n).norm(),
         })
     }
 }

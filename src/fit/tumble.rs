@@ -127,7 +127,20 @@ pub fn fit_tumble(
 ) -> Result<TumbleFit, FitError> {
     let n = samples_nt.len();
     check_tumble_data(samples_nt)?;
-    let ell = fit_ellipsoid(samples_nt)?;
+    // With a given reference on a long log the algebraic fit only seeds the subsample
+    // rounds below, so it runs on that subsample; without one it fixes the scale R and
+    // uses every sample.
+    let long_robust = opts.robust == Robust::Tukey && n >= SEED_MIN_SAMPLES;
+    let ell = if long_robust && opts.reference_nt.is_some() {
+        let sub: Vec<Vector3<f64>> = samples_nt
+            .iter()
+            .step_by(n / SEED_SAMPLES)
+            .copied()
+            .collect();
+        fit_ellipsoid(&sub)?
+    } else {
+        fit_ellipsoid(samples_nt)?
+    };
     let det = ell.shape_per_nt.determinant();
     let r = match opts.reference_nt {
         Some(r) if r.is_finite() && r > 0.0 => r,
@@ -167,7 +180,7 @@ pub fn fit_tumble(
         weight_tol: WEIGHT_TOL,
     };
     let mut weights = vec![1.0; n];
-    if opts.robust == Robust::Tukey && n >= SEED_MIN_SAMPLES {
+    if long_robust {
         // Large log: run the reweighting on an evenly decimated subsample first, then
         // reach the same fixed point on all samples with one-pass Newton iterations
         // (`large`), or, if those do not settle, with the damped rounds started from
@@ -261,7 +274,7 @@ pub fn fit_tumble(
 /// Logs at least this long are first fitted on a decimated subsample.
 const SEED_MIN_SAMPLES: usize = 200_000;
 /// Size of that subsample (about).
-const SEED_SAMPLES: usize = 50_000;
+const SEED_SAMPLES: usize = 20_000;
 
 /// Book-keeping of the reweighting rounds.
 struct Irls {

@@ -38,7 +38,8 @@ use nalgebra::{DMatrix, DVector, Matrix3, Vector3};
 use rayon::prelude::*;
 
 use super::problem::{jacobian_row, CHUNK, MAX_P};
-use super::{robust_sigma, sym_from_params, tukey_weight, TUKEY_C};
+use super::{sym_from_params, tukey_weight, TUKEY_C};
+use crate::fit::robust::median_and_sigma_near;
 
 /// Stop when the step is below this fraction of the parameters' standard error.
 pub(super) const STEP_TOL: f64 = 1e-2;
@@ -82,29 +83,44 @@ pub(super) fn reweighted_gauss_newton(
     let mut sigma = sigma0_nt;
     let mut residuals = vec![0.0; n];
     let mut weights = vec![0.0; n];
-    let mut likely_last = false;
+    // The residuals' median, for the bracket of the next scale estimate.
+    let mut median = 0.0;
+    // Cholesky factor of the Newton matrix H, kept while the steps are small.
+    let mut newton: Option<nalgebra::Cholesky<f64, nalgebra::Dyn>> = None;
     for pass in 1..=MAX_PASSES {
+        // H is summed on the first pass and again after any step of a standard error or
+        // more; after smaller steps the weights ψ′ barely move, the H of an earlier pass
+        // serves (a chord step), and the pass sums the kept samples' JᵀJ instead, since
+        // it is likely the last.
+        let want = Want {
+            newton: newton.is_none(),
+            kept: pass > 1,
+        };
         let ctx = PassCtx::new(samples_nt, temp_dev_c, reference_nt, &p, sigma);
         let acc = if np == 12 {
-            ctx.run::<12>(&mut residuals, &mut weights, likely_last)
+            ctx.run::<12>(&mut residuals, &mut weights, want)
         } else {
-            ctx.run::<9>(&mut residuals, &mut weights, likely_last)
+            ctx.run::<9>(&mut residuals, &mut weights, want)
         };
-        let new_sigma = robust_sigma(&residuals);
+        let (med, new_sigma) = median_and_sigma_near(&residuals, median, sigma);
+        median = med;
         if acc.count <= np || !(new_sigma > 0.0) {
             return None;
         }
-        let jtj = acc.symmetric(&acc.jtj_w, np);
-        let jtr = DVector::from_column_slice(&acc.jtr_w[..np]);
-        let delta = -jtj.clone().cholesky()?.solve(&jtr);
+        if want.newton {
+            newton = Some(acc.symmetric(&acc.hessian, np).cholesky()?);
+        }
+        let chol = newton.as_ref()?;
+        let gradient = DVector::from_column_slice(&acc.gradient[..np]);
+        let delta = -chol.solve(&gradient);
         let s2 = acc.sum_sq_w / (acc.count - np) as f64;
-        let step2 = -jtr.dot(&delta) / s2;
+        let step2 = -gradient.dot(&delta) / s2;
         let scale_change = (new_sigma - sigma).abs() / sigma;
         if !(step2.is_finite() && delta.iter().all(|x| x.is_finite())) {
             return None;
         }
         let settled = step2 <= STEP_TOL * STEP_TOL && scale_change <= SCALE_TOL;
-        if settled && likely_last {
+        if settled && want.kept {
             return Some(Settled {
                 jtj_kept: acc.symmetric(&acc.jtj_kept, np),
                 p,
@@ -114,13 +130,22 @@ pub(super) fn reweighted_gauss_newton(
                 passes: pass,
             });
         }
-        // Newton steps converge quadratically: after the first step from the seed the
-        // next pass is usually the last, so it also sums the kept samples' JᵀJ.
-        likely_last = true;
+        if step2 >= 1.0 {
+            newton = None;
+        }
         p += delta;
         sigma = new_sigma;
     }
     None
+}
+
+/// What a pass sums besides the gradient.
+#[derive(Clone, Copy)]
+struct Want {
+    /// The Newton matrix H = Σ ψ′ JᵀJ.
+    newton: bool,
+    /// The kept samples' unweighted JᵀJ.
+    kept: bool,
 }
 
 /// One pass's fixed inputs.
@@ -138,8 +163,8 @@ struct PassCtx<'a> {
 /// Sums of one pass (upper triangles only).
 #[derive(Clone, Copy)]
 struct PassAcc {
-    jtj_w: [[f64; MAX_P]; MAX_P],
-    jtr_w: [f64; MAX_P],
+    hessian: [[f64; MAX_P]; MAX_P],
+    gradient: [f64; MAX_P],
     sum_sq_w: f64,
     jtj_kept: [[f64; MAX_P]; MAX_P],
     count: usize,
@@ -148,8 +173,8 @@ struct PassAcc {
 impl Default for PassAcc {
     fn default() -> Self {
         PassAcc {
-            jtj_w: [[0.0; MAX_P]; MAX_P],
-            jtr_w: [0.0; MAX_P],
+            hessian: [[0.0; MAX_P]; MAX_P],
+            gradient: [0.0; MAX_P],
             sum_sq_w: 0.0,
             jtj_kept: [[0.0; MAX_P]; MAX_P],
             count: 0,
@@ -160,9 +185,9 @@ impl Default for PassAcc {
 impl PassAcc {
     fn add(mut self, o: PassAcc) -> PassAcc {
         for a in 0..MAX_P {
-            self.jtr_w[a] += o.jtr_w[a];
+            self.gradient[a] += o.gradient[a];
             for b in 0..MAX_P {
-                self.jtj_w[a][b] += o.jtj_w[a][b];
+                self.hessian[a][b] += o.hessian[a][b];
                 self.jtj_kept[a][b] += o.jtj_kept[a][b];
             }
         }
@@ -205,14 +230,13 @@ impl<'a> PassCtx<'a> {
         &self,
         residuals: &mut [f64],
         weights: &mut [f64],
-        with_kept: bool,
+        want: Want,
     ) -> PassAcc {
-        let chunk = |lo: usize, res: &mut [f64], wts: &mut [f64]| {
-            if with_kept {
-                self.chunk::<NP, true>(lo, res, wts)
-            } else {
-                self.chunk::<NP, false>(lo, res, wts)
-            }
+        let chunk = |lo: usize, res: &mut [f64], wts: &mut [f64]| match (want.newton, want.kept) {
+            (true, true) => self.chunk::<NP, true, true>(lo, res, wts),
+            (true, false) => self.chunk::<NP, true, false>(lo, res, wts),
+            (false, true) => self.chunk::<NP, false, true>(lo, res, wts),
+            (false, false) => self.chunk::<NP, false, false>(lo, res, wts),
         };
         if residuals.len() > 4 * CHUNK {
             residuals
@@ -228,7 +252,7 @@ impl<'a> PassCtx<'a> {
 
     /// Samples `lo .. lo + res.len()`.
     #[inline(always)]
-    fn chunk<const NP: usize, const KEPT: bool>(
+    fn chunk<const NP: usize, const NEWTON: bool, const KEPT: bool>(
         &self,
         lo: usize,
         res: &mut [f64],
@@ -260,20 +284,29 @@ impl<'a> PassCtx<'a> {
             let slope = (1.0 - u * u) * (1.0 - 5.0 * u * u);
             acc.sum_sq_w += wt * r * r;
             acc.count += 1;
+            let wr = wt * r;
             for a in 0..NP {
-                jtr[a] += wt * r * j[a];
-                let hja = slope * j[a];
-                for bb in a..NP {
-                    jtj[a][bb] += hja * j[bb];
-                    if KEPT {
+                jtr[a] += wr * j[a];
+            }
+            if NEWTON {
+                for a in 0..NP {
+                    let hja = slope * j[a];
+                    for bb in a..NP {
+                        jtj[a][bb] += hja * j[bb];
+                    }
+                }
+            }
+            if KEPT {
+                for a in 0..NP {
+                    for bb in a..NP {
                         jtj_kept[a][bb] += j[a] * j[bb];
                     }
                 }
             }
         }
         for a in 0..NP {
-            acc.jtr_w[a] = jtr[a];
-            acc.jtj_w[a][..NP].copy_from_slice(&jtj[a]);
+            acc.gradient[a] = jtr[a];
+            acc.hessian[a][..NP].copy_from_slice(&jtj[a]);
             acc.jtj_kept[a][..NP].copy_from_slice(&jtj_kept[a]);
         }
         acc
