@@ -9,6 +9,9 @@
 //! the chunks are summed on rayon's thread pool; the order of every addition is the same
 //! either way, so the result does not depend on the number of threads.
 
+// Index loops mirror the maths.
+#![allow(clippy::needless_range_loop)]
+
 use argmin::core::Error as ArgminError;
 use nalgebra::{DMatrix, DVector, Matrix3, Matrix6, SMatrix, Vector3, Vector6};
 use rayon::prelude::*;
@@ -60,21 +63,33 @@ fn sample_block(
     Some((r, j))
 }
 
-/// Normal-equation sums over `chunk`, whose first sample has index `first`.
+/// Normal-equation sums over `chunk`, whose first sample has index `first`. Only the
+/// upper triangle of JᵀJ is summed (21 of 36 entries), then mirrored.
 fn chunk_sums(
     chunk: &[DipoleSample],
     first: usize,
     m: &Vector3<f64>,
     o: &Vector3<f64>,
 ) -> Result<Sums, usize> {
-    let mut acc = Sums::zero();
+    let mut jtj = [[0.0; 6]; 6];
+    let mut jtr = [0.0; 6];
+    let mut sum_sq = 0.0;
     for (k, s) in chunk.iter().enumerate() {
         let (r, j) = sample_block(s, m, o).ok_or(first + k)?;
-        acc.jtj += j.tr_mul(&j);
-        acc.jtr += j.tr_mul(&r);
-        acc.sum_sq += r.norm_squared();
+        for a in 0..6 {
+            let (j0, j1, j2) = (j[(0, a)], j[(1, a)], j[(2, a)]);
+            jtr[a] += j0 * r[0] + j1 * r[1] + j2 * r[2];
+            for b in a..6 {
+                jtj[a][b] += j0 * j[(0, b)] + j1 * j[(1, b)] + j2 * j[(2, b)];
+            }
+        }
+        sum_sq += r.norm_squared();
     }
-    Ok(acc)
+    Ok(Sums {
+        jtj: Matrix6::from_fn(|a, b| if a <= b { jtj[a][b] } else { jtj[b][a] }),
+        jtr: Vector6::from_column_slice(&jtr),
+        sum_sq,
+    })
 }
 
 /// Σ |rᵢ|² over `chunk`, whose first sample has index `first`.
