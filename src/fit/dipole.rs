@@ -27,11 +27,11 @@
 //! a distance of several times the article's largest size).
 
 use argmin::core::{CostFunction, Error as ArgminError, Jacobian, Operator};
-use nalgebra::{DMatrix, DVector, Matrix3, Matrix6, SymmetricEigen, Vector3, Vector6};
+use nalgebra::{DMatrix, DVector, Matrix3, SymmetricEigen, Vector3, Vector6};
 
 use crate::physics::dipole::{dipole_matrix, MU0_OVER_4PI_NT_M_PER_A};
 
-use crate::fit::lm::{solve, DenseProblem, LmTermination};
+use crate::fit::lm::{solve, LmTermination};
 
 /// One background-subtracted field sample.
 #[derive(Debug, Clone, Copy)]
@@ -245,7 +245,10 @@ fn field_gradient(d: &Vector3<f64>, moment_table_am2: &Vector3<f64>) -> Matrix3<
 }
 
 /// The nonlinear problem of [`fit_moment_and_offset`]: parameters `[m (3), o (3)]`,
-/// residuals `model − measured` stacked per sample (x, y, z).
+/// residuals `model − measured` stacked per sample (x, y, z). The solver uses its
+/// [`LeastSquaresProblem`](crate::fit::lm::LeastSquaresProblem) side, whose normal
+/// equations are accumulated in one pass without an N×6 Jacobian; the dense argmin
+/// `Operator` + `Jacobian` side is kept as the reference for tests and small problems.
 pub struct OffsetProblem<'a> {
     samples: &'a [DipoleSample],
 }
@@ -332,8 +335,9 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
     let seed = fit_moment(samples, &Vector3::zeros())?;
     let m0 = seed.moment_body_am2;
     let p0 = DVector::from_vec(vec![m0.x, m0.y, m0.z, 0.0, 0.0, 0.0]);
-    // The project's damped solver (fit::lm, Levenberg–Marquardt on argmin's Solver).
-    let out = solve(DenseProblem(OffsetProblem::new(samples)), p0, 200)
+    // The project's damped solver (fit::lm, Levenberg–Marquardt on argmin's Solver), fed
+    // normal equations accumulated in one pass over the samples (see `normal`).
+    let out = solve(OffsetProblem::new(samples), p0, 200)
         .map_err(|e| DipoleFitError::NotConverged(e.to_string()))?;
     if !matches!(out.termination, LmTermination::Converged) {
         return Err(DipoleFitError::NotConverged(format!(
@@ -342,14 +346,12 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
         )));
     }
     let p = out.param;
-    let problem = OffsetProblem::new(samples);
-    let j = problem
-        .jacobian(&p)
-        .map_err(|e| DipoleFitError::NotConverged(e.to_string()))?;
-    let rss = problem
-        .cost(&p)
-        .map_err(|e| DipoleFitError::NotConverged(e.to_string()))?;
-    let jtj: Matrix6<f64> = (j.transpose() * &j).fixed_view::<6, 6>(0, 0).into_owned();
+    let (m, o) = (
+        Vector3::new(p[0], p[1], p[2]),
+        Vector3::new(p[3], p[4], p[5]),
+    );
+    let (jtj, _, rss) = normal::offset_normal_equations(samples, &m, &o)
+        .map_err(|index| DipoleFitError::ProbeAtDipole { index })?;
     let eig = SymmetricEigen::new(jtj);
     let (lo, hi) = (eig.eigenvalues.min().max(0.0), eig.eigenvalues.max());
     let ratio = if hi > 0.0 { (lo / hi).sqrt() } else { 0.0 };
@@ -373,6 +375,8 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
         iterations: out.iterations,
     })
 }
+
+mod normal;
 
 #[cfg(test)]
 mod tests;

@@ -1,0 +1,100 @@
+//! Run one dipole workload once and print its result: a fixed, repeatable workload for
+//! instruction counting with callgrind, e.g.
+//!
+//! ```text
+//! cargo build --release --example dipole_once
+//! valgrind --tool=callgrind --separate-threads=yes target/release/examples/dipole_once fit 100000
+//! ```
+//!
+//! * `fit N`: the moment-and-offset fit on the samples of `benches/dipole.rs`
+//!   (`dipole_fit` group): two mounts, four full turns, 1 nT noise, seed 7.
+//! * `check-origin N` / `check-fitted N`: the whole dipole check (`evaluate_dipole`) on a
+//!   simulated turntable log with about N article rows, as in the `dipole_check` group.
+
+use std::path::{Path, PathBuf};
+
+use magproof::check::dipole::{evaluate_dipole, DipolePosition, DipoleRequest};
+use magproof::fit::dipole::{fit_moment_and_offset, model_field_nt, DipoleSample};
+use magproof::log::plan::parse_plan;
+use magproof::log::{read_sweep_from, ReadOptions};
+use magproof::physics::frames::rotation_z;
+use magproof::sim::dipole::{simulate_turntable, TurntableConfig};
+use nalgebra::{Matrix3, Vector3};
+use rand::{rngs::StdRng, SeedableRng};
+use rand_distr::{Distribution, Normal};
+
+type Res = Result<(), Box<dyn std::error::Error>>;
+
+fn main() -> Res {
+    let mode = std::env::args().nth(1).unwrap_or_else(|| "fit".into());
+    let n: usize = match std::env::args().nth(2) {
+        Some(a) => a.parse().map_err(|e| format!("N: {e}"))?,
+        None => 10_000,
+    };
+    match mode.as_str() {
+        "fit" => fit(n),
+        "check-origin" => check(n, DipolePosition::AtTableOrigin),
+        "check-fitted" => check(n, DipolePosition::Fitted),
+        other => Err(format!("unknown mode {other:?}: fit, check-origin or check-fitted").into()),
+    }
+}
+
+/// The whole check on a simulated turntable log (two mounts, 15° steps, 100 Hz).
+fn check(n: usize, position: DipolePosition) -> Res {
+    let mut cfg = TurntableConfig::default();
+    let steps = cfg.mounts.len() * (360.0 / cfg.step_deg).round() as usize;
+    cfg.samples_per_step = (n / steps).max(1);
+    cfg.article.sample_interval_s = 0.01;
+    let sim = simulate_turntable(&cfg, 2026)?;
+    let plan = parse_plan(&sim.plan_toml, Path::new("plan.toml"))?;
+    let log = read_sweep_from(
+        sim.log_csv.as_bytes(),
+        Path::new("turntable.csv"),
+        &ReadOptions::default(),
+        &mut |_| {},
+    )?;
+    drop(sim);
+    let mut req = DipoleRequest::new(PathBuf::from("turntable.csv"), plan);
+    req.inclination_deg = Some(97.4);
+    req.position = position;
+    let r = evaluate_dipole(&log, &req)?;
+    println!(
+        "{} samples: moment {:.6?} A·m² ± {:.2e}, {} iterations",
+        r.samples_used, r.moment_body_am2, r.magnitude_sigma_am2, r.iterations
+    );
+    Ok(())
+}
+
+fn fit(n: usize) -> Res {
+    let m = Vector3::new(0.012, -0.007, 0.009);
+    let o = Vector3::new(0.02, -0.01, 0.01);
+    let on_side = Matrix3::new(1.0, 0.0, 0.0, 0.0, 0.0, -1.0, 0.0, 1.0, 0.0);
+    let mut rng = StdRng::seed_from_u64(7);
+    let noise = Normal::new(0.0, 1.0)?;
+    let mut data = Vec::with_capacity(n);
+    for i in 0..n {
+        let mount = if i % 2 == 0 {
+            Matrix3::identity()
+        } else {
+            on_side
+        };
+        let angle = std::f64::consts::TAU * i as f64 / n as f64 * 4.0;
+        let mut s = DipoleSample {
+            probe_m: Vector3::new(0.6, 0.0, 0.05),
+            body_to_table: rotation_z(angle) * mount,
+            b_nt: Vector3::zeros(),
+        };
+        s.b_nt = model_field_nt(&s, &m, &o).ok_or("probe at the dipole")?
+            + Vector3::from_fn(|_, _| noise.sample(&mut rng));
+        data.push(s);
+    }
+    let fit = fit_moment_and_offset(&data)?;
+    println!(
+        "n = {n}: moment {:.6?} A·m², offset {:.5?} m, {} iterations, rms {:.4} nT",
+        fit.moment_body_am2.as_slice(),
+        fit.offset_body_m.as_slice(),
+        fit.iterations,
+        fit.residual_rms_nt
+    );
+    Ok(())
+}
