@@ -245,14 +245,16 @@ pub fn run_calibrate_with_progress(
             count: log.skipped_rows.len(),
         });
     }
-    let samples: Vec<Vector3<f64>> = (0..idx.len())
-        .into_par_iter()
-        .with_min_len(PAR_MIN_LEN)
-        .map(|j| {
-            let i = idx.row(j);
-            Vector3::new(b[0][i], b[1][i], b[2][i])
-        })
-        .collect();
+    let mut samples = vec![Vector3::zeros(); idx.len()];
+    samples
+        .par_chunks_mut(PAR_CHUNK)
+        .enumerate()
+        .for_each(|(c, out)| {
+            for (j, s) in out.iter_mut().enumerate() {
+                let i = idx.row(c * PAR_CHUNK + j);
+                *s = Vector3::new(b[0][i], b[1][i], b[2][i]);
+            }
+        });
     // The field columns now live in `samples`; free them before the fit.
     log.b_nt = None;
     let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
@@ -353,8 +355,8 @@ impl UsedRows {
     }
 }
 
-/// Per-sample work on logs longer than this many samples a task is split over threads.
-const PAR_MIN_LEN: usize = 16_384;
+/// Samples per task of the per-sample copies (split over threads on long logs).
+const PAR_CHUNK: usize = 16_384;
 
 struct Ctx<'a> {
     req: &'a CalibrateRequest,
@@ -447,23 +449,27 @@ fn calibrate_tumble(
             warnings.push(CalibrationWarning::ScaleMismatch { deviation: dev });
         }
     }
-    let c = fit.hard_iron_nt;
+    let c_nt = fit.hard_iron_nt;
     let w = fit.soft_iron;
     let k = fit.temp_slope_nt_per_c.unwrap_or_else(Vector3::zeros);
     let tmean = ctx
         .temp
         .map(|(t, _)| t.iter().sum::<f64>() / t.len() as f64)
         .unwrap_or(0.0);
-    let corrected: Vec<Vector3<f64>> = ctx
-        .samples
-        .par_iter()
-        .with_min_len(PAR_MIN_LEN)
+    let mut corrected = vec![Vector3::zeros(); ctx.samples.len()];
+    corrected
+        .par_chunks_mut(PAR_CHUNK)
+        .zip(ctx.samples.par_chunks(PAR_CHUNK))
         .enumerate()
-        .map(|(i, b)| {
-            let tau = ctx.temp.map(|(t, _)| t[i] - tmean).unwrap_or(0.0);
-            w * (b - c - k * tau)
-        })
-        .collect();
+        .for_each(|(c, (out, b))| {
+            for (j, (o, b)) in out.iter_mut().zip(b).enumerate() {
+                let tau = ctx
+                    .temp
+                    .map(|(t, _)| t[c * PAR_CHUNK + j] - tmean)
+                    .unwrap_or(0.0);
+                *o = w * (b - c_nt - k * tau);
+            }
+        });
     let kept: Vec<bool> = fit.weights.iter().map(|&x| x > 0.0).collect();
     let spread = direction_spread_of_kept(&corrected, &kept)
         .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
@@ -500,7 +506,7 @@ fn calibrate_tumble(
     };
     Ok(CalibrationResult {
         method: Method::Tumble,
-        hard_iron_nt: c.into(),
+        hard_iron_nt: c_nt.into(),
         soft_iron: rows(&w),
         reference_nt: reference,
         residual_rms_nt: fit.residual_rms_nt,

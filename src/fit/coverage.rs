@@ -50,29 +50,20 @@ fn cell(u: &Vector3<f64>) -> usize {
 /// sector boundary, where either neighbour is a fair answer.
 fn sector(x: f64, y: f64) -> usize {
     let (ax, ay) = (x.abs(), y.abs());
-    if y < 0.0 {
-        if x < 0.0 {
-            if ay < ax {
-                0
-            } else {
-                1
-            }
-        } else if ay > ax {
-            2
-        } else {
-            3
-        }
-    } else if x > 0.0 {
-        if y < x {
-            4
-        } else {
-            5
-        }
-    } else if y > ax {
-        6
+    // Quadrant 0..4 counter-clockwise from φ = −180°; then the upper half of it when
+    // the point is on the far side of the diagonal |x| = |y|. Written with comparisons
+    // turned into integers so that random directions cost no mispredicted branch.
+    let quadrant = if y < 0.0 {
+        usize::from(x >= 0.0)
     } else {
-        7
-    }
+        2 + usize::from(x <= 0.0)
+    };
+    let upper = if quadrant % 2 == 0 {
+        ay >= ax
+    } else {
+        ay <= ax
+    };
+    2 * quadrant + usize::from(upper)
 }
 
 /// Running sums of [`direction_spread`]; two of them merge by adding.

@@ -28,6 +28,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::needless_range_loop)]
 
 use nalgebra::{DMatrix, DVector, Matrix3, Vector3};
+use rayon::prelude::*;
 
 use super::ellipsoid::fit_ellipsoid;
 use super::lm::{solve, LeastSquaresProblem, LmTermination};
@@ -465,6 +466,9 @@ fn finish(
     })
 }
 
+/// Samples per task of the data check's sums on long logs.
+const CHECK_CHUNK: usize = 65_536;
+
 /// Smallest number of samples a tumble fit accepts.
 pub const MIN_SAMPLES: usize = 30;
 
@@ -479,11 +483,22 @@ pub fn check_tumble_data(samples_nt: &[Vector3<f64>]) -> Result<(), FitError> {
             "a tumble fit needs at least {MIN_SAMPLES} samples, found {n}"
         )));
     }
-    let mean = samples_nt.iter().fold(Vector3::zeros(), |a, b| a + b) / n as f64;
-    let cov = samples_nt.iter().fold(Matrix3::zeros(), |a, b| {
-        let d = b - mean;
-        a + d * d.transpose()
-    }) / n as f64;
+    // Two passes (mean, then scatter about it), in parallel chunks on long logs.
+    let mean = samples_nt
+        .par_chunks(CHECK_CHUNK)
+        .map(|ch| ch.iter().fold(Vector3::zeros(), |a, b| a + b))
+        .reduce(Vector3::zeros, |a, b| a + b)
+        / n as f64;
+    let cov = samples_nt
+        .par_chunks(CHECK_CHUNK)
+        .map(|ch| {
+            ch.iter().fold(Matrix3::zeros(), |a, b| {
+                let d = b - mean;
+                a + d * d.transpose()
+            })
+        })
+        .reduce(Matrix3::zeros, |a, b| a + b)
+        / n as f64;
     let eig = nalgebra::SymmetricEigen::new(cov);
     let mut idx = [0usize, 1, 2];
     idx.sort_by(|&a, &b| eig.eigenvalues[a].total_cmp(&eig.eigenvalues[b]));

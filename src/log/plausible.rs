@@ -4,8 +4,13 @@
 //! practice) is refused with the reason before any fit runs. Both usually mean a wrong
 //! field unit.
 
+use rayon::prelude::*;
+
 use super::SweepLog;
 use crate::Error;
+
+/// Values per task when a long log is checked in parallel.
+const CHUNK: usize = 65_536;
 
 /// Largest |reading| accepted, nT (1000 T: beyond any laboratory magnet; its square
 /// and sums of squares stay far inside f64).
@@ -21,9 +26,12 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
     for (prefix, cols) in groups {
         let Some(cols) = cols else { continue };
         for (axis, col) in cols.iter().enumerate() {
-            if let Some(i) = col
-                .iter()
-                .position(|v| v.is_nan() || v.abs() > MAX_FIELD_NT)
+            let bad = |v: &f64| v.is_nan() || v.abs() > MAX_FIELD_NT;
+            let first_bad = col
+                .par_chunks(CHUNK)
+                .position_first(|ch| ch.iter().any(bad));
+            if let Some(i) =
+                first_bad.and_then(|c| col[c * CHUNK..].iter().position(bad).map(|i| c * CHUNK + i))
             {
                 let line = log.lines.get(i).copied().unwrap_or(0);
                 return Err(Error::Degenerate(format!(
@@ -40,8 +48,12 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
     if let Some(b) = &log.b_nt {
         let largest = b
             .iter()
-            .flat_map(|c| c.iter())
-            .fold(0.0_f64, |m, v| m.max(v.abs()));
+            .map(|c| {
+                c.par_chunks(CHUNK)
+                    .map(|ch| ch.iter().fold(0.0_f64, |m, v| m.max(v.abs())))
+                    .reduce(|| 0.0, f64::max)
+            })
+            .fold(0.0_f64, f64::max);
         if !b[0].is_empty() && largest < MIN_SIGNAL_NT {
             return Err(Error::Degenerate(format!(
                 "{}: the largest field reading is {largest:e} nT, below {MIN_SIGNAL_NT:e} nT \

@@ -11,6 +11,8 @@
 use std::collections::HashMap;
 use std::path::Path;
 
+use rayon::prelude::*;
+
 use super::SweepLog;
 use crate::Error;
 
@@ -161,6 +163,7 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
     let mut on_axis = vec![false; n];
     for (axis, col) in b_nt.iter().enumerate() {
         on_axis.iter_mut().for_each(|f| *f = false);
+        let ext = Extremes::of(col);
         if let Some(range) = range_nt {
             let mut count = 0;
             for (i, v) in col.iter().enumerate() {
@@ -180,7 +183,7 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
             }
         }
         for high in [true, false] {
-            if let Some(level) = rail_value(col, high) {
+            if let Some(level) = rail_value(col, high, &ext) {
                 let mut count = 0;
                 for (i, v) in col.iter().enumerate() {
                     if v.to_bits() == level.to_bits() {
@@ -202,24 +205,82 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
     report
 }
 
-fn rail_value(col: &[f64], high: bool) -> Option<f64> {
+/// Largest and smallest reading of a column and how many readings equal each
+/// (bit for bit); found in one pass, in parallel chunks on long columns.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Extremes {
+    max: f64,
+    at_max: usize,
+    min: f64,
+    at_min: usize,
+}
+
+impl Extremes {
+    const EMPTY: Extremes = Extremes {
+        max: f64::NEG_INFINITY,
+        at_max: 0,
+        min: f64::INFINITY,
+        at_min: 0,
+    };
+
+    fn of(col: &[f64]) -> Extremes {
+        let one = |e: Extremes, &v: &f64| {
+            if v.is_nan() {
+                e
+            } else {
+                e.merge(Extremes {
+                    max: v,
+                    at_max: 1,
+                    min: v,
+                    at_min: 1,
+                })
+            }
+        };
+        col.par_chunks(65_536)
+            .map(|ch| ch.iter().fold(Extremes::EMPTY, one))
+            .reduce(|| Extremes::EMPTY, Extremes::merge)
+    }
+
+    /// Combine two parts (NaN readings are skipped by [`Extremes::of`]); equal
+    /// extremes are compared bit for bit, like the rail test.
+    fn merge(self, o: Extremes) -> Extremes {
+        let (max, at_max) = if o.max > self.max || self.at_max == 0 {
+            (o.max, o.at_max)
+        } else if o.max.to_bits() == self.max.to_bits() {
+            (self.max, self.at_max + o.at_max)
+        } else {
+            (self.max, self.at_max)
+        };
+        let (min, at_min) = if o.min < self.min || self.at_min == 0 {
+            (o.min, o.at_min)
+        } else if o.min.to_bits() == self.min.to_bits() {
+            (self.min, self.at_min + o.at_min)
+        } else {
+            (self.min, self.at_min)
+        };
+        Extremes {
+            max,
+            at_max,
+            min,
+            at_min,
+        }
+    }
+}
+
+fn rail_value(col: &[f64], high: bool, ext: &Extremes) -> Option<f64> {
     let n = col.len();
     if n < 20 {
         return None;
     }
-    let extreme = if high {
-        col.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+    let (extreme, at_extreme) = if high {
+        (ext.max, ext.at_max)
     } else {
-        col.iter().copied().fold(f64::INFINITY, f64::min)
+        (ext.min, ext.at_min)
     };
     // A constant axis is not clipped but stuck or idle: the fits refuse it by name.
-    if col.iter().all(|v| v.to_bits() == extreme.to_bits()) {
+    if at_extreme == n {
         return None;
     }
-    let at_extreme = col
-        .iter()
-        .filter(|v| v.to_bits() == extreme.to_bits())
-        .count();
     let needed = 5usize.max(n / 500);
     if at_extreme < needed {
         return None;
@@ -250,6 +311,33 @@ mod tests {
         (0..n)
             .map(|i| (amp * (i as f64 * 0.01).sin()).clamp(-clip, clip))
             .collect()
+    }
+
+    #[test]
+    fn extremes_in_parallel_equal_a_plain_scan() {
+        // A long column with repeated extremes spread over many chunks.
+        let col: Vec<f64> = (0..300_000)
+            .map(|i| {
+                if i % 9973 == 0 {
+                    7.5
+                } else if i % 7919 == 0 {
+                    -3.25
+                } else {
+                    ((i * 37) % 1000) as f64 / 1000.0
+                }
+            })
+            .collect();
+        let max = col.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let min = col.iter().copied().fold(f64::INFINITY, f64::min);
+        let want = Extremes {
+            max,
+            at_max: col.iter().filter(|v| v.to_bits() == max.to_bits()).count(),
+            min,
+            at_min: col.iter().filter(|v| v.to_bits() == min.to_bits()).count(),
+        };
+        assert_eq!(Extremes::of(&col), want);
+        assert_eq!((want.at_max, want.at_min), (31, 37));
+        assert_eq!(Extremes::of(&[]), Extremes::EMPTY);
     }
 
     #[test]
