@@ -58,37 +58,46 @@ pub(crate) fn split_block(block: &[u8], n: usize) -> Vec<&[u8]> {
     parts
 }
 
-/// Read each part with the fast path, in parallel.
+/// Read each part with the fast path, in parallel, into `pool` (one [`Part`] per
+/// piece). The pool's buffers are cleared and reused from block to block, so a long
+/// log does not allocate (and page in) fresh part columns for every block.
 pub(crate) fn parse_parts(
     parts: &[&[u8]],
+    pool: &mut Vec<Part>,
     fast: &FastRow,
     ncols: usize,
     numeric: &[usize],
     has_time: bool,
-) -> Vec<Part> {
+) {
+    pool.resize_with(parts.len(), Part::default);
     parts
         .par_iter()
-        .map(|bytes| parse_part(bytes, fast, ncols, numeric, has_time))
-        .collect()
+        .zip(pool.par_iter_mut())
+        .for_each(|(bytes, part)| parse_part(bytes, part, fast, ncols, numeric, has_time));
 }
 
 fn parse_part(
     bytes: &[u8],
+    part: &mut Part,
     fast: &FastRow,
     ncols: usize,
     numeric: &[usize],
     has_time: bool,
-) -> Part {
+) {
     let rows_guess = bytes.len() / 16 + 1;
-    let mut part = Part {
-        numbers: numeric
-            .iter()
-            .map(|_| Vec::with_capacity(rows_guess))
-            .collect(),
-        time: Vec::with_capacity(if has_time { rows_guess } else { 0 }),
-        lines: Vec::with_capacity(rows_guess),
-        ..Part::default()
-    };
+    part.numbers.resize_with(numeric.len(), Vec::new);
+    for col in &mut part.numbers {
+        col.clear();
+        col.reserve(rows_guess);
+    }
+    part.time.clear();
+    if has_time {
+        part.time.reserve(rows_guess);
+    }
+    part.lines.clear();
+    part.lines.reserve(rows_guess);
+    part.stop = None;
+    part.line_count = 0;
     let mut row = vec![0.0; ncols];
     let mut last_time = None;
     let mut pos = 0;
@@ -109,14 +118,13 @@ fn parse_part(
                 }
                 None => {
                     part.stop = Some((pos, part.line_count));
-                    return part;
+                    return;
                 }
             }
         }
         part.line_count += 1;
         pos = end + 1;
     }
-    part
 }
 
 #[cfg(test)]

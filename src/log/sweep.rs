@@ -321,6 +321,7 @@ pub(crate) fn read_sweep_impl(
         _ => rayon::current_num_threads(),
     };
     if threads > 1 {
+        let mut pool: Vec<Part> = Vec::new();
         while let Some(fast) = sink.fast.clone() {
             let Some((block, consumed)) = lines.next_block().map_err(io_err)? else {
                 break;
@@ -334,14 +335,15 @@ pub(crate) fn read_sweep_impl(
                 line_no += sink.lines(block, line_no)?;
             } else {
                 let pieces = split_block(block, threads);
-                let parts = parse_parts(
+                parse_parts(
                     &pieces,
+                    &mut pool,
                     &fast,
                     header.columns.len(),
                     &sink.builder.numeric,
                     sink.builder.has_time,
                 );
-                for (bytes, part) in pieces.iter().zip(&parts) {
+                for (bytes, part) in pieces.iter().zip(&pool) {
                     line_no += sink.part(bytes, part, line_no)?;
                 }
             }
