@@ -2,7 +2,8 @@
 //! fit with lag-shifted commands, remanence and drift terms; transient rows after edges;
 //! the field minus drift; settle times and steps after pulses; decimated plot series.
 
-use crate::fit::linear::{LinearFit, LinearLeastSquares};
+use crate::fit::arrow::ArrowLeastSquares;
+use crate::fit::linear::LinearFit;
 use crate::Error;
 
 use super::timing::{self, AfterPulse, Pulse};
@@ -45,7 +46,8 @@ impl FitContext<'_> {
                 .map(|(c, _)| format!("remanence_{}", self.names[*c])),
         );
         names.extend(self.basis.names());
-        let mut ls = LinearLeastSquares::new(names, 3)?;
+        // Commands and remanence are dense; the drift terms have local support (banded).
+        let mut ls = ArrowLeastSquares::new(names, nc + nr, self.basis.bandwidth(), 3)?;
         let mut weight = vec![1.0; self.t.len()];
         let n = self.t.len();
         for (i, w) in weight.iter_mut().enumerate() {
@@ -97,7 +99,7 @@ impl FitContext<'_> {
                 self.b[1][i] - self.centre[1],
                 self.b[2][i] - self.centre[2],
             ];
-            ls.add_sparse_row(&idx, &vals, &y, weight[i]);
+            ls.add_sparse_row(&idx, &vals, &y, weight[i])?;
         }
         ls.solve()
     }
