@@ -198,9 +198,11 @@ impl FitContext<'_> {
         let mut out: [Vec<f64>; 3] = std::array::from_fn(|_| Vec::with_capacity(self.t.len()));
         let mut basis = vec![0.0; nd];
         for i in 0..self.t.len() {
-            self.basis.fill(self.t[i], &mut basis);
+            // Only the written range is valid (a knot basis leaves the rest untouched).
+            let range = self.basis.fill(self.t[i], &mut basis);
             for (a, o) in out.iter_mut().enumerate() {
-                let drift: f64 = (0..nd)
+                let drift: f64 = range
+                    .clone()
                     .map(|k| basis[k] * fit.coefficients[(nc + k, a)])
                     .sum();
                 o.push(self.b[a][i] - self.centre[a] - drift);
