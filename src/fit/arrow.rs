@@ -116,19 +116,29 @@ impl ArrowLeastSquares {
             return Ok(());
         }
         let (m, stride) = (self.head, self.bandwidth + 1);
-        for (qa, &a) in idx.iter().enumerate() {
-            let wxa = w * vals[qa];
-            for (&b, &vb) in idx[qa..].iter().zip(&vals[qa..]) {
-                let v = wxa * vb;
-                if b < m {
-                    self.a[(a, b)] += v;
-                } else if a < m {
-                    self.c[(a, b - m)] += v;
-                } else {
-                    // b − a ≤ bandwidth was checked above.
-                    self.band[(a - m) * stride + (b - a)] += v;
-                }
+        // Row entries split into head (< m) and tail; each block without a branch per pair.
+        let h = first_tail.unwrap_or(idx.len());
+        let (head_idx, tail_idx) = idx.split_at(h);
+        let (head_vals, tail_vals) = vals.split_at(h);
+        for (qa, (&a, &xa)) in head_idx.iter().zip(head_vals).enumerate() {
+            let wxa = w * xa;
+            for (&b, &xb) in head_idx[qa..].iter().zip(&head_vals[qa..]) {
+                self.a[(a, b)] += wxa * xb;
             }
+            for (&b, &xb) in tail_idx.iter().zip(tail_vals) {
+                self.c[(a, b - m)] += wxa * xb;
+            }
+        }
+        for (qa, (&a, &xa)) in tail_idx.iter().zip(tail_vals).enumerate() {
+            let wxa = w * xa;
+            let row = (a - m) * stride;
+            // b − a ≤ bandwidth was checked above.
+            for (&b, &xb) in tail_idx[qa..].iter().zip(&tail_vals[qa..]) {
+                self.band[row + (b - a)] += wxa * xb;
+            }
+        }
+        for (&a, &xa) in idx.iter().zip(vals) {
+            let wxa = w * xa;
             for (j, yj) in y.iter().enumerate() {
                 self.xty[(a, j)] += wxa * yj;
             }
