@@ -1,6 +1,8 @@
 //! Time one polarity check on a simulated log of about N rows (the same log as
 //! `benches/polarity.rs`: default simulation, cycles scaled to N, seed 42), for profiling
-//! under callgrind: `cargo run --release --example polarity_profile -- 100000`.
+//! under callgrind: `cargo run --release --example polarity_profile -- 100000 [DIR]`.
+//! With DIR the simulated log is written there once and read back on later runs (the
+//! simulation costs more instructions than the check).
 use magproof::check::polarity::{run_polarity, PolarityRequest};
 use magproof::log::plan::read_plan;
 use magproof::log::{read_sweep, ReadOptions};
@@ -15,9 +17,22 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         cycles: ((n as f64 / per_cycle).round() as usize).max(1),
         ..base
     };
-    let sim = simulate_polarity(&cfg, 42)?;
-    let dir = tempfile::tempdir()?;
-    let [csv, plan, _] = sim.write(dir.path(), "prof")?;
+    let tmp = tempfile::tempdir()?;
+    let dir = std::env::args()
+        .nth(2)
+        .map_or_else(|| tmp.path().to_path_buf(), std::path::PathBuf::from);
+    std::fs::create_dir_all(&dir)?;
+    let stem = format!("prof{n}");
+    let (csv, plan) = (
+        dir.join(format!("{stem}.csv")),
+        dir.join(format!("{stem}.plan.toml")),
+    );
+    let (csv, plan) = if csv.exists() && plan.exists() {
+        (csv, plan)
+    } else {
+        let [csv, plan, _] = simulate_polarity(&cfg, 42)?.write(&dir, &stem)?;
+        (csv, plan)
+    };
     let log = read_sweep(&csv, &ReadOptions::default())?;
     let plan = read_plan(&plan)?;
     let start = std::time::Instant::now();
