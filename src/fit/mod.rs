@@ -1,6 +1,7 @@
 //! Fits: algebraic ellipsoid fit, geometric refinement with argmin, linear cage fit,
 //! dipole fit, robust weights and covariance (DESIGN §8).
 
+pub mod arrow;
 pub mod cage;
 pub mod coverage;
 pub mod dipole;

@@ -2,7 +2,8 @@
 //! fit with lag-shifted commands, remanence and drift terms; transient rows after edges;
 //! the field minus drift; settle times and steps after pulses; decimated plot series.
 
-use crate::fit::linear::{LinearFit, LinearLeastSquares};
+use crate::fit::arrow::ArrowLeastSquares;
+use crate::fit::linear::LinearFit;
 use crate::Error;
 
 use super::timing::{self, AfterPulse, Pulse};
@@ -45,7 +46,8 @@ impl FitContext<'_> {
                 .map(|(c, _)| format!("remanence_{}", self.names[*c])),
         );
         names.extend(self.basis.names());
-        let mut ls = LinearLeastSquares::new(names, 3)?;
+        // Commands and remanence are dense; the drift terms have local support (banded).
+        let mut ls = ArrowLeastSquares::new(names, nc + nr, self.basis.bandwidth(), 3)?;
         let mut weight = vec![1.0; self.t.len()];
         let n = self.t.len();
         for (i, w) in weight.iter_mut().enumerate() {
@@ -97,7 +99,7 @@ impl FitContext<'_> {
                 self.b[1][i] - self.centre[1],
                 self.b[2][i] - self.centre[2],
             ];
-            ls.add_sparse_row(&idx, &vals, &y, weight[i]);
+            ls.add_sparse_row(&idx, &vals, &y, weight[i])?;
         }
         ls.solve()
     }
@@ -196,9 +198,11 @@ impl FitContext<'_> {
         let mut out: [Vec<f64>; 3] = std::array::from_fn(|_| Vec::with_capacity(self.t.len()));
         let mut basis = vec![0.0; nd];
         for i in 0..self.t.len() {
-            self.basis.fill(self.t[i], &mut basis);
+            // Only the written range is valid (a knot basis leaves the rest untouched).
+            let range = self.basis.fill(self.t[i], &mut basis);
             for (a, o) in out.iter_mut().enumerate() {
-                let drift: f64 = (0..nd)
+                let drift: f64 = range
+                    .clone()
                     .map(|k| basis[k] * fit.coefficients[(nc + k, a)])
                     .sum();
                 o.push(self.b[a][i] - self.centre[a] - drift);
@@ -297,5 +301,81 @@ impl FitContext<'_> {
             }
         }
         s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Field minus drift against the piecewise-linear baseline written out in closed form,
+    // drift(t) = Σ_k β_k · max(0, 1 − |x − k|) with x = (t − t0)/spacing (the hat-function
+    // basis of a linear spline), from the fitted coefficients. Weights of earlier knots
+    // must not linger from row to row.
+    #[test]
+    fn field_minus_drift_equals_the_closed_form_baseline() {
+        let n = 400;
+        let t: Vec<f64> = (0..n).map(|i| i as f64 * 0.1).collect();
+        let cmd: Vec<f64> = (0..n)
+            .map(|i| match (i / 20) % 4 {
+                1 => 1.0,
+                3 => -1.0,
+                _ => 0.0,
+            })
+            .collect();
+        let b: [Vec<f64>; 3] = std::array::from_fn(|a| {
+            (0..n)
+                .map(|i| {
+                    let ti = t[i];
+                    (a as f64 + 1.0) * 30.0 * cmd[i] + 5.0 * (0.3 * ti).sin() + 2.0 * ti
+                        - 40.0 * a as f64
+                        + 0.01 * ((i * 7919) % 13) as f64
+                })
+                .collect()
+        });
+        let basis = timing::drift_basis(
+            timing::DriftModel::Knots { spacing_s: 4.0 },
+            t[0],
+            t[n - 1] - t[0],
+            2.0,
+        );
+        let columns: Vec<&[f64]> = vec![&cmd];
+        let names = vec!["x".to_string()];
+        let ctx = FitContext {
+            t: &t,
+            b: &b,
+            columns: &columns,
+            names: &names,
+            rem: &[],
+            excluded: vec![false; n],
+            lag_s: 0.0,
+            basis: &basis,
+            centre: [1.0, 2.0, 3.0],
+        };
+        let pulses = timing::find_pulses(&columns);
+        let fit = ctx
+            .fit(&timing::shifted_rows(&t, 0.0), &pulses, &[0.0], None)
+            .unwrap();
+        let timing::DriftBasis::Knots {
+            t0_s, spacing_s, ..
+        } = basis
+        else {
+            panic!("knot basis expected");
+        };
+        let d = ctx.minus_drift(&fit);
+        for i in 0..n {
+            let x = (t[i] - t0_s) / spacing_s;
+            for a in 0..3 {
+                let drift: f64 = (0..basis.len())
+                    .map(|k| (1.0 - (x - k as f64).abs()).max(0.0) * fit.coefficients[(1 + k, a)])
+                    .sum();
+                let want = b[a][i] - ctx.centre[a] - drift;
+                assert!(
+                    (d[a][i] - want).abs() < 1e-9,
+                    "row {i} axis {a}: {} vs {want}",
+                    d[a][i]
+                );
+            }
+        }
     }
 }

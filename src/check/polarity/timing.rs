@@ -230,6 +230,16 @@ impl DriftBasis {
         }
     }
 
+    /// Largest distance between two basis functions that are non-zero at the same time
+    /// (the half-bandwidth of the drift block of the normal matrix): 1 for knots (two
+    /// adjacent hat functions), `degree` for polynomials (all of them).
+    pub fn bandwidth(&self) -> usize {
+        match self {
+            DriftBasis::Knots { .. } => 1,
+            DriftBasis::Polynomial { degree, .. } => *degree,
+        }
+    }
+
     /// Parameter names for messages.
     pub fn names(&self) -> Vec<String> {
         match self {
