@@ -245,16 +245,21 @@ pub fn run_calibrate_with_progress(
             count: log.skipped_rows.len(),
         });
     }
-    let mut samples = vec![Vector3::zeros(); idx.len()];
-    samples
-        .par_chunks_mut(PAR_CHUNK)
-        .enumerate()
-        .for_each(|(c, out)| {
-            for (j, s) in out.iter_mut().enumerate() {
-                let i = idx.row(c * PAR_CHUNK + j);
-                *s = Vector3::new(b[0][i], b[1][i], b[2][i]);
-            }
-        });
+    // Collected in parallel straight into the new vector (no serial zero-fill first).
+    let samples: Vec<Vector3<f64>> = match &idx {
+        UsedRows::All(_) => b[0]
+            .par_iter()
+            .zip(&b[1])
+            .zip(&b[2])
+            .with_min_len(PAR_CHUNK)
+            .map(|((x, y), z)| Vector3::new(*x, *y, *z))
+            .collect(),
+        UsedRows::Listed(rows) => rows
+            .par_iter()
+            .with_min_len(PAR_CHUNK)
+            .map(|&i| Vector3::new(b[0][i], b[1][i], b[2][i]))
+            .collect(),
+    };
     // The field columns now live in `samples`; free them before the fit.
     log.b_nt = None;
     let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
@@ -456,20 +461,21 @@ fn calibrate_tumble(
         .temp
         .map(|(t, _)| t.iter().sum::<f64>() / t.len() as f64)
         .unwrap_or(0.0);
-    let mut corrected = vec![Vector3::zeros(); ctx.samples.len()];
-    corrected
-        .par_chunks_mut(PAR_CHUNK)
-        .zip(ctx.samples.par_chunks(PAR_CHUNK))
-        .enumerate()
-        .for_each(|(c, (out, b))| {
-            for (j, (o, b)) in out.iter_mut().zip(b).enumerate() {
-                let tau = ctx
-                    .temp
-                    .map(|(t, _)| t[c * PAR_CHUNK + j] - tmean)
-                    .unwrap_or(0.0);
-                *o = w * (b - c_nt - k * tau);
-            }
-        });
+    let corrected: Vec<Vector3<f64>> = match ctx.temp {
+        None => ctx
+            .samples
+            .par_iter()
+            .with_min_len(PAR_CHUNK)
+            .map(|b| w * (b - c_nt))
+            .collect(),
+        Some((t, _)) => ctx
+            .samples
+            .par_iter()
+            .zip(t)
+            .with_min_len(PAR_CHUNK)
+            .map(|(b, tc)| w * (b - c_nt - k * (tc - tmean)))
+            .collect(),
+    };
     let kept: Vec<bool> = fit.weights.iter().map(|&x| x > 0.0).collect();
     let spread = direction_spread_of_kept(&corrected, &kept)
         .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;

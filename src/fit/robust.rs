@@ -1,6 +1,8 @@
 //! Robust statistics for reweighting: Tukey's biweight (Beaton & Tukey 1974) and the
 //! median absolute deviation as a Gaussian-consistent scale (Huber 1981).
 
+use rayon::prelude::*;
+
 /// Tukey biweight w(u) = (1 − u²)² for |u| < 1, else 0.
 pub fn tukey_weight(u: f64) -> f64 {
     if u.abs() < 1.0 {
@@ -49,42 +51,64 @@ pub fn median_and_sigma_near(values: &[f64], guess_median: f64, guess_sigma: f64
     // Half-widths: a quarter of σ̂ around the median holds about 20 % of Gaussian data,
     // a quarter of the MAD around the MAD about 15 %.
     let half = 0.25 * guess_sigma;
-    let mut inside = Vec::new();
-    let mut below = 0usize;
-    let mut n = 0usize;
-    let (lo, hi) = (guess_median - half, guess_median + half);
-    for &x in values {
-        if !x.is_finite() {
-            continue;
-        }
-        n += 1;
-        if x < lo {
-            below += 1;
-        } else if x <= hi {
-            inside.push(x);
-        }
-    }
+    let (n, below, mut inside) =
+        bracket_scan(values, |x| x, guess_median - half, guess_median + half);
     let Some(med) = median_from_bracket(&mut inside, below, n) else {
         return full();
     };
     let mad_guess = guess_sigma / 1.4826;
-    let (lo, hi) = (0.75 * mad_guess, 1.25 * mad_guess);
-    inside.clear();
-    let mut below = 0usize;
-    for &x in values {
-        if !x.is_finite() {
-            continue;
-        }
-        let d = (x - med).abs();
-        if d < lo {
-            below += 1;
-        } else if d <= hi {
-            inside.push(d);
-        }
-    }
+    let (_, below, mut inside) = bracket_scan(
+        values,
+        |x| (x - med).abs(),
+        0.75 * mad_guess,
+        1.25 * mad_guess,
+    );
     match median_from_bracket(&mut inside, below, n) {
         Some(mad) => (med, 1.4826 * mad),
         None => full(),
+    }
+}
+
+/// Over the finite `values`, with `f` applied: how many there are, how many fall below
+/// `lo`, and those in `[lo, hi]` (in no particular order). Parallel chunks on long
+/// inputs; within a chunk the counting and the copying into a small buffer take no
+/// data-dependent branch (random residuals would mispredict about every other one).
+fn bracket_scan(
+    values: &[f64],
+    f: impl Fn(f64) -> f64 + Sync,
+    lo: f64,
+    hi: f64,
+) -> (usize, usize, Vec<f64>) {
+    const CHUNK: usize = 65_536;
+    const BUF: usize = 256;
+    let scan = |part: &[f64]| {
+        let (mut n, mut below) = (0usize, 0usize);
+        let mut inside = Vec::new();
+        let mut buf = [0.0f64; BUF];
+        for block in part.chunks(BUF - 1) {
+            let mut k = 0;
+            for &x in block {
+                let finite = x.is_finite();
+                let d = f(x);
+                n += usize::from(finite);
+                below += usize::from(finite & (d < lo));
+                buf[k] = d;
+                k += usize::from(finite & (d >= lo) & (d <= hi));
+            }
+            inside.extend_from_slice(&buf[..k]);
+        }
+        (n, below, inside)
+    };
+    if values.len() > 2 * CHUNK {
+        values.par_chunks(CHUNK).map(scan).reduce(
+            || (0, 0, Vec::new()),
+            |mut a, b| {
+                a.2.extend_from_slice(&b.2);
+                (a.0 + b.0, a.1 + b.1, a.2)
+            },
+        )
+    } else {
+        scan(values)
     }
 }
 
@@ -139,7 +163,7 @@ mod tests {
             state ^= state << 17;
             (state >> 11) as f64 / (1u64 << 53) as f64
         };
-        for n in [1usize, 2, 3, 10, 11, 1000, 1001, 20_000] {
+        for n in [1usize, 2, 3, 10, 11, 1000, 1001, 20_000, 150_001] {
             let mut v: Vec<f64> = (0..n)
                 .map(|_| {
                     let g = (0..6).map(|_| next()).sum::<f64>() - 3.0; // ≈ N(0, 0.5)
