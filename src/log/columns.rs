@@ -55,19 +55,36 @@ impl ColumnsBuilder {
 
     /// Append the plain rows of a part whose first line is line `before + 1`.
     pub(super) fn append(&mut self, part: &Part, before: u64) {
-        for (&k, values) in self.numeric.iter().zip(&part.numbers) {
-            if let Some(col) = self.numbers.get_mut(k) {
-                col.extend_from_slice(values);
-            }
-        }
-        if self.has_time {
-            self.time.extend_from_slice(&part.time);
-        }
-        if self.has_mount {
+        let ColumnsBuilder {
+            numbers,
+            numeric,
+            time,
+            mount,
+            lines,
+            has_time,
+            has_mount,
+            ..
+        } = self;
+        if *has_mount {
             // Not reached: the fast path refuses headers with a mount column.
-            self.mount.extend(part.lines.iter().map(|_| None));
+            mount.extend(part.lines.iter().map(|_| None));
         }
-        self.lines.extend(part.lines.iter().map(|l| before + l));
+        // One task per column: on a long log most of the time here goes to paging in
+        // the growing columns, which the threads do side by side.
+        rayon::scope(|s| {
+            let targets = numbers
+                .iter_mut()
+                .enumerate()
+                .filter(|(k, _)| numeric.binary_search(k).is_ok())
+                .map(|(_, col)| col);
+            for (col, values) in targets.zip(&part.numbers) {
+                s.spawn(move |_| col.extend_from_slice(values));
+            }
+            if *has_time {
+                s.spawn(|_| time.extend_from_slice(&part.time));
+            }
+            lines.extend(part.lines.iter().map(|l| before + l));
+        });
     }
 
     pub(super) fn last_time(&self) -> Option<f64> {
