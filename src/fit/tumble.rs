@@ -275,7 +275,7 @@ pub fn fit_tumble(
 /// Logs at least this long are first fitted on a decimated subsample.
 const SEED_MIN_SAMPLES: usize = 100_000;
 /// Size of that subsample (about).
-const SEED_SAMPLES: usize = 20_000;
+const SEED_SAMPLES: usize = 10_000;
 
 /// Book-keeping of the reweighting rounds.
 struct Irls {
