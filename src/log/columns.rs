@@ -87,6 +87,32 @@ impl ColumnsBuilder {
         });
     }
 
+    /// With `bytes_read` of a file of `size_bytes` read, reserve room for the rows the
+    /// whole file holds at the bytes per row seen so far (plus 5 %). Returns true once
+    /// done (or when there is nothing to go on).
+    pub(super) fn reserve_for(&mut self, bytes_read: u64, size_bytes: Option<u64>) -> bool {
+        let rows = self.lines.len();
+        let Some(size) = size_bytes else { return true };
+        if rows < 1024 || bytes_read == 0 {
+            return false;
+        }
+        let expected = (rows as f64 * size as f64 / bytes_read as f64 * 1.05) as usize;
+        let extra = expected.saturating_sub(rows);
+        for &k in &self.numeric {
+            if let Some(col) = self.numbers.get_mut(k) {
+                col.reserve(extra);
+            }
+        }
+        if self.has_time {
+            self.time.reserve(extra);
+        }
+        if self.has_mount {
+            self.mount.reserve(extra);
+        }
+        self.lines.reserve(extra);
+        true
+    }
+
     pub(super) fn last_time(&self) -> Option<f64> {
         self.time.last().copied()
     }

@@ -194,9 +194,16 @@ mod tests {
             ..Default::default()
         };
         let read = |p| {
-            read_sweep_impl(text.as_bytes(), Path::new("e.csv"), &opts, &mut |_| {}, p)
-                .map(|log| format!("{log:?}"))
-                .map_err(|e| e.to_string())
+            read_sweep_impl(
+                text.as_bytes(),
+                Path::new("e.csv"),
+                &opts,
+                &mut |_| {},
+                p,
+                None,
+            )
+            .map(|log| format!("{log:?}"))
+            .map_err(|e| e.to_string())
         };
         let general = read(RowPath::GeneralOnly);
         assert_eq!(read(RowPath::Fast), general, "{text:?}");

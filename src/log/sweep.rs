@@ -148,7 +148,8 @@ pub fn read_sweep_with_progress(
         path: Shown(path.to_path_buf()),
         source,
     })?;
-    read_sweep_from(file, path, options, progress)
+    let size = file.metadata().map(|m| m.len()).ok();
+    read_sweep_impl(file, path, options, progress, RowPath::Fast, size)
 }
 
 /// Read a sweep log from any reader; `path` is used in messages only.
@@ -158,7 +159,7 @@ pub fn read_sweep_from(
     options: &ReadOptions,
     progress: &mut dyn FnMut(u64),
 ) -> Result<SweepLog, LogError> {
-    read_sweep_impl(reader, path, options, progress, RowPath::Fast)
+    read_sweep_impl(reader, path, options, progress, RowPath::Fast, None)
 }
 
 /// Which row parser reads the plain rows (tests compare the two).
@@ -267,6 +268,7 @@ pub(crate) fn read_sweep_impl(
     options: &ReadOptions,
     progress: &mut dyn FnMut(u64),
     row_path: RowPath,
+    size_hint_bytes: Option<u64>,
 ) -> Result<SweepLog, LogError> {
     let mut lines = LineReader::new(reader);
     let shown = || Shown(path.to_path_buf());
@@ -315,6 +317,9 @@ pub(crate) fn read_sweep_impl(
         log,
     };
 
+    // Once some rows are in, the columns get room for the whole file at the bytes per
+    // row seen so far (growing them by doubling would copy and page them in again).
+    let mut sized = size_hint_bytes.is_none();
     // Large plain blocks: parts parsed on all cores, appended in order (see parallel.rs).
     let threads = match row_path {
         RowPath::Parallel(n) => n,
@@ -346,6 +351,9 @@ pub(crate) fn read_sweep_impl(
                 for (bytes, part) in pieces.iter().zip(&pool) {
                     line_no += sink.part(bytes, part, line_no)?;
                 }
+                if !sized {
+                    sized = sink.builder.reserve_for(bytes_read, size_hint_bytes);
+                }
             }
             if bytes_read >= next_report {
                 progress(bytes_read);
@@ -357,6 +365,9 @@ pub(crate) fn read_sweep_impl(
     while let Some((buf, consumed)) = lines.next_line().map_err(io_err)? {
         line_no += 1;
         bytes_read = consumed;
+        if !sized && line_no % 1024 == 0 {
+            sized = sink.builder.reserve_for(bytes_read, size_hint_bytes);
+        }
         if bytes_read >= next_report {
             progress(bytes_read);
             next_report = bytes_read + (1 << 22);
