@@ -188,6 +188,7 @@ pub fn run_step(
             range_nt: None,
             read,
             robust: Robust::Tukey,
+            keep_corrected: true,
         })?)),
         StepKind::Polarity => {
             let sweep = read_sweep(log, &read)?;

@@ -80,6 +80,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             RobustArg::Tukey => Robust::Tukey,
             RobustArg::None => Robust::Off,
         },
+        // Only the report's plots use the corrected samples.
+        keep_corrected: args.output.report.is_some(),
     };
     let result = match super::report_out::progress_bar(&args.log) {
         None => run_calibrate(&req)?,

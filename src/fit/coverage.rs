@@ -162,16 +162,27 @@ pub fn direction_spread_of_kept(
     vectors: &[Vector3<f64>],
     keep: &[bool],
 ) -> Option<DirectionSpread> {
+    direction_spread_mapped(vectors, keep, |_, v| *v)
+}
+
+/// As [`direction_spread_of_kept`] for the vectors `map(i, &inputs[i])`, computed on the
+/// fly (nothing stored): e.g. the corrected field of each raw sample.
+pub fn direction_spread_mapped<F>(
+    inputs: &[Vector3<f64>],
+    keep: &[bool],
+    map: F,
+) -> Option<DirectionSpread>
+where
+    F: Fn(usize, &Vector3<f64>) -> Vector3<f64> + Sync,
+{
     const CHUNK: usize = 16_384;
-    let n = vectors.len().min(keep.len());
+    let n = inputs.len().min(keep.len());
     let part = |lo: usize, hi: usize| {
         let mut sums = SpreadSums::new();
-        for (v, _) in vectors[lo..hi]
-            .iter()
-            .zip(&keep[lo..hi])
-            .filter(|(_, k)| **k)
-        {
-            sums.add(v);
+        for (i, (v, k)) in inputs[lo..hi].iter().zip(&keep[lo..hi]).enumerate() {
+            if *k {
+                sums.add(&map(lo + i, v));
+            }
         }
         sums
     };

@@ -364,6 +364,7 @@ mod tests {
             range_nt: None,
             read: ReadOptions::default(),
             robust: Robust::Tukey,
+            keep_corrected: true,
         })
         .unwrap()
     }
