@@ -267,32 +267,8 @@ impl ArrowLeastSquares {
     /// Refuse a (near) singular scaled Schur complement, naming the head parameters of
     /// its weakest direction.
     fn check_head_rank(&self, s: &DMatrix<f64>) -> Result<(), Error> {
-        let m = s.nrows();
-        let eig = s.clone().symmetric_eigen();
-        let (mut imin, mut imax) = (0, 0);
-        for i in 0..m {
-            if eig.eigenvalues[i] < eig.eigenvalues[imin] {
-                imin = i;
-            }
-            if eig.eigenvalues[i] > eig.eigenvalues[imax] {
-                imax = i;
-            }
-        }
-        let rcond = eig.eigenvalues[imin] / eig.eigenvalues[imax];
-        if rcond.is_nan() || rcond <= MIN_RECIPROCAL_CONDITION {
-            let v = eig.eigenvectors.column(imin);
-            let mut involved: Vec<(f64, &str)> = (0..m)
-                .filter(|&a| v[a].abs() > 0.2)
-                .map(|a| (v[a].abs(), self.names[a].as_str()))
-                .collect();
-            involved.sort_by(|a, b| b.0.total_cmp(&a.0));
-            let list: Vec<&str> = involved.iter().map(|x| x.1).collect();
-            return Err(Error::Degenerate(format!(
-                "linear fit: the regressors {} cannot be told apart in these data (reciprocal condition {rcond:.1e}); they move together",
-                list.join(", ")
-            )));
-        }
-        Ok(())
+        let head = &self.names[..s.nrows().min(self.names.len())];
+        super::linear::refuse_ill_conditioned(s, head)
     }
 }
 

@@ -188,30 +188,7 @@ impl LinearLeastSquares {
             scale[a] = 1.0 / d.sqrt();
         }
         let scaled = DMatrix::from_fn(p, p, |a, b| xtx[(a, b)] * scale[a] * scale[b]);
-        let eig = scaled.clone().symmetric_eigen();
-        let (mut imin, mut imax) = (0, 0);
-        for i in 0..p {
-            if eig.eigenvalues[i] < eig.eigenvalues[imin] {
-                imin = i;
-            }
-            if eig.eigenvalues[i] > eig.eigenvalues[imax] {
-                imax = i;
-            }
-        }
-        let rcond = eig.eigenvalues[imin] / eig.eigenvalues[imax];
-        if rcond.is_nan() || rcond <= MIN_RECIPROCAL_CONDITION {
-            let v = eig.eigenvectors.column(imin);
-            let mut involved: Vec<(f64, &str)> = (0..p)
-                .filter(|&a| v[a].abs() > 0.2)
-                .map(|a| (v[a].abs(), self.names[a].as_str()))
-                .collect();
-            involved.sort_by(|a, b| b.0.total_cmp(&a.0));
-            let list: Vec<&str> = involved.iter().map(|x| x.1).collect();
-            return Err(Error::Degenerate(format!(
-                "linear fit: the regressors {} cannot be told apart in these data (reciprocal condition {rcond:.1e}); they move together",
-                list.join(", ")
-            )));
-        }
+        refuse_ill_conditioned(&scaled, &self.names)?;
         let chol = scaled.cholesky().ok_or_else(|| {
             Error::Degenerate("linear fit: the normal matrix is not positive definite".into())
         })?;
@@ -270,6 +247,37 @@ impl LinearFit {
     pub fn residual_sigma(&self, j: usize) -> f64 {
         self.residual_covariance[(j, j)].max(0.0).sqrt()
     }
+}
+
+/// Refuse a (near) singular unit-diagonal normal matrix, naming the parameters of its
+/// weakest direction (those with a component above 0.2 in it, largest first).
+pub(crate) fn refuse_ill_conditioned(scaled: &DMatrix<f64>, names: &[String]) -> Result<(), Error> {
+    let p = scaled.nrows();
+    let eig = scaled.clone().symmetric_eigen();
+    let (mut imin, mut imax) = (0, 0);
+    for i in 0..p {
+        if eig.eigenvalues[i] < eig.eigenvalues[imin] {
+            imin = i;
+        }
+        if eig.eigenvalues[i] > eig.eigenvalues[imax] {
+            imax = i;
+        }
+    }
+    let rcond = eig.eigenvalues[imin] / eig.eigenvalues[imax];
+    if rcond.is_nan() || rcond <= MIN_RECIPROCAL_CONDITION {
+        let v = eig.eigenvectors.column(imin);
+        let mut involved: Vec<(f64, &str)> = (0..p)
+            .filter(|&a| v[a].abs() > 0.2)
+            .map(|a| (v[a].abs(), names.get(a).map_or("?", String::as_str)))
+            .collect();
+        involved.sort_by(|a, b| b.0.total_cmp(&a.0));
+        let list: Vec<&str> = involved.iter().map(|x| x.1).collect();
+        return Err(Error::Degenerate(format!(
+            "linear fit: the regressors {} cannot be told apart in these data (reciprocal condition {rcond:.1e}); they move together",
+            list.join(", ")
+        )));
+    }
+    Ok(())
 }
 
 #[cfg(test)]

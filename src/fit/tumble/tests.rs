@@ -295,16 +295,7 @@ fn noise_free_data_fit_exactly_with_the_robust_default() {
         noise_nt: 0.0,
         ..TumbleConfig::default()
     };
-    let sim = simulate_tumble(&cfg, 6).unwrap();
-    let fit = fit_tumble(
-        &sim.samples_nt,
-        None,
-        &TumbleOptions {
-            reference_nt: Some(cfg.reference_nt),
-            ..TumbleOptions::default()
-        },
-    )
-    .unwrap();
+    let (_, fit) = simulate_and_fit(&cfg, 6);
     assert_relative_eq!(fit.hard_iron_nt, cfg.hard_iron_nt, epsilon = 1e-6);
     assert_relative_eq!(fit.soft_iron, cfg.soft_iron, epsilon = 1e-10);
     assert_eq!(fit.samples_rejected, 0);
@@ -440,16 +431,7 @@ fn a_long_log_takes_the_one_pass_route_and_recovers_truth() {
         outlier_rate: 0.01,
         ..TumbleConfig::default()
     };
-    let sim = simulate_tumble(&cfg, 23).unwrap();
-    let fit = fit_tumble(
-        &sim.samples_nt,
-        None,
-        &TumbleOptions {
-            reference_nt: Some(cfg.reference_nt),
-            ..TumbleOptions::default()
-        },
-    )
-    .unwrap();
+    let (sim, fit) = simulate_and_fit(&cfg, 23);
     assert!(fit.irls_converged && fit.solver_problems.is_empty());
     // The one-pass route reports its passes as rounds: a handful, not the damped
     // route's several solves.
@@ -465,4 +447,19 @@ fn a_long_log_takes_the_one_pass_route_and_recovers_truth() {
     }
     assert!(fit.samples_rejected >= sim.truth.outliers * 8 / 10);
     assert!(fit.samples_rejected <= sim.truth.outliers + 50);
+}
+
+/// Simulate `cfg` with `seed` and fit it with the true reference and the defaults.
+fn simulate_and_fit(cfg: &TumbleConfig, seed: u64) -> (crate::sim::tumble::TumbleSim, TumbleFit) {
+    let sim = simulate_tumble(cfg, seed).unwrap();
+    let fit = fit_tumble(
+        &sim.samples_nt,
+        None,
+        &TumbleOptions {
+            reference_nt: Some(cfg.reference_nt),
+            ..TumbleOptions::default()
+        },
+    )
+    .unwrap();
+    (sim, fit)
 }
