@@ -64,6 +64,10 @@ impl FastRow {
         let mut pos = 0usize;
         let mut time = None;
         for (k, cell) in self.cells.iter().enumerate() {
+            // A value from the exact decimal path has at most 2⁵³ as mantissa and a
+            // unit scale far below 10²⁹², so it and its scaled value are finite: only
+            // values from the general parser need the check.
+            let mut exact = true;
             let value = match cell {
                 Cell::Skip => {
                     while let Some(&c) = text.get(pos) {
@@ -85,6 +89,7 @@ impl FastRow {
                     Scan::General(end) => {
                         let v: f64 = fast_float2::parse(text.get(pos..end)?).ok()?;
                         pos = end;
+                        exact = false;
                         v
                     }
                     Scan::Unusual => return None,
@@ -102,14 +107,14 @@ impl FastRow {
                 Cell::Skip => {}
                 Cell::Number(scale) => {
                     let x = value * scale;
-                    if !x.is_finite() {
+                    if !exact && !x.is_finite() {
                         return None;
                     }
                     *numbers.get_mut(k)? = x;
                 }
                 Cell::Time(to_s) => {
                     let t = value * to_s;
-                    if !t.is_finite() || last_time.is_some_and(|prev| t < prev) {
+                    if (!exact && !t.is_finite()) || last_time.is_some_and(|prev| t < prev) {
                         return None;
                     }
                     time = Some(t);
