@@ -203,13 +203,9 @@ pub fn fit_tumble(
         p = irls(&sub, sub_t.as_deref(), r, p, &mut sub_w, opts, &mut seed)?.0;
         st.iterations += seed.iterations;
         if seed.sigma > 0.0 {
-            if let Some(s) = large::reweighted_gauss_newton(
-                samples_nt,
-                tdev.as_deref(),
-                r,
-                p.clone(),
-                seed.sigma,
-            ) {
+            if let Some(s) =
+                large::newton_passes(samples_nt, tdev.as_deref(), r, p.clone(), seed.sigma)
+            {
                 return finish(
                     samples_nt,
                     tdev.as_deref(),

@@ -359,7 +359,7 @@ fn one_pass_newton_settles_on_the_reweighting_fixed_point() {
             .map(|t| t.iter().step_by(10).copied().collect());
         let (p_sub, sigma_sub) = tight_fixed_point(&sub, sub_t.as_deref(), r, p0.clone());
         p0 = p_sub;
-        let s = large::reweighted_gauss_newton(&sim.samples_nt, tdev.as_deref(), r, p0, sigma_sub)
+        let s = large::newton_passes(&sim.samples_nt, tdev.as_deref(), r, p0, sigma_sub)
             .expect("the passes settle");
         assert!(s.passes <= 4, "{} passes", s.passes);
         // Standard errors of the parameters at the fixed point (the damped route's fit).
