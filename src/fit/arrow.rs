@@ -22,7 +22,7 @@
 
 use nalgebra::{DMatrix, DVector};
 
-use crate::fit::linear::{LinearFit, MIN_RECIPROCAL_CONDITION};
+use crate::fit::linear::{fit_from_inverse, LinearFit, MIN_RECIPROCAL_CONDITION};
 use crate::Error;
 
 /// Normal-equation accumulator for a weighted linear least-squares fit with `k` outputs,
@@ -237,31 +237,20 @@ impl ArrowLeastSquares {
                 scaled_inv[(m + row, m + col)] = u + zsz;
             }
         }
-        let normal_inverse =
-            DMatrix::from_fn(p, p, |a, b| scaled_inv[(a, b)] * scale[a] * scale[b]);
-        let coefficients = &normal_inverse * &self.xty;
         let mut yty = self.yty.clone();
         for j in 0..k {
             for l in 0..j {
                 yty[(j, l)] = yty[(l, j)];
             }
         }
-        let rss = &yty - coefficients.transpose() * &self.xty;
-        let dof = self.rows - p;
-        let mut residual_covariance = rss / dof as f64;
-        for j in 0..k {
-            if residual_covariance[(j, j)] < 0.0 {
-                residual_covariance[(j, j)] = 0.0;
-            }
-        }
-        Ok(LinearFit {
-            names: self.names.clone(),
-            coefficients,
-            normal_inverse,
-            residual_covariance,
-            rows_used: self.rows,
-            dof,
-        })
+        Ok(fit_from_inverse(
+            &self.names,
+            &scaled_inv,
+            &scale,
+            &self.xty,
+            &yty,
+            self.rows,
+        ))
     }
 
     /// Refuse a (near) singular scaled Schur complement, naming the head parameters of

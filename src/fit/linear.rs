@@ -164,7 +164,6 @@ impl LinearLeastSquares {
     /// Solve the normal equations.
     pub fn solve(&self) -> Result<LinearFit, Error> {
         let p = self.names.len();
-        let k = self.outputs;
         if self.rows <= p {
             return Err(Error::Degenerate(format!(
                 "linear fit: {} usable rows for {} parameters; more data are needed",
@@ -193,27 +192,14 @@ impl LinearLeastSquares {
             Error::Degenerate("linear fit: the normal matrix is not positive definite".into())
         })?;
         let scaled_inv = chol.inverse();
-        let normal_inverse =
-            DMatrix::from_fn(p, p, |a, b| scaled_inv[(a, b)] * scale[a] * scale[b]);
-        let coefficients = &normal_inverse * &self.xty;
-        // Weighted residual sum of squares: Yᵀ W Y − Bᵀ (Xᵀ W Y).
-        let rss = &yty - coefficients.transpose() * &self.xty;
-        let dof = self.rows - p;
-        let mut residual_covariance = rss / dof as f64;
-        // Cancellation can leave tiny negative diagonal values on noise-free data.
-        for j in 0..k {
-            if residual_covariance[(j, j)] < 0.0 {
-                residual_covariance[(j, j)] = 0.0;
-            }
-        }
-        Ok(LinearFit {
-            names: self.names.clone(),
-            coefficients,
-            normal_inverse,
-            residual_covariance,
-            rows_used: self.rows,
-            dof,
-        })
+        Ok(fit_from_inverse(
+            &self.names,
+            &scaled_inv,
+            &scale,
+            &self.xty,
+            &yty,
+            self.rows,
+        ))
     }
 }
 
@@ -246,6 +232,41 @@ impl LinearFit {
     /// Residual standard deviation of output `j` (per unit weight).
     pub fn residual_sigma(&self, j: usize) -> f64 {
         self.residual_covariance[(j, j)].max(0.0).sqrt()
+    }
+}
+
+/// The fit from the inverse of the unit-diagonal normal matrix (`scaled_inv`, with the
+/// column scales `scale`), XᵀWY, the full symmetric YᵀWY and the row count: the
+/// coefficients, (XᵀWX)⁻¹ and the residual covariance shared by the dense and the
+/// banded solvers.
+pub(crate) fn fit_from_inverse(
+    names: &[String],
+    scaled_inv: &DMatrix<f64>,
+    scale: &DVector<f64>,
+    xty: &DMatrix<f64>,
+    yty: &DMatrix<f64>,
+    rows: usize,
+) -> LinearFit {
+    let p = names.len();
+    let normal_inverse = DMatrix::from_fn(p, p, |a, b| scaled_inv[(a, b)] * scale[a] * scale[b]);
+    let coefficients = &normal_inverse * xty;
+    // Weighted residual sum of squares: Yᵀ W Y − Bᵀ (Xᵀ W Y).
+    let rss = yty - coefficients.transpose() * xty;
+    let dof = rows - p;
+    let mut residual_covariance = rss / dof as f64;
+    // Cancellation can leave tiny negative diagonal values on noise-free data.
+    for j in 0..residual_covariance.nrows() {
+        if residual_covariance[(j, j)] < 0.0 {
+            residual_covariance[(j, j)] = 0.0;
+        }
+    }
+    LinearFit {
+        names: names.to_vec(),
+        coefficients,
+        normal_inverse,
+        residual_covariance,
+        rows_used: rows,
+        dof,
     }
 }
 
