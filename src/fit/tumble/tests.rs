@@ -71,17 +71,7 @@ fn recovers_truth_and_rejects_torque_rod_firings() {
         outlier_rate: 0.03,
         ..TumbleConfig::default()
     };
-    let sim = simulate_tumble(&cfg, 11).unwrap();
-    let fit = fit_tumble(
-        &sim.samples_nt,
-        None,
-        &TumbleOptions {
-            reference_nt: Some(cfg.reference_nt),
-            robust: Robust::Tukey,
-            ..TumbleOptions::default()
-        },
-    )
-    .unwrap();
+    let (sim, fit) = simulate_and_fit(&cfg, 11);
     for a in 0..3 {
         let err = (fit.hard_iron_nt[a] - cfg.hard_iron_nt[a]).abs();
         assert!(
@@ -199,17 +189,7 @@ fn monte_carlo_sigma_is_honest_and_efficiency_near_cramer_rao() {
     let (mut sq_err, mut sum_sigma, mut crb_var) =
         (Vector3::zeros(), Vector3::zeros(), Vector3::zeros());
     for seed in 0..runs {
-        let sim = simulate_tumble(&cfg, 1000 + seed).unwrap();
-        let fit = fit_tumble(
-            &sim.samples_nt,
-            None,
-            &TumbleOptions {
-                reference_nt: Some(cfg.reference_nt),
-                robust: Robust::Tukey,
-                ..TumbleOptions::default()
-            },
-        )
-        .unwrap();
+        let (sim, fit) = simulate_and_fit(&cfg, 1000 + seed);
         let e = fit.hard_iron_nt - cfg.hard_iron_nt;
         sq_err += e.component_mul(&e);
         sum_sigma += fit.hard_iron_sigma_nt;
@@ -449,7 +429,8 @@ fn a_long_log_takes_the_one_pass_route_and_recovers_truth() {
     assert!(fit.samples_rejected <= sim.truth.outliers + 50);
 }
 
-/// Simulate `cfg` with `seed` and fit it with the true reference and the defaults.
+/// Simulate `cfg` with `seed` and fit it with the true reference and the defaults
+/// (Tukey reweighting).
 fn simulate_and_fit(cfg: &TumbleConfig, seed: u64) -> (crate::sim::tumble::TumbleSim, TumbleFit) {
     let sim = simulate_tumble(cfg, seed).unwrap();
     let fit = fit_tumble(
