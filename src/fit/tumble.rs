@@ -180,7 +180,8 @@ pub fn fit_tumble(
         sigma: 0.0,
         weight_tol: WEIGHT_TOL,
     };
-    let mut weights = vec![1.0; n];
+    // Filled only when the damped rounds run (the one-pass route brings its own).
+    let mut weights = Vec::new();
     if long_robust {
         // Large log: run the reweighting on an evenly decimated subsample first, then
         // reach the same fixed point on all samples with one-pass Newton iterations
@@ -234,11 +235,15 @@ pub fn fit_tumble(
             let res = prob.residuals(&p);
             let sigma = robust_sigma(&res);
             if sigma > 1e-9 * r {
-                for (w, r) in weights.iter_mut().zip(&res) {
-                    *w = tukey_weight(*r / (TUKEY_C * sigma));
-                }
+                weights = res
+                    .iter()
+                    .map(|r| tukey_weight(*r / (TUKEY_C * sigma)))
+                    .collect();
             }
         }
+    }
+    if weights.len() != n {
+        weights = vec![1.0; n];
     }
     let (p, res) = irls(
         samples_nt,
