@@ -37,6 +37,7 @@ use super::FitError;
 
 mod large;
 mod problem;
+use problem::CHUNK;
 pub use problem::{sym_from_params, TumbleProblem};
 
 /// Index pairs of the 6 unique elements of the symmetric W, in parameter order.
@@ -388,37 +389,53 @@ fn finish(
         }
     };
     let np = p.len();
-    let used = weights.iter().filter(|&&w| w > 0.0).count();
+    // σ̂ = 0 (noise-free data): the biweight is undefined; use plain least squares.
+    let robust = if sigma > 0.0 {
+        info.robust
+    } else {
+        Robust::Off
+    };
+    // Σψ², Σψ′, Σr² and the count over the kept samples, in chunks on long logs.
+    let sums = |res: &[f64], wts: &[f64]| {
+        let (mut psi2, mut dpsi, mut rss, mut used) = (0.0, 0.0, 0.0, 0usize);
+        for (res, w) in res.iter().zip(wts) {
+            if *w <= 0.0 {
+                continue;
+            }
+            used += 1;
+            rss += res * res;
+            match robust {
+                Robust::Off => {
+                    psi2 += res * res;
+                    dpsi += 1.0;
+                }
+                Robust::Tukey => {
+                    let u = res / (TUKEY_C * sigma);
+                    let psi = res * tukey_weight(u);
+                    psi2 += psi * psi;
+                    dpsi += (1.0 - u * u) * (1.0 - 5.0 * u * u);
+                }
+            }
+        }
+        (psi2, dpsi, rss, used)
+    };
+    let (psi2, dpsi, rss, used) = if residuals_nt.len() > 4 * CHUNK {
+        residuals_nt
+            .par_chunks(CHUNK)
+            .zip(weights.par_chunks(CHUNK))
+            .map(|(r, w)| sums(r, w))
+            .reduce(
+                || (0.0, 0.0, 0.0, 0),
+                |a, b| (a.0 + b.0, a.1 + b.1, a.2 + b.2, a.3 + b.3),
+            )
+    } else {
+        sums(&residuals_nt, &weights)
+    };
     if used <= np {
         return Err(FitError::Degenerate(format!(
             "only {used} samples kept after outlier rejection, fewer than the {} unknowns",
             np + 1
         )));
-    }
-    let (mut psi2, mut dpsi, mut rss) = (0.0, 0.0, 0.0);
-    for (res, w) in residuals_nt.iter().zip(&weights) {
-        if *w <= 0.0 {
-            continue;
-        }
-        rss += res * res;
-        // σ̂ = 0 (noise-free data): the biweight is undefined; use plain least squares.
-        let robust = if sigma > 0.0 {
-            info.robust
-        } else {
-            Robust::Off
-        };
-        match robust {
-            Robust::Off => {
-                psi2 += res * res;
-                dpsi += 1.0;
-            }
-            Robust::Tukey => {
-                let u = res / (TUKEY_C * sigma);
-                let psi = res * tukey_weight(u);
-                psi2 += psi * psi;
-                dpsi += (1.0 - u * u) * (1.0 - 5.0 * u * u);
-            }
-        }
     }
     let mean_dpsi = dpsi / used as f64;
     if !(mean_dpsi > 0.0) {

@@ -160,9 +160,15 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
         axes: Vec::new(),
         rows_per_axis: [0; 3],
     };
+    // Rows flagged on the current axis; cleared and counted only on an axis that
+    // flagged something (a clean million-row log then costs no pass over it).
     let mut on_axis = vec![false; n];
+    let mut dirty = false;
     for (axis, col) in b_nt.iter().enumerate() {
-        on_axis.iter_mut().for_each(|f| *f = false);
+        if dirty {
+            on_axis.iter_mut().for_each(|f| *f = false);
+            dirty = false;
+        }
         let ext = Extremes::of(col);
         if let Some(range) = range_nt {
             let mut count = 0;
@@ -174,6 +180,7 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
                 }
             }
             if count > 0 {
+                dirty = true;
                 report.axes.push(AxisSaturation {
                     axis,
                     count,
@@ -192,6 +199,7 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
                         count += 1;
                     }
                 }
+                dirty |= count > 0;
                 report.axes.push(AxisSaturation {
                     axis,
                     count,
@@ -200,7 +208,9 @@ pub fn find_saturation(b_nt: &[Vec<f64>; 3], range_nt: Option<f64>) -> Saturatio
                 });
             }
         }
-        report.rows_per_axis[axis] = on_axis.iter().filter(|f| **f).count();
+        if dirty {
+            report.rows_per_axis[axis] = on_axis.iter().filter(|f| **f).count();
+        }
     }
     report
 }
