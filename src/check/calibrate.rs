@@ -29,7 +29,7 @@ use crate::fit::coverage::{axis_name, direction_spread_mapped};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
 use crate::log::saturation::screen_log;
-use crate::log::{read_sweep_with_progress, Plan, ReadOptions, SweepLog};
+use crate::log::{read_sweep_with_progress, Plan, ReadOptions, RowLines, SweepLog};
 use crate::Error;
 
 /// Temperature span above which a bias slope is fitted, °C.
@@ -142,7 +142,7 @@ pub struct CalibrationData {
     /// Whether each sample was kept (false: rejected by the robust fit).
     pub kept: Vec<bool>,
     /// File line of each sample.
-    pub lines: Vec<u64>,
+    pub lines: RowLines,
     /// Time of each sample, s, when the log has one.
     pub t_s: Option<Vec<f64>>,
 }
@@ -314,7 +314,7 @@ pub fn run_calibrate_with_progress(
     res.data.lines = if all_rows {
         std::mem::take(&mut log.lines)
     } else {
-        idx.iter().map(|i| log.lines[i]).collect()
+        idx.iter().filter_map(|i| log.lines.get(i)).collect()
     };
     res.data.t_s = match log.t_s.take() {
         Some(t) if all_rows => Some(t),
@@ -545,7 +545,7 @@ fn calibrate_tumble(
             corrected_nt: corrected,
             residuals_nt: fit.residuals_nt,
             kept,
-            lines: Vec::new(),
+            lines: RowLines::new(),
             t_s: None,
         },
     })

@@ -303,7 +303,7 @@ fn evaluate_unsaturated(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleRes
                 .iter()
                 .zip(mounts)
                 .find(|(_, k)| k.and_then(|k| log.mount_labels.get(k as usize)) == Some(label))
-                .map(|(l, _)| *l)
+                .map(|(l, _)| l)
                 .unwrap_or(0);
             let known: Vec<&str> = test.mounts.iter().map(|m| m.label.as_str()).collect();
             return Err(Error::Usage(format!(
@@ -355,7 +355,7 @@ fn evaluate_unsaturated(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleRes
     let mut points = Vec::with_capacity(log.len());
     let (mut before, mut after) = (0, 0);
     for i in 0..log.len() {
-        let (Some(&Some(k)), Some(&t), Some(&line)) =
+        let (Some(&Some(k)), Some(&t), Some(line)) =
             (mounts.get(i), row_time.get(i), log.lines.get(i))
         else {
             continue;

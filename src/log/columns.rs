@@ -5,6 +5,7 @@ use std::collections::HashMap;
 
 use super::header::{ColumnKind, Header};
 use super::parallel::Part;
+use super::row_lines::RowLines;
 use super::sweep::{CommandColumn, RowParser, SweepLog};
 
 /// Accumulates good rows into columns.
@@ -14,7 +15,7 @@ pub(super) struct ColumnsBuilder {
     pub(super) numeric: Vec<usize>,
     pub(super) time: Vec<f64>,
     pub(super) mount: Vec<Option<u32>>,
-    pub(super) lines: Vec<u64>,
+    pub(super) lines: RowLines,
     pub(super) has_time: bool,
     pub(super) has_mount: bool,
     /// Index of each mount label in `SweepLog::mount_labels` (first-seen order).
@@ -40,7 +41,7 @@ impl ColumnsBuilder {
                 .collect(),
             time: Vec::new(),
             mount: Vec::new(),
-            lines: Vec::with_capacity(1024),
+            lines: RowLines::new(),
             has_time: header
                 .columns
                 .iter()
@@ -83,7 +84,7 @@ impl ColumnsBuilder {
             if *has_time {
                 s.spawn(|_| time.extend_from_slice(&part.time));
             }
-            lines.extend(part.lines.iter().map(|l| before + l));
+            lines.append_shifted(&part.lines, before);
         });
     }
 
@@ -109,7 +110,6 @@ impl ColumnsBuilder {
         if self.has_mount {
             self.mount.reserve(extra);
         }
-        self.lines.reserve(extra);
         true
     }
 

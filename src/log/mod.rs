@@ -11,6 +11,7 @@ mod number;
 mod parallel;
 pub mod plan;
 pub mod plausible;
+mod row_lines;
 pub mod saturation;
 mod sweep;
 pub mod units;
@@ -18,6 +19,7 @@ pub mod units;
 pub use error::{LogError, PlanError, Shown};
 pub use header::parse_iso8601;
 pub use plan::{read_plan, Plan};
+pub use row_lines::RowLines;
 pub use sweep::{
     read_sweep, read_sweep_from, read_sweep_with_progress, CommandColumn, ReadOptions, SkippedRow,
     SweepLog,

@@ -13,6 +13,7 @@
 use rayon::prelude::*;
 
 use super::fast_row::FastRow;
+use super::row_lines::RowLines;
 
 /// Blocks smaller than this are not split (the split costs more than it saves).
 pub(crate) const MIN_PARALLEL_BYTES: usize = 1 << 18;
@@ -26,7 +27,7 @@ pub(crate) struct Part {
     /// Time of each row, s (empty without a time column).
     pub time: Vec<f64>,
     /// Line of each row, counted from 1 at the part's first line.
-    pub lines: Vec<u64>,
+    pub lines: RowLines,
     /// Where the fast path stopped: byte offset of that line in the part, and the number
     /// of lines before it. `None` when the whole part was read.
     pub stop: Option<(usize, u64)>,
@@ -95,7 +96,6 @@ fn parse_part(
         part.time.reserve(rows_guess);
     }
     part.lines.clear();
-    part.lines.reserve(rows_guess);
     part.stop = None;
     part.line_count = 0;
     let mut row = vec![0.0; ncols];

@@ -33,7 +33,7 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
             if let Some(i) =
                 first_bad.and_then(|c| col[c * CHUNK..].iter().position(bad).map(|i| c * CHUNK + i))
             {
-                let line = log.lines.get(i).copied().unwrap_or(0);
+                let line = log.lines.get(i).unwrap_or(0);
                 return Err(Error::Degenerate(format!(
                     "{}:{line}: {prefix}{} = {:e} nT is beyond any physical field (limit \
                      {MAX_FIELD_NT:e} nT = 1000 T); check the field unit (--unit, or the \

@@ -147,7 +147,13 @@ pub fn without_rows(log: &SweepLog, drop: &[bool]) -> SweepLog {
     out.angle_rad = log.angle_rad.as_ref().map(|v| pick(v, &keep));
     out.mount = log.mount.as_ref().map(|v| pick(v, &keep));
     out.probe_m = log.probe_m.as_ref().map(pick3);
-    out.lines = pick(&log.lines, &keep);
+    out.lines = log
+        .lines
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| keep(*i))
+        .map(|(_, l)| l)
+        .collect();
     out
 }
 

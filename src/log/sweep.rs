@@ -14,6 +14,7 @@ use super::fast_row::FastRow;
 use super::header::{parse_header, ColumnKind, Header, TimeUnit};
 use super::lines::LineReader;
 use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
+use super::row_lines::RowLines;
 use super::units::FieldUnit;
 
 /// How to read a sweep log.
@@ -72,7 +73,7 @@ pub struct SweepLog {
     /// Probe position, table frame (L), m: `[px, py, pz]`.
     pub probe_m: Option<[Vec<f64>; 3]>,
     /// 1-based file line of each kept row, for messages.
-    pub lines: Vec<u64>,
+    pub lines: RowLines,
     /// Columns present in the file that no check uses, as written in the header.
     pub ignored_columns: Vec<String>,
     /// Rows skipped under `--skip-bad-rows`.
@@ -634,7 +635,7 @@ mod tests {
         )
         .unwrap();
         assert_eq!(log.len(), 2);
-        assert_eq!(log.lines, vec![3, 5]);
+        assert_eq!(log.lines.to_vec(), vec![3, 5]);
         assert_eq!(log.t_s.as_ref().unwrap()[1], 0.5);
         assert_eq!(log.b_nt.as_ref().unwrap()[2][1], 6000.0);
         assert_eq!(log.h_nt.as_ref().unwrap()[1][0], 20.0);

@@ -11,6 +11,7 @@ use crate::fit::cage::{
     fit_cage, inverse_sigma, polar_decomposition, rotation_angle, scale_and_non_orthogonality,
 };
 use crate::fit::coverage::direction_spread;
+use crate::log::RowLines;
 use crate::Error;
 
 pub(super) fn calibrate_cage(
@@ -125,7 +126,11 @@ pub(super) fn calibrate_cage(
             stretch: rows(&s),
             misalignment_deg,
             worst_residual_nt: fit.worst_residual.0,
-            worst_residual_line: ctx.log.lines[ctx.idx.row(fit.worst_residual.1)],
+            worst_residual_line: ctx
+                .log
+                .lines
+                .get(ctx.idx.row(fit.worst_residual.1))
+                .unwrap_or(0),
             axis_sigma_nt: fit.axis_sigma_nt.into(),
             condition_number: fit.condition,
         }),
@@ -140,7 +145,7 @@ pub(super) fn calibrate_cage(
             corrected_nt: corrected,
             residuals_nt: fit.residuals_nt.iter().map(|r| r.norm()).collect(),
             kept: vec![true; n],
-            lines: Vec::new(),
+            lines: RowLines::new(),
             t_s: None,
         },
     })

@@ -6,6 +6,8 @@
 
 use nalgebra::Vector3;
 
+use crate::log::RowLines;
+
 /// One run of consecutive article-absent rows.
 #[derive(Debug, Clone)]
 pub struct BackgroundSegment {
@@ -78,7 +80,7 @@ pub fn estimate_background(
     t_s: &[f64],
     mount: &[Option<u32>],
     b_nt: &[Vec<f64>; 3],
-    lines: &[u64],
+    lines: &RowLines,
 ) -> Option<Background> {
     let mut segments = Vec::new();
     let mut acc: Option<Accumulator> = None;
@@ -91,7 +93,7 @@ pub fn estimate_background(
             lines.get(i),
         );
         match (m, row) {
-            (None, (Some(&t), Some(&x), Some(&y), Some(&z), Some(&line))) => {
+            (None, (Some(&t), Some(&x), Some(&y), Some(&z), Some(line))) => {
                 acc.get_or_insert_with(|| Accumulator::new(t, line)).push(
                     t,
                     Vector3::new(x, y, z),
@@ -126,7 +128,7 @@ pub fn estimate_position_backgrounds(
     mount: &[Option<u32>],
     b_nt: &[Vec<f64>; 3],
     probe_m: &[Vec<f64>; 3],
-    lines: &[u64],
+    lines: &RowLines,
 ) -> Vec<([i64; 3], Background)> {
     let key_at = |i: usize| -> Option<[i64; 3]> {
         Some(position_key(
@@ -238,7 +240,7 @@ mod tests {
             .collect();
         let bx: Vec<f64> = t.iter().map(|t| 100.0 + 2.0 * t).collect();
         let b = [bx, vec![5.0; 25], vec![-3.0; 25]];
-        let lines: Vec<u64> = (2..27).collect();
+        let lines: RowLines = (2..27).collect();
         let bg = estimate_background(&t, &mount, &b, &lines).unwrap();
         assert_eq!(bg.segments.len(), 2);
         assert_eq!(bg.segments[1].lines, (22, 26));
@@ -256,6 +258,6 @@ mod tests {
     #[test]
     fn no_absent_row_gives_no_background() {
         let b = [vec![1.0], vec![2.0], vec![3.0]];
-        assert!(estimate_background(&[0.0], &[Some(0)], &b, &[2]).is_none());
+        assert!(estimate_background(&[0.0], &[Some(0)], &b, &RowLines::from_iter([2])).is_none());
     }
 }
