@@ -26,6 +26,7 @@ use serde::Serialize;
 pub use warnings::CalibrationWarning;
 
 use crate::fit::coverage::{axis_name, direction_spread_mapped};
+use crate::fit::samples::{FieldColumns, FieldSamples};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
 use crate::log::saturation::screen_log;
@@ -55,10 +56,12 @@ pub struct CalibrateRequest {
     /// Full-scale range per axis, nT (`--range`; beats the plan's `[magnetometer]
     /// range_nt`). Readings at or beyond it, or piled up on a rail, are left out.
     pub range_nt: Option<f64>,
-    /// Keep the corrected field of every sample in [`CalibrationData::corrected_nt`]
-    /// (the report's plots need it). Off, a tumble fit leaves it empty, which saves a
-    /// pass and 24 MB on a 10⁶-sample log; the coverage is computed either way.
-    pub keep_corrected: bool,
+    /// Keep the per-sample readings and corrected field in [`CalibrationData`]
+    /// (`samples_nt`, `corrected_nt`; the report's plots need them). Off, a tumble fit
+    /// leaves `corrected_nt` empty, and `samples_nt` too when every row was used (the
+    /// fit then reads the log's field columns in place): on a 10⁶-sample log that saves
+    /// two copies of 24 MB. The coverage is computed either way.
+    pub keep_samples: bool,
 }
 
 /// Which fit was done.
@@ -132,10 +135,11 @@ pub struct CageDetails {
 /// Per-sample data kept for plots and reports (not in the JSON).
 #[derive(Debug, Clone, Default)]
 pub struct CalibrationData {
-    /// Readings used by the fit, sensor frame, nT.
+    /// Readings used by the fit, sensor frame, nT (may be empty without
+    /// [`CalibrateRequest::keep_samples`]).
     pub samples_nt: Vec<Vector3<f64>>,
     /// Corrected field `W (b − hard_iron)` per sample, `soft_iron_frame`, nT (empty
-    /// for a tumble fit asked without [`CalibrateRequest::keep_corrected`]).
+    /// for a tumble fit asked without [`CalibrateRequest::keep_samples`]).
     pub corrected_nt: Vec<Vector3<f64>>,
     /// Residual per sample, nT (tumble: magnitude residual; cage: residual length).
     pub residuals_nt: Vec<f64>,
@@ -250,23 +254,20 @@ pub fn run_calibrate_with_progress(
             count: log.skipped_rows.len(),
         });
     }
-    // Collected in parallel straight into the new vector (no serial zero-fill first).
-    let samples: Vec<Vector3<f64>> = match &idx {
-        UsedRows::All(_) => b[0]
-            .par_iter()
-            .zip(&b[1])
-            .zip(&b[2])
-            .with_min_len(PAR_CHUNK)
-            .map(|((x, y), z)| Vector3::new(*x, *y, *z))
-            .collect(),
-        UsedRows::Listed(rows) => rows
-            .par_iter()
-            .with_min_len(PAR_CHUNK)
-            .map(|&i| Vector3::new(b[0][i], b[1][i], b[2][i]))
-            .collect(),
+    // Every row used: the fit reads the field columns in place. Else the used rows are
+    // collected in parallel straight into a new vector (no serial zero-fill first).
+    let samples = match &idx {
+        UsedRows::All(_) => Samples::Columns(
+            FieldColumns::new([&b[0], &b[1], &b[2]])
+                .ok_or_else(|| Error::Degenerate("the field columns differ in length".into()))?,
+        ),
+        UsedRows::Listed(rows) => Samples::Copied(
+            rows.par_iter()
+                .with_min_len(PAR_CHUNK)
+                .map(|&i| Vector3::new(b[0][i], b[1][i], b[2][i]))
+                .collect(),
+        ),
     };
-    // The field columns now live in `samples`; free them before the fit.
-    log.b_nt = None;
     let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
         let v: Vec<f64> = idx.iter().map(|i| t[i]).collect();
         let (lo, hi) = v
@@ -292,10 +293,10 @@ pub fn run_calibrate_with_progress(
         temp: temp_for_fit,
         saturated,
     };
-    let mut res = if log.h_nt.is_some() {
-        cage::calibrate_cage(&ctx, &mut warnings, &mut notes)?
-    } else {
-        calibrate_tumble(&ctx, &mut warnings, &mut notes)?
+    let mut res = match &ctx.samples {
+        _ if log.h_nt.is_some() => cage::calibrate_cage(&ctx, &mut warnings, &mut notes)?,
+        Samples::Columns(c) => calibrate_tumble(&ctx, c, &mut warnings, &mut notes)?,
+        Samples::Copied(v) => calibrate_tumble(&ctx, v.as_slice(), &mut warnings, &mut notes)?,
     };
     let limit = req
         .plan
@@ -308,8 +309,13 @@ pub fn run_calibrate_with_progress(
     res.notes = notes;
     res.rows_skipped = log.skipped_rows.len();
     res.samples_saturated = saturated;
-    // Per-sample data: moved, not copied, when no row was dropped.
-    res.data.samples_nt = ctx.samples;
+    // Per-sample data: moved, not copied, when rows were dropped; copied from the
+    // columns only when asked for.
+    res.data.samples_nt = match ctx.samples {
+        Samples::Copied(v) => v,
+        Samples::Columns(c) if req.keep_samples => FieldSamples::to_vec(&c),
+        Samples::Columns(_) => Vec::new(),
+    };
     let all_rows = idx.len() == log.len();
     res.data.lines = if all_rows {
         std::mem::take(&mut log.lines)
@@ -322,6 +328,31 @@ pub fn run_calibrate_with_progress(
         None => None,
     };
     Ok(res)
+}
+
+/// The readings a fit uses (sensor frame, nT), in `UsedRows` order.
+enum Samples<'a> {
+    /// Every row: the log's field columns, read in place.
+    Columns(FieldColumns<'a>),
+    /// The used rows, copied out.
+    Copied(Vec<Vector3<f64>>),
+}
+
+impl Samples<'_> {
+    fn len(&self) -> usize {
+        match self {
+            Samples::Columns(c) => FieldSamples::len(c),
+            Samples::Copied(v) => v.len(),
+        }
+    }
+
+    /// As one slice of 3-vectors (borrowed when copied out already).
+    fn vectors(&self) -> std::borrow::Cow<'_, [Vector3<f64>]> {
+        match self {
+            Samples::Columns(c) => std::borrow::Cow::Owned(FieldSamples::to_vec(c)),
+            Samples::Copied(v) => std::borrow::Cow::Borrowed(v),
+        }
+    }
 }
 
 /// The log rows a fit uses: every row, or the rows left after dropping flagged ones
@@ -372,7 +403,7 @@ struct Ctx<'a> {
     req: &'a CalibrateRequest,
     log: &'a SweepLog,
     idx: &'a UsedRows,
-    samples: Vec<Vector3<f64>>,
+    samples: Samples<'a>,
     temp: Option<(&'a [f64], f64)>,
     saturated: usize,
 }
@@ -418,8 +449,9 @@ fn conditioning_warning(cov: &Matrix3<f64>) -> Option<CalibrationWarning> {
     }
 }
 
-fn calibrate_tumble(
+fn calibrate_tumble<S: FieldSamples + ?Sized>(
     ctx: &Ctx,
+    samples: &S,
     warnings: &mut Vec<CalibrationWarning>,
     notes: &mut Vec<String>,
 ) -> Result<CalibrationResult, Error> {
@@ -428,7 +460,7 @@ fn calibrate_tumble(
         warnings.push(CalibrationWarning::Unanchored);
     }
     let fit = fit_tumble(
-        &ctx.samples,
+        samples,
         ctx.temp.map(|t| t.0),
         &TumbleOptions {
             reference_nt: reference,
@@ -446,8 +478,8 @@ fn calibrate_tumble(
             rounds: fit.irls_rounds,
         });
     }
-    let total = ctx.samples.len() + ctx.saturated;
-    if fit.samples_rejected * 10 > ctx.samples.len() {
+    let total = samples.len() + ctx.saturated;
+    if fit.samples_rejected * 10 > samples.len() {
         warnings.push(CalibrationWarning::ManyRejected {
             rejected: fit.samples_rejected,
             total,
@@ -471,14 +503,13 @@ fn calibrate_tumble(
         w * (b - c_nt - k * tau)
     };
     let kept: Vec<bool> = fit.weights.iter().map(|&x| x > 0.0).collect();
-    let spread = direction_spread_mapped(&ctx.samples, &kept, correct)
+    let spread = direction_spread_mapped(samples, &kept, correct)
         .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
-    let corrected: Vec<Vector3<f64>> = if ctx.req.keep_corrected {
-        ctx.samples
-            .par_iter()
-            .enumerate()
+    let corrected: Vec<Vector3<f64>> = if ctx.req.keep_samples {
+        (0..samples.len())
+            .into_par_iter()
             .with_min_len(PAR_CHUNK)
-            .map(|(i, b)| correct(i, b))
+            .map(|i| correct(i, &samples.at(i)))
             .collect()
     } else {
         Vec::new()

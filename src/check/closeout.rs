@@ -188,7 +188,7 @@ pub fn run_step(
             range_nt: None,
             read,
             robust: Robust::Tukey,
-            keep_corrected: true,
+            keep_samples: true,
         })?)),
         StepKind::Polarity => {
             let sweep = read_sweep(log, &read)?;

@@ -81,7 +81,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             RobustArg::None => Robust::Off,
         },
         // Only the report's plots use the corrected samples.
-        keep_corrected: args.output.report.is_some(),
+        keep_samples: args.output.report.is_some(),
     };
     let result = match super::report_out::progress_bar(&args.log) {
         None => run_calibrate(&req)?,

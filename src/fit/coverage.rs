@@ -18,6 +18,8 @@
 use nalgebra::{Matrix3, SymmetricEigen, Vector3};
 use rayon::prelude::*;
 
+use super::samples::FieldSamples;
+
 /// Number of latitude bands (equal height in z).
 pub const BANDS: usize = 6;
 /// Number of longitude sectors.
@@ -177,25 +179,15 @@ pub fn direction_spread_of_kept(
 
 /// As [`direction_spread_of_kept`] for the vectors `map(i, &inputs[i])`, computed on the
 /// fly (nothing stored): e.g. the corrected field of each raw sample.
-pub fn direction_spread_mapped<F>(
-    inputs: &[Vector3<f64>],
-    keep: &[bool],
-    map: F,
-) -> Option<DirectionSpread>
+pub fn direction_spread_mapped<S, F>(inputs: &S, keep: &[bool], map: F) -> Option<DirectionSpread>
 where
+    S: FieldSamples + ?Sized,
     F: Fn(usize, &Vector3<f64>) -> Vector3<f64> + Sync,
 {
     const CHUNK: usize = 16_384;
     let n = inputs.len().min(keep.len());
     let part = |lo: usize, hi: usize| {
-        SpreadSums::over(
-            inputs[lo..hi]
-                .iter()
-                .zip(&keep[lo..hi])
-                .enumerate()
-                .filter(|(_, (_, k))| **k)
-                .map(|(i, (v, _))| map(lo + i, v)),
-        )
+        SpreadSums::over((lo..hi).filter(|&i| keep[i]).map(|i| map(i, &inputs.at(i))))
     };
     let sums = if n > 4 * CHUNK {
         (0..n.div_ceil(CHUNK))

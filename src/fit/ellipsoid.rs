@@ -19,6 +19,7 @@
 use nalgebra::{Matrix3, Matrix6, SMatrix, Vector3, Vector4, Vector6};
 use rayon::prelude::*;
 
+use super::samples::FieldSamples;
 use super::FitError;
 
 /// Samples per parallel chunk of the scatter pass.
@@ -39,11 +40,17 @@ type Matrix10 = SMatrix<f64, 10, 10>;
 /// Degree in x, y, z of each column of D (for undoing the scaling).
 const DEGREE: [i32; 10] = [2, 2, 2, 2, 2, 2, 1, 1, 1, 0];
 
-/// Upper triangle of DᵀD for the rows of `samples_nt` centred on `mean`, and Σ|b − mean|².
-fn scatter(samples_nt: &[Vector3<f64>], mean: &Vector3<f64>) -> (Matrix10, f64) {
+/// Upper triangle of DᵀD for the samples `rows` of `samples_nt` centred on `mean`, and
+/// Σ|b − mean|².
+fn scatter<S: FieldSamples + ?Sized>(
+    samples_nt: &S,
+    rows: std::ops::Range<usize>,
+    mean: &Vector3<f64>,
+) -> (Matrix10, f64) {
     let mut s = Matrix10::zeros();
     let mut sum_sq = 0.0;
-    for b in samples_nt {
+    for i in rows {
+        let b = samples_nt.at(i);
         let (x, y, z) = (b.x - mean.x, b.y - mean.y, b.z - mean.z);
         sum_sq += x * x + y * y + z * z;
         let d = [
@@ -72,7 +79,7 @@ fn scatter(samples_nt: &[Vector3<f64>], mean: &Vector3<f64>) -> (Matrix10, f64) 
 ///
 /// Returns [`FitError::Degenerate`] when the samples do not define an ellipsoid
 /// (too few, singular scatter matrix, or the fitted quadric is not an ellipsoid).
-pub fn fit_ellipsoid(samples_nt: &[Vector3<f64>]) -> Result<EllipsoidFit, FitError> {
+pub fn fit_ellipsoid<S: FieldSamples + ?Sized>(samples_nt: &S) -> Result<EllipsoidFit, FitError> {
     let n = samples_nt.len();
     if n < 10 {
         return Err(FitError::Degenerate(format!(
@@ -80,16 +87,16 @@ pub fn fit_ellipsoid(samples_nt: &[Vector3<f64>]) -> Result<EllipsoidFit, FitErr
         )));
     }
     // Pass 1: mean.
-    let mean = samples_nt.iter().fold(Vector3::zeros(), |a, b| a + b) / n as f64;
+    let mean = (0..n).fold(Vector3::zeros(), |a, i| a + samples_nt.at(i)) / n as f64;
     // Pass 2: scatter matrix of the centred (unscaled) design rows, upper triangle; in
     // parallel chunks for long logs (exact up to the order of the sums).
     let (mut s, sum_sq) = if n > 4 * CHUNK {
-        samples_nt
-            .par_chunks(CHUNK)
-            .map(|ch| scatter(ch, &mean))
+        (0..n.div_ceil(CHUNK))
+            .into_par_iter()
+            .map(|c| scatter(samples_nt, c * CHUNK..((c + 1) * CHUNK).min(n), &mean))
             .reduce(|| (Matrix10::zeros(), 0.0), |a, b| (a.0 + b.0, a.1 + b.1))
     } else {
-        scatter(samples_nt, &mean)
+        scatter(samples_nt, 0..n, &mean)
     };
     let scale = (sum_sq / n as f64).sqrt();
     if !(scale.is_finite() && scale > 0.0) {

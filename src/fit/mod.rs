@@ -9,6 +9,7 @@ pub mod ellipsoid;
 pub mod linear;
 pub mod lm;
 pub mod robust;
+pub mod samples;
 pub mod tumble;
 
 pub use error::FitError;

@@ -33,6 +33,7 @@ use rayon::prelude::*;
 use super::ellipsoid::fit_ellipsoid;
 use super::lm::{solve, LeastSquaresProblem, LmTermination};
 pub use super::robust::{robust_sigma, tukey_weight};
+use super::samples::FieldSamples;
 use super::FitError;
 
 mod large;
@@ -121,9 +122,10 @@ const MAX_ROUNDS: usize = 20;
 const WEIGHT_TOL: f64 = 2e-3;
 
 /// Fit hard iron, soft iron (and a temperature slope when `temp_c` is given) to tumble
-/// samples (sensor frame, nT). `temp_c`, if given, has one value per sample (°C).
-pub fn fit_tumble(
-    samples_nt: &[Vector3<f64>],
+/// samples (sensor frame, nT): a slice of 3-vectors or a log's field columns read in
+/// place ([`FieldSamples`]). `temp_c`, if given, has one value per sample (°C).
+pub fn fit_tumble<S: FieldSamples + ?Sized>(
+    samples_nt: &S,
     temp_c: Option<&[f64]>,
     opts: &TumbleOptions,
 ) -> Result<TumbleFit, FitError> {
@@ -134,10 +136,9 @@ pub fn fit_tumble(
     // uses every sample.
     let long_robust = opts.robust == Robust::Tukey && n >= SEED_MIN_SAMPLES;
     let ell = if long_robust && opts.reference_nt.is_some() {
-        let sub: Vec<Vector3<f64>> = samples_nt
-            .iter()
+        let sub: Vec<Vector3<f64>> = (0..n)
             .step_by(n / SEED_SAMPLES)
-            .copied()
+            .map(|i| samples_nt.at(i))
             .collect();
         fit_ellipsoid(&sub)?
     } else {
@@ -183,13 +184,15 @@ pub fn fit_tumble(
     };
     // Filled only when the damped rounds run (the one-pass route brings its own).
     let mut weights = Vec::new();
+    // Robust scale of the subsample rounds (0 when they did not run or found none).
+    let mut seed_sigma = 0.0;
     if long_robust {
         // Large log: run the reweighting on an evenly decimated subsample first, then
         // reach the same fixed point on all samples with one-pass Newton iterations
         // (`large`), or, if those do not settle, with the damped rounds started from
         // the subsample's parameters and weights.
         let stride = n / SEED_SAMPLES;
-        let sub: Vec<Vector3<f64>> = samples_nt.iter().step_by(stride).copied().collect();
+        let sub: Vec<Vector3<f64>> = (0..n).step_by(stride).map(|i| samples_nt.at(i)).collect();
         let sub_t: Option<Vec<f64>> = tdev
             .as_ref()
             .map(|t| t.iter().step_by(stride).copied().collect());
@@ -204,43 +207,54 @@ pub fn fit_tumble(
         let mut sub_w = vec![1.0; sub.len()];
         p = irls(&sub, sub_t.as_deref(), r, p, &mut sub_w, opts, &mut seed)?.0;
         st.iterations += seed.iterations;
+        seed_sigma = seed.sigma;
         if seed.sigma > 0.0 {
             if let Some(s) =
                 large::newton_passes(samples_nt, tdev.as_deref(), r, p.clone(), seed.sigma)
             {
                 return finish(
-                    samples_nt,
-                    tdev.as_deref(),
-                    r,
                     s.p,
                     s.weights,
                     s.sigma_nt,
+                    s.residuals_nt,
+                    s.jtj_kept,
                     FinishInfo {
+                        reference_nt: r,
                         robust: opts.robust,
                         iterations: st.iterations + s.passes as u64,
                         rounds: s.passes,
                         irls_converged: true,
                         solver_problems: st.solver_problems,
-                        residuals_nt: Some(s.residuals_nt),
-                        jtj_kept: Some(s.jtj_kept),
                     },
                 );
             }
-            // The one-pass iterations did not settle: the damped rounds, from the seed.
-            let prob = TumbleProblem {
-                samples_nt,
-                temp_dev_c: tdev.as_deref(),
-                weights: None,
-                reference_nt: r,
-            };
-            let res = prob.residuals(&p);
-            let sigma = robust_sigma(&res);
-            if sigma > 1e-9 * r {
-                weights = res
-                    .iter()
-                    .map(|r| tukey_weight(*r / (TUKEY_C * sigma)))
-                    .collect();
-            }
+        }
+    }
+    // The damped rounds run on one slice of 3-vectors (copied only when the samples
+    // came as columns and the one-pass route above did not answer).
+    let owned;
+    let samples_nt: &[Vector3<f64>] = match samples_nt.as_slice() {
+        Some(v) => v,
+        None => {
+            owned = samples_nt.to_vec();
+            &owned
+        }
+    };
+    if long_robust && seed_sigma > 0.0 {
+        // The one-pass iterations did not settle: the damped rounds, from the seed.
+        let prob = TumbleProblem {
+            samples_nt,
+            temp_dev_c: tdev.as_deref(),
+            weights: None,
+            reference_nt: r,
+        };
+        let res = prob.residuals(&p);
+        let sigma = robust_sigma(&res);
+        if sigma > 1e-9 * r {
+            weights = res
+                .iter()
+                .map(|r| tukey_weight(*r / (TUKEY_C * sigma)))
+                .collect();
         }
     }
     if weights.len() != n {
@@ -255,21 +269,41 @@ pub fn fit_tumble(
         opts,
         &mut st,
     )?;
-    finish(
+    let problem = TumbleProblem {
         samples_nt,
-        tdev.as_deref(),
-        r,
+        temp_dev_c: tdev.as_deref(),
+        weights: None,
+        reference_nt: r,
+    };
+    let residuals_nt = match res {
+        Some(res) => res,
+        None => problem.residuals(&p),
+    };
+    // Unweighted JᵀJ of the kept samples, for the covariance.
+    let kept: Vec<f64> = weights
+        .iter()
+        .map(|&w| if w > 0.0 { 1.0 } else { 0.0 })
+        .collect();
+    let jtj_kept = TumbleProblem {
+        weights: Some(&kept),
+        ..problem
+    }
+    .normal_equations(&p)
+    .map_err(|e| FitError::Solver(e.to_string()))?
+    .jtj;
+    finish(
         p,
         weights,
         st.sigma,
+        residuals_nt,
+        jtj_kept,
         FinishInfo {
+            reference_nt: r,
             robust: opts.robust,
             iterations: st.iterations,
             rounds: st.rounds,
             irls_converged: st.converged,
             solver_problems: st.solver_problems,
-            residuals_nt: res,
-            jtj_kept: None,
         },
     )
 }
@@ -340,10 +374,8 @@ fn irls(
 }
 
 struct FinishInfo {
-    /// Residuals at the final parameters, when the last round computed them.
-    residuals_nt: Option<Vec<f64>>,
-    /// Unweighted JᵀJ of the kept samples at the final parameters, when computed.
-    jtj_kept: Option<DMatrix<f64>>,
+    /// Reference magnitude R, nT.
+    reference_nt: f64,
     robust: Robust,
     iterations: u64,
     rounds: usize,
@@ -351,43 +383,16 @@ struct FinishInfo {
     solver_problems: Vec<LmTermination>,
 }
 
+/// The fit at parameters `p` with the final `weights`, robust scale `sigma` (nT), the
+/// residuals there and the kept samples' unweighted JᵀJ there.
 fn finish(
-    samples_nt: &[Vector3<f64>],
-    tdev: Option<&[f64]>,
-    r: f64,
     p: DVector<f64>,
     weights: Vec<f64>,
     sigma: f64,
+    residuals_nt: Vec<f64>,
+    jtj: DMatrix<f64>,
     info: FinishInfo,
 ) -> Result<TumbleFit, FitError> {
-    let residuals_nt = match info.residuals_nt {
-        Some(r) => r,
-        None => TumbleProblem {
-            samples_nt,
-            temp_dev_c: tdev,
-            weights: None,
-            reference_nt: r,
-        }
-        .residuals(&p),
-    };
-    let jtj = match info.jtj_kept {
-        Some(m) => m,
-        None => {
-            let kept: Vec<f64> = weights
-                .iter()
-                .map(|&w| if w > 0.0 { 1.0 } else { 0.0 })
-                .collect();
-            TumbleProblem {
-                samples_nt,
-                temp_dev_c: tdev,
-                weights: Some(&kept),
-                reference_nt: r,
-            }
-            .normal_equations(&p)
-            .map_err(|e| FitError::Solver(e.to_string()))?
-            .jtj
-        }
-    };
     let np = p.len();
     // σ̂ = 0 (noise-free data): the biweight is undefined; use plain least squares.
     let robust = if sigma > 0.0 {
@@ -468,7 +473,7 @@ fn finish(
         soft_iron: w,
         temp_slope_nt_per_c: slope,
         temp_slope_sigma_nt_per_c: slope_sd,
-        reference_nt: r,
+        reference_nt: info.reference_nt,
         hard_iron_sigma_nt: Vector3::new(sd(0), sd(1), sd(2)),
         covariance,
         residual_rms_nt: (rss / used as f64).sqrt(),
@@ -494,7 +499,7 @@ pub const MIN_SAMPLES: usize = 30;
 /// constant readings, readings along one line (collinear) or in one plane (coplanar:
 /// the spread across the plane is below 2 % of the spread along it, as when the vehicle
 /// was turned about one axis only), naming the unobserved axis.
-pub fn check_tumble_data(samples_nt: &[Vector3<f64>]) -> Result<(), FitError> {
+pub fn check_tumble_data<S: FieldSamples + ?Sized>(samples_nt: &S) -> Result<(), FitError> {
     let n = samples_nt.len();
     if n < MIN_SAMPLES {
         return Err(FitError::Degenerate(format!(
@@ -502,16 +507,19 @@ pub fn check_tumble_data(samples_nt: &[Vector3<f64>]) -> Result<(), FitError> {
         )));
     }
     // Two passes (mean, then scatter about it), in parallel chunks on long logs.
-    let mean = samples_nt
-        .par_chunks(CHECK_CHUNK)
-        .map(|ch| ch.iter().fold(Vector3::zeros(), |a, b| a + b))
+    let chunks = || {
+        (0..n.div_ceil(CHECK_CHUNK))
+            .into_par_iter()
+            .map(|c| c * CHECK_CHUNK..((c + 1) * CHECK_CHUNK).min(n))
+    };
+    let mean = chunks()
+        .map(|rows| rows.fold(Vector3::zeros(), |a, i| a + samples_nt.at(i)))
         .reduce(Vector3::zeros, |a, b| a + b)
         / n as f64;
-    let cov = samples_nt
-        .par_chunks(CHECK_CHUNK)
-        .map(|ch| {
-            ch.iter().fold(Matrix3::zeros(), |a, b| {
-                let d = b - mean;
+    let cov = chunks()
+        .map(|rows| {
+            rows.fold(Matrix3::zeros(), |a, i| {
+                let d = samples_nt.at(i) - mean;
                 a + d * d.transpose()
             })
         })

@@ -29,7 +29,8 @@ pub(super) fn calibrate_cage(
         .iter()
         .map(|i| Vector3::new(h[0][i], h[1][i], h[2][i]))
         .collect();
-    let fit = fit_cage(&applied, &ctx.samples, ctx.temp.map(|t| t.0))?;
+    let samples = ctx.samples.vectors();
+    let fit = fit_cage(&applied, &samples, ctx.temp.map(|t| t.0))?;
     let plan = ctx.req.plan.as_ref();
     let article_to_cage = plan
         .and_then(|p| p.cage.as_ref())
@@ -79,11 +80,7 @@ pub(super) fn calibrate_cage(
         "W maps readings (sensor frame) to the {frame} frame; the applied field is taken as \
          the truth, so the cage's own calibration bounds this result"
     ));
-    let corrected: Vec<Vector3<f64>> = ctx
-        .samples
-        .iter()
-        .map(|b| w * (b - fit.hard_iron_nt))
-        .collect();
+    let corrected: Vec<Vector3<f64>> = samples.iter().map(|b| w * (b - fit.hard_iron_nt)).collect();
     let temperature = match (
         fit.temp_slope_nt_per_c,
         fit.temp_slope_sigma_nt_per_c,

@@ -17,7 +17,7 @@ fn request(log: PathBuf, plan: Option<&str>, reference_nt: Option<f64>) -> Calib
         reference_nt,
         read: ReadOptions::default(),
         robust: Robust::Tukey,
-        keep_corrected: true,
+        keep_samples: true,
     }
 }
 

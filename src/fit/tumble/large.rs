@@ -40,6 +40,7 @@ use rayon::prelude::*;
 use super::problem::{jacobian_row, CHUNK, MAX_P};
 use super::{sym_from_params, tukey_weight, TUKEY_C};
 use crate::fit::robust::median_and_sigma_near;
+use crate::fit::samples::FieldSamples;
 
 /// Stop when the step is below this fraction of the parameters' standard error.
 pub(super) const STEP_TOL: f64 = 1e-2;
@@ -67,8 +68,8 @@ pub(super) struct Settled {
 
 /// Run the passes from `p0` (parameters) and `sigma0_nt` (robust scale, > 0).
 /// `None` when they did not settle; the caller then falls back.
-pub(super) fn newton_passes(
-    samples_nt: &[Vector3<f64>],
+pub(super) fn newton_passes<S: FieldSamples + ?Sized>(
+    samples_nt: &S,
     temp_dev_c: Option<&[f64]>,
     reference_nt: f64,
     p0: DVector<f64>,
@@ -152,8 +153,8 @@ struct Want {
 }
 
 /// One pass's fixed inputs.
-struct PassCtx<'a> {
-    samples_nt: &'a [Vector3<f64>],
+struct PassCtx<'a, S: ?Sized> {
+    samples_nt: &'a S,
     temp_dev_c: Option<&'a [f64]>,
     reference_nt: f64,
     c: Vector3<f64>,
@@ -205,9 +206,9 @@ impl PassAcc {
     }
 }
 
-impl<'a> PassCtx<'a> {
+impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
     fn new(
-        samples_nt: &'a [Vector3<f64>],
+        samples_nt: &'a S,
         temp_dev_c: Option<&'a [f64]>,
         reference_nt: f64,
         p: &DVector<f64>,
@@ -267,15 +268,15 @@ impl<'a> PassCtx<'a> {
         let mut jtr = [0.0; NP];
         let mut j = [0.0; MAX_P];
         let hi = lo + res.len();
-        let b = &self.samples_nt[lo..hi];
         let taus = self.temp_dev_c.and_then(|t| t.get(lo..hi));
-        for (i, ((bi, ri), wi)) in b.iter().zip(res.iter_mut()).zip(wts.iter_mut()).enumerate() {
+        for (i, (ri, wi)) in res.iter_mut().zip(wts.iter_mut()).enumerate() {
+            let bi = self.samples_nt.at(lo + i);
             let tau = if NP == 12 {
                 taus.map_or(0.0, |t| t[i])
             } else {
                 0.0
             };
-            let r = jacobian_row(bi, tau, &self.c, &self.w, &self.k, &mut j) - self.reference_nt;
+            let r = jacobian_row(&bi, tau, &self.c, &self.w, &self.k, &mut j) - self.reference_nt;
             *ri = r;
             let u = r * self.inv_scale;
             let wt = tukey_weight(u);

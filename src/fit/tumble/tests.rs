@@ -444,3 +444,46 @@ fn simulate_and_fit(cfg: &TumbleConfig, seed: u64) -> (crate::sim::tumble::Tumbl
     .unwrap();
     (sim, fit)
 }
+
+/// The log's field columns read in place give the fit of the same readings as a vector
+/// of 3-vectors, on the one-pass route (long log, given reference) and on the damped
+/// route (short log, scale from the algebraic fit). Only the order of parallel sums may
+/// differ.
+#[test]
+fn field_columns_give_the_fit_of_the_vectors() {
+    use crate::fit::samples::FieldColumns;
+    for (samples, reference) in [(SEED_MIN_SAMPLES, true), (2_000, false)] {
+        let cfg = TumbleConfig {
+            samples,
+            outlier_rate: 0.01,
+            ..TumbleConfig::default()
+        };
+        let sim = simulate_tumble(&cfg, 5).unwrap();
+        let opts = TumbleOptions {
+            reference_nt: reference.then_some(cfg.reference_nt),
+            ..TumbleOptions::default()
+        };
+        let col = |a: usize| -> Vec<f64> { sim.samples_nt.iter().map(|b| b[a]).collect() };
+        let (x, y, z) = (col(0), col(1), col(2));
+        let columns = FieldColumns::new([&x, &y, &z]).unwrap();
+        let by_vectors = fit_tumble(&sim.samples_nt, None, &opts).unwrap();
+        let by_columns = fit_tumble(&columns, None, &opts).unwrap();
+        assert_eq!(by_columns.irls_rounds, by_vectors.irls_rounds, "{samples}");
+        assert_eq!(by_columns.samples_used, by_vectors.samples_used);
+        assert_relative_eq!(
+            by_columns.hard_iron_nt,
+            by_vectors.hard_iron_nt,
+            max_relative = 1e-9
+        );
+        assert_relative_eq!(
+            by_columns.soft_iron,
+            by_vectors.soft_iron,
+            max_relative = 1e-9
+        );
+        assert_relative_eq!(
+            by_columns.covariance,
+            by_vectors.covariance,
+            max_relative = 1e-6
+        );
+    }
+}

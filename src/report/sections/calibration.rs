@@ -364,7 +364,7 @@ mod tests {
             range_nt: None,
             read: ReadOptions::default(),
             robust: Robust::Tukey,
-            keep_corrected: true,
+            keep_samples: true,
         })
         .unwrap()
     }
