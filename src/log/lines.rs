@@ -3,6 +3,9 @@
 //! The file is read in blocks of [`BLOCK_BYTES`] into one reused buffer and lines are
 //! handed out as slices of it, so no per-line copy or allocation happens and the file is
 //! never held whole in memory. A line longer than the buffer grows the buffer.
+//!
+//! [`LineReader::next_block_with`] reads the block after the one being parsed into a
+//! second buffer at the same time, so the parse never waits for the file.
 
 use std::io::{self, Read};
 
@@ -13,6 +16,10 @@ pub(crate) const BLOCK_BYTES: usize = 1 << 22;
 pub(crate) struct LineReader<R> {
     inner: R,
     buf: Vec<u8>,
+    /// Second buffer for reading ahead (empty until [`LineReader::next_block_with`]).
+    spare: Vec<u8>,
+    /// An error of a read ahead, returned by the next read.
+    read_error: Option<io::Error>,
     start: usize,
     end: usize,
     eof: bool,
@@ -30,6 +37,8 @@ impl<R: Read> LineReader<R> {
         LineReader {
             inner,
             buf: vec![0; block.max(1)],
+            spare: Vec::new(),
+            read_error: None,
             start: 0,
             end: 0,
             eof: false,
@@ -63,9 +72,18 @@ impl<R: Read> LineReader<R> {
     }
 
     /// As many complete lines as the buffer holds (each ending with `\n`), after
-    /// filling the buffer, with the bytes handed out so far; `None` when no complete
-    /// line is left (the caller then goes on with [`LineReader::next_line`]).
-    pub fn next_block(&mut self) -> io::Result<Option<(&[u8], u64)>> {
+    /// filling the buffer, handed to `work`, with the bytes handed out so far; `None`
+    /// when no complete line is left (the caller then goes on with
+    /// [`LineReader::next_line`]). While `work` runs, the next block is read into a second buffer on another thread, which then
+    /// becomes the current one. Returns what `work` returned. An error of that read is
+    /// kept and returned by the next call that reads (so the block's own outcome comes
+    /// first, as in file order).
+    pub fn next_block_with<T, F>(&mut self, work: F) -> io::Result<Option<(T, u64)>>
+    where
+        R: Send,
+        T: Send,
+        F: FnOnce(&[u8]) -> T + Send,
+    {
         while !self.eof && (self.start > 0 || self.end < self.buf.len()) {
             if self.start == 0 && self.end < self.buf.len() {
                 self.read_more()?;
@@ -73,14 +91,41 @@ impl<R: Read> LineReader<R> {
                 self.compact();
             }
         }
-        let pending = &self.buf[self.start..self.end];
-        let Some(last) = memchr::memrchr(b'\n', pending) else {
+        let Some(last) = memchr::memrchr(b'\n', &self.buf[self.start..self.end]) else {
             return Ok(None);
         };
-        let a = self.start;
-        self.start += last + 1;
-        self.consumed += last as u64 + 1;
-        Ok(Some((&self.buf[a..self.start], self.consumed)))
+        let block_end = self.start + last + 1;
+        let LineReader {
+            inner,
+            buf,
+            spare,
+            read_error,
+            start,
+            end,
+            eof,
+            consumed,
+        } = self;
+        // The unfinished line after the block goes to the front of the spare buffer and
+        // the file's next bytes after it.
+        let tail = *end - block_end;
+        spare.resize(buf.len(), 0);
+        spare[..tail].copy_from_slice(&buf[block_end..*end]);
+        let block = &buf[*start..block_end];
+        let (out, ahead) = rayon::join(|| work(block), || fill(inner, &mut spare[..], tail));
+        *consumed += (block_end - *start) as u64;
+        std::mem::swap(buf, spare);
+        *start = 0;
+        match ahead {
+            Ok((filled, hit_eof)) => {
+                *end = filled;
+                *eof = hit_eof;
+            }
+            Err(e) => {
+                *end = tail;
+                *read_error = Some(e);
+            }
+        }
+        Ok(Some((out, *consumed)))
     }
 
     fn compact(&mut self) {
@@ -103,6 +148,9 @@ impl<R: Read> LineReader<R> {
 
     /// One read into the free end of the buffer (which must have room).
     fn read_more(&mut self) -> io::Result<()> {
+        if let Some(e) = self.read_error.take() {
+            return Err(e);
+        }
         loop {
             match self.inner.read(&mut self.buf[self.end..]) {
                 Ok(0) => {
@@ -118,6 +166,21 @@ impl<R: Read> LineReader<R> {
             }
         }
     }
+}
+
+/// Read into `buf` after its first `from` bytes until it is full or the file ends.
+/// Returns the bytes held and whether the file ended.
+fn fill(inner: &mut impl Read, buf: &mut [u8], from: usize) -> io::Result<(usize, bool)> {
+    let mut end = from;
+    while end < buf.len() {
+        match inner.read(&mut buf[end..]) {
+            Ok(0) => return Ok((end, true)),
+            Ok(n) => end += n,
+            Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(e),
+        }
+    }
+    Ok((end, false))
 }
 
 #[cfg(test)]
@@ -149,19 +212,84 @@ mod tests {
         let text = b"a,b\r\n\n1,2\nlonger line here\n\nlast";
         let want: Vec<Vec<u8>> = text.split(|&c| c == b'\n').map(|l| l.to_vec()).collect();
         for block in 1..12 {
-            let mut r = LineReader::with_block(&text[..], block);
-            let mut got = Vec::new();
-            // One line, then blocks, then the rest line by line.
-            got.push(r.next_line().unwrap().unwrap().0.to_vec());
-            while let Some((b, _)) = r.next_block().unwrap() {
-                assert!(b.ends_with(b"\n"));
-                got.extend(b[..b.len() - 1].split(|&c| c == b'\n').map(|l| l.to_vec()));
+            for trickle in [false, true] {
+                let mut r = LineReader::with_block(Trickle::new(text, trickle), block);
+                let mut got = Vec::new();
+                // One line, then blocks (each read while the one before is handled),
+                // then the rest line by line.
+                got.push(r.next_line().unwrap().unwrap().0.to_vec());
+                while let Some((lines, _)) = r
+                    .next_block_with(|b| {
+                        assert!(b.ends_with(b"\n"));
+                        b[..b.len() - 1]
+                            .split(|&c| c == b'\n')
+                            .map(|l| l.to_vec())
+                            .collect::<Vec<_>>()
+                    })
+                    .unwrap()
+                {
+                    got.extend(lines);
+                }
+                while let Some((l, _)) = r.next_line().unwrap() {
+                    got.push(l.to_vec());
+                }
+                assert_eq!(got, want, "block {block}");
+                assert_eq!(r.consumed, text.len() as u64);
             }
-            while let Some((l, _)) = r.next_line().unwrap() {
-                got.push(l.to_vec());
+        }
+    }
+
+    #[test]
+    fn an_error_while_reading_ahead_comes_after_the_block_before_it() {
+        let text = b"1,2\n3,4\n5,6\n7,8\n";
+        let mut r = LineReader::with_block(Trickle::failing_after(text, 8), 8);
+        // The first block is whole; reading the next one fails meanwhile.
+        let (first, _) = r.next_block_with(|b| b.to_vec()).unwrap().unwrap();
+        assert_eq!(first, b"1,2\n3,4\n");
+        let err = r.next_block_with(|b| b.to_vec()).unwrap_err();
+        assert_eq!(err.kind(), io::ErrorKind::Other);
+    }
+
+    /// A reader that hands out one byte per read (`trickle`) or everything it can, and
+    /// fails once `fail_after` bytes have gone.
+    struct Trickle<'a> {
+        text: &'a [u8],
+        trickle: bool,
+        fail_after: usize,
+        given: usize,
+    }
+
+    impl<'a> Trickle<'a> {
+        fn new(text: &'a [u8], trickle: bool) -> Self {
+            Trickle {
+                text,
+                trickle,
+                fail_after: usize::MAX,
+                given: 0,
             }
-            assert_eq!(got, want, "block {block}");
-            assert_eq!(r.consumed, text.len() as u64);
+        }
+
+        fn failing_after(text: &'a [u8], fail_after: usize) -> Self {
+            Trickle {
+                fail_after,
+                ..Trickle::new(text, false)
+            }
+        }
+    }
+
+    impl Read for Trickle<'_> {
+        fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+            if self.given >= self.fail_after {
+                return Err(io::Error::other("device went away"));
+            }
+            let left = &self.text[self.given..];
+            let mut n = left.len().min(buf.len()).min(self.fail_after - self.given);
+            if self.trickle {
+                n = n.min(1);
+            }
+            buf[..n].copy_from_slice(&left[..n]);
+            self.given += n;
+            Ok(n)
         }
     }
 

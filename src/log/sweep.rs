@@ -155,7 +155,7 @@ pub fn read_sweep_with_progress(
 
 /// Read a sweep log from any reader; `path` is used in messages only.
 pub fn read_sweep_from(
-    reader: impl Read,
+    reader: impl Read + Send,
     path: &Path,
     options: &ReadOptions,
     progress: &mut dyn FnMut(u64),
@@ -264,7 +264,7 @@ impl RowSink<'_> {
 }
 
 pub(crate) fn read_sweep_impl(
-    reader: impl Read,
+    reader: impl Read + Send,
     path: &Path,
     options: &ReadOptions,
     progress: &mut dyn FnMut(u64),
@@ -328,33 +328,40 @@ pub(crate) fn read_sweep_impl(
     };
     if threads > 1 {
         let mut pool: Vec<Part> = Vec::new();
+        let min_bytes = match row_path {
+            RowPath::Parallel(_) => 0,
+            _ => MIN_PARALLEL_BYTES,
+        };
         while let Some(fast) = sink.fast.clone() {
-            let Some((block, consumed)) = lines.next_block().map_err(io_err)? else {
-                break;
-            };
-            bytes_read = consumed;
-            let min_bytes = match row_path {
-                RowPath::Parallel(_) => 0,
-                _ => MIN_PARALLEL_BYTES,
-            };
-            if block.len() < min_bytes {
-                line_no += sink.lines(block, line_no)?;
-            } else {
+            // While this block is parsed, the next one is read (see `LineReader`).
+            let before = line_no;
+            let (sink, pool) = (&mut sink, &mut pool);
+            let parse = |block: &[u8]| -> Result<u64, LogError> {
+                if block.len() < min_bytes {
+                    return sink.lines(block, before);
+                }
                 let pieces = split_block(block, threads);
                 parse_parts(
                     &pieces,
-                    &mut pool,
+                    pool,
                     &fast,
                     header.columns.len(),
                     &sink.builder.numeric,
                     sink.builder.has_time,
                 );
-                for (bytes, part) in pieces.iter().zip(&pool) {
-                    line_no += sink.part(bytes, part, line_no)?;
+                let mut done = 0;
+                for (bytes, part) in pieces.iter().zip(pool.iter()) {
+                    done += sink.part(bytes, part, before + done)?;
                 }
-                if !sized {
-                    sized = sink.builder.reserve_for(bytes_read, size_hint_bytes);
-                }
+                Ok(done)
+            };
+            let Some((done, consumed)) = lines.next_block_with(parse).map_err(io_err)? else {
+                break;
+            };
+            line_no += done?;
+            bytes_read = consumed;
+            if !sized {
+                sized = sink.builder.reserve_for(bytes_read, size_hint_bytes);
             }
             if bytes_read >= next_report {
                 progress(bytes_read);
