@@ -23,16 +23,13 @@ pub const MIN_SIGNAL_NT: f64 = 1e-3;
 /// [`MAX_FIELD_NT`], or whose field readings all lie below [`MIN_SIGNAL_NT`].
 pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
     let groups = [("b", log.b_nt.as_ref()), ("h", log.h_nt.as_ref())];
+    // Largest |b| over the three field columns, found in the same pass.
+    let mut largest = 0.0_f64;
     for (prefix, cols) in groups {
         let Some(cols) = cols else { continue };
         for (axis, col) in cols.iter().enumerate() {
-            let bad = |v: &f64| v.is_nan() || v.abs() > MAX_FIELD_NT;
-            let first_bad = col
-                .par_chunks(CHUNK)
-                .position_first(|ch| ch.iter().any(bad));
-            if let Some(i) =
-                first_bad.and_then(|c| col[c * CHUNK..].iter().position(bad).map(|i| c * CHUNK + i))
-            {
+            let (first_bad, col_largest) = scan(col);
+            if let Some(i) = first_bad {
                 let line = log.lines.get(i).unwrap_or(0);
                 return Err(Error::Degenerate(format!(
                     "{}:{line}: {prefix}{} = {:e} nT is beyond any physical field (limit \
@@ -43,17 +40,12 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
                     col[i]
                 )));
             }
+            if prefix == "b" {
+                largest = largest.max(col_largest);
+            }
         }
     }
     if let Some(b) = &log.b_nt {
-        let largest = b
-            .iter()
-            .map(|c| {
-                c.par_chunks(CHUNK)
-                    .map(|ch| ch.iter().fold(0.0_f64, |m, v| m.max(v.abs())))
-                    .reduce(|| 0.0, f64::max)
-            })
-            .fold(0.0_f64, f64::max);
         if !b[0].is_empty() && largest < MIN_SIGNAL_NT {
             return Err(Error::Degenerate(format!(
                 "{}: the largest field reading is {largest:e} nT, below {MIN_SIGNAL_NT:e} nT \
@@ -64,6 +56,44 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
         }
     }
     Ok(())
+}
+
+/// One pass over a column (in parallel chunks): the index of its first value that is
+/// NaN or beyond [`MAX_FIELD_NT`], and its largest |value| (meaningful when there is
+/// no such value).
+fn scan(col: &[f64]) -> (Option<usize>, f64) {
+    // NaN or too large (the negated comparison is also true for NaN).
+    #[allow(clippy::neg_cmp_op_on_partial_ord)]
+    fn is_bad(abs: f64) -> bool {
+        !(abs <= MAX_FIELD_NT)
+    }
+    let chunk = |(c, ch): (usize, &[f64])| {
+        let mut largest = 0.0_f64;
+        let mut bad = false;
+        for v in ch {
+            let a = v.abs();
+            bad |= is_bad(a);
+            largest = largest.max(a);
+        }
+        let first = if bad {
+            ch.iter()
+                .position(|v| is_bad(v.abs()))
+                .map(|i| c * CHUNK + i)
+        } else {
+            None
+        };
+        (first, largest)
+    };
+    col.par_chunks(CHUNK).enumerate().map(chunk).reduce(
+        || (None, 0.0),
+        |(fa, la), (fb, lb)| {
+            let first = match (fa, fb) {
+                (Some(a), Some(b)) => Some(a.min(b)),
+                (a, b) => a.or(b),
+            };
+            (first, la.max(lb))
+        },
+    )
 }
 
 #[cfg(test)]
@@ -84,6 +114,22 @@ mod tests {
         let log = log_of([vec![1.0, 2.0], vec![3.0, 4e300], vec![5.0, 6.0]]);
         let e = check_field_scale(&log).unwrap_err().to_string();
         assert!(e.contains(":3:") && e.contains("by = 4e300"), "{e}");
+    }
+
+    #[test]
+    fn the_first_bad_value_of_a_long_column_is_named() {
+        // Past several parallel chunks; a NaN later on must not win over the first.
+        let n = 5 * CHUNK;
+        let mut by = vec![40_000.0; n];
+        by[3 * CHUNK + 7] = -2e13;
+        by[4 * CHUNK] = f64::NAN;
+        let log = log_of([vec![1.0; n], by, vec![2.0; n]]);
+        let e = check_field_scale(&log).unwrap_err().to_string();
+        let line = 2 + 3 * CHUNK + 7;
+        assert!(
+            e.contains(&format!(":{line}:")) && e.contains("-2e13"),
+            "{e}"
+        );
     }
 
     #[test]
