@@ -1,5 +1,8 @@
 //! Paired A/B timing of the sweep-log number scanner (issue 10), outside cargo.
 //!
+//! Kept in a subfolder of `benches/` so that cargo does not build it as a bench target
+//! (it needs the two copies below, which exist only while comparing).
+//!
 //! Two versions of `src/log/number.rs` are compiled into one program and timed on the
 //! cells of one log, alternating which goes first, round after round; the median of the
 //! per-round time ratios cancels most of the drift of a loaded machine. Each row is read
@@ -9,7 +12,7 @@
 //! ```sh
 //! git show 6b833ba:src/log/number.rs > /tmp/number_old.rs   # the version to compare with
 //! cp src/log/number.rs /tmp/number_new.rs
-//! rustc -O --edition 2021 tools/scan_ab.rs -o /tmp/scan_ab
+//! rustc -O --edition 2021 benches/ab/scan_ab.rs -o /tmp/scan_ab
 //! /tmp/scan_ab /tmp/big/big.csv 41
 //! ```
 
