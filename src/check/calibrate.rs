@@ -502,7 +502,12 @@ fn calibrate_tumble<S: FieldSamples + ?Sized>(
         let tau = ctx.temp.map_or(0.0, |(t, _)| t[i] - tmean);
         w * (b - c_nt - k * tau)
     };
-    let kept: Vec<bool> = fit.weights.iter().map(|&x| x > 0.0).collect();
+    let kept: Vec<bool> = fit
+        .weights
+        .par_iter()
+        .with_min_len(PAR_CHUNK)
+        .map(|&x| x > 0.0)
+        .collect();
     let spread = direction_spread_mapped(samples, &kept, correct)
         .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
     let corrected: Vec<Vector3<f64>> = if ctx.req.keep_samples {

@@ -506,25 +506,28 @@ pub fn check_tumble_data<S: FieldSamples + ?Sized>(samples_nt: &S) -> Result<(),
             "a tumble fit needs at least {MIN_SAMPLES} samples, found {n}"
         )));
     }
-    // Two passes (mean, then scatter about it), in parallel chunks on long logs.
-    let chunks = || {
-        (0..n.div_ceil(CHECK_CHUNK))
-            .into_par_iter()
-            .map(|c| c * CHECK_CHUNK..((c + 1) * CHECK_CHUNK).min(n))
-    };
-    let mean = chunks()
-        .map(|rows| rows.fold(Vector3::zeros(), |a, i| a + samples_nt.at(i)))
-        .reduce(Vector3::zeros, |a, b| a + b)
-        / n as f64;
-    let cov = chunks()
-        .map(|rows| {
-            rows.fold(Matrix3::zeros(), |a, i| {
-                let d = samples_nt.at(i) - mean;
-                a + d * d.transpose()
-            })
+    // One pass, in parallel chunks on long logs: sums of d = b − b₀ and of d dᵀ about
+    // the first sample b₀ (shifted so that the field's offset does not cancel
+    // digits), then cov = Σ d dᵀ / n − d̄ d̄ᵀ.
+    let origin = samples_nt.at(0);
+    let (sum, sum_sq) = (0..n.div_ceil(CHECK_CHUNK))
+        .into_par_iter()
+        .map(|c| {
+            (c * CHECK_CHUNK..((c + 1) * CHECK_CHUNK).min(n)).fold(
+                (Vector3::zeros(), Matrix3::zeros()),
+                |(s, ss): (Vector3<f64>, Matrix3<f64>), i| {
+                    let d = samples_nt.at(i) - origin;
+                    (s + d, ss + d * d.transpose())
+                },
+            )
         })
-        .reduce(Matrix3::zeros, |a, b| a + b)
-        / n as f64;
+        .reduce(
+            || (Vector3::zeros(), Matrix3::zeros()),
+            |a, b| (a.0 + b.0, a.1 + b.1),
+        );
+    let shift = sum / n as f64;
+    let mean = origin + shift;
+    let cov = sum_sq / n as f64 - shift * shift.transpose();
     let eig = nalgebra::SymmetricEigen::new(cov);
     let mut idx = [0usize, 1, 2];
     idx.sort_by(|&a, &b| eig.eigenvalues[a].total_cmp(&eig.eigenvalues[b]));
