@@ -35,6 +35,7 @@ use super::lm::{solve, LeastSquaresProblem, LmTermination};
 pub use super::robust::{robust_sigma, tukey_weight};
 use super::FitError;
 
+mod lanes;
 mod large;
 mod problem;
 pub use problem::{sym_from_params, TumbleProblem};
