@@ -36,6 +36,7 @@ pub use super::robust::{robust_sigma, tukey_weight};
 use super::samples::FieldSamples;
 use super::FitError;
 
+mod lanes;
 mod large;
 mod problem;
 use problem::CHUNK;

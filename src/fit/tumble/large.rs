@@ -37,8 +37,11 @@
 use nalgebra::{DMatrix, DVector, Matrix3, Vector3};
 use rayon::prelude::*;
 
-use super::problem::{jacobian_row, CHUNK, MAX_P};
-use super::{sym_from_params, tukey_weight, TUKEY_C};
+use super::lanes::{
+    gradient_block, triangle_block, LaneTriangle, Mask2, Rows, BLOCK, GROUPS, L2, LANES,
+};
+use super::problem::{CHUNK, MAX_P};
+use super::{sym_from_params, TUKEY_C};
 use crate::fit::robust::median_and_sigma_near;
 use crate::fit::samples::FieldSamples;
 
@@ -254,7 +257,11 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         }
     }
 
-    /// Samples `lo .. lo + res.len()`.
+    /// Samples `lo .. lo + res.len()`, in blocks of [`BLOCK`]: the Jacobian rows of a
+    /// block go into per-parameter arrays first (zero for a dropped sample and for the
+    /// padding after a short last block), then the triangles are summed tile by tile
+    /// (see [`triangle_block`]), so each loaded value feeds several products and the partial sums
+    /// stay in registers. Only the order of the additions differs from a per-sample sum.
     #[inline(always)]
     fn chunk<const NP: usize, const NEWTON: bool, const KEPT: bool>(
         &self,
@@ -263,56 +270,341 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         wts: &mut [f64],
     ) -> PassAcc {
         let mut acc = PassAcc::default();
-        let mut jtj = [[0.0; NP]; NP];
-        let mut jtj_kept = [[0.0; NP]; NP];
-        let mut jtr = [0.0; NP];
-        let mut j = [0.0; MAX_P];
+        let mut jtj: LaneTriangle<NP> = [[[0.0; LANES]; NP]; NP];
+        let mut jtj_kept: LaneTriangle<NP> = [[[0.0; LANES]; NP]; NP];
+        let mut jtr = [[0.0; LANES]; NP];
+        // Per block: J of the kept samples, slope × J, and w r, by parameter then sample.
+        let mut jb: Rows<NP> = [[[0.0; LANES]; GROUPS]; NP];
+        let mut sjb: Rows<NP> = [[[0.0; LANES]; GROUPS]; NP];
+        let mut wrb = [[0.0; LANES]; GROUPS];
         let hi = lo + res.len();
         let taus = self.temp_dev_c.and_then(|t| t.get(lo..hi));
-        for (i, (ri, wi)) in res.iter_mut().zip(wts.iter_mut()).enumerate() {
-            let bi = self.samples_nt.at(lo + i);
-            let tau = if NP == 12 {
-                taus.map_or(0.0, |t| t[i])
+        let blocks = res.chunks_mut(BLOCK).zip(wts.chunks_mut(BLOCK));
+        let mut sum_sq_w = [0.0; LANES];
+        let mut count = 0;
+        for (blk, (rs, ws)) in blocks.enumerate() {
+            let ts = taus.and_then(|t| t.get(blk * BLOCK..blk * BLOCK + rs.len()));
+            count += self.block_rows::<NP, NEWTON>(
+                lo + blk * BLOCK,
+                ts,
+                rs,
+                ws,
+                &mut jb,
+                &mut sjb,
+                &mut wrb,
+                &mut sum_sq_w,
+            );
+            gradient_block(&jb, &wrb, &mut jtr);
+            if NEWTON {
+                triangle_block(&sjb, &jb, &mut jtj);
+            }
+            if KEPT {
+                triangle_block(&jb, &jb, &mut jtj_kept);
+            }
+        }
+        acc.sum_sq_w = sum_sq_w[0] + sum_sq_w[1];
+        acc.count = count;
+        for a in 0..NP {
+            acc.gradient[a] = jtr[a][0] + jtr[a][1];
+            for b in a..NP {
+                acc.hessian[a][b] = jtj[a][b][0] + jtj[a][b][1];
+                acc.jtj_kept[a][b] = jtj_kept[a][b][0] + jtj_kept[a][b][1];
+            }
+        }
+        acc
+    }
+
+    /// One block, samples `first ..` (as many as `rs` holds): residuals and weights (into `rs`, `ws`) and, lane by lane, its rows:
+    /// J of the kept samples into `jb`, ψ′ × J into `sjb` (if NEWTON), w r into `wrb`,
+    /// zero for a dropped sample and past the end of a short block; adds Σ w r² to
+    /// `sum_sq_w` and returns the number kept. The arithmetic is that of
+    /// [`jacobian_row`], written out over the samples of a lane group so that two
+    /// samples share each SSE2 operation (square root and divisions included).
+    #[allow(clippy::too_many_arguments)]
+    #[inline(always)]
+    fn block_rows<const NP: usize, const NEWTON: bool>(
+        &self,
+        first: usize,
+        ts: Option<&[f64]>,
+        rs: &mut [f64],
+        ws: &mut [f64],
+        jb: &mut Rows<NP>,
+        sjb: &mut Rows<NP>,
+        wrb: &mut [[f64; LANES]; GROUPS],
+        sum_sq_w: &mut [f64; LANES],
+    ) -> usize {
+        let len = rs.len();
+        // d = b − c − k τ per axis; zero past the end of the block.
+        let mut d = [[[0.0; LANES]; GROUPS]; 3];
+        let mut tau = [[0.0; LANES]; GROUPS];
+        for kk in 0..len {
+            let bi = self.samples_nt.at(first + kk);
+            let (g, l) = (kk / LANES, kk % LANES);
+            let t = if NP == 12 {
+                ts.and_then(|t| t.get(kk)).copied().unwrap_or(0.0)
             } else {
                 0.0
             };
-            let r = jacobian_row(&bi, tau, &self.c, &self.w, &self.k, &mut j) - self.reference_nt;
-            *ri = r;
-            let u = r * self.inv_scale;
-            let wt = tukey_weight(u);
-            *wi = wt;
-            if !(wt > 0.0) {
-                continue;
+            tau[g][l] = t;
+            for i in 0..3 {
+                d[i][g][l] = bi[i] - self.c[i] - self.k[i] * t;
             }
+        }
+        let w = &self.w;
+        let zero = L2::splat(0.0);
+        let one = L2::splat(1.0);
+        let mut r_out = [[0.0; LANES]; GROUPS];
+        let mut w_out = [[0.0; LANES]; GROUPS];
+        let mut kept = [[false; LANES]; GROUPS];
+        let mut ssw = zero;
+        for g in 0..GROUPS {
+            let dv = [L2(d[0][g]), L2(d[1][g]), L2(d[2][g])];
+            let mut v = [zero; 3];
+            for i in 0..3 {
+                v[i] = L2::splat(w[(i, 0)]) * dv[0]
+                    + L2::splat(w[(i, 1)]) * dv[1]
+                    + L2::splat(w[(i, 2)]) * dv[2];
+            }
+            let n = (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+            // v̂ = v / n, 0 where n = 0 (then v = 0, and 0 / 1 = 0); dividing by a
+            // selected denominator keeps the divisions unconditional. A NaN n gives a
+            // NaN row (not 0 as in `jacobian_row`), but such a sample has weight 0 and
+            // its row is masked out below.
+            let den = L2::select(n.gt(zero), n, one);
+            let vh = [v[0] / den, v[1] / den, v[2] / den];
+            // W symmetric: ∂n/∂d = (W v̂)ᵀ.
+            let mut wv = [zero; 3];
+            for i in 0..3 {
+                wv[i] = L2::splat(w[(i, 0)]) * vh[0]
+                    + L2::splat(w[(i, 1)]) * vh[1]
+                    + L2::splat(w[(i, 2)]) * vh[2];
+            }
+            let r = n - L2::splat(self.reference_nt);
+            let u = r * L2::splat(self.inv_scale);
+            let one_u2 = one - u * u;
+            let wt = L2::select(u.abs().lt(one), one_u2 * one_u2, zero);
+            let in_block = Mask2([
+                if g * LANES < len { !0 } else { 0 },
+                if g * LANES + 1 < len { !0 } else { 0 },
+            ]);
+            let keep = wt.gt(zero).and(in_block);
             // ψ(r) = w r; its slope dψ/dr = (1 − u²)(1 − 5u²) weights the Newton matrix.
-            let slope = (1.0 - u * u) * (1.0 - 5.0 * u * u);
-            acc.sum_sq_w += wt * r * r;
-            acc.count += 1;
-            let wr = wt * r;
+            let slope = L2::select(keep, one_u2 * (one - L2::splat(5.0) * u * u), zero);
+            r_out[g] = r.0;
+            w_out[g] = wt.0;
+            kept[g] = [keep.0[0] != 0, keep.0[1] != 0];
+            let wr = L2::select(keep, wt * r, zero);
+            wrb[g] = wr.0;
+            ssw = ssw + L2::select(keep, wr * r, zero);
+            let t = L2(tau[g]);
+            let mut j = [zero; MAX_P];
+            for i in 0..3 {
+                j[i] = zero - wv[i];
+                j[9 + i] = (zero - wv[i]) * t;
+            }
+            j[3] = vh[0] * dv[0];
+            j[4] = vh[1] * dv[1];
+            j[5] = vh[2] * dv[2];
+            j[6] = vh[0] * dv[1] + vh[1] * dv[0];
+            j[7] = vh[0] * dv[2] + vh[2] * dv[0];
+            j[8] = vh[1] * dv[2] + vh[2] * dv[1];
+            // Selects, not products: a dropped sample's row may hold NaN.
             for a in 0..NP {
-                jtr[a] += wr * j[a];
-            }
-            if NEWTON {
-                for a in 0..NP {
-                    let hja = slope * j[a];
-                    for bb in a..NP {
-                        jtj[a][bb] += hja * j[bb];
-                    }
+                let ja = L2::select(keep, j[a], zero);
+                jb[a][g] = ja.0;
+                if NEWTON {
+                    sjb[a][g] = (slope * ja).0;
                 }
             }
-            if KEPT {
-                for a in 0..NP {
-                    for bb in a..NP {
-                        jtj_kept[a][bb] += j[a] * j[bb];
+        }
+        sum_sq_w[0] += ssw.0[0];
+        sum_sq_w[1] += ssw.0[1];
+        let mut count = 0;
+        for (kk, (ri, wi)) in rs.iter_mut().zip(ws.iter_mut()).enumerate() {
+            let (g, l) = (kk / LANES, kk % LANES);
+            *ri = r_out[g][l];
+            *wi = w_out[g][l];
+            count += kept[g][l] as usize;
+        }
+        count
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    //! The blocked, tiled pass against a plain sample-by-sample sum.
+
+    use super::super::problem::jacobian_row;
+    use super::*;
+    use crate::fit::robust::tukey_weight;
+    use crate::sim::{simulate_tumble, TumbleConfig};
+
+    /// Sums of one pass, one sample at a time, and Σ|term| of each for the tolerance.
+    struct Reference {
+        gradient: [f64; MAX_P],
+        hessian: [[f64; MAX_P]; MAX_P],
+        kept: [[f64; MAX_P]; MAX_P],
+        sum_sq_w: f64,
+        count: usize,
+        gradient_abs: [f64; MAX_P],
+        hessian_abs: [[f64; MAX_P]; MAX_P],
+        kept_abs: [[f64; MAX_P]; MAX_P],
+        residuals: Vec<f64>,
+        weights: Vec<f64>,
+    }
+
+    fn reference(ctx: &PassCtx<[Vector3<f64>]>, np: usize) -> Reference {
+        let mut o = Reference {
+            gradient: [0.0; MAX_P],
+            hessian: [[0.0; MAX_P]; MAX_P],
+            kept: [[0.0; MAX_P]; MAX_P],
+            sum_sq_w: 0.0,
+            count: 0,
+            gradient_abs: [0.0; MAX_P],
+            hessian_abs: [[0.0; MAX_P]; MAX_P],
+            kept_abs: [[0.0; MAX_P]; MAX_P],
+            residuals: vec![],
+            weights: vec![],
+        };
+        let mut j = [0.0; MAX_P];
+        for (i, b) in ctx.samples_nt.iter().enumerate() {
+            let tau = ctx.temp_dev_c.map_or(0.0, |t| t[i]);
+            let r = jacobian_row(b, tau, &ctx.c, &ctx.w, &ctx.k, &mut j) - ctx.reference_nt;
+            let u = r * ctx.inv_scale;
+            let wt = tukey_weight(u);
+            o.residuals.push(r);
+            o.weights.push(wt);
+            if wt > 0.0 {
+                let slope = (1.0 - u * u) * (1.0 - 5.0 * u * u);
+                o.sum_sq_w += wt * r * r;
+                o.count += 1;
+                for a in 0..np {
+                    o.gradient[a] += wt * r * j[a];
+                    o.gradient_abs[a] += (wt * r * j[a]).abs();
+                    for b in a..np {
+                        o.hessian[a][b] += slope * j[a] * j[b];
+                        o.hessian_abs[a][b] += (slope * j[a] * j[b]).abs();
+                        o.kept[a][b] += j[a] * j[b];
+                        o.kept_abs[a][b] += (j[a] * j[b]).abs();
                     }
                 }
             }
         }
-        for a in 0..NP {
-            acc.gradient[a] = jtr[a];
-            acc.hessian[a][..NP].copy_from_slice(&jtj[a]);
-            acc.jtj_kept[a][..NP].copy_from_slice(&jtj_kept[a]);
+        o
+    }
+
+    fn close(got: f64, want: f64, scale: f64, what: &str) {
+        assert!(
+            (got - want).abs() <= 1e-12 * scale + 1e-300,
+            "{what}: {got} vs {want} (Σ|terms| {scale})"
+        );
+    }
+
+    #[test]
+    fn the_tiled_pass_sums_what_a_plain_loop_sums() {
+        for np in [9, 12] {
+            let cfg = TumbleConfig {
+                samples: 1000,
+                outlier_rate: 0.02,
+                temp_range_c: (np == 12).then_some((-10.0, 35.0)),
+                ..TumbleConfig::default()
+            };
+            let sim = simulate_tumble(&cfg, 11).unwrap();
+            let mut samples = sim.samples_nt.clone();
+            // Dropped samples early on (so that short chunks hold some): a far outlier
+            // and a NaN, whose Jacobian row is NaN and must not reach the sums.
+            samples[2].x += 5_000.0;
+            samples[5] = Vector3::new(f64::NAN, 0.0, 0.0);
+            let tdev: Option<Vec<f64>> = sim.temp_c.as_ref().map(|t| {
+                let m = t.iter().sum::<f64>() / t.len() as f64;
+                t.iter().map(|x| x - m).collect()
+            });
+            // Parameters near the truth (W = soft iron, c = hard iron, k = slopes).
+            let w = cfg.soft_iron;
+            let mut p: Vec<f64> = (cfg.hard_iron_nt + Vector3::new(3.0, -2.0, 1.0))
+                .iter()
+                .copied()
+                .collect();
+            p.extend(super::super::SYM_INDEX.iter().map(|&(i, j)| w[(i, j)]));
+            if np == 12 {
+                p.extend(cfg.temp_slope_nt_per_c.iter().map(|k| k * 0.9));
+            }
+            let p = DVector::from_vec(p);
+            let sigma = 3.0 * cfg.noise_nt;
+            for len in [1, 7, 63, 1000] {
+                let t = tdev.as_deref().map(|t| &t[..len]);
+                let ctx = PassCtx::new(&samples[..len], t, cfg.reference_nt, &p, sigma);
+                let want = reference(&ctx, np);
+                if len >= 7 {
+                    assert!(
+                        want.count < len && want.count > len / 2,
+                        "{len}: {}",
+                        want.count
+                    );
+                }
+                let mut res = vec![0.0; len];
+                let mut wts = vec![0.0; len];
+                let got = if np == 12 {
+                    ctx.chunk::<12, true, true>(0, &mut res, &mut wts)
+                } else {
+                    ctx.chunk::<9, true, true>(0, &mut res, &mut wts)
+                };
+                let tag = |what: &str| format!("np {np}, {len} samples: {what}");
+                for i in 0..len {
+                    let (r, w) = (want.residuals[i], want.weights[i]);
+                    if r.is_nan() {
+                        assert!(res[i].is_nan() && wts[i] == 0.0, "{}", tag("NaN sample"));
+                    } else {
+                        close(res[i], r, cfg.reference_nt, &tag("residual"));
+                        close(wts[i], w, 1.0, &tag("weight"));
+                    }
+                }
+                assert_eq!(got.count, want.count, "{}", tag("count"));
+                close(got.sum_sq_w, want.sum_sq_w, want.sum_sq_w, &tag("Σwr²"));
+                for a in 0..np {
+                    close(
+                        got.gradient[a],
+                        want.gradient[a],
+                        want.gradient_abs[a],
+                        &tag("g"),
+                    );
+                    for b in a..np {
+                        let h = (got.hessian[a][b], want.hessian[a][b]);
+                        close(h.0, h.1, want.hessian_abs[a][b], &tag("H"));
+                        let k = (got.jtj_kept[a][b], want.kept[a][b]);
+                        close(k.0, k.1, want.kept_abs[a][b], &tag("JᵀJ kept"));
+                    }
+                }
+                // The other instantiations sum the same gradient and their own matrix,
+                // bit for bit (same products, same order).
+                if np == 9 {
+                    let bits = |m: &[[f64; MAX_P]; MAX_P]| -> Vec<u64> {
+                        m.iter().flatten().map(|x| x.to_bits()).collect()
+                    };
+                    let g_bits =
+                        |g: &[f64; MAX_P]| -> Vec<u64> { g.iter().map(|x| x.to_bits()).collect() };
+                    let n_only = ctx.chunk::<9, true, false>(0, &mut res, &mut wts);
+                    let k_only = ctx.chunk::<9, false, true>(0, &mut res, &mut wts);
+                    assert_eq!(
+                        bits(&n_only.hessian),
+                        bits(&got.hessian),
+                        "{}",
+                        tag("H alone")
+                    );
+                    assert_eq!(
+                        bits(&k_only.jtj_kept),
+                        bits(&got.jtj_kept),
+                        "{}",
+                        tag("kept")
+                    );
+                    assert_eq!(
+                        g_bits(&k_only.gradient),
+                        g_bits(&got.gradient),
+                        "{}",
+                        tag("g")
+                    );
+                }
+            }
         }
-        acc
     }
 }
