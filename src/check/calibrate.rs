@@ -508,8 +508,12 @@ fn calibrate_tumble<S: FieldSamples + ?Sized>(
         .with_min_len(PAR_CHUNK)
         .map(|&x| x > 0.0)
         .collect();
-    let spread = direction_spread_mapped(samples, &kept, correct)
-        .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?;
+    // The long-log route sums the spread in its last pass; else one pass here.
+    let spread = match fit.kept_direction_spread.clone() {
+        Some(s) => s,
+        None => direction_spread_mapped(samples, &kept, correct)
+            .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?,
+    };
     let corrected: Vec<Vector3<f64>> = if ctx.req.keep_samples {
         (0..samples.len())
             .into_par_iter()

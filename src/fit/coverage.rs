@@ -159,6 +159,48 @@ impl SpreadSums {
     }
 }
 
+/// The sums behind a [`DirectionSpread`], fed one unit vector at a time by a pass over
+/// the samples that has the directions at hand already (the long-log tumble fit's last
+/// pass); two merge by adding. Equal to [`direction_spread`] of the same directions up
+/// to rounding.
+#[derive(Clone, Copy)]
+pub struct DirectionSums(SpreadSums);
+
+impl Default for DirectionSums {
+    fn default() -> Self {
+        DirectionSums(SpreadSums::new())
+    }
+}
+
+impl DirectionSums {
+    /// Add a unit vector (the caller normalises and skips zero vectors).
+    #[inline(always)]
+    pub fn add_unit(&mut self, x: f64, y: f64, z: f64) {
+        let s = &mut self.0;
+        s.hit |= 1u64 << cell(&Vector3::new(x, y, z));
+        s.scatter[0] += x * x;
+        s.scatter[1] += y * y;
+        s.scatter[2] += z * z;
+        s.scatter[3] += x * y;
+        s.scatter[4] += x * z;
+        s.scatter[5] += y * z;
+        s.sum[0] += x;
+        s.sum[1] += y;
+        s.sum[2] += z;
+        s.n += 1;
+    }
+
+    /// Both sets of sums together.
+    pub fn merge(self, o: DirectionSums) -> DirectionSums {
+        DirectionSums(self.0.merge(o.0))
+    }
+
+    /// The spread; `None` when no direction was added.
+    pub fn finish(self) -> Option<DirectionSpread> {
+        self.0.finish()
+    }
+}
+
 /// Spread of the directions of `vectors` (zero or non-finite vectors are skipped).
 /// Returns `None` if no vector has a direction.
 pub fn direction_spread<'a>(

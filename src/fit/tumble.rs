@@ -30,6 +30,7 @@
 use nalgebra::{DMatrix, DVector, Matrix3, Vector3};
 use rayon::prelude::*;
 
+use super::coverage::DirectionSpread;
 use super::ellipsoid::fit_ellipsoid;
 use super::lm::{solve, LeastSquaresProblem, LmTermination};
 pub use super::robust::{robust_sigma, tukey_weight};
@@ -94,6 +95,12 @@ pub struct TumbleFit {
     pub irls_converged: bool,
     /// Every solve that did not end in convergence (empty when all converged).
     pub solver_problems: Vec<LmTermination>,
+    /// Spread of the corrected directions W (b − hard iron − slope τ) of the kept
+    /// samples, when the fit found it on the way (the one-pass route of long logs sums
+    /// it in its last pass); `None` otherwise. Equal to
+    /// [`crate::fit::coverage::direction_spread_mapped`] of the same samples up to
+    /// rounding.
+    pub kept_direction_spread: Option<DirectionSpread>,
 }
 
 /// Options of [`fit_tumble`].
@@ -221,6 +228,7 @@ pub fn fit_tumble<S: FieldSamples + ?Sized>(
                     s.jtj_kept,
                     FinishInfo {
                         reference_nt: r,
+                        kept_direction_spread: s.kept_direction_spread,
                         robust: opts.robust,
                         iterations: st.iterations + s.passes as u64,
                         rounds: s.passes,
@@ -300,6 +308,7 @@ pub fn fit_tumble<S: FieldSamples + ?Sized>(
         jtj_kept,
         FinishInfo {
             reference_nt: r,
+            kept_direction_spread: None,
             robust: opts.robust,
             iterations: st.iterations,
             rounds: st.rounds,
@@ -377,6 +386,8 @@ fn irls(
 struct FinishInfo {
     /// Reference magnitude R, nT.
     reference_nt: f64,
+    /// See [`TumbleFit::kept_direction_spread`].
+    kept_direction_spread: Option<DirectionSpread>,
     robust: Robust,
     iterations: u64,
     rounds: usize,
@@ -487,6 +498,7 @@ fn finish(
         irls_rounds: info.rounds,
         irls_converged: info.irls_converged,
         solver_problems: info.solver_problems,
+        kept_direction_spread: info.kept_direction_spread,
     })
 }
 

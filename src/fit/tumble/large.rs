@@ -42,6 +42,7 @@ use super::lanes::{
 };
 use super::problem::{CHUNK, MAX_P};
 use super::{sym_from_params, TUKEY_C};
+use crate::fit::coverage::{DirectionSpread, DirectionSums};
 use crate::fit::robust::median_and_sigma_near;
 use crate::fit::samples::FieldSamples;
 
@@ -65,6 +66,9 @@ pub(super) struct Settled {
     pub sigma_nt: f64,
     /// Unweighted JᵀJ over the samples with non-zero weight, at `p`.
     pub jtj_kept: DMatrix<f64>,
+    /// Spread of the corrected directions W (b − c − k τ) of the samples with non-zero
+    /// weight, at `p` (see [`crate::fit::coverage`]).
+    pub kept_direction_spread: Option<DirectionSpread>,
     /// Passes done.
     pub passes: usize,
 }
@@ -129,6 +133,7 @@ pub(super) fn newton_passes<S: FieldSamples + ?Sized>(
         if settled && want.kept {
             return Some(Settled {
                 jtj_kept: acc.symmetric(&acc.jtj_kept, np),
+                kept_direction_spread: acc.spread.finish(),
                 p,
                 residuals_nt: residuals,
                 weights,
@@ -151,7 +156,7 @@ pub(super) fn newton_passes<S: FieldSamples + ?Sized>(
 struct Want {
     /// The Newton matrix H = Σ ψ′ JᵀJ.
     newton: bool,
-    /// The kept samples' unweighted JᵀJ.
+    /// The kept samples' unweighted JᵀJ, and the spread of their corrected directions.
     kept: bool,
 }
 
@@ -175,6 +180,8 @@ struct PassAcc {
     sum_sq_w: f64,
     jtj_kept: [[f64; MAX_P]; MAX_P],
     count: usize,
+    /// Directions W (b − c − k τ) / |…| of the kept samples (with `Want::kept`).
+    spread: DirectionSums,
 }
 
 impl Default for PassAcc {
@@ -185,6 +192,7 @@ impl Default for PassAcc {
             sum_sq_w: 0.0,
             jtj_kept: [[0.0; MAX_P]; MAX_P],
             count: 0,
+            spread: DirectionSums::default(),
         }
     }
 }
@@ -200,6 +208,7 @@ impl PassAcc {
         }
         self.sum_sq_w += o.sum_sq_w;
         self.count += o.count;
+        self.spread = self.spread.merge(o.spread);
         self
     }
 
@@ -277,6 +286,9 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         let mut jb: Rows<NP> = [[[0.0; LANES]; GROUPS]; NP];
         let mut sjb: Rows<NP> = [[[0.0; LANES]; GROUPS]; NP];
         let mut wrb = [[0.0; LANES]; GROUPS];
+        // Per block (with KEPT): v̂ of the kept samples by axis, zero for the others.
+        let mut vhb = [[[0.0; LANES]; GROUPS]; 3];
+        let mut spread = DirectionSums::default();
         let hi = lo + res.len();
         let taus = self.temp_dev_c.and_then(|t| t.get(lo..hi));
         let blocks = res.chunks_mut(BLOCK).zip(wts.chunks_mut(BLOCK));
@@ -284,7 +296,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         let mut count = 0;
         for (blk, (rs, ws)) in blocks.enumerate() {
             let ts = taus.and_then(|t| t.get(blk * BLOCK..blk * BLOCK + rs.len()));
-            count += self.block_rows::<NP, NEWTON>(
+            count += self.block_rows::<NP, NEWTON, KEPT>(
                 lo + blk * BLOCK,
                 ts,
                 rs,
@@ -292,6 +304,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
                 &mut jb,
                 &mut sjb,
                 &mut wrb,
+                &mut vhb,
                 &mut sum_sq_w,
             );
             gradient_block(&jb, &wrb, &mut jtr);
@@ -300,10 +313,19 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
             }
             if KEPT {
                 triangle_block(&jb, &jb, &mut jtj_kept);
+                for g in 0..GROUPS {
+                    for l in 0..LANES {
+                        let (x, y, z) = (vhb[0][g][l], vhb[1][g][l], vhb[2][g][l]);
+                        if x != 0.0 || y != 0.0 || z != 0.0 {
+                            spread.add_unit(x, y, z);
+                        }
+                    }
+                }
             }
         }
         acc.sum_sq_w = sum_sq_w[0] + sum_sq_w[1];
         acc.count = count;
+        acc.spread = spread;
         for a in 0..NP {
             acc.gradient[a] = jtr[a][0] + jtr[a][1];
             for b in a..NP {
@@ -316,13 +338,14 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
 
     /// One block, samples `first ..` (as many as `rs` holds): residuals and weights (into `rs`, `ws`) and, lane by lane, its rows:
     /// J of the kept samples into `jb`, ψ′ × J into `sjb` (if NEWTON), w r into `wrb`,
-    /// zero for a dropped sample and past the end of a short block; adds Σ w r² to
-    /// `sum_sq_w` and returns the number kept. The arithmetic is that of
+    /// zero for a dropped sample and past the end of a short block; with KEPT, the
+    /// corrected direction v̂ of each kept sample into `vhb` (zero for the others); adds
+    /// Σ w r² to `sum_sq_w` and returns the number kept. The arithmetic is that of
     /// [`jacobian_row`], written out over the samples of a lane group so that two
     /// samples share each SSE2 operation (square root and divisions included).
     #[allow(clippy::too_many_arguments)]
     #[inline(always)]
-    fn block_rows<const NP: usize, const NEWTON: bool>(
+    fn block_rows<const NP: usize, const NEWTON: bool, const KEPT: bool>(
         &self,
         first: usize,
         ts: Option<&[f64]>,
@@ -331,6 +354,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         jb: &mut Rows<NP>,
         sjb: &mut Rows<NP>,
         wrb: &mut [[f64; LANES]; GROUPS],
+        vhb: &mut [[[f64; LANES]; GROUPS]; 3],
         sum_sq_w: &mut [f64; LANES],
     ) -> usize {
         let len = rs.len();
@@ -408,6 +432,11 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
             j[6] = vh[0] * dv[1] + vh[1] * dv[0];
             j[7] = vh[0] * dv[2] + vh[2] * dv[0];
             j[8] = vh[1] * dv[2] + vh[2] * dv[1];
+            if KEPT {
+                for i in 0..3 {
+                    vhb[i][g] = L2::select(keep, vh[i], zero).0;
+                }
+            }
             // Selects, not products: a dropped sample's row may hold NaN.
             for a in 0..NP {
                 let ja = L2::select(keep, j[a], zero);

@@ -487,3 +487,65 @@ fn field_columns_give_the_fit_of_the_vectors() {
         );
     }
 }
+
+/// The direction spread the one-pass route sums in its last pass equals the one
+/// computed afterwards from the fitted correction, with and without a temperature
+/// slope; the damped route leaves it to the caller.
+#[test]
+fn the_last_pass_sums_the_spread_of_the_corrected_directions() {
+    use crate::fit::coverage::direction_spread_mapped;
+    for temp in [false, true] {
+        let cfg = TumbleConfig {
+            samples: SEED_MIN_SAMPLES,
+            outlier_rate: 0.01,
+            coverage: SimCoverage::Hemisphere,
+            temp_range_c: temp.then_some((-10.0, 40.0)),
+            temp_slope_nt_per_c: Vector3::new(4.0, -2.5, 1.5),
+            ..TumbleConfig::default()
+        };
+        let sim = simulate_tumble(&cfg, 9).unwrap();
+        let opts = TumbleOptions {
+            reference_nt: Some(cfg.reference_nt),
+            ..TumbleOptions::default()
+        };
+        let fit = fit_tumble(&sim.samples_nt, sim.temp_c.as_deref(), &opts).unwrap();
+        let summed = fit.kept_direction_spread.clone().expect("one-pass route");
+        let kept: Vec<bool> = fit.weights.iter().map(|&w| w > 0.0).collect();
+        let k = fit.temp_slope_nt_per_c.unwrap_or_else(Vector3::zeros);
+        let t = sim.temp_c.clone().unwrap_or_default();
+        let tmean = t.iter().sum::<f64>() / t.len().max(1) as f64;
+        let after = direction_spread_mapped(&sim.samples_nt, &kept, |i, b| {
+            let tau = t.get(i).map_or(0.0, |t| t - tmean);
+            fit.soft_iron * (b - fit.hard_iron_nt - k * tau)
+        })
+        .unwrap();
+        // Half the sphere: about half the cells, and a mean direction far from zero.
+        assert!(
+            summed.coverage > 0.4 && summed.coverage < 0.7,
+            "{}",
+            summed.coverage
+        );
+        // The same cells hit (coverage is a count of cells over 48).
+        assert_relative_eq!(summed.coverage, after.coverage, epsilon = 0.0);
+        for a in 0..3 {
+            assert_relative_eq!(
+                summed.scatter_eigenvalues[a],
+                after.scatter_eigenvalues[a],
+                epsilon = 1e-12
+            );
+        }
+        assert_relative_eq!(
+            summed.mean_direction_length,
+            after.mean_direction_length,
+            epsilon = 1e-12
+        );
+        assert_relative_eq!(
+            summed.weakest_direction.dot(&after.weakest_direction).abs(),
+            1.0,
+            epsilon = 1e-9
+        );
+    }
+    // A short log takes the damped route, which does not sum it.
+    let (_, fit) = simulate_and_fit(&TumbleConfig::default(), 3);
+    assert!(fit.kept_direction_spread.is_none());
+}
