@@ -40,8 +40,18 @@ pub struct DirectionSpread {
     pub mean_direction_length: f64,
 }
 
+/// Bits of all cells (see [`DirectionSums::from_parts`]).
+pub const ALL_CELLS: u64 = (1 << (BANDS * SECTORS)) - 1;
+
+/// Cell index of the unit vector (x, y, z), 0..48 (see [`cell`]).
+#[inline(always)]
+pub fn cell_index(x: f64, y: f64, z: f64) -> usize {
+    cell(&Vector3::new(x, y, z))
+}
+
 /// Cell index of a unit vector (0..48): band from z, sector from the longitude
 /// φ = atan2(y, x), sector k covering φ + π in [k·45°, (k+1)·45°).
+#[inline(always)]
 fn cell(u: &Vector3<f64>) -> usize {
     let z = u.z.clamp(-1.0, 1.0);
     let band = (((z + 1.0) * 0.5 * BANDS as f64) as usize).min(BANDS - 1);
@@ -159,10 +169,9 @@ impl SpreadSums {
     }
 }
 
-/// The sums behind a [`DirectionSpread`], fed one unit vector at a time by a pass over
-/// the samples that has the directions at hand already (the long-log tumble fit's last
-/// pass); two merge by adding. Equal to [`direction_spread`] of the same directions up
-/// to rounding.
+/// The sums behind a [`DirectionSpread`], gathered by a pass over the samples that has
+/// the directions at hand already (the long-log tumble fit's last pass); two merge by
+/// adding. Equal to [`direction_spread`] of the same directions up to rounding.
 #[derive(Clone, Copy)]
 pub struct DirectionSums(SpreadSums);
 
@@ -173,21 +182,16 @@ impl Default for DirectionSums {
 }
 
 impl DirectionSums {
-    /// Add a unit vector (the caller normalises and skips zero vectors).
-    #[inline(always)]
-    pub fn add_unit(&mut self, x: f64, y: f64, z: f64) {
-        let s = &mut self.0;
-        s.hit |= 1u64 << cell(&Vector3::new(x, y, z));
-        s.scatter[0] += x * x;
-        s.scatter[1] += y * y;
-        s.scatter[2] += z * z;
-        s.scatter[3] += x * y;
-        s.scatter[4] += x * z;
-        s.scatter[5] += y * z;
-        s.sum[0] += x;
-        s.sum[1] += y;
-        s.sum[2] += z;
-        s.n += 1;
+    /// Sums gathered elsewhere: `hit` has bit `c` set for each cell `c` (see
+    /// [`cell_index`]) that holds a direction; `scatter` is Σ u uᵀ as xx yy zz xy xz
+    /// yz; `sum` is Σ u; `n` the number of directions.
+    pub fn from_parts(hit: u64, scatter: [f64; 6], sum: [f64; 3], n: usize) -> Self {
+        DirectionSums(SpreadSums {
+            hit,
+            scatter,
+            sum,
+            n,
+        })
     }
 
     /// Both sets of sums together.

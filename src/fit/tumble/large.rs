@@ -42,7 +42,7 @@ use super::lanes::{
 };
 use super::problem::{CHUNK, MAX_P};
 use super::{sym_from_params, TUKEY_C};
-use crate::fit::coverage::{DirectionSpread, DirectionSums};
+use crate::fit::coverage::{cell_index, DirectionSpread, DirectionSums, ALL_CELLS};
 use crate::fit::robust::median_and_sigma_near;
 use crate::fit::samples::FieldSamples;
 
@@ -158,6 +158,67 @@ struct Want {
     newton: bool,
     /// The kept samples' unweighted JᵀJ, and the spread of their corrected directions.
     kept: bool,
+}
+
+/// Sums of the corrected directions v̂ of the kept samples, lane by lane, and the
+/// cells they hit (see [`crate::fit::coverage`]).
+struct SpreadLanes {
+    /// Σ v̂ v̂ᵀ: xx yy zz xy xz yz.
+    scatter: [L2; 6],
+    /// Σ v̂.
+    sum: [L2; 3],
+    hit: u64,
+    n: usize,
+}
+
+impl Default for SpreadLanes {
+    fn default() -> Self {
+        let zero = L2::splat(0.0);
+        SpreadLanes {
+            scatter: [zero; 6],
+            sum: [zero; 3],
+            hit: 0,
+            n: 0,
+        }
+    }
+}
+
+impl SpreadLanes {
+    /// Add the lanes of `vh` that `m` selects.
+    #[inline(always)]
+    fn add(&mut self, m: Mask2, vh: [L2; 3]) {
+        let zero = L2::splat(0.0);
+        let [x, y, z] = vh.map(|c| L2::select(m, c, zero));
+        let s = &mut self.scatter;
+        s[0] = s[0] + x * x;
+        s[1] = s[1] + y * y;
+        s[2] = s[2] + z * z;
+        s[3] = s[3] + x * y;
+        s[4] = s[4] + x * z;
+        s[5] = s[5] + y * z;
+        self.sum[0] = self.sum[0] + x;
+        self.sum[1] = self.sum[1] + y;
+        self.sum[2] = self.sum[2] + z;
+        for l in 0..LANES {
+            if m.0[l] != 0 {
+                self.n += 1;
+                // Once every cell is hit, no later sample changes that.
+                if self.hit != ALL_CELLS {
+                    self.hit |= 1 << cell_index(x.0[l], y.0[l], z.0[l]);
+                }
+            }
+        }
+    }
+
+    fn sums(&self) -> DirectionSums {
+        let lanes = |v: L2| v.0[0] + v.0[1];
+        DirectionSums::from_parts(
+            self.hit,
+            self.scatter.map(lanes),
+            self.sum.map(lanes),
+            self.n,
+        )
+    }
 }
 
 /// One pass's fixed inputs.
@@ -286,9 +347,8 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         let mut jb: Rows<NP> = [[[0.0; LANES]; GROUPS]; NP];
         let mut sjb: Rows<NP> = [[[0.0; LANES]; GROUPS]; NP];
         let mut wrb = [[0.0; LANES]; GROUPS];
-        // Per block (with KEPT): v̂ of the kept samples by axis, zero for the others.
-        let mut vhb = [[[0.0; LANES]; GROUPS]; 3];
-        let mut spread = DirectionSums::default();
+        // With KEPT: sums of the kept samples' corrected directions v̂.
+        let mut spread = SpreadLanes::default();
         let hi = lo + res.len();
         let taus = self.temp_dev_c.and_then(|t| t.get(lo..hi));
         let blocks = res.chunks_mut(BLOCK).zip(wts.chunks_mut(BLOCK));
@@ -304,7 +364,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
                 &mut jb,
                 &mut sjb,
                 &mut wrb,
-                &mut vhb,
+                &mut spread,
                 &mut sum_sq_w,
             );
             gradient_block(&jb, &wrb, &mut jtr);
@@ -313,19 +373,11 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
             }
             if KEPT {
                 triangle_block(&jb, &jb, &mut jtj_kept);
-                for g in 0..GROUPS {
-                    for l in 0..LANES {
-                        let (x, y, z) = (vhb[0][g][l], vhb[1][g][l], vhb[2][g][l]);
-                        if x != 0.0 || y != 0.0 || z != 0.0 {
-                            spread.add_unit(x, y, z);
-                        }
-                    }
-                }
             }
         }
         acc.sum_sq_w = sum_sq_w[0] + sum_sq_w[1];
         acc.count = count;
-        acc.spread = spread;
+        acc.spread = spread.sums();
         for a in 0..NP {
             acc.gradient[a] = jtr[a][0] + jtr[a][1];
             for b in a..NP {
@@ -339,7 +391,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
     /// One block, samples `first ..` (as many as `rs` holds): residuals and weights (into `rs`, `ws`) and, lane by lane, its rows:
     /// J of the kept samples into `jb`, ψ′ × J into `sjb` (if NEWTON), w r into `wrb`,
     /// zero for a dropped sample and past the end of a short block; with KEPT, the
-    /// corrected direction v̂ of each kept sample into `vhb` (zero for the others); adds
+    /// corrected direction v̂ of each kept sample added to `spread`; adds
     /// Σ w r² to `sum_sq_w` and returns the number kept. The arithmetic is that of
     /// [`jacobian_row`], written out over the samples of a lane group so that two
     /// samples share each SSE2 operation (square root and divisions included).
@@ -354,7 +406,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         jb: &mut Rows<NP>,
         sjb: &mut Rows<NP>,
         wrb: &mut [[f64; LANES]; GROUPS],
-        vhb: &mut [[[f64; LANES]; GROUPS]; 3],
+        spread: &mut SpreadLanes,
         sum_sq_w: &mut [f64; LANES],
     ) -> usize {
         let len = rs.len();
@@ -433,9 +485,8 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
             j[7] = vh[0] * dv[2] + vh[2] * dv[0];
             j[8] = vh[1] * dv[2] + vh[2] * dv[1];
             if KEPT {
-                for i in 0..3 {
-                    vhb[i][g] = L2::select(keep, vh[i], zero).0;
-                }
+                // v̂ = 0 (n = 0) has no direction and is not counted.
+                spread.add(keep.and(n.gt(zero)), vh);
             }
             // Selects, not products: a dropped sample's row may hold NaN.
             for a in 0..NP {
