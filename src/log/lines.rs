@@ -95,6 +95,13 @@ impl<R: Read> LineReader<R> {
             return Ok(None);
         };
         let block_end = self.start + last + 1;
+        if self.eof {
+            // Nothing left to read ahead (a small file, or its last block).
+            let out = work(&self.buf[self.start..block_end]);
+            self.consumed += (block_end - self.start) as u64;
+            self.start = block_end;
+            return Ok(Some((out, self.consumed)));
+        }
         let LineReader {
             inner,
             buf,
@@ -108,7 +115,11 @@ impl<R: Read> LineReader<R> {
         // The unfinished line after the block goes to the front of the spare buffer and
         // the file's next bytes after it.
         let tail = *end - block_end;
-        spare.resize(buf.len(), 0);
+        if spare.len() != buf.len() {
+            // Zeroed by the allocator, not written: only the pages a read fills are
+            // paged in (a small log does not pay for a 4 MiB buffer).
+            *spare = vec![0; buf.len()];
+        }
         spare[..tail].copy_from_slice(&buf[block_end..*end]);
         let block = &buf[*start..block_end];
         let (out, ahead) = rayon::join(|| work(block), || fill(inner, &mut spare[..], tail));
