@@ -31,41 +31,23 @@ pub trait FieldSamples: Sync {
     }
 }
 
-impl FieldSamples for [Vector3<f64>] {
+/// A slice of 3-vectors, or anything that holds one (a `Vec`).
+impl<T: AsRef<[Vector3<f64>]> + Sync + ?Sized> FieldSamples for T {
     fn len(&self) -> usize {
-        <[Vector3<f64>]>::len(self)
+        self.as_ref().len()
     }
 
     #[inline]
     fn at(&self, i: usize) -> Vector3<f64> {
-        self[i]
+        self.as_ref()[i]
     }
 
     fn as_slice(&self) -> Option<&[Vector3<f64>]> {
-        Some(self)
+        Some(self.as_ref())
     }
 
     fn to_vec(&self) -> Vec<Vector3<f64>> {
-        <[Vector3<f64>]>::to_vec(self)
-    }
-}
-
-impl FieldSamples for Vec<Vector3<f64>> {
-    fn len(&self) -> usize {
-        self.as_slice().len()
-    }
-
-    #[inline]
-    fn at(&self, i: usize) -> Vector3<f64> {
-        self[i]
-    }
-
-    fn as_slice(&self) -> Option<&[Vector3<f64>]> {
-        Some(self)
-    }
-
-    fn to_vec(&self) -> Vec<Vector3<f64>> {
-        self.clone()
+        self.as_ref().to_vec()
     }
 }
 
