@@ -43,7 +43,8 @@ pub struct DirectionSpread {
 /// Bits of all cells (see [`DirectionSums::from_parts`]).
 pub const ALL_CELLS: u64 = (1 << (BANDS * SECTORS)) - 1;
 
-/// Cell index of the unit vector (x, y, z), 0..48 (see [`cell`]).
+/// Cell index of the unit vector (x, y, z), 0..48: band from z (6 of equal height), then
+/// longitude sector (8 of 45°), as described at the top of this module.
 #[inline(always)]
 pub fn cell_index(x: f64, y: f64, z: f64) -> usize {
     cell(&Vector3::new(x, y, z))
