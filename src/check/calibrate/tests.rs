@@ -105,3 +105,39 @@ fn bad_reference_is_a_usage_error() {
     let e = run_calibrate(&request(log, None, Some(-5.0))).unwrap_err();
     assert!(matches!(e, Error::Usage(_)), "{e}");
 }
+
+/// The readings and corrected field are kept for a report only; the result is the same
+/// either way (the fit reads the log's columns in place when every row is used).
+#[test]
+fn per_sample_data_is_kept_only_when_asked() {
+    let dir = tempfile::tempdir().unwrap();
+    let log = tumble_file(dir.path(), &TumbleConfig::default(), 31);
+    let with = run_calibrate(&request(log.clone(), None, Some(48_000.0))).unwrap();
+    let without = run_calibrate(&CalibrateRequest {
+        keep_samples: false,
+        ..request(log.clone(), None, Some(48_000.0))
+    })
+    .unwrap();
+    // Kept: one reading per row, as read from the log, and its correction.
+    let read = crate::log::read_sweep(&log, &ReadOptions::default()).unwrap();
+    let b = read.b_nt.unwrap();
+    assert_eq!(with.data.samples_nt.len(), 1000);
+    for (i, s) in with.data.samples_nt.iter().enumerate() {
+        assert_eq!(*s, Vector3::new(b[0][i], b[1][i], b[2][i]));
+    }
+    let w = Matrix3::from_fn(|i, j| with.soft_iron[i][j]);
+    let c = Vector3::from(with.hard_iron_nt);
+    assert_eq!(with.data.corrected_nt.len(), 1000);
+    assert_relative_eq!(
+        with.data.corrected_nt[17],
+        w * (with.data.samples_nt[17] - c),
+        max_relative = 1e-12
+    );
+    // Not kept: empty, and every number of the result the same.
+    assert!(without.data.samples_nt.is_empty() && without.data.corrected_nt.is_empty());
+    assert_eq!(without.data.residuals_nt.len(), 1000);
+    assert_eq!(
+        serde_json::to_value(&with).unwrap(),
+        serde_json::to_value(&without).unwrap()
+    );
+}
