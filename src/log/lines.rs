@@ -72,12 +72,12 @@ impl<R: Read> LineReader<R> {
     }
 
     /// As many complete lines as the buffer holds (each ending with `\n`), after
-    /// filling the buffer, handed to `work`, with the bytes handed out so far; `None`
-    /// when no complete line is left (the caller then goes on with
-    /// [`LineReader::next_line`]). While `work` runs, the next block is read into a second buffer on another thread, which then
-    /// becomes the current one. Returns what `work` returned. An error of that read is
-    /// kept and returned by the next call that reads (so the block's own outcome comes
-    /// first, as in file order).
+    /// filling the buffer, handed to `work`; returns what `work` returned, with the
+    /// bytes handed out so far, or `None` when no complete line is left (the caller then
+    /// goes on with [`LineReader::next_line`]). While `work` runs, the next block is
+    /// read into a second buffer on another thread, which then becomes the current one.
+    /// An error of that read is kept and returned by the next call that reads (so the
+    /// block's own outcome comes first, as in file order).
     pub fn next_block_with<T, F>(&mut self, work: F) -> io::Result<Option<(T, u64)>>
     where
         R: Send,

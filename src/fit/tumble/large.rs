@@ -388,11 +388,11 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         acc
     }
 
-    /// One block, samples `first ..` (as many as `rs` holds): residuals and weights (into `rs`, `ws`) and, lane by lane, its rows:
-    /// J of the kept samples into `jb`, ψ′ × J into `sjb` (if NEWTON), w r into `wrb`,
-    /// zero for a dropped sample and past the end of a short block; with KEPT, the
-    /// corrected direction v̂ of each kept sample added to `spread`; adds
-    /// Σ w r² to `sum_sq_w` and returns the number kept. The arithmetic is that of
+    /// One block, samples `first ..` (as many as `rs` holds): residuals and weights
+    /// (into `rs`, `ws`) and, lane by lane, its rows: J of the kept samples into `jb`,
+    /// ψ′ × J into `sjb` (if NEWTON), w r into `wrb`, zero for a dropped sample and
+    /// past the end of a short block; with KEPT, the corrected direction v̂ of each kept
+    /// sample added to `spread`. Adds Σ w r² to `sum_sq_w` and returns the number kept. The arithmetic is that of
     /// [`jacobian_row`], written out over the samples of a lane group so that two
     /// samples share each SSE2 operation (square root and divisions included).
     #[allow(clippy::too_many_arguments)]
