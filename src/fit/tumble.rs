@@ -143,11 +143,14 @@ pub fn fit_tumble<S: FieldSamples + ?Sized>(
     // rounds below, so it runs on that subsample; without one it fixes the scale R and
     // uses every sample.
     let long_robust = opts.robust == Robust::Tukey && n >= SEED_MIN_SAMPLES;
+    // The evenly decimated subsample of a long log (the seed and the first rounds).
+    let stride = (n / SEED_SAMPLES).max(1);
+    let sub: Vec<Vector3<f64>> = if long_robust {
+        (0..n).step_by(stride).map(|i| samples_nt.at(i)).collect()
+    } else {
+        Vec::new()
+    };
     let ell = if long_robust && opts.reference_nt.is_some() {
-        let sub: Vec<Vector3<f64>> = (0..n)
-            .step_by(n / SEED_SAMPLES)
-            .map(|i| samples_nt.at(i))
-            .collect();
         fit_ellipsoid(&sub)?
     } else {
         fit_ellipsoid(samples_nt)?
@@ -199,8 +202,6 @@ pub fn fit_tumble<S: FieldSamples + ?Sized>(
         // reach the same fixed point on all samples with one-pass Newton iterations
         // (`large`), or, if those do not settle, with the damped rounds started from
         // the subsample's parameters and weights.
-        let stride = n / SEED_SAMPLES;
-        let sub: Vec<Vector3<f64>> = (0..n).step_by(stride).map(|i| samples_nt.at(i)).collect();
         let sub_t: Option<Vec<f64>> = tdev
             .as_ref()
             .map(|t| t.iter().step_by(stride).copied().collect());
