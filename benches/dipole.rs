@@ -1,8 +1,8 @@
 //! Benchmarks of the residual-dipole path at about 1e4, 1e5 and 1e6 samples, reported as
 //! samples per second:
 //!
-//! * `dipole_check/{at_origin,fitted}/N`: the whole dipole check (`evaluate_dipole`:
-//!   plausibility and saturation screens, background model, fit, background covariance,
+//! * `dipole_check/{at_origin,fitted}/N`: the whole dipole check (`run_dipole` on a log
+//!   already screened by the input builder: background model, fit, background covariance,
 //!   hidden-component test, per-sample model, orbit torque) on a turntable log from the
 //!   simulator the demo uses (`magproof::sim::dipole::simulate_turntable`, fixed seed),
 //!   with the dipole at the table origin (linear fit) or its position fitted
@@ -12,13 +12,14 @@
 //!
 //! Run: `cargo bench --bench dipole -- --noplot` (one group: `... -- dipole_check`).
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
-use magproof::check::dipole::{evaluate_dipole, DipolePosition, DipoleRequest};
+use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition};
+use magproof::check::{CheckInput, CheckRequest};
 use magproof::fit::dipole::{fit_moment, fit_moment_and_offset, model_field_nt, DipoleSample};
 use magproof::log::plan::parse_plan;
-use magproof::log::{read_sweep_from, ReadOptions, SweepLog};
+use magproof::log::{read_sweep_from, Plan, ReadOptions};
 use magproof::physics::frames::rotation_z;
 use magproof::sim::dipole::{simulate_turntable, TurntableConfig};
 use nalgebra::{Matrix3, Vector3};
@@ -56,7 +57,7 @@ fn samples(n: usize) -> Vec<DipoleSample> {
 
 /// A simulated turntable log with about `n` article-present rows (two mounts, 15° steps,
 /// 100 Hz probe), parsed, with its request; and the number of article-present rows.
-fn turntable(n: usize) -> (SweepLog, DipoleRequest, usize) {
+fn turntable(n: usize) -> (CheckInput, Plan, usize) {
     let mut cfg = TurntableConfig::default();
     let steps = cfg.mounts.len() * (360.0 / cfg.step_deg).round() as usize;
     cfg.samples_per_step = (n / steps).max(1);
@@ -70,26 +71,30 @@ fn turntable(n: usize) -> (SweepLog, DipoleRequest, usize) {
         &mut |_| {},
     )
     .expect("log");
-    let mut req = DipoleRequest::new(PathBuf::from("turntable.csv"), plan);
-    req.inclination_deg = Some(97.4);
-    (log, req, steps * cfg.samples_per_step)
+    let input = CheckInput::screen(log, Default::default(), None).expect("screen");
+    (input, plan, steps * cfg.samples_per_step)
 }
 
 fn bench_check(c: &mut Criterion) {
     let mut g = c.benchmark_group("dipole_check");
     g.sample_size(10);
     for n in SIZES {
-        let (log, mut req, used) = turntable(n);
+        let (input, plan, used) = turntable(n);
         g.throughput(Throughput::Elements(used as u64));
         for (name, position) in [
             ("at_origin", DipolePosition::AtTableOrigin),
             ("fitted", DipolePosition::Fitted),
         ] {
-            req.position = position;
-            let r = evaluate_dipole(&log, &req).expect("check");
+            let options = DipoleOptions {
+                inclination_deg: Some(97.4),
+                position,
+                ..Default::default()
+            };
+            let req = CheckRequest::new(&input, Some(&plan), options);
+            let r = run_dipole(&req).expect("check");
             assert_eq!(r.samples_used, used, "every article row is used");
             g.bench_with_input(BenchmarkId::new(name, n), &req, |b, req| {
-                b.iter(|| evaluate_dipole(&log, req).expect("check"))
+                b.iter(|| run_dipole(req).expect("check"))
             });
         }
     }

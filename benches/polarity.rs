@@ -9,7 +9,8 @@
 //! whole bench to a few minutes.
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
-use magproof::check::polarity::{run_polarity, PolarityRequest};
+use magproof::check::polarity::run_polarity;
+use magproof::check::{CheckInput, CheckRequest};
 use magproof::log::plan::read_plan;
 use magproof::log::{read_sweep, ReadOptions};
 use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
@@ -33,13 +34,17 @@ fn bench_polarity(c: &mut Criterion) {
         let sim = simulate_polarity(&cfg, 42).expect("simulation");
         let [csv, plan, _] = sim.write(&dir, &format!("pol{n}")).expect("write");
         let log = read_sweep(&csv, &ReadOptions::default()).expect("log");
+        let log = CheckInput::screen(log, Default::default(), None).expect("screen");
         let plan = read_plan(&plan).expect("plan");
-        g.throughput(Throughput::Elements(log.len() as u64));
+        g.throughput(Throughput::Elements(log.log.len() as u64));
         g.bench_with_input(
             BenchmarkId::new("check", n),
             &(log, plan),
             |b, (log, plan)| {
-                b.iter(|| run_polarity(&PolarityRequest::new(log, plan)).expect("check"))
+                b.iter(|| {
+                    run_polarity(&CheckRequest::new(log, Some(plan), Default::default()))
+                        .expect("check")
+                })
             },
         );
     }

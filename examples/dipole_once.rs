@@ -11,9 +11,10 @@
 //! * `check-origin N` / `check-fitted N`: the whole dipole check (`evaluate_dipole`) on a
 //!   simulated turntable log with about N article rows, as in the `dipole_check` group.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
-use magproof::check::dipole::{evaluate_dipole, DipolePosition, DipoleRequest};
+use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition};
+use magproof::check::{CheckInput, CheckRequest};
 use magproof::fit::dipole::{fit_moment_and_offset, model_field_nt, DipoleSample};
 use magproof::log::plan::parse_plan;
 use magproof::log::{read_sweep_from, ReadOptions};
@@ -54,10 +55,13 @@ fn check(n: usize, position: DipolePosition) -> Res {
         &mut |_| {},
     )?;
     drop(sim);
-    let mut req = DipoleRequest::new(PathBuf::from("turntable.csv"), plan);
-    req.inclination_deg = Some(97.4);
-    req.position = position;
-    let r = evaluate_dipole(&log, &req)?;
+    let input = CheckInput::screen(log, Default::default(), None)?;
+    let options = DipoleOptions {
+        inclination_deg: Some(97.4),
+        position,
+        ..Default::default()
+    };
+    let r = run_dipole(&CheckRequest::new(&input, Some(&plan), options))?;
     println!(
         "{} samples: moment {:.6?} A·m² ± {:.2e}, {} iterations",
         r.samples_used, r.moment_body_am2, r.magnitude_sigma_am2, r.iterations

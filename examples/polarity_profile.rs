@@ -3,7 +3,8 @@
 //! under callgrind: `cargo run --release --example polarity_profile -- 100000 [DIR]`.
 //! With DIR the simulated log is written there once and read back on later runs (the
 //! simulation costs more instructions than the check).
-use magproof::check::polarity::{run_polarity, PolarityRequest};
+use magproof::check::polarity::run_polarity;
+use magproof::check::{CheckInput, CheckRequest};
 use magproof::log::plan::read_plan;
 use magproof::log::{read_sweep, ReadOptions};
 use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
@@ -34,12 +35,13 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         (csv, plan)
     };
     let log = read_sweep(&csv, &ReadOptions::default())?;
+    let log = CheckInput::screen(log, Default::default(), None)?;
     let plan = read_plan(&plan)?;
     let start = std::time::Instant::now();
-    let r = run_polarity(&PolarityRequest::new(&log, &plan))?;
+    let r = run_polarity(&CheckRequest::new(&log, Some(&plan), Default::default()))?;
     println!(
         "{} rows: {:.3} s; lag {:.4} s; drift {}; couplings {:?}",
-        log.len(),
+        log.log.len(),
         start.elapsed().as_secs_f64(),
         r.lag_s,
         r.drift,

@@ -1,21 +1,20 @@
-//! Closeout: every `[[step]]` of a plan, in order, as one run (DESIGN §6, issue 7).
+//! Closeout: every `[[step]]` of a plan, in order, as one run (`docs/ledger.md`).
 //!
-//! Each step reads its log (path relative to the plan file) and runs its check with the
+//! Each step's kind is looked up in the registry of checks before anything runs (an
+//! unknown kind is refused by its line in the plan). Each step reads its log (path
+//! relative to the plan file) through the one input builder and runs its check with the
 //! plan's geometry and limits. All steps are run before anything is recorded: a step
 //! that cannot run (missing log, bad cell, degenerate data) stops the closeout with an
 //! error that names the step, and nothing reaches the ledger. A step that runs and
-//! fails its limit is a full result with `pass: false`.
+//! fails its limit is a full result with a failing verdict.
 
 use std::path::{Path, PathBuf};
 
-use serde::Serialize;
-
-use super::calibrate::{run_calibrate, CalibrateRequest, CalibrationResult};
-use super::dipole::{run_dipole, DipoleRequest, DipoleResult};
-use super::polarity::{run_polarity, PolarityRequest, PolarityResult};
-use crate::fit::tumble::Robust;
-use crate::log::plan::{read_plan, StepKind};
-use crate::log::{read_sweep, Plan, ReadOptions};
+use super::kind::CheckKind;
+use super::outcome::{CheckResult, Verdict};
+use super::{CheckInput, InputOptions};
+use crate::log::plan::read_plan;
+use crate::log::Plan;
 use crate::Error;
 
 /// What to run.
@@ -27,56 +26,19 @@ pub struct CloseoutRequest {
     pub skip_bad_rows: bool,
 }
 
-/// One step's result.
-#[derive(Debug, Clone, Serialize)]
-#[serde(untagged)]
-pub enum StepResult {
-    /// Magnetometer calibration.
-    Calibrate(Box<CalibrationResult>),
-    /// Torque-rod polarity.
-    Polarity(Box<PolarityResult>),
-    /// Residual dipole.
-    Dipole(Box<DipoleResult>),
-}
-
-impl StepResult {
-    /// The step's kind.
-    pub fn kind(&self) -> StepKind {
-        match self {
-            StepResult::Calibrate(_) => StepKind::Calibrate,
-            StepResult::Polarity(_) => StepKind::Polarity,
-            StepResult::Dipole(_) => StepKind::Dipole,
-        }
-    }
-
-    /// The verdict: `None` when the plan sets no limit for this check.
-    pub fn pass(&self) -> Option<bool> {
-        match self {
-            StepResult::Calibrate(r) => r.pass,
-            StepResult::Polarity(r) => Some(r.pass),
-            StepResult::Dipole(r) => r.pass,
-        }
-    }
-
-    /// The DESIGN §7 JSON object of this check.
-    pub fn to_json(&self) -> Result<serde_json::Value, Error> {
-        serde_json::to_value(self).map_err(|e| Error::Internal(format!("result to JSON: {e}")))
-    }
-}
-
 /// A step that ran.
-#[derive(Debug, Clone)]
+#[derive(Debug)]
 pub struct StepOutcome {
     /// 1-based position in the plan.
     pub index: usize,
     /// The log it read.
     pub log: PathBuf,
     /// Its result.
-    pub result: StepResult,
+    pub result: Box<dyn CheckResult>,
 }
 
 /// Every step of a plan.
-#[derive(Debug, Clone)]
+#[derive(Debug)]
 pub struct CloseoutResult {
     /// The plan that was run.
     pub plan: Plan,
@@ -85,20 +47,19 @@ pub struct CloseoutResult {
 }
 
 impl CloseoutResult {
-    /// Overall verdict: false if any step failed; true if every step with a limit passed
-    /// and at least one had a limit; `None` when no step had a limit.
-    pub fn pass(&self) -> Option<bool> {
-        let verdicts: Vec<Option<bool>> = self.steps.iter().map(|s| s.result.pass()).collect();
-        if verdicts.contains(&Some(false)) {
-            Some(false)
-        } else if verdicts.contains(&Some(true)) {
-            Some(true)
-        } else {
-            None
-        }
+    /// Overall verdict: the worst of the steps'.
+    pub fn verdict(&self) -> Verdict {
+        Verdict::combine(self.steps.iter().map(|s| s.result.verdict()))
     }
 
-    /// One JSON object: serial, build, pass, and each step's kind, log and §7 result.
+    /// Overall pass: false if any step failed or was inconclusive; true if every step
+    /// passed; `None` when no step had anything to judge against.
+    pub fn pass(&self) -> Option<bool> {
+        self.verdict().pass()
+    }
+
+    /// One JSON object: serial, build, pass, verdict, and each step's kind, log and
+    /// result.
     pub fn to_json(&self) -> Result<serde_json::Value, Error> {
         let article = self.plan.article.as_ref();
         let steps = self
@@ -109,8 +70,9 @@ impl CloseoutResult {
                     "step": s.index,
                     "kind": s.result.kind().as_str(),
                     "log": s.log.display().to_string(),
-                    "pass": s.result.pass(),
-                    "result": s.result.to_json()?,
+                    "pass": s.result.verdict().pass(),
+                    "verdict": s.result.verdict(),
+                    "result": s.result.json()?,
                 }))
             })
             .collect::<Result<Vec<_>, Error>>()?;
@@ -119,6 +81,7 @@ impl CloseoutResult {
             "build": article.map(|a| a.build.clone()),
             "plan": self.plan.path.display().to_string(),
             "pass": self.pass(),
+            "verdict": self.verdict(),
             "steps": steps,
         }))
     }
@@ -143,12 +106,13 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
             )
             .into());
     }
+    let kinds = step_kinds(&plan)?;
     let mut steps = Vec::with_capacity(plan.steps.len());
-    for (k, step) in plan.steps.iter().enumerate() {
+    for (k, (step, kind)) in plan.steps.iter().zip(kinds).enumerate() {
         let result =
-            run_step(&plan, step.kind, &step.log, req.skip_bad_rows).map_err(|e| Error::Step {
+            run_step(&plan, kind, &step.log, req.skip_bad_rows).map_err(|e| Error::Step {
                 index: k + 1,
-                kind: step.kind.as_str(),
+                kind: kind.as_str(),
                 log: step.log.clone(),
                 source: Box::new(e),
             })?;
@@ -161,51 +125,43 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
     Ok(CloseoutResult { plan, steps })
 }
 
-fn read_options(plan: &Plan, skip_bad_rows: bool) -> ReadOptions {
-    ReadOptions {
-        default_unit: plan
-            .magnetometer
-            .as_ref()
-            .and_then(|m| m.unit)
-            .unwrap_or_default(),
-        skip_bad_rows,
-    }
+/// Every step's kind from the registry; an unknown one is refused by its line.
+fn step_kinds(plan: &Plan) -> Result<Vec<CheckKind>, Error> {
+    plan.steps
+        .iter()
+        .enumerate()
+        .map(|(k, step)| {
+            CheckKind::parse(&step.kind).ok_or_else(|| {
+                plan.invalid(
+                    &format!("step[{k}].kind"),
+                    format!(
+                        "line {}: unknown check kind \"{}\"; the kinds are {}",
+                        step.kind_line,
+                        step.kind,
+                        CheckKind::names()
+                    ),
+                )
+                .into()
+            })
+        })
+        .collect()
 }
 
-/// Run one check of a plan on one log.
+/// Run one check of a plan on one log: read and screen the log as the check needs,
+/// then run it.
 pub fn run_step(
     plan: &Plan,
-    kind: StepKind,
+    kind: CheckKind,
     log: &Path,
     skip_bad_rows: bool,
-) -> Result<StepResult, Error> {
-    let read = read_options(plan, skip_bad_rows);
-    Ok(match kind {
-        StepKind::Calibrate => StepResult::Calibrate(Box::new(run_calibrate(&CalibrateRequest {
-            log: log.to_path_buf(),
-            plan: Some(plan.clone()),
-            reference_nt: None,
-            range_nt: None,
-            read,
-            robust: Robust::Tukey,
-            keep_samples: true,
-        })?)),
-        StepKind::Polarity => {
-            let sweep = read_sweep(log, &read)?;
-            let mut r = run_polarity(&PolarityRequest::new(&sweep, plan))?;
-            if let Some(first) = sweep.skipped_rows.first() {
-                r.warnings.push(format!(
-                    "{} bad rows were skipped (--skip-bad-rows); the first: {}",
-                    sweep.skipped_rows.len(),
-                    first.reason
-                ));
-            }
-            StepResult::Polarity(Box::new(r))
-        }
-        StepKind::Dipole => {
-            let mut req = DipoleRequest::new(log.to_path_buf(), plan.clone());
-            req.read_options = read;
-            StepResult::Dipole(Box::new(run_dipole(&req)?))
-        }
-    })
+) -> Result<Box<dyn CheckResult>, Error> {
+    let spec = kind.spec()?;
+    let options = InputOptions {
+        unit: None,
+        range_nt: None,
+        skip_bad_rows,
+        plan_range_applies: (spec.plan_range_applies)(plan),
+    };
+    let input = CheckInput::read(log, Some(plan), &options)?;
+    (spec.run_step)(&input, plan)
 }

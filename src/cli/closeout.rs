@@ -1,15 +1,17 @@
 //! `magproof closeout PLAN`: every `[[step]]` of a plan in order, one summary (and with
 //! `--report`, one report), and one ledger record per step under the plan's serial and
-//! build (DESIGN §6, issue 7).
+//! build (docs/ledger.md).
 
 use std::path::PathBuf;
 
+use anyhow::Context;
 use clap::Args as ClapArgs;
 
 use super::common::{LedgerArgs, Outcome, OutputArgs};
-use magproof::check::closeout::{run_closeout, CloseoutRequest, CloseoutResult, StepResult};
+use super::present::{emit, outcome, run_report, writers};
+use magproof::check::closeout::{run_closeout, CloseoutRequest, CloseoutResult};
 use magproof::ledger::{Ledger, NewRun, Recorded};
-use magproof::report::sections::{calibration_section, dipole_section, polarity_section};
+use magproof::report::RunReport;
 
 /// Flags of `magproof closeout`.
 #[derive(Debug, ClapArgs)]
@@ -36,16 +38,20 @@ pub struct RecordedSteps {
     pub runs: Vec<Recorded>,
 }
 
-/// Run the plan's steps and record them; shared with `magproof demo`.
+/// Run the plan's steps and record them; shared with `magproof demo`. `before_record`
+/// runs after the steps and before anything is written to the ledger (the writers check
+/// their destinations there).
 pub fn run_and_record(
     plan: &std::path::Path,
     ledger: Option<&std::path::Path>,
     skip_bad_rows: bool,
+    before_record: impl FnOnce(&CloseoutResult) -> anyhow::Result<()>,
 ) -> anyhow::Result<(CloseoutResult, Option<RecordedSteps>)> {
     let result = run_closeout(&CloseoutRequest {
         plan: plan.to_path_buf(),
         skip_bad_rows,
     })?;
+    before_record(&result)?;
     let Some(path) = ledger else {
         return Ok((result, None));
     };
@@ -55,7 +61,7 @@ pub fn run_and_record(
         .iter()
         .map(|s| {
             // Step log paths are already resolved against the plan's folder.
-            NewRun::from_plan(&result.plan, s.result.kind(), &s.log, s.result.to_json()?)
+            NewRun::from_result(&result.plan, s.result.as_ref(), &s.log)
                 .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
@@ -71,39 +77,11 @@ pub fn run_and_record(
     ))
 }
 
-/// The terminal summary of a closeout: each step's own summary, then the verdicts.
-pub fn render(result: &CloseoutResult, recorded: Option<&RecordedSteps>) -> String {
-    let mut out = String::new();
-    if let Some(a) = &result.plan.article {
-        out.push_str(&format!(
-            "Closeout of {} build {} ({} steps, plan {})\n",
-            a.serial,
-            a.build,
-            result.steps.len(),
-            result.plan.path.display()
-        ));
-    }
-    for s in &result.steps {
-        out.push('\n');
-        out.push_str(&format!(
-            "── step {} · {} · {}\n",
-            s.index,
-            s.result.kind().as_str(),
-            s.log.display()
-        ));
-        match &s.result {
-            StepResult::Calibrate(r) => out.push_str(&super::calibrate::render(r)),
-            StepResult::Polarity(r) => out.push_str(&super::polarity::render_table(r)),
-            StepResult::Dipole(r) => out.push_str(&super::dipole::render(&s.log, r)),
-        }
-    }
-    out.push_str("\nVerdicts\n");
+/// The closing lines of a closeout's terminal text: each step's verdict and what the
+/// ledger did with it.
+pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) -> String {
+    let mut out = String::from("\nVerdicts\n");
     for (k, s) in result.steps.iter().enumerate() {
-        let word = match s.result.pass() {
-            Some(true) => "PASS",
-            Some(false) => "FAIL",
-            None => "NO LIMIT",
-        };
         let rec = recorded
             .and_then(|r| r.runs.get(k))
             .map(|r| match r {
@@ -114,45 +92,33 @@ pub fn render(result: &CloseoutResult, recorded: Option<&RecordedSteps>) -> Stri
             })
             .unwrap_or_default();
         out.push_str(&format!(
-            "  step {} {:<10} {:<9} {}\n",
+            "  step {} {:<10} {:<12} {}\n",
             s.index,
             s.result.kind().as_str(),
-            word,
+            s.result.verdict().word(),
             rec
         ));
     }
-    let overall = match result.pass() {
-        Some(true) => "PASS",
-        Some(false) => "FAIL",
-        None => "NO LIMIT",
-    };
-    out.push_str(&format!("  overall         {overall}\n"));
+    out.push_str(&format!("  overall         {}\n", result.verdict().word()));
     if let Some(r) = recorded {
         out.push_str(&format!("  ledger          {}\n", r.ledger.display()));
     }
     out
 }
 
-/// Write the combined report of a closeout: one section per step, with every log and
-/// the plan as hashed inputs. Returns the report folder.
-pub fn write_report(
-    result: &CloseoutResult,
-    dir: &std::path::Path,
-    force: bool,
-) -> anyhow::Result<PathBuf> {
+/// The combined report of a closeout: one section per step, with every log and the
+/// plan as hashed inputs.
+pub fn closeout_report(result: &CloseoutResult) -> anyhow::Result<RunReport> {
     let mut sections = Vec::with_capacity(result.steps.len());
     for s in &result.steps {
-        let mut section = match &s.result {
-            StepResult::Calibrate(r) => calibration_section(r)?,
-            StepResult::Polarity(r) => polarity_section(r)?,
-            StepResult::Dipole(r) => dipole_section(r)?,
-        };
-        // Figure files must stay unique when a plan has two steps of one kind.
-        for f in &mut section.figures {
-            f.file_name = format!("step{}-{}", s.index, f.file_name);
+        for mut section in s.result.sections()? {
+            // Figure files must stay unique when a plan has two steps of one kind.
+            for f in &mut section.figures {
+                f.file_name = format!("step{}-{}", s.index, f.file_name);
+            }
+            section.title = format!("Step {} · {}", s.index, section.title);
+            sections.push(section);
         }
-        section.title = format!("Step {} · {}", s.index, section.title);
-        sections.push(section);
     }
     let mut inputs: Vec<&std::path::Path> = vec![&result.plan.path];
     inputs.extend(result.steps.iter().map(|s| s.log.as_path()));
@@ -160,39 +126,33 @@ pub fn write_report(
         Some(a) => format!("Closeout of {} build {}", a.serial, a.build),
         None => "Closeout".to_string(),
     };
-    super::report_out::write_run_report(
-        dir,
-        force,
+    run_report(
         &title,
         Some(&result.plan),
         &inputs,
         sections,
-        &result.to_json()?,
+        result.to_json()?,
     )
 }
 
 /// Run `closeout`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    if let Some(dir) = &args.output.report {
-        // Refuse an existing folder before any step runs or anything is recorded.
-        if dir.exists() && !args.output.force {
-            return Err(magproof::Error::Usage(format!(
-                "report folder {} exists; add --force to replace it",
-                dir.display()
-            ))
-            .into());
-        }
-    }
+    let writers = writers(&args.output);
     let ledger = (!args.no_record).then(|| args.ledger.path());
-    let (result, recorded) = run_and_record(&args.plan, ledger.as_deref(), args.skip_bad_rows)?;
-    if let Some(dir) = &args.output.report {
-        let path = write_report(&result, dir, args.output.force)?;
-        eprintln!("report written to {}", path.display());
+    // Every output is checked before any step is recorded.
+    let (result, recorded) =
+        run_and_record(&args.plan, ledger.as_deref(), args.skip_bad_rows, |_| {
+            for w in &writers {
+                w.prepare()
+                    .map_err(anyhow::Error::from)
+                    .with_context(|| format!("{} (add --force to replace)", w.name()))?;
+            }
+            Ok(())
+        })?;
+    let report = closeout_report(&result)?;
+    emit(&writers, &report, || Ok(()))?;
+    if !args.output.json {
+        print!("{}", verdict_lines(&result, recorded.as_ref()));
     }
-    if args.output.json {
-        println!("{}", serde_json::to_string_pretty(&result.to_json()?)?);
-    } else {
-        print!("{}", render(&result, recorded.as_ref()));
-    }
-    Ok(Outcome::from_pass(result.pass()))
+    Ok(outcome(result.verdict()))
 }

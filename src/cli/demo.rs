@@ -9,11 +9,12 @@ use std::path::{Path, PathBuf};
 
 use clap::Args as ClapArgs;
 
-use super::closeout::{render as render_closeout, run_and_record};
+use super::closeout::{closeout_report, run_and_record, verdict_lines};
 use super::common::Outcome;
-use magproof::check::closeout::{CloseoutResult, StepResult};
+use magproof::check::closeout::CloseoutResult;
 use magproof::ledger::{changes, ChangeRules, Ledger, RunFilter};
 use magproof::report::atomic::write_atomic;
+use magproof::report::terminal::{render, Style};
 use magproof::Error;
 
 /// Flags of `magproof demo`.
@@ -72,57 +73,19 @@ fn write_samples(root: &Path) -> Result<(), Error> {
     Ok(())
 }
 
-fn word(pass: Option<bool>) -> &'static str {
-    match pass {
-        Some(true) => "PASS",
-        Some(false) => "FAIL",
-        None => "NO LIMIT",
-    }
-}
-
-/// One line per step with the number that matters for the story.
-fn step_line(s: &StepResult) -> String {
-    match s {
-        StepResult::Calibrate(r) => {
-            let h = r.hard_iron_nt;
-            format!(
-                "hard iron ({:+.0}, {:+.0}, {:+.0}) nT, residual {:.1} nT RMS",
-                h[0], h[1], h[2], r.residual_rms_nt
-            )
-        }
-        StepResult::Polarity(r) => r
-            .rods
-            .iter()
-            .map(|rod| format!("{} {}", rod.name, rod.verdict))
-            .collect::<Vec<_>>()
-            .join(", "),
-        StepResult::Dipole(r) => {
-            let limit = r
-                .residual_dipole_max_am2
-                .map(|l| format!(" (limit {:.1})", l * 1e3))
-                .unwrap_or_default();
-            format!(
-                "|m| = {:.2} ± {:.2} mA·m²{limit}",
-                r.magnitude_am2 * 1e3,
-                r.magnitude_sigma_am2 * 1e3
-            )
-        }
-    }
-}
-
 fn build_summary(result: &CloseoutResult) -> String {
     let (serial, build) = result
         .plan
         .article
         .as_ref()
         .map_or(("?", "?"), |a| (a.serial.as_str(), a.build.as_str()));
-    let mut s = format!("{serial} {build}: {}\n", word(result.pass()));
+    let mut s = format!("{serial} {build}: {}\n", result.verdict().word());
     for step in &result.steps {
         s += &format!(
             "  {:<10} {:<5} {}\n",
             step.result.kind().as_str(),
-            word(step.result.pass()),
-            step_line(&step.result)
+            step.result.verdict().word(),
+            step.result.summary()
         );
     }
     s
@@ -150,13 +113,14 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let mut reports = Vec::new();
     for folder in BUILDS {
         let plan = samples.join(folder).join("plan.toml");
-        let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false)?;
+        let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false, |_| Ok(()))?;
         print!("{}", build_summary(&result));
         let dir = out.join("reports").join(folder);
         std::fs::create_dir_all(out.join("reports")).map_err(|e| Error::io(&dir, e))?;
         // report.html, result.json and plots; then the terminal text beside them.
-        super::closeout::write_report(&result, &dir, true)?;
-        let text = render_closeout(&result, recorded.as_ref());
+        let report = closeout_report(&result)?;
+        magproof::report::write_report_dir(&dir, true, &report)?;
+        let text = render(&report, &Style::plain()) + &verdict_lines(&result, recorded.as_ref());
         write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
         let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
         write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
@@ -185,15 +149,14 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let history_dir = out.join("reports").join("history");
     let section = magproof::report::sections::history_section(&runs, &changes)?;
     let json = section.result.clone();
-    let path = super::report_out::write_run_report(
-        &history_dir,
-        true,
+    let report = super::present::run_report(
         "History of TMR-0207",
         None,
         &[ledger_path.as_path()],
         vec![section],
-        &json,
+        json,
     )?;
+    let path = magproof::report::write_report_dir(&history_dir, true, &report)?;
     println!(
         "  history report          {}",
         path.join("report.html").display()

@@ -10,11 +10,11 @@ use clap::{Args as ClapArgs, ValueEnum};
 use serde::Serialize;
 
 use super::common::{LedgerArgs, Outcome};
+use magproof::check::CheckKind;
 use magproof::ledger::export::{write_changes_csv, write_values_csv};
 use magproof::ledger::{
     changes, group_by_build, Change, ChangeRules, Flag, Ledger, Run, RunFilter,
 };
-use magproof::log::plan::StepKind;
 
 /// Flags of `magproof history`.
 #[derive(Debug, ClapArgs)]
@@ -22,9 +22,9 @@ pub struct Args {
     /// Only this serial number.
     #[arg(long, value_name = "S")]
     serial: Option<String>,
-    /// Only this kind of check.
-    #[arg(long, value_enum, value_name = "K")]
-    kind: Option<KindArg>,
+    /// Only this kind of check (one of the registered kinds: calibrate, polarity, …).
+    #[arg(long, value_name = "K", value_parser = parse_kind)]
+    kind: Option<CheckKind>,
     /// Print exactly one JSON object {runs, changes} on stdout.
     #[arg(long)]
     json: bool,
@@ -45,21 +45,14 @@ pub struct Args {
     ledger: LedgerArgs,
 }
 
-#[derive(Debug, Clone, Copy, ValueEnum)]
-enum KindArg {
-    Calibrate,
-    Polarity,
-    Dipole,
-}
-
-impl From<KindArg> for StepKind {
-    fn from(k: KindArg) -> Self {
-        match k {
-            KindArg::Calibrate => StepKind::Calibrate,
-            KindArg::Polarity => StepKind::Polarity,
-            KindArg::Dipole => StepKind::Dipole,
-        }
-    }
+/// A kind from the registry of checks.
+fn parse_kind(s: &str) -> Result<CheckKind, String> {
+    CheckKind::parse(s).ok_or_else(|| {
+        format!(
+            "unknown check kind \"{s}\"; the kinds are {}",
+            CheckKind::names()
+        )
+    })
 }
 
 #[derive(Debug, Clone, Copy, ValueEnum)]
@@ -91,7 +84,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let ledger = Ledger::open_existing(&path).map_err(magproof::Error::from)?;
     let filter = RunFilter {
         serial: args.serial.clone(),
-        kind: args.kind.map(StepKind::from),
+        kind: args.kind,
     };
     let runs = ledger.runs(&filter).map_err(magproof::Error::from)?;
     if runs.is_empty() {
@@ -248,67 +241,32 @@ fn verdict(pass: Option<bool>) -> &'static str {
     }
 }
 
-fn num(v: &serde_json::Value, key: &str) -> Option<f64> {
-    v.get(key)?.as_f64()
-}
-
-fn norm_of(v: &serde_json::Value, key: &str) -> Option<f64> {
-    let a = v.get(key)?.as_array()?;
-    let mut s = 0.0;
-    for x in a {
-        s += x.as_f64()?.powi(2);
-    }
-    (a.len() == 3).then(|| s.sqrt())
-}
-
-/// One-line digest of a run's result, with units.
+/// One-line digest of a run from its stored quantities, with units: every verdict
+/// word, and the magnitudes and residuals among its numbers.
 fn summary(run: &Run) -> String {
-    let r = &run.result;
-    let q = magproof::ledger::quantities(run);
-    let with_sigma = |name: &str| {
-        q.iter()
-            .find(|x| x.name == name)
-            .and_then(|x| match x.value {
-                magproof::ledger::QuantityValue::Number { value, sigma } => {
-                    Some(fmt_pm(value, sigma, x.unit, false))
-                }
-                _ => None,
-            })
-    };
+    use magproof::ledger::QuantityValue;
     let mut parts = Vec::new();
-    match run.kind {
-        StepKind::Calibrate => {
-            if let Some(h) = with_sigma("hard_iron_magnitude_nt")
-                .or_else(|| norm_of(r, "hard_iron_nt").map(|h| fmt_pm(h, None, "nT", false)))
+    for q in &run.quantities {
+        match &q.value {
+            QuantityValue::Number { value, sigma }
+                if q.name.contains("_magnitude_") || q.name.contains("_rms_") =>
             {
-                parts.push(format!("|hard iron| {h}"));
+                let label = q
+                    .name
+                    .split('_')
+                    .take_while(|w| *w != "nt" && *w != "am2")
+                    .collect::<Vec<_>>()
+                    .join(" ");
+                parts.push(format!(
+                    "{label} {}",
+                    fmt_pm(*value, *sigma, &q.unit, false)
+                ));
             }
-            if let Some(rms) = num(r, "residual_rms_nt") {
-                parts.push(format!("rms {}", fmt_pm(rms, None, "nT", false)));
+            QuantityValue::Verdict(word) => {
+                let label = q.name.trim_end_matches("_verdict").replace('_', " ");
+                parts.push(format!("{label} {word}"));
             }
-        }
-        StepKind::Polarity => {
-            let rods: Vec<String> = r
-                .get("rods")
-                .and_then(|x| x.as_array())
-                .into_iter()
-                .flatten()
-                .filter_map(|rod| {
-                    Some(format!(
-                        "{} {}",
-                        rod.get("name")?.as_str()?,
-                        rod.get("verdict")?.as_str()?
-                    ))
-                })
-                .collect();
-            if !rods.is_empty() {
-                parts.push(format!("rods {}", rods.join(", ")));
-            }
-        }
-        StepKind::Dipole => {
-            if let Some(m) = with_sigma("dipole_magnitude_am2") {
-                parts.push(format!("|m| {m}"));
-            }
+            _ => {}
         }
     }
     if parts.is_empty() {
@@ -388,7 +346,7 @@ fn word(v: &serde_json::Value) -> String {
 fn amount(c: &Change) -> String {
     match c.delta {
         Some(d) => {
-            let mut s = fmt_pm(d, c.sigma, c.unit, true);
+            let mut s = fmt_pm(d, c.sigma, &c.unit, true);
             if let Some(sig) = c.sigma.filter(|s| *s > 0.0) {
                 s += &format!(" ({:.1}σ)", d.abs() / sig);
             }

@@ -10,6 +10,7 @@ mod field;
 mod history;
 mod inspect;
 mod polarity;
+mod present;
 mod record;
 mod report_out;
 mod simulate;

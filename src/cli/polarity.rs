@@ -1,21 +1,19 @@
 //! `magproof polarity LOG --plan P [--json] [--report DIR] [--params-out FILE]`: per-rod
-//! polarity verdict and coupling (DESIGN §6–§7), printed as an 80-column table or one
-//! JSON object; optionally the coupling matrix for flight software.
+//! polarity verdict and coupling, presented by the common writers; optionally the
+//! coupling matrix for flight software.
 
 use std::path::PathBuf;
 
-use anyhow::Context;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
+use super::present::{present_check, read_input};
 use magproof::check::polarity::{
-    run_polarity, DriftModel, PolarityRequest, PolarityResult, SensorChoice, DEFAULT_SNR_MIN,
+    magnetometer_recorded, run_polarity, DriftModel, PolarityOptions, SensorChoice, DEFAULT_SNR_MIN,
 };
-use magproof::log::{read_plan, ReadOptions};
-use magproof::report::polarity_params::write_polarity_params;
-use magproof::report::sections::polarity_section;
-
-use super::report_out::{read_log, write_section_report};
+use magproof::check::CheckRequest;
+use magproof::log::read_plan;
+use magproof::report::{FlightParamsWriter, ParamsSource, ReportWriter};
 
 /// Flags of `magproof polarity`.
 #[derive(Debug, ClapArgs)]
@@ -99,180 +97,34 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         SensorArg::Magnetometer => SensorChoice::Magnetometer,
         SensorArg::Probe => SensorChoice::Probe,
     };
-    let unit = args
-        .input
-        .unit
-        .or_else(|| plan.magnetometer.as_ref()?.unit)
-        .unwrap_or_default();
-    let opts = ReadOptions {
-        default_unit: unit,
-        skip_bad_rows: args.input.skip_bad_rows,
-    };
-    let log = read_log(&args.log, &opts).map_err(magproof::Error::from)?;
-    let req = PolarityRequest {
+    let input = read_input(
+        &args.log,
+        Some(&plan),
+        &args.input,
+        magnetometer_recorded(&plan, sensor),
+    )?;
+    let options = PolarityOptions {
         sensor,
         snr_min: args.snr_min,
         drift: args.drift,
         max_lag_s: args.max_lag_s,
-        range_nt: args.input.range,
-        ..PolarityRequest::new(&log, &plan)
     };
-    let mut result = run_polarity(&req)?;
-    if !log.skipped_rows.is_empty() {
-        result.warnings.push(format!(
-            "{} bad rows were skipped (--skip-bad-rows); the first: {}",
-            log.skipped_rows.len(),
-            log.skipped_rows[0].reason
-        ));
+    let result = run_polarity(&CheckRequest::new(&input, Some(&plan), options))?;
+    drop(input);
+    let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
+    if let Some(p) = &args.params_out {
+        extra.push(Box::new(FlightParamsWriter {
+            source: ParamsSource::Polarity(&result),
+            path: p.clone(),
+            force: args.output.force,
+        }));
     }
-    super::record::record_if_asked(
-        &args.record,
-        Some(&plan),
-        magproof::log::plan::StepKind::Polarity,
-        &args.log,
+    present_check(
         &result,
-    )?;
-    if let Some(path) = &args.params_out {
-        write_polarity_params(&result, path, args.output.force)
-            .with_context(|| format!("writing {}", path.display()))?;
-    }
-    if let Some(dir) = &args.output.report {
-        write_section_report(
-            dir,
-            args.output.force,
-            "Torque-rod polarity",
-            Some(&plan),
-            &[args.log.as_path(), args.plan.as_path()],
-            polarity_section(&result)?,
-            &serde_json::to_value(&result)?,
-        )?;
-    }
-    let text = if args.output.json {
-        serde_json::to_string_pretty(&result)? + "\n"
-    } else {
-        let mut t = render_table(&result);
-        if let Some(p) = &args.params_out {
-            t.push_str(&format!("coupling matrix written to {}\n", p.display()));
-        }
-        t
-    };
-    write_stdout(&text)?;
-    Ok(Outcome::from_pass(Some(result.pass)))
-}
-
-/// The terminal rendering: a table of rods and notes, at most 80 columns wide.
-pub fn render_table(r: &PolarityResult) -> String {
-    let mut s = String::new();
-    s.push_str(&format!(
-        "{:<10} {:<12} {:>7} {:>20} {:>6} {:>6} {:>8}\n",
-        "rod", "verdict", "angle", "|coupling| nT/cmd", "SNR", "gain", "settle"
-    ));
-    s.push_str(&format!("{}\n", "-".repeat(75)));
-    for rod in &r.rods {
-        let c = nalgebra::Vector3::from(rod.coupling_nt_per_command);
-        let sigma = nalgebra::Vector3::from(rod.coupling_sigma_nt_per_command).norm();
-        let name: String = rod.name.chars().take(10).collect();
-        s.push_str(&format!(
-            "{:<10} {:<12} {:>7} {:>20} {:>6} {:>6} {:>8}\n",
-            name,
-            rod.verdict.as_str(),
-            rod.angle_to_expected_deg
-                .map_or("-".into(), |a| format!("{a:.1}°")),
-            if sigma < 0.1 {
-                format!("{:.1} ± {:.3}", c.norm(), sigma)
-            } else {
-                format!("{:.1} ± {:.1}", c.norm(), sigma)
-            },
-            fmt_snr(rod.snr),
-            rod.gain_ratio.map_or("-".into(), |g| {
-                let mark = if rod.gain_reliable == Some(false) {
-                    "*"
-                } else {
-                    ""
-                };
-                format!("{g:.2}{mark}")
-            }),
-            rod.settle_time_s
-                .map_or("-".into(), |t| format!("{t:.3} s")),
-        ));
-    }
-    s.push('\n');
-    for rod in &r.rods {
-        let rem = rod
-            .remanent_offset_nt
-            .map(|v| {
-                format!(
-                    "; remanent offset {:.1} nT",
-                    nalgebra::Vector3::from(v).norm()
-                )
-            })
-            .unwrap_or_default();
-        push_wrapped(&mut s, &format!("{}: {}{rem}", rod.name, rod.note), "  ");
-    }
-    push_wrapped(
-        &mut s,
-        &format!(
-            "lag {:.4} s (response after command); noise {:.1}/{:.1}/{:.1} nT; angle limit {:.1}° ({}); {}",
-            r.lag_s,
-            r.noise_sigma_nt[0],
-            r.noise_sigma_nt[1],
-            r.noise_sigma_nt[2],
-            r.angle_max_deg,
-            r.angle_max_source,
-            r.drift
-        ),
-        "",
-    );
-    if r.rods.iter().any(|x| x.gain_reliable == Some(false)) {
-        s.push_str("* gain unreliable: sensor closer than three rod lengths\n");
-    }
-    for w in &r.warnings {
-        push_wrapped(&mut s, &format!("warning: {w}"), "  ");
-    }
-    s.push_str(if r.pass {
-        "PASS: every rod pushes the way the plan says\n"
-    } else {
-        "FAIL: at least one rod is not proven to push the way the plan says\n"
-    });
-    s
-}
-
-/// Print to stdout; a closed pipe (`| head`) is not an error.
-fn write_stdout(text: &str) -> anyhow::Result<()> {
-    use std::io::Write;
-    let mut out = std::io::stdout().lock();
-    match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
-        r => Ok(r.context("writing to stdout")?),
-    }
-}
-
-fn fmt_snr(x: f64) -> String {
-    if !x.is_finite() {
-        "inf".into()
-    } else if x >= 1e5 {
-        format!("{x:.0e}")
-    } else {
-        format!("{x:.0}")
-    }
-}
-
-/// Append `text` wrapped at 80 columns; continuation lines start with `indent`.
-fn push_wrapped(out: &mut String, text: &str, indent: &str) {
-    let mut line = String::new();
-    for word in text.split_whitespace() {
-        let width = line.chars().count();
-        if width > 0 && width + 1 + word.chars().count() > 80 {
-            out.push_str(&line);
-            out.push('\n');
-            line = indent.to_string();
-        } else if width > 0 && line != indent {
-            line.push(' ');
-        }
-        line.push_str(word);
-    }
-    if !line.trim().is_empty() {
-        out.push_str(&line);
-        out.push('\n');
-    }
+        &args.log,
+        (Some(&plan), Some(&args.plan)),
+        &args.output,
+        &args.record,
+        extra,
+    )
 }

@@ -3,12 +3,10 @@
 
 use std::path::Path;
 
-use clap::Args;
-use serde::Serialize;
-
 use super::common::LedgerArgs;
+use clap::Args;
+use magproof::check::CheckResult;
 use magproof::ledger::{record_check, Recorded};
-use magproof::log::plan::StepKind;
 use magproof::log::Plan;
 
 /// `--record [--ledger PATH]`, to flatten into a check's flags.
@@ -21,15 +19,14 @@ pub struct RecordArgs {
     pub ledger: LedgerArgs,
 }
 
-/// If `--record` was given, record `result` (the check's §7 object) with the log and
+/// If `--record` was given, record `result` (the check's result) with the log and
 /// the plan as inputs, and say on stderr what happened. Without a plan, or with a plan
 /// lacking `[article]`, refuse with a usage error (exit 2) naming what is missing.
 pub fn record_if_asked(
     args: &RecordArgs,
     plan: Option<&Plan>,
-    kind: StepKind,
+    result: &dyn CheckResult,
     log: &Path,
-    result: &impl Serialize,
 ) -> anyhow::Result<()> {
     if !args.record {
         return Ok(());
@@ -40,10 +37,8 @@ pub fn record_if_asked(
         )
         .into());
     };
-    let value = serde_json::to_value(result)
-        .map_err(|e| magproof::Error::Internal(format!("result is not JSON: {e}")))?;
     let path = args.ledger.path();
-    let recorded = record_check(&path, plan, kind, log, value).map_err(magproof::Error::from)?;
+    let recorded = record_check(&path, plan, result, log).map_err(magproof::Error::from)?;
     match recorded {
         Recorded::New(id) => eprintln!("magproof: recorded as run {id} in {}", path.display()),
         Recorded::AlreadyThere(id) => eprintln!(
@@ -52,25 +47,4 @@ pub fn record_if_asked(
         ),
     }
     Ok(())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn record_without_a_plan_is_a_usage_error_and_writes_nothing() {
-        let dir = tempfile::tempdir().unwrap();
-        let db = dir.path().join("l.db");
-        let args = RecordArgs {
-            record: true,
-            ledger: LedgerArgs {
-                ledger: Some(db.clone()),
-            },
-        };
-        let e = record_if_asked(&args, None, StepKind::Dipole, Path::new("x.csv"), &1).unwrap_err();
-        assert_eq!(super::super::exit_code_for(&e), 2);
-        assert!(e.to_string().contains("--plan"), "{e}");
-        assert!(!db.exists());
-    }
 }

@@ -5,7 +5,7 @@ use std::io::Write;
 
 use super::history::Change;
 use super::quantity::QuantityValue;
-use super::{quantities, Run};
+use super::Run;
 
 /// Columns of [`write_values_csv`].
 pub const VALUES_HEADER: [&str; 10] = [
@@ -54,7 +54,7 @@ pub fn write_values_csv(runs: &[Run], out: &mut dyn Write) -> Result<(), csv::Er
     let mut w = csv::Writer::from_writer(out);
     w.write_record(VALUES_HEADER)?;
     for run in runs {
-        for q in quantities(run) {
+        for q in &run.quantities {
             let (value, sigma) = match &q.value {
                 QuantityValue::Number { value, sigma } => (format!("{value}"), cell(*sigma)),
                 QuantityValue::Verdict(s) => (s.clone(), String::new()),
@@ -69,7 +69,7 @@ pub fn write_values_csv(runs: &[Run], out: &mut dyn Write) -> Result<(), csv::Er
                 &q.name,
                 &value,
                 &sigma,
-                q.unit,
+                &q.unit,
                 opt_bool(run.pass),
             ])?;
         }
@@ -102,7 +102,7 @@ pub fn write_changes_csv(changes: &[Change], out: &mut dyn Write) -> Result<(), 
             &value_cell(&c.to),
             &cell(c.delta),
             &cell(c.sigma),
-            c.unit,
+            &c.unit,
             c.flag.as_str(),
         ])?;
     }

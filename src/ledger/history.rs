@@ -1,4 +1,4 @@
-//! Build-to-build history: the numbers each run carries ([`quantities`]) and what changed
+//! Build-to-build history: the numbers each run carries (`Run::quantities`) and what changed
 //! from one build of a serial number to the next ([`changes`], the §7 `changes` array).
 //!
 //! Rules (also in `docs/ledger.md`):
@@ -16,9 +16,9 @@
 use serde::Serialize;
 use serde_json::Value;
 
-use super::quantity::{quantities, Quantity, QuantityValue};
+use super::quantity::{Quantity, QuantityValue};
 use super::{LedgerError, Run, RunId};
-use crate::log::plan::StepKind;
+use crate::check::CheckKind;
 
 /// What a change amounts to. Serialized in kebab-case (`limit-crossed`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -114,10 +114,10 @@ pub struct Change {
     pub sigma: Option<f64>,
     /// What the change amounts to.
     pub flag: Flag,
-    /// Which check the quantity comes from.
-    pub kind: StepKind,
+    /// Which check the quantity comes from (its stored name).
+    pub kind: String,
     /// Unit of `delta`, `sigma`, `from`, `to`.
-    pub unit: &'static str,
+    pub unit: String,
     /// Value in the earlier build (number, verdict word or bool; `null` if absent).
     pub from: Value,
     /// Value in the later build.
@@ -185,7 +185,7 @@ pub fn group_by_build(runs: &[Run]) -> Vec<SerialRuns<'_>> {
 pub fn changes(runs: &[Run], rules: &ChangeRules) -> Vec<Change> {
     let mut out = Vec::new();
     for serial in group_by_build(runs) {
-        for kind in [StepKind::Calibrate, StepKind::Polarity, StepKind::Dipole] {
+        for kind in kinds_of(runs) {
             let mut previous: Option<&Run> = None;
             for build in &serial.builds {
                 let Some(latest) = build.runs.iter().rev().find(|r| r.kind == kind) else {
@@ -198,6 +198,24 @@ pub fn changes(runs: &[Run], rules: &ChangeRules) -> Vec<Change> {
             }
         }
     }
+    out
+}
+
+/// The kinds present in `runs`: registered kinds in registry order, then any kind this
+/// version does not know (recorded by a newer magproof) in order of name.
+pub fn kinds_of(runs: &[Run]) -> Vec<String> {
+    let mut out: Vec<String> = CheckKind::all()
+        .map(|k| k.as_str().to_string())
+        .filter(|k| runs.iter().any(|r| r.kind == *k))
+        .collect();
+    let mut unknown: Vec<String> = runs
+        .iter()
+        .map(|r| r.kind.clone())
+        .filter(|k| CheckKind::parse(k).is_none())
+        .collect();
+    unknown.sort();
+    unknown.dedup();
+    out.extend(unknown);
     out
 }
 
@@ -214,9 +232,8 @@ fn combine(a: Option<f64>, b: Option<f64>) -> Option<f64> {
 }
 
 fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
-    let qa = quantities(a);
-    let qb = quantities(b);
-    let change = |name: &str, unit, from, to, delta, sigma, flag, detail| Change {
+    let (qa, qb) = (&a.quantities, &b.quantities);
+    let change = |name: &str, unit: &str, from, to, delta, sigma, flag, detail| Change {
         serial: b.serial.clone(),
         from_build: a.build.clone(),
         to_build: b.build.clone(),
@@ -224,8 +241,8 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
         delta,
         sigma,
         flag,
-        kind: b.kind,
-        unit,
+        kind: b.kind.clone(),
+        unit: String::from(unit),
         from,
         to,
         from_run: a.id,
@@ -236,7 +253,7 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
         |q: &[Quantity], name: &str| q.iter().find(|x| x.name == name).map(|x| x.value.clone());
     // Soft iron: the element that moved most.
     let mut worst: Option<(String, f64, f64, Option<f64>)> = None;
-    for x in &qb {
+    for x in qb {
         let (
             QuantityValue::Number {
                 value: vb,
@@ -246,7 +263,7 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
                 value: va,
                 sigma: sa,
             }),
-        ) = (&x.value, find(&qa, &x.name))
+        ) = (&x.value, find(qa, &x.name))
         else {
             continue;
         };
@@ -263,7 +280,7 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
         let sigma = combine(sa, *sb);
         out.push(change(
             &x.name,
-            x.unit,
+            &x.unit,
             va.into(),
             (*vb).into(),
             Some(delta),
@@ -288,7 +305,7 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
     }
     // Rod verdicts: every rod named on either side.
     let mut rods: Vec<&str> = Vec::new();
-    for q in qa.iter().chain(&qb) {
+    for q in qa.iter().chain(qb) {
         if matches!(q.value, QuantityValue::Verdict(_)) && !rods.contains(&q.name.as_str()) {
             rods.push(&q.name);
         }
@@ -298,7 +315,7 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
             Some(QuantityValue::Verdict(s)) => Value::String(s),
             _ => Value::Null,
         };
-        let (from, to) = (word(find(&qa, name)), word(find(&qb, name)));
+        let (from, to) = (word(find(qa, name)), word(find(qb, name)));
         let flag = if from == to {
             Flag::Unchanged
         } else {
@@ -307,9 +324,9 @@ fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
         out.push(change(name, "", from, to, None, None, flag, None));
     }
     // Overall verdict.
-    let pass_name = format!("{}_pass", b.kind.as_str());
+    let pass_name = format!("{}_pass", b.kind);
     if let (Some(QuantityValue::Pass(pa)), Some(QuantityValue::Pass(pb))) =
-        (find(&qa, &pass_name), find(&qb, &pass_name))
+        (find(qa, &pass_name), find(qb, &pass_name))
     {
         let flag = match (pa, pb) {
             (true, false) => Flag::LimitCrossed,
@@ -335,18 +352,28 @@ mod tests {
     use approx::assert_relative_eq;
     use serde_json::json;
 
-    fn run(id: i64, build: &str, kind: StepKind, result: Value) -> Run {
+    fn run(id: i64, build: &str, kind: &str, result: Value) -> Run {
         Run {
             id: RunId(id),
             serial: "KST-002".into(),
             build: build.into(),
-            kind,
+            kind: kind.into(),
+            quantities: legacy_with_pass(kind, &result),
             recorded_at: "2026-11-20T09:00:00.000Z".into(),
             tool_version: Some(crate::VERSION.into()),
             pass: result.get("pass").and_then(Value::as_bool),
             result,
             inputs: vec![],
         }
+    }
+
+    /// The quantities a run of the first kinds carried, as the ledger stores them.
+    fn legacy_with_pass(kind: &str, result: &Value) -> Vec<Quantity> {
+        let mut q = crate::ledger::legacy_quantities(kind, result);
+        if let Some(p) = result.get("pass").and_then(Value::as_bool) {
+            q.push(Quantity::pass(kind, p));
+        }
+        q
     }
 
     fn calib(h: [f64; 3], s: [f64; 3], w01: f64, pass: bool) -> Value {
@@ -365,13 +392,13 @@ mod tests {
             run(
                 1,
                 "B3",
-                StepKind::Calibrate,
+                "calibrate",
                 calib([100.0, 200.0, -50.0], [3.0, 4.0, 5.0], 0.01, true),
             ),
             run(
                 2,
                 "B4",
-                StepKind::Calibrate,
+                "calibrate",
                 calib([130.0, 210.0, -50.0], [4.0, 3.0, 5.0], 0.03, true),
             ),
         ];
@@ -412,9 +439,9 @@ mod tests {
                                           "pass": pass})
         };
         let runs = [
-            run(1, "B3", StepKind::Dipole, d([0.002, 0.0, 0.001], true)),
-            run(2, "B4", StepKind::Dipole, d([0.006, 0.0, 0.001], false)),
-            run(3, "B5", StepKind::Dipole, d([0.002, 0.0, 0.001], true)),
+            run(1, "B3", "dipole", d([0.002, 0.0, 0.001], true)),
+            run(2, "B4", "dipole", d([0.006, 0.0, 0.001], false)),
+            run(3, "B5", "dipole", d([0.002, 0.0, 0.001], true)),
         ];
         let c = changes(&runs, &ChangeRules::default());
         let passes: Vec<Flag> = c
@@ -432,8 +459,8 @@ mod tests {
     fn rod_verdicts_are_compared_by_name_and_a_swap_is_flagged() {
         let p = |x: &str, y: &str| json!({"rods": [{"name": "x", "verdict": x}, {"name": "y", "verdict": y}], "pass": x == "ok" && y == "ok"});
         let runs = [
-            run(1, "B3", StepKind::Polarity, p("ok", "ok")),
-            run(2, "B4", StepKind::Polarity, p("ok", "reversed")),
+            run(1, "B3", "polarity", p("ok", "ok")),
+            run(2, "B4", "polarity", p("ok", "reversed")),
         ];
         let c = changes(&runs, &ChangeRules::default());
         assert_eq!(find(&c, "rod_x_verdict").flag, Flag::Unchanged);
@@ -449,19 +476,14 @@ mod tests {
     fn builds_follow_first_record_and_the_latest_run_of_a_build_stands_for_it() {
         let d = |x: f64| json!({"moment_body_am2": [x, 0.0, 0.0], "moment_sigma_am2": [1e-3, 1e-3, 1e-3]});
         let runs = [
-            run(1, "B3", StepKind::Dipole, d(0.010)),
-            run(2, "B4", StepKind::Dipole, d(0.020)),
-            run(3, "B3", StepKind::Dipole, d(0.011)), // re-measured B3 after B4 began
-            run(
-                4,
-                "B4",
-                StepKind::Calibrate,
-                calib([0.0; 3], [1.0; 3], 0.0, true),
-            ),
+            run(1, "B3", "dipole", d(0.010)),
+            run(2, "B4", "dipole", d(0.020)),
+            run(3, "B3", "dipole", d(0.011)), // re-measured B3 after B4 began
+            run(4, "B4", "calibrate", calib([0.0; 3], [1.0; 3], 0.0, true)),
             run(
                 5,
                 "B5",
-                StepKind::Calibrate,
+                "calibrate",
                 calib([1.0, 0.0, 0.0], [1.0; 3], 0.0, true),
             ),
         ];
@@ -471,9 +493,7 @@ mod tests {
         assert_relative_eq!(x.delta.unwrap(), 0.009, epsilon = 1e-12);
         assert_eq!((x.from_run, x.to_run), (RunId(3), RunId(2)));
         // No dipole in B5: no dipole change B4 → B5; calibrate compares B4 → B5.
-        assert!(!c
-            .iter()
-            .any(|x| x.kind == StepKind::Dipole && x.to_build == "B5"));
+        assert!(!c.iter().any(|x| x.kind == "dipole" && x.to_build == "B5"));
         assert_eq!(find(&c, "hard_iron_x_nt").from_build, "B4");
     }
 

@@ -1,8 +1,8 @@
-//! The ledger: SQLite history of runs per serial number and build (DESIGN §6, §7).
+//! The ledger: SQLite history of runs per serial number and build (`docs/ledger.md`).
 //!
 //! One file (`magproof.db` by default) holds every recorded run: serial, build, kind of
-//! check, time (UTC), magproof version, SHA-256 of each input file, the §7 JSON result and
-//! its verdict. [`history`] turns runs into the changes from one build to the next.
+//! check, time (UTC), magproof version, SHA-256 of each input file, the JSON result, its
+//! verdict and its quantities. [`history`] turns runs into the changes from one build to the next.
 //!
 //! Guarantees (see `docs/ledger.md`):
 //! - every call of [`Ledger::record_runs`] is one transaction: all its runs or none;
@@ -26,13 +26,13 @@ use std::time::{Duration, Instant};
 
 use rusqlite::{params, Connection, ErrorCode, OpenFlags, OptionalExtension, TransactionBehavior};
 
-use crate::log::plan::StepKind;
+use crate::check::{CheckKind, CheckResult};
 use crate::log::{Plan, Shown};
 
 pub use error::LedgerError;
 pub use history::{changes, group_by_build, BuildRuns, Change, ChangeRules, Flag, SerialRuns};
-pub use quantity::{quantities, Quantity, QuantityValue};
-pub use record::{parse_kind, InputFile, InputRole, NewRun, Recorded, Run, RunFilter, RunId};
+pub use quantity::{legacy_quantities, Quantity, QuantityValue};
+pub use record::{InputFile, InputRole, NewRun, Recorded, Run, RunFilter, RunId};
 pub use schema::{APPLICATION_ID, CURRENT_VERSION};
 
 /// How long a writer waits for another process's transaction before giving up.
@@ -275,6 +275,10 @@ impl Ledger {
                 )
                 .map_err(db)?;
             }
+            let pass = run.pass().map(|p| Quantity::pass(run.kind.as_str(), p));
+            for q in run.quantities.iter().chain(pass.as_ref()) {
+                quantity::insert(&tx, id, q).map_err(db)?;
+            }
             out.push(Recorded::New(RunId(id)));
         }
         tx.commit().map_err(db)?;
@@ -305,7 +309,7 @@ impl Ledger {
         );
         let rows: Vec<Row> = stmt
             .query_map(
-                params![filter.serial, filter.kind.map(StepKind::as_str)],
+                params![filter.serial, filter.kind.map(CheckKind::as_str)],
                 |r| {
                     Ok((
                         r.get(0)?,
@@ -333,8 +337,6 @@ impl Ledger {
         };
         let mut runs = Vec::with_capacity(rows.len());
         for (id, serial, build, kind, recorded_at, tool_version, pass, result) in rows {
-            let kind =
-                parse_kind(&kind).ok_or_else(|| bad(id, format!("unknown kind {kind:?}")))?;
             let result = serde_json::from_str(&result)
                 .map_err(|e| bad(id, format!("stored result is not JSON: {e}")))?;
             let raw: Vec<(String, String, String)> = inputs_stmt
@@ -362,6 +364,7 @@ impl Ledger {
                 pass,
                 result,
                 inputs,
+                quantities: quantity::read(&self.conn, id).map_err(&db)?,
             });
         }
         Ok(runs)
@@ -393,11 +396,10 @@ impl Ledger {
 pub fn record_check(
     ledger_path: &Path,
     plan: &Plan,
-    kind: StepKind,
+    result: &dyn CheckResult,
     log: &Path,
-    result: serde_json::Value,
 ) -> Result<Recorded, LedgerError> {
-    let run = NewRun::from_plan(plan, kind, log, result)?;
+    let run = NewRun::from_result(plan, result, log)?;
     let mut ledger = Ledger::open(ledger_path)?;
     let recorded = ledger.record_runs(std::slice::from_ref(&run))?;
     recorded
@@ -417,145 +419,4 @@ fn utc_now_iso8601() -> String {
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use serde_json::json;
-
-    fn new_run(build: &str, kind: StepKind, log_hash: char, result: serde_json::Value) -> NewRun {
-        NewRun {
-            serial: "KST-002".into(),
-            build: build.into(),
-            kind,
-            inputs: vec![InputFile {
-                role: InputRole::Log,
-                path: format!("{}.csv", kind.as_str()).into(),
-                sha256: log_hash.to_string().repeat(64),
-            }],
-            result,
-        }
-    }
-
-    #[test]
-    fn runs_come_back_as_recorded_with_time_version_and_verdict() {
-        let dir = tempfile::tempdir().unwrap();
-        let mut ledger = Ledger::open(&dir.path().join("l.db")).unwrap();
-        let ids = ledger
-            .record_runs(&[
-                new_run(
-                    "B3",
-                    StepKind::Dipole,
-                    'a',
-                    json!({"magnitude_am2": 0.003, "pass": true}),
-                ),
-                new_run(
-                    "B3",
-                    StepKind::Polarity,
-                    'b',
-                    json!({"rods": [], "pass": false}),
-                ),
-                new_run(
-                    "B3",
-                    StepKind::Calibrate,
-                    'c',
-                    json!({"residual_rms_nt": 20.0}),
-                ),
-            ])
-            .unwrap();
-        assert!(ids.iter().all(|r| matches!(r, Recorded::New(_))));
-        let runs = ledger.runs(&RunFilter::default()).unwrap();
-        assert_eq!(runs.len(), 3);
-        assert_eq!(runs[0].result["magnitude_am2"], json!(0.003));
-        assert_eq!(
-            runs.iter().map(|r| r.pass).collect::<Vec<_>>(),
-            [Some(true), Some(false), None]
-        );
-        assert_eq!(runs[0].tool_version.as_deref(), Some(crate::VERSION));
-        // One set, one timestamp, in the documented form.
-        assert!(runs.iter().all(|r| r.recorded_at == runs[0].recorded_at));
-        let fmt = time::format_description::well_known::Rfc3339;
-        assert!(time::OffsetDateTime::parse(&runs[0].recorded_at, &fmt).is_ok());
-        assert!(runs[0].recorded_at.ends_with('Z'));
-        let only = RunFilter {
-            kind: Some(StepKind::Polarity),
-            ..RunFilter::default()
-        };
-        assert_eq!(ledger.runs(&only).unwrap().len(), 1);
-        let other = RunFilter {
-            serial: Some("KST-009".into()),
-            ..RunFilter::default()
-        };
-        assert!(ledger.runs(&other).unwrap().is_empty());
-    }
-
-    #[test]
-    fn the_same_inputs_recorded_twice_are_one_run() {
-        let dir = tempfile::tempdir().unwrap();
-        let mut ledger = Ledger::open(&dir.path().join("l.db")).unwrap();
-        let r = new_run("B3", StepKind::Dipole, 'a', json!({"pass": true}));
-        let first = ledger.record_runs(std::slice::from_ref(&r)).unwrap();
-        let again = ledger.record_runs(&[r.clone(), r.clone()]).unwrap();
-        assert_eq!(again, [Recorded::AlreadyThere(first[0].id()); 2]);
-        // Same log under another build, or another log for the same build: new runs.
-        let other_build = new_run("B4", StepKind::Dipole, 'a', json!({"pass": true}));
-        let other_log = new_run("B3", StepKind::Dipole, 'f', json!({"pass": true}));
-        let more = ledger.record_runs(&[other_build, other_log]).unwrap();
-        assert!(more.iter().all(|x| matches!(x, Recorded::New(_))));
-        assert_eq!(ledger.runs(&RunFilter::default()).unwrap().len(), 3);
-    }
-
-    #[test]
-    fn a_set_with_one_bad_run_writes_nothing() {
-        let dir = tempfile::tempdir().unwrap();
-        let mut ledger = Ledger::open(&dir.path().join("l.db")).unwrap();
-        let good = new_run("B3", StepKind::Dipole, 'a', json!({"pass": true}));
-        let bad = new_run("B3", StepKind::Calibrate, 'b', json!("not an object"));
-        let e = ledger.record_runs(&[good, bad]).unwrap_err();
-        assert!(matches!(e, LedgerError::InvalidRun(_)), "{e}");
-        assert!(ledger.runs(&RunFilter::default()).unwrap().is_empty());
-    }
-
-    #[test]
-    fn reading_a_missing_ledger_does_not_create_it() {
-        let dir = tempfile::tempdir().unwrap();
-        let path = dir.path().join("nowhere.db");
-        let e = Ledger::open_existing(&path).unwrap_err();
-        assert!(matches!(e, LedgerError::Missing { .. }));
-        assert_eq!(e.exit_code(), 2);
-        assert!(!path.exists());
-    }
-
-    #[test]
-    fn recording_a_check_needs_the_plans_article_and_hashes_log_and_plan() {
-        let dir = tempfile::tempdir().unwrap();
-        let log = dir.path().join("dipole.csv");
-        std::fs::write(&log, "t,bx,by,bz\n0,1,2,3\n").unwrap();
-        let bare = dir.path().join("bare.toml");
-        std::fs::write(&bare, "[limits]\nresidual_dipole_max_am2 = 0.005\n").unwrap();
-        let plan = crate::log::read_plan(&bare).unwrap();
-        let db = dir.path().join("l.db");
-        let e =
-            record_check(&db, &plan, StepKind::Dipole, &log, json!({"pass": true})).unwrap_err();
-        assert!(matches!(e, LedgerError::NoArticle { .. }));
-        assert!(e.to_string().contains("[article]"), "{e}");
-        assert!(!db.exists(), "a refused record must not create the ledger");
-
-        let with = dir.path().join("plan.toml");
-        std::fs::write(&with, "[article]\nserial = \"KST-002\"\nbuild = \"B4\"\n").unwrap();
-        let plan = crate::log::read_plan(&with).unwrap();
-        let id = record_check(&db, &plan, StepKind::Dipole, &log, json!({"pass": true})).unwrap();
-        assert!(matches!(id, Recorded::New(_)));
-        let again =
-            record_check(&db, &plan, StepKind::Dipole, &log, json!({"pass": true})).unwrap();
-        assert_eq!(again, Recorded::AlreadyThere(id.id()));
-        let runs = Ledger::open_existing(&db)
-            .unwrap()
-            .runs(&RunFilter::default())
-            .unwrap();
-        assert_eq!(
-            (runs[0].serial.as_str(), runs[0].build.as_str()),
-            ("KST-002", "B4")
-        );
-        let roles: Vec<InputRole> = runs[0].inputs.iter().map(|i| i.role).collect();
-        assert_eq!(roles, [InputRole::Log, InputRole::Plan]);
-    }
-}
+mod tests;

@@ -1,11 +1,11 @@
-//! The numbers and verdicts a run's §7 result carries, under stable names, with units
-//! and 1σ where the result gives one. History compares these; the CSV export lists them.
+//! The numbers and verdicts a run carries, under stable names, with units and 1σ where
+//! the result gives one. Each check's result says which (`CheckResult::quantities`); the
+//! ledger stores them beside the run, history compares them and the CSV export lists
+//! them. [`legacy_quantities`] reads them back out of the JSON of runs recorded before
+//! the ledger stored them (used once, by the migration that back-fills them).
 
 use serde::Serialize;
 use serde_json::Value;
-
-use super::Run;
-use crate::log::plan::StepKind;
 
 /// One number or verdict a run carries, under a stable name.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -13,7 +13,7 @@ pub struct Quantity {
     /// Stable name, e.g. `hard_iron_x_nt`, `soft_iron_01`, `rod_x_verdict`.
     pub name: String,
     /// Unit: `nT`, `A·m²`, `1` (dimensionless) or empty for verdicts.
-    pub unit: &'static str,
+    pub unit: String,
     /// The value.
     pub value: QuantityValue,
 }
@@ -29,10 +29,62 @@ pub enum QuantityValue {
         /// 1σ uncertainty, same unit.
         sigma: Option<f64>,
     },
-    /// A rod verdict (`ok`, `reversed`, …).
+    /// A verdict word (`ok`, `reversed`, …).
     Verdict(String),
     /// A check's overall `pass`.
     Pass(bool),
+}
+
+impl Quantity {
+    /// A number with its unit and optional 1σ.
+    pub fn number(name: String, unit: &str, value: f64, sigma: Option<f64>) -> Self {
+        Quantity {
+            name,
+            unit: unit.to_string(),
+            value: QuantityValue::Number { value, sigma },
+        }
+    }
+
+    /// A verdict word.
+    pub fn verdict(name: String, word: &str) -> Self {
+        Quantity {
+            name,
+            unit: String::new(),
+            value: QuantityValue::Verdict(word.to_string()),
+        }
+    }
+
+    /// A check's overall pass, named `<kind>_pass`.
+    pub fn pass(kind: &str, pass: bool) -> Self {
+        Quantity {
+            name: format!("{kind}_pass"),
+            unit: String::new(),
+            value: QuantityValue::Pass(pass),
+        }
+    }
+
+    /// A vector's components `<stem>_{x,y,z}_<tag>` and magnitude
+    /// `<stem>_magnitude_<tag>` (the given one, else the norm), the magnitude's σ by
+    /// first-order propagation: σ|v|² = Σ (vᵢ/|v|)² σᵢ² (undefined at |v| = 0).
+    pub fn vector(
+        stem: &str,
+        unit: &str,
+        tag: &str,
+        v: [f64; 3],
+        s: Option<[f64; 3]>,
+        magnitude: Option<f64>,
+    ) -> Vec<Self> {
+        let mut out = Vec::with_capacity(4);
+        vector_quantities(&mut out, stem, unit, tag, v, s, magnitude);
+        out
+    }
+
+    /// Replace a number's 1σ (no effect on a verdict).
+    pub fn set_sigma(&mut self, new: f64) {
+        if let QuantityValue::Number { sigma, .. } = &mut self.value {
+            *sigma = Some(new);
+        }
+    }
 }
 
 const AXES: [&str; 3] = ["x", "y", "z"];
@@ -57,12 +109,8 @@ fn mat3(v: Option<&Value>) -> Option<[[f64; 3]; 3]> {
     Some([vec3(a.first())?, vec3(a.get(1))?, vec3(a.get(2))?])
 }
 
-fn number(name: String, unit: &'static str, value: f64, sigma: Option<f64>) -> Quantity {
-    Quantity {
-        name,
-        unit,
-        value: QuantityValue::Number { value, sigma },
-    }
+fn number(name: String, unit: &str, value: f64, sigma: Option<f64>) -> Quantity {
+    Quantity::number(name, unit, value, sigma)
 }
 
 /// A vector's components and magnitude, the magnitude's σ by first-order propagation:
@@ -70,7 +118,7 @@ fn number(name: String, unit: &'static str, value: f64, sigma: Option<f64>) -> Q
 fn vector_quantities(
     out: &mut Vec<Quantity>,
     stem: &str,
-    unit: &'static str,
+    unit: &str,
     unit_tag: &str,
     v: [f64; 3],
     s: Option<[f64; 3]>,
@@ -96,20 +144,19 @@ fn vector_quantities(
     ));
 }
 
-/// The quantities a run's result carries, by kind (keys of DESIGN §7). Keys that are
-/// absent or not numbers are skipped, never guessed.
+/// The quantities in the JSON result of a run recorded before the ledger stored them
+/// (the three first kinds; any other kind has none). Keys that are absent or not
+/// numbers are skipped, never guessed.
 ///
 /// - calibrate: `hard_iron_{x,y,z}_nt`, `hard_iron_magnitude_nt` (σ from
 ///   `hard_iron_sigma_nt`), `soft_iron_{r}{c}` (σ from `soft_iron_sigma` when a result
-///   carries one), `calibration_residual_rms_nt`, `calibrate_pass`;
-/// - polarity: `rod_<name>_verdict`, `polarity_pass`;
-/// - dipole: `dipole_{x,y,z}_am2`, `dipole_magnitude_am2` (σ from `moment_sigma_am2`),
-///   `dipole_pass`.
-pub fn quantities(run: &Run) -> Vec<Quantity> {
-    let r = &run.result;
+///   carries one), `calibration_residual_rms_nt`;
+/// - polarity: `rod_<name>_verdict`;
+/// - dipole: `dipole_{x,y,z}_am2`, `dipole_magnitude_am2` (σ from `moment_sigma_am2`).
+pub fn legacy_quantities(kind: &str, r: &Value) -> Vec<Quantity> {
     let mut out = Vec::new();
-    match run.kind {
-        StepKind::Calibrate => {
+    match kind {
+        "calibrate" => {
             if let Some(h) = vec3(r.get("hard_iron_nt")) {
                 vector_quantities(
                     &mut out,
@@ -143,7 +190,7 @@ pub fn quantities(run: &Run) -> Vec<Quantity> {
                 ));
             }
         }
-        StepKind::Polarity => {
+        "polarity" => {
             for rod in r
                 .get("rods")
                 .and_then(Value::as_array)
@@ -153,15 +200,11 @@ pub fn quantities(run: &Run) -> Vec<Quantity> {
                 let name = rod.get("name").and_then(Value::as_str);
                 let verdict = rod.get("verdict").and_then(Value::as_str);
                 if let (Some(name), Some(verdict)) = (name, verdict) {
-                    out.push(Quantity {
-                        name: format!("rod_{name}_verdict"),
-                        unit: "",
-                        value: QuantityValue::Verdict(verdict.to_string()),
-                    });
+                    out.push(Quantity::verdict(format!("rod_{name}_verdict"), verdict));
                 }
             }
         }
-        StepKind::Dipole => {
+        "dipole" => {
             if let Some(m) = vec3(r.get("moment_body_am2")) {
                 let mag = r.get("magnitude_am2").and_then(Value::as_f64);
                 vector_quantities(
@@ -175,43 +218,65 @@ pub fn quantities(run: &Run) -> Vec<Quantity> {
                 );
             }
         }
-    }
-    if let Some(pass) = run.pass {
-        out.push(Quantity {
-            name: format!("{}_pass", run.kind.as_str()),
-            unit: "",
-            value: QuantityValue::Pass(pass),
-        });
+        _ => {}
     }
     out
+}
+
+/// Store one quantity of run `run_id` (table `quantities`, schema v3).
+pub(crate) fn insert(
+    conn: &rusqlite::Connection,
+    run_id: i64,
+    q: &Quantity,
+) -> rusqlite::Result<()> {
+    let (value, sigma, word): (Option<f64>, Option<f64>, Option<String>) = match &q.value {
+        QuantityValue::Number { value, sigma } => (Some(*value), *sigma, None),
+        QuantityValue::Verdict(w) => (None, None, Some(w.clone())),
+        QuantityValue::Pass(p) => (Some(if *p { 1.0 } else { 0.0 }), None, Some("pass".into())),
+    };
+    conn.execute(
+        "INSERT OR REPLACE INTO quantities (run_id, name, unit, value, sigma, word)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
+        rusqlite::params![run_id, q.name, q.unit, value, sigma, word],
+    )?;
+    Ok(())
+}
+
+/// The quantities stored for run `run_id`, in the order they were stored.
+pub(crate) fn read(conn: &rusqlite::Connection, run_id: i64) -> rusqlite::Result<Vec<Quantity>> {
+    let mut stmt = conn.prepare_cached(
+        "SELECT name, unit, value, sigma, word FROM quantities WHERE run_id = ?1 ORDER BY rowid",
+    )?;
+    let rows = stmt.query_map([run_id], |r| {
+        let name: String = r.get(0)?;
+        let unit: String = r.get(1)?;
+        let value: Option<f64> = r.get(2)?;
+        let sigma: Option<f64> = r.get(3)?;
+        let word: Option<String> = r.get(4)?;
+        let value = match (value, word) {
+            (Some(v), Some(w)) if w == "pass" => QuantityValue::Pass(v > 0.5),
+            (_, Some(w)) => QuantityValue::Verdict(w),
+            (v, None) => QuantityValue::Number {
+                // A NaN is stored by SQLite as NULL.
+                value: v.unwrap_or(f64::NAN),
+                sigma,
+            },
+        };
+        Ok(Quantity { name, unit, value })
+    })?;
+    rows.collect()
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::ledger::RunId;
     use serde_json::json;
-
-    fn run(kind: StepKind, result: Value) -> Run {
-        Run {
-            id: RunId(1),
-            serial: "KST-002".into(),
-            build: "B3".into(),
-            kind,
-            recorded_at: "2026-11-20T09:00:00.000Z".into(),
-            tool_version: None,
-            pass: result.get("pass").and_then(Value::as_bool),
-            result,
-            inputs: vec![],
-        }
-    }
 
     #[test]
     fn missing_or_malformed_keys_are_skipped_not_guessed() {
         let bad = json!({"hard_iron_nt": [1.0, "two", 3.0], "soft_iron": [[1.0]], "pass": true});
-        let q = quantities(&run(StepKind::Calibrate, bad));
-        assert_eq!(q.len(), 1);
-        assert_eq!(q[0].name, "calibrate_pass");
+        let q = legacy_quantities("calibrate", &bad);
+        assert!(q.is_empty(), "{q:?}");
     }
 
     #[test]
@@ -219,7 +284,7 @@ mod tests {
         // m = (3, 4, 0) mA·m², σ = (0.1, 0.2, 0.3) mA·m²: σ|m|² = (0.6·0.1)² + (0.8·0.2)².
         let r =
             json!({"moment_body_am2": [3e-3, 4e-3, 0.0], "moment_sigma_am2": [1e-4, 2e-4, 3e-4]});
-        let q = quantities(&run(StepKind::Dipole, r));
+        let q = legacy_quantities("dipole", &r);
         let mag = q.iter().find(|x| x.name == "dipole_magnitude_am2").unwrap();
         let QuantityValue::Number { value, sigma } = mag.value else {
             panic!("{mag:?}")

@@ -10,7 +10,8 @@ use serde::Serialize;
 use sha2::{Digest, Sha256};
 
 use super::LedgerError;
-use crate::log::plan::StepKind;
+use super::Quantity;
+use crate::check::{CheckKind, CheckResult};
 use crate::log::{Plan, Shown};
 
 /// Identity of a run in one ledger (SQLite rowid). Larger ids were recorded later.
@@ -124,22 +125,56 @@ pub struct NewRun {
     /// Build label (plan `[article] build`).
     pub build: String,
     /// Which check produced the result.
-    pub kind: StepKind,
+    pub kind: CheckKind,
     /// Files the result was computed from (at least one).
     pub inputs: Vec<InputFile>,
-    /// The check's §7 JSON result: an object; its `pass` (if a bool) is the verdict.
+    /// The check's JSON result: an object; its `pass` (if a bool) is the verdict.
     pub result: serde_json::Value,
+    /// The numbers and verdicts history compares (the result's own list; the ledger
+    /// adds `<kind>_pass`).
+    pub quantities: Vec<Quantity>,
 }
 
 impl NewRun {
-    /// A run for a single check driven by a plan: serial and build from the plan's
-    /// `[article]`, inputs the log and the plan file (both hashed now).
+    /// A run for a check's result under a plan: serial and build from the plan's
+    /// `[article]`, inputs the log and the plan file (both hashed now), the result's
+    /// JSON and quantities.
     ///
     /// Fails with [`LedgerError::NoArticle`] when the plan has no `[article]`, and with
     /// [`LedgerError::Input`] when a file cannot be read.
+    pub fn from_result(
+        plan: &Plan,
+        result: &dyn CheckResult,
+        log: &Path,
+    ) -> Result<Self, LedgerError> {
+        let article = plan
+            .article
+            .as_ref()
+            .ok_or_else(|| LedgerError::NoArticle {
+                plan: Shown(plan.path.clone()),
+            })?;
+        let json = result
+            .json()
+            .map_err(|e| LedgerError::InvalidRun(format!("result is not JSON: {e}")))?;
+        Ok(NewRun {
+            serial: article.serial.clone(),
+            build: article.build.clone(),
+            kind: result.kind(),
+            inputs: vec![
+                InputFile::hash(InputRole::Log, log)?,
+                InputFile::hash(InputRole::Plan, &plan.path)?,
+            ],
+            result: json,
+            quantities: result.quantities(),
+        })
+    }
+
+    /// A run from a result already in JSON (a result of one of the first kinds, as
+    /// older ledgers and imports hold them): like [`NewRun::from_result`], with the
+    /// quantities read from the JSON keys ([`super::legacy_quantities`]).
     pub fn from_plan(
         plan: &Plan,
-        kind: StepKind,
+        kind: CheckKind,
         log: &Path,
         result: serde_json::Value,
     ) -> Result<Self, LedgerError> {
@@ -157,6 +192,7 @@ impl NewRun {
                 InputFile::hash(InputRole::Log, log)?,
                 InputFile::hash(InputRole::Plan, &plan.path)?,
             ],
+            quantities: super::legacy_quantities(kind.as_str(), &result),
             result,
         })
     }
@@ -237,18 +273,21 @@ pub struct Run {
     pub serial: String,
     /// Build label.
     pub build: String,
-    /// Which check.
-    pub kind: StepKind,
+    /// Which check, by its stored name (a kind this version does not know is kept as
+    /// text: its quantities still compare).
+    pub kind: String,
     /// When it was recorded, UTC, ISO-8601 with milliseconds (`2026-11-20T09:14:03.250Z`).
     pub recorded_at: String,
     /// magproof version that wrote it; `None` for runs written by schema v1.
     pub tool_version: Option<String>,
     /// The verdict (`pass` of the result), if the result had one.
     pub pass: Option<bool>,
-    /// The §7 JSON result as recorded.
+    /// The JSON result as recorded.
     pub result: serde_json::Value,
     /// The files it was computed from.
     pub inputs: Vec<InputFile>,
+    /// The numbers and verdicts recorded with it, `<kind>_pass` included.
+    pub quantities: Vec<Quantity>,
 }
 
 /// Which runs to read; `None` fields match everything.
@@ -257,17 +296,7 @@ pub struct RunFilter {
     /// Only this serial number (exact match).
     pub serial: Option<String>,
     /// Only this kind of check.
-    pub kind: Option<StepKind>,
-}
-
-/// Parse a kind as stored in the ledger or typed by a user.
-pub fn parse_kind(s: &str) -> Option<StepKind> {
-    match s {
-        "calibrate" => Some(StepKind::Calibrate),
-        "polarity" => Some(StepKind::Polarity),
-        "dipole" => Some(StepKind::Dipole),
-        _ => None,
-    }
+    pub kind: Option<CheckKind>,
 }
 
 #[cfg(test)]
@@ -297,9 +326,10 @@ mod tests {
         let run = |inputs| NewRun {
             serial: "S".into(),
             build: "B".into(),
-            kind: StepKind::Dipole,
+            kind: crate::check::dipole::seam::KIND,
             inputs,
             result: serde_json::json!({}),
+            quantities: vec![],
         };
         let a = run(vec![
             f(InputRole::Log, "a.csv", 'a'),
@@ -327,9 +357,10 @@ mod tests {
         let mut r = NewRun {
             serial: "S".into(),
             build: "B".into(),
-            kind: StepKind::Calibrate,
+            kind: crate::check::calibrate::seam::KIND,
             inputs: vec![],
             result: serde_json::json!({"pass": true}),
+            quantities: vec![],
         };
         assert!(r.validate().is_err());
         r.inputs.push(InputFile {

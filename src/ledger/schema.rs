@@ -22,7 +22,7 @@ pub const CURRENT_VERSION: i64 = MIGRATIONS.len() as i64;
 /// Migration `i` takes the schema from version `i` to `i + 1`.
 ///
 /// Never edit a migration once released: add a new one.
-pub(crate) const MIGRATIONS: [&str; 2] = [
+pub(crate) const MIGRATIONS: [&str; 3] = [
     // v1: runs and the files each was computed from.
     "CREATE TABLE runs (
          id          INTEGER PRIMARY KEY,
@@ -47,7 +47,61 @@ pub(crate) const MIGRATIONS: [&str; 2] = [
     "ALTER TABLE runs ADD COLUMN tool_version TEXT;
      CREATE INDEX runs_by_identity ON runs (serial, build, kind, input_key);
      CREATE INDEX runs_by_serial ON runs (serial, id);",
+    // v3: the kind is text checked in Rust (the registry of checks), not a CHECK list;
+    // each run's quantities are stored beside it (back-filled from the JSON of older
+    // runs by `backfill_quantities`). SQLite cannot drop a CHECK in place: the table is
+    // rebuilt (foreign keys are off while this runs, see `prepare`).
+    "CREATE TABLE runs_v3 (
+         id           INTEGER PRIMARY KEY,
+         serial       TEXT NOT NULL,
+         build        TEXT NOT NULL,
+         kind         TEXT NOT NULL,
+         recorded_at  TEXT NOT NULL,
+         input_key    TEXT NOT NULL,
+         pass         INTEGER CHECK (pass IN (0, 1)),
+         result       TEXT NOT NULL,
+         tool_version TEXT
+     );
+     INSERT INTO runs_v3 (id, serial, build, kind, recorded_at, input_key, pass, result,
+                          tool_version)
+         SELECT id, serial, build, kind, recorded_at, input_key, pass, result, tool_version
+         FROM runs;
+     DROP TABLE runs;
+     ALTER TABLE runs_v3 RENAME TO runs;
+     CREATE INDEX runs_by_identity ON runs (serial, build, kind, input_key);
+     CREATE INDEX runs_by_serial ON runs (serial, id);
+     CREATE TABLE quantities (
+         run_id INTEGER NOT NULL REFERENCES runs (id) ON DELETE CASCADE,
+         name   TEXT NOT NULL,
+         unit   TEXT NOT NULL,
+         value  REAL,
+         sigma  REAL,
+         word   TEXT,
+         PRIMARY KEY (run_id, name)
+     );",
 ];
+
+/// Version whose migration adds the `quantities` table.
+const QUANTITIES_VERSION: usize = 3;
+
+/// Fill `quantities` for runs recorded before it existed, from their JSON results.
+fn backfill_quantities(tx: &rusqlite::Transaction) -> rusqlite::Result<()> {
+    let runs: Vec<(i64, String, String, Option<bool>)> = tx
+        .prepare("SELECT id, kind, result, pass FROM runs ORDER BY id")?
+        .query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?)))?
+        .collect::<Result<_, _>>()?;
+    for (id, kind, result, pass) in runs {
+        let json: serde_json::Value = serde_json::from_str(&result).unwrap_or_default();
+        let pass = pass.map(|p| super::Quantity::pass(&kind, p));
+        for q in super::legacy_quantities(&kind, &json)
+            .iter()
+            .chain(pass.as_ref())
+        {
+            super::quantity::insert(tx, id, q)?;
+        }
+    }
+    Ok(())
+}
 
 /// How [`prepare`] treats a database with no schema at all.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -109,6 +163,19 @@ pub(crate) fn prepare(
         return Ok(());
     }
     let db = |e| classify(e, path);
+    // A table rebuild must not cascade into the tables that refer to it: foreign keys
+    // are off for the migration (they cannot change inside a transaction) and back on
+    // after it, whatever its outcome.
+    conn.execute_batch("PRAGMA foreign_keys = OFF;")
+        .map_err(db)?;
+    let migrated = migrate(conn, path, on_empty);
+    conn.execute_batch("PRAGMA foreign_keys = ON;")
+        .map_err(db)?;
+    migrated
+}
+
+fn migrate(conn: &mut Connection, path: &Path, on_empty: OnEmpty) -> Result<(), LedgerError> {
+    let db = |e| classify(e, path);
     let tx = conn
         .transaction_with_behavior(TransactionBehavior::Immediate)
         .map_err(db)?;
@@ -122,6 +189,20 @@ pub(crate) fn prepare(
     })?;
     for sql in MIGRATIONS.iter().skip(from) {
         tx.execute_batch(sql).map_err(db)?;
+    }
+    if from > 0 && from < QUANTITIES_VERSION {
+        backfill_quantities(&tx).map_err(db)?;
+    }
+    let broken: Option<i64> = tx
+        .query_row("SELECT count(*) FROM pragma_foreign_key_check", [], |r| {
+            r.get(0)
+        })
+        .map_err(db)?;
+    if broken.unwrap_or(0) > 0 {
+        return Err(LedgerError::NotALedger {
+            path: Shown(path.to_path_buf()),
+            reason: "the migration found rows whose run is missing (foreign key check)".into(),
+        });
     }
     tx.execute_batch(&format!(
         "PRAGMA application_id = {APPLICATION_ID}; PRAGMA user_version = {CURRENT_VERSION};"

@@ -125,34 +125,14 @@ pub struct Mount {
     pub body_to_table: Matrix3<f64>,
 }
 
-/// What a closeout step does.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum StepKind {
-    /// Magnetometer calibration.
-    Calibrate,
-    /// Torque-rod polarity.
-    Polarity,
-    /// Residual dipole.
-    Dipole,
-}
-
-impl StepKind {
-    /// Lower-case name as written in plans and the ledger.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            StepKind::Calibrate => "calibrate",
-            StepKind::Polarity => "polarity",
-            StepKind::Dipole => "dipole",
-        }
-    }
-}
-
 /// `[[step]]`.
 #[derive(Debug, Clone)]
 pub struct Step {
-    /// What to run.
-    pub kind: StepKind,
+    /// What to run: a check kind's name, as written (the registry of checks in
+    /// `check::kind` says which names exist; closeout refuses any other by its line).
+    pub kind: String,
+    /// 1-based line of the step's `kind` in the plan file.
+    pub kind_line: usize,
     /// Log path, resolved against the plan's folder.
     pub log: PathBuf,
 }
@@ -284,7 +264,7 @@ struct RawMount {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawStep {
-    kind: StepKind,
+    kind: toml::Spanned<String>,
     log: PathBuf,
 }
 
@@ -515,7 +495,11 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
             } else {
                 dir.join(s.log)
             },
-            kind: s.kind,
+            kind_line: text[..s.kind.span().start.min(text.len())]
+                .matches('\n')
+                .count()
+                + 1,
+            kind: s.kind.into_inner(),
         })
         .collect();
     let limits = Limits {

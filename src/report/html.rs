@@ -65,7 +65,8 @@ fn badge(v: Verdict) -> String {
     let class = match v {
         Verdict::Pass => "pass",
         Verdict::Fail => "fail",
-        Verdict::Info => "info",
+        Verdict::Inconclusive => "inconclusive",
+        Verdict::NoLimit => "info",
     };
     format!("<span class=\"badge {class}\">{}</span>", v.word())
 }
@@ -216,6 +217,7 @@ mod tests {
                 path: text.to_string(),
                 sha256: "ab".into(),
             }],
+            result: serde_json::Value::Null,
             sections: vec![Section {
                 kind: "polarity".into(),
                 title: text.to_string(),

@@ -12,22 +12,22 @@ pub mod plot;
 pub mod polarity_params;
 pub mod sections;
 pub mod terminal;
+pub mod writer;
 
 use std::path::{Path, PathBuf};
 
 pub use model::{Cell, Figure, InputFile, RunReport, Section, Table, Tone, Verdict};
+pub use writer::{
+    FlightParamsWriter, HtmlWriter, JsonWriter, ParamsSource, ReportWriter, TerminalWriter, Written,
+};
 
 use crate::Error;
 
-/// Write a report folder: `report.html`, `result.json` (the given JSON, pretty) and one
-/// SVG per figure. The folder appears whole or not at all; an existing folder is replaced
-/// only with `force`. Returns the folder's path.
-pub fn write_report_dir(
-    dir: &Path,
-    force: bool,
-    report: &RunReport,
-    result_json: &serde_json::Value,
-) -> Result<PathBuf, Error> {
+/// Write a report folder: `report.html`, `result.json` (the report's JSON, pretty) and
+/// one SVG per figure. The folder appears whole or not at all; an existing folder is
+/// replaced only with `force`. Returns the folder's path.
+pub fn write_report_dir(dir: &Path, force: bool, report: &RunReport) -> Result<PathBuf, Error> {
+    let result_json = &report.result;
     let staging = atomic::ReportStaging::new(dir, force)?;
     staging.add("report.html", html::render(report).as_bytes())?;
     let json = serde_json::to_string_pretty(result_json)

@@ -6,37 +6,7 @@
 
 use serde::Serialize;
 
-/// A verdict as shown to people: always a word, colour only as an aid.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Verdict {
-    /// Every limit met.
-    Pass,
-    /// A limit was not met.
-    Fail,
-    /// No limit to judge against, or not decidable.
-    Info,
-}
-
-impl Verdict {
-    /// From an optional pass flag.
-    pub fn from_pass(pass: Option<bool>) -> Self {
-        match pass {
-            Some(true) => Verdict::Pass,
-            Some(false) => Verdict::Fail,
-            None => Verdict::Info,
-        }
-    }
-
-    /// The word shown with the verdict.
-    pub fn word(self) -> &'static str {
-        match self {
-            Verdict::Pass => "PASS",
-            Verdict::Fail => "FAIL",
-            Verdict::Info => "NO LIMIT",
-        }
-    }
-}
+pub use crate::check::Verdict;
 
 /// Tone of a table cell, for colour (the text always says it in words too).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -120,7 +90,7 @@ pub struct Section {
     pub warnings: Vec<String>,
     /// Notes on method and limits (e.g. "a tumble cannot see misalignment").
     pub notes: Vec<String>,
-    /// The result as JSON (DESIGN §7 keys).
+    /// The result as JSON (the check's documented keys).
     pub result: serde_json::Value,
 }
 
@@ -148,18 +118,14 @@ pub struct RunReport {
     pub inputs: Vec<InputFile>,
     /// Sections in order.
     pub sections: Vec<Section>,
+    /// The whole result as JSON (`result.json`, `--json`).
+    pub result: serde_json::Value,
 }
 
 impl RunReport {
-    /// Overall verdict: fail if any section fails, pass if any passes and none fails.
+    /// Overall verdict: the worst of the sections'.
     pub fn verdict(&self) -> Verdict {
-        if self.sections.iter().any(|s| s.verdict == Verdict::Fail) {
-            Verdict::Fail
-        } else if self.sections.iter().any(|s| s.verdict == Verdict::Pass) {
-            Verdict::Pass
-        } else {
-            Verdict::Info
-        }
+        Verdict::combine(self.sections.iter().map(|s| s.verdict))
     }
 }
 
@@ -171,7 +137,7 @@ pub fn now_utc_iso() -> String {
         .unwrap_or_else(|_| now.unix_timestamp().to_string())
 }
 
-/// The cautions of DESIGN §10, shown in every report footer and in the README.
+/// The cautions shown in every report footer and in the README.
 pub const CAUTIONS: [&str; 5] = [
     "Cage coils carry amps and heat up: watch coil current and temperature limits.",
     "Strong fields upset pacemakers and pull tools: keep people with implants and loose ferromagnetic items away from energised coils.",

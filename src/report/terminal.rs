@@ -48,7 +48,7 @@ impl Style {
         let tone = match v {
             Verdict::Pass => Tone::Good,
             Verdict::Fail => Tone::Bad,
-            Verdict::Info => Tone::Warn,
+            Verdict::Inconclusive | Verdict::NoLimit => Tone::Warn,
         };
         self.paint(&format!("[{}]", v.word()), tone)
     }

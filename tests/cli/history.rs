@@ -3,8 +3,8 @@
 
 use std::path::{Path, PathBuf};
 
+use magproof::check::CheckKind;
 use magproof::ledger::{Ledger, NewRun, Recorded};
-use magproof::log::plan::StepKind;
 use magproof::log::read_plan;
 use serde::Deserialize;
 use serde_json::{json, Value};
@@ -63,7 +63,7 @@ fn record_build(t: &TestDir, db: &Path, build: &str, results: [Value; 3]) -> Vec
         format!("[article]\nserial = \"KST-002\"\nbuild = \"{build}\"\n"),
     );
     let plan = read_plan(&plan_path).unwrap();
-    let kinds = [StepKind::Calibrate, StepKind::Polarity, StepKind::Dipole];
+    let kinds = ["calibrate", "polarity", "dipole"].map(|k| CheckKind::parse(k).unwrap());
     let runs: Vec<NewRun> = kinds
         .into_iter()
         .zip(results)
@@ -319,7 +319,7 @@ fn a_first_schema_ledger_is_migrated_and_read() {
         let plan = read_plan(&plan).unwrap();
         let run = NewRun::from_plan(
             &plan,
-            StepKind::Calibrate,
+            CheckKind::parse("calibrate").unwrap(),
             &log,
             calibrate([470.0, -118.0, 30.0], [8.0, 6.0, 8.0], 44.0, true),
         )

@@ -31,7 +31,7 @@ pub(super) fn calibrate_cage(
         .collect();
     let samples = ctx.samples.vectors();
     let fit = fit_cage(&applied, &samples, ctx.temp.map(|t| t.0))?;
-    let plan = ctx.req.plan.as_ref();
+    let plan = ctx.req.plan;
     let article_to_cage = plan
         .and_then(|p| p.cage.as_ref())
         .map(|c| c.article_to_cage);
@@ -107,9 +107,12 @@ pub(super) fn calibrate_cage(
         coverage: spread.coverage,
         warnings: Vec::new(),
         pass: None,
+        verdict: super::Verdict::NoLimit,
+        gates: Vec::new(),
         log: ctx.log.path.display().to_string(),
         soft_iron_frame: frame,
         soft_iron_sigma: rows(&w_sigma),
+        residual_rms_sigma_nt: 0.0,
         reference_source: ReferenceSource::AppliedField,
         residual_limit_nt: None,
         robust_sigma_nt: None,
@@ -118,6 +121,8 @@ pub(super) fn calibrate_cage(
             response: rows(&a_f),
             response_sigma: rows(&fit.response_sigma),
             scale_factors: scale.into(),
+            scale_factor_sigma: scale_sigma(&a_f, &fit.response_sigma),
+            angle_sigma_deg: angle_sigma_deg(&fit.response_sigma),
             non_orthogonality_deg: nonorth.map(f64::to_degrees),
             rotation: rows(&r),
             stretch: rows(&s),
@@ -135,7 +140,6 @@ pub(super) fn calibrate_cage(
         rows_skipped: 0,
         samples_saturated: 0,
         notes: Vec::new(),
-        warning_kinds: Vec::new(),
         data: CalibrationData {
             // Filled by `run_calibrate` by moving, not copying (1e6-sample logs).
             samples_nt: Vec::new(),
@@ -146,4 +150,28 @@ pub(super) fn calibrate_cage(
             t_s: None,
         },
     })
+}
+
+/// 1σ of each axis's scale factor (row length of A), by first-order propagation of the
+/// element σ of that row: σ² = Σ (a_ij/|a_i|)² σ_ij².
+fn scale_sigma(a: &Matrix3<f64>, sigma: &Matrix3<f64>) -> [f64; 3] {
+    [0, 1, 2].map(|i| {
+        let n = a.row(i).norm();
+        if n > 0.0 {
+            (0..3)
+                .map(|j| (a[(i, j)] / n * sigma[(i, j)]).powi(2))
+                .sum::<f64>()
+                .sqrt()
+        } else {
+            f64::NAN
+        }
+    })
+}
+
+/// Approximate 1σ of the small angles read off A (misalignment, non-orthogonality),
+/// deg: √2 × the mean element σ of A (two elements set each small angle; A's rows are
+/// near unit length). An approximation, stated as such in docs/calibration.md.
+fn angle_sigma_deg(sigma: &Matrix3<f64>) -> f64 {
+    let mean = sigma.iter().sum::<f64>() / 9.0;
+    (2.0f64).sqrt() * mean.to_degrees()
 }

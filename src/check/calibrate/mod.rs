@@ -15,9 +15,8 @@
 //! (then `W = article_to_cageᵀ · A⁻¹`).
 
 mod cage;
+pub mod seam;
 mod warnings;
-
-use std::path::PathBuf;
 
 use nalgebra::{Matrix3, Vector3};
 use rayon::prelude::*;
@@ -29,9 +28,11 @@ use crate::fit::coverage::{axis_name, direction_spread_mapped};
 use crate::fit::samples::{FieldColumns, FieldSamples};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
-use crate::log::saturation::screen_log;
-use crate::log::{read_sweep_with_progress, Plan, ReadOptions, RowLines, SweepLog};
+use crate::log::{RowLines, SweepLog};
 use crate::Error;
+
+use super::outcome::{self, Gate, GateRole, Verdict};
+use super::CheckRequest;
 
 /// Temperature span above which a bias slope is fitted, °C.
 pub const TEMP_SPAN_FOR_SLOPE_C: f64 = 10.0;
@@ -39,30 +40,34 @@ pub const TEMP_SPAN_FOR_SLOPE_C: f64 = 10.0;
 /// Tumble coverage below which a warning is given (a hemisphere gives 0.5).
 pub const LOW_COVERAGE: f64 = 0.6;
 
-/// What to calibrate, validated by the caller (the CLI or `closeout`).
-#[derive(Debug, Clone)]
-pub struct CalibrateRequest {
-    /// The sweep log.
-    pub log: PathBuf,
-    /// The test plan, if any: `[site]`, `[cage]`, `[magnetometer] range_nt` and
-    /// `[limits] calibration_residual_max_nt` are used.
-    pub plan: Option<Plan>,
-    /// Reference field magnitude, nT (`--reference-nt`; beats the plan).
+/// The calibration's own options; the log and plan come with the [`CheckRequest`].
+#[derive(Debug, Clone, Copy)]
+pub struct CalibrateOptions {
+    /// Reference field magnitude, nT, given by the user (beats the plan's `[site]`).
     pub reference_nt: Option<f64>,
-    /// How to read the log (unit, skipping bad rows).
-    pub read: ReadOptions,
     /// Robust reweighting of the tumble fit.
     pub robust: Robust,
-    /// Full-scale range per axis, nT (`--range`; beats the plan's `[magnetometer]
-    /// range_nt`). Readings at or beyond it, or piled up on a rail, are left out.
-    pub range_nt: Option<f64>,
     /// Keep the per-sample readings and corrected field in [`CalibrationData`]
-    /// (`samples_nt`, `corrected_nt`; the report's plots need them). Off, a tumble fit
-    /// leaves `corrected_nt` empty, and `samples_nt` too when every row was used (the
+    /// (`samples_nt`, `corrected_nt`, `t_s`; the report's plots need them). Off, a tumble
+    /// fit leaves `corrected_nt` empty, and `samples_nt` too when every row was used (the
     /// fit then reads the log's field columns in place): on a 10⁶-sample log that saves
     /// two copies of 24 MB. The coverage is computed either way.
     pub keep_samples: bool,
 }
+
+impl Default for CalibrateOptions {
+    fn default() -> Self {
+        CalibrateOptions {
+            reference_nt: None,
+            robust: Robust::Tukey,
+            keep_samples: true,
+        }
+    }
+}
+
+/// What to calibrate: the screened log, the plan (optional: `[site]`, `[cage]`,
+/// `[limits] calibration_residual_max_nt` are used) and [`CalibrateOptions`].
+pub type CalibrateRequest<'a> = CheckRequest<'a, CalibrateOptions>;
 
 /// Which fit was done.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -78,7 +83,7 @@ pub enum Method {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum ReferenceSource {
-    /// `--reference-nt`.
+    /// Given by the user (command line or request).
     Flag,
     /// The plan's `[site] reference_nt`.
     Plan,
@@ -112,6 +117,10 @@ pub struct CageDetails {
     pub response_sigma: [[f64; 3]; 3],
     /// Scale factor of each sensor axis (row lengths of A), dimensionless.
     pub scale_factors: [f64; 3],
+    /// 1σ of each scale factor.
+    pub scale_factor_sigma: [f64; 3],
+    /// Approximate 1σ of `misalignment_deg` and `non_orthogonality_deg`, deg.
+    pub angle_sigma_deg: f64,
     /// Non-orthogonality of the sensor axes xy, xz, yz: 90° minus the angle between
     /// their sensitive directions, deg.
     pub non_orthogonality_deg: [f64; 3],
@@ -136,10 +145,10 @@ pub struct CageDetails {
 #[derive(Debug, Clone, Default)]
 pub struct CalibrationData {
     /// Readings used by the fit, sensor frame, nT (may be empty without
-    /// [`CalibrateRequest::keep_samples`]).
+    /// [`CalibrateOptions::keep_samples`]).
     pub samples_nt: Vec<Vector3<f64>>,
     /// Corrected field `W (b − hard_iron)` per sample, `soft_iron_frame`, nT (empty
-    /// for a tumble fit asked without [`CalibrateRequest::keep_samples`]).
+    /// for a tumble fit asked without [`CalibrateOptions::keep_samples`]).
     pub corrected_nt: Vec<Vector3<f64>>,
     /// Residual per sample, nT (tumble: magnitude residual; cage: residual length).
     pub residuals_nt: Vec<f64>,
@@ -173,10 +182,15 @@ pub struct CalibrationResult {
     pub hard_iron_sigma_nt: [f64; 3],
     /// Direction coverage 0..1 (fraction of 48 equal-area sphere cells hit).
     pub coverage: f64,
-    /// Warnings, each with cause and remedy.
-    pub warnings: Vec<String>,
-    /// Verdict against `[limits] calibration_residual_max_nt`; null without a limit.
+    /// Warnings, each with cause and remedy (as text: each once, with a count).
+    #[serde(serialize_with = "outcome::serialize_tally")]
+    pub warnings: Vec<CalibrationWarning>,
+    /// True only when `verdict` is pass; null when there is nothing to judge against.
     pub pass: Option<bool>,
+    /// `pass`, `fail`, `inconclusive` or `no-limit`, from the gates.
+    pub verdict: Verdict,
+    /// Every gate evaluated, failed or not.
+    pub gates: Vec<Gate>,
     // ---- further keys ----
     /// The log file.
     pub log: String,
@@ -184,6 +198,8 @@ pub struct CalibrationResult {
     pub soft_iron_frame: &'static str,
     /// 1σ of each element of W.
     pub soft_iron_sigma: [[f64; 3]; 3],
+    /// 1σ of `residual_rms_nt`, nT: RMS/√(2n) over the samples used.
+    pub residual_rms_sigma_nt: f64,
     /// Where `reference_nt` came from.
     pub reference_source: ReferenceSource,
     /// The residual limit applied, nT.
@@ -196,64 +212,40 @@ pub struct CalibrationResult {
     pub cage: Option<CageDetails>,
     /// Solver iterations (tumble, summed over reweighting rounds).
     pub iterations: Option<u64>,
-    /// Rows the reader skipped (`--skip-bad-rows`).
+    /// Rows the reader skipped (when asked to skip bad rows).
     pub rows_skipped: usize,
     /// Rows flagged as saturated (beyond the range or on a rail) and left out; they are
     /// also counted in `samples_rejected`.
     pub samples_saturated: usize,
     /// Facts about the method the reader should keep in mind.
     pub notes: Vec<String>,
-    /// The warnings as values.
-    #[serde(skip)]
-    pub warning_kinds: Vec<CalibrationWarning>,
     /// Per-sample data for plots.
     #[serde(skip)]
     pub data: CalibrationData,
 }
 
-/// Run a calibration: read the log, choose the fit, compute the result and verdict.
+/// Run a calibration on a screened log: choose the fit, compute the result and verdict.
 pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error> {
-    run_calibrate_with_progress(req, &mut |_| {})
-}
-
-/// As [`run_calibrate`], calling `progress(bytes_read)` while the log is read (for a
-/// progress bar on large logs).
-pub fn run_calibrate_with_progress(
-    req: &CalibrateRequest,
-    progress: &mut dyn FnMut(u64),
-) -> Result<CalibrationResult, Error> {
-    if let Some(r) = req.reference_nt {
+    if let Some(r) = req.options.reference_nt {
         if !(r.is_finite() && r > 0.0) {
             return Err(Error::Usage(format!(
-                "--reference-nt must be a positive number of nT, found {r}"
+                "the reference field magnitude must be a positive number of nT, found {r}"
             )));
         }
     }
-    let mut log = read_sweep_with_progress(&req.log, &req.read, progress)?;
+    let log = &req.input.log;
     let b = log.require_field("a calibration needs the measured field")?;
-    crate::log::plausible::check_field_scale(&log)?;
-    let range_nt = req.range_nt.or_else(|| {
-        req.plan
-            .as_ref()
-            .and_then(|p| p.magnetometer.as_ref()?.range_nt)
-    });
-    let mut warnings = Vec::new();
+    let mut warnings: Vec<CalibrationWarning> = req
+        .input
+        .warnings
+        .iter()
+        .cloned()
+        .map(CalibrationWarning::Input)
+        .collect();
     let mut notes = Vec::new();
     // Usable rows: drop saturated readings (beyond the range, or piled up on a rail).
-    let sat = screen_log(&log, range_nt)?;
-    let idx = UsedRows::new(log.len(), &sat.flagged);
+    let idx = UsedRows::new(log.len(), &req.input.saturation.flagged);
     let saturated = log.len() - idx.len();
-    for (a, detail) in sat.axes.iter().zip(sat.warnings()) {
-        warnings.push(CalibrationWarning::Saturated {
-            count: a.count,
-            detail,
-        });
-    }
-    if !log.skipped_rows.is_empty() {
-        warnings.push(CalibrationWarning::SkippedRows {
-            count: log.skipped_rows.len(),
-        });
-    }
     // Every row used: the fit reads the field columns in place. Else the used rows are
     // collected in parallel straight into a new vector (no serial zero-fill first).
     let samples = match &idx {
@@ -268,15 +260,7 @@ pub fn run_calibrate_with_progress(
                 .collect(),
         ),
     };
-    let temp: Option<(Vec<f64>, f64)> = log.temp_c.as_ref().map(|t| {
-        let v: Vec<f64> = idx.iter().map(|i| t[i]).collect();
-        let (lo, hi) = v
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &x| {
-                (l.min(x), h.max(x))
-            });
-        (v, hi - lo)
-    });
+    let temp = temperature_of_used_rows(log, &idx);
     let temp_for_fit = match &temp {
         Some((v, span)) if *span > TEMP_SPAN_FOR_SLOPE_C => Some((v.as_slice(), *span)),
         Some((_, span)) => {
@@ -287,7 +271,7 @@ pub fn run_calibrate_with_progress(
     };
     let ctx = Ctx {
         req,
-        log: &log,
+        log,
         idx: &idx,
         samples,
         temp: temp_for_fit,
@@ -298,36 +282,62 @@ pub fn run_calibrate_with_progress(
         Samples::Columns(c) => calibrate_tumble(&ctx, c, &mut warnings, &mut notes)?,
         Samples::Copied(v) => calibrate_tumble(&ctx, v.as_slice(), &mut warnings, &mut notes)?,
     };
-    let limit = req
-        .plan
-        .as_ref()
-        .and_then(|p| p.limits.calibration_residual_max_nt);
+    let limit = req.plan.and_then(|p| p.limits.calibration_residual_max_nt);
     res.residual_limit_nt = limit;
-    res.pass = limit.map(|l| res.residual_rms_nt <= l);
-    res.warnings = warnings.iter().map(ToString::to_string).collect();
-    res.warning_kinds = warnings;
+    res.gates = limit
+        .map(|l| Gate::at_most("residual", res.residual_rms_nt, l, GateRole::Article))
+        .into_iter()
+        .collect();
+    res.verdict = Verdict::from_gates(&res.gates);
+    res.pass = res.verdict.pass();
+    res.residual_rms_sigma_nt = rms_sigma(res.residual_rms_nt, res.samples_used);
+    res.warnings = warnings;
     res.notes = notes;
     res.rows_skipped = log.skipped_rows.len();
     res.samples_saturated = saturated;
-    // Per-sample data: moved, not copied, when rows were dropped; copied from the
-    // columns only when asked for.
+    keep_per_sample_data(&mut res, ctx, req.options.keep_samples);
+    Ok(res)
+}
+
+/// 1σ of an RMS over `n` samples of Gaussian residuals: RMS/√(2n) (first-order
+/// propagation; common practice).
+pub fn rms_sigma(rms: f64, n: usize) -> f64 {
+    rms / (2.0 * n.max(1) as f64).sqrt()
+}
+
+/// The temperature of the used rows and its span, °C, when the log has one.
+fn temperature_of_used_rows(log: &SweepLog, idx: &UsedRows) -> Option<(Vec<f64>, f64)> {
+    log.temp_c.as_ref().map(|t| {
+        let v: Vec<f64> = idx.iter().map(|i| t[i]).collect();
+        let (lo, hi) = v
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &x| {
+                (l.min(x), h.max(x))
+            });
+        (v, hi - lo)
+    })
+}
+
+/// Per-sample data for plots: the readings moved, not copied, when rows were dropped;
+/// copied from the columns, with the times, only when asked for.
+fn keep_per_sample_data(res: &mut CalibrationResult, ctx: Ctx, keep: bool) {
+    let (log, idx) = (ctx.log, ctx.idx);
     res.data.samples_nt = match ctx.samples {
         Samples::Copied(v) => v,
-        Samples::Columns(c) if req.keep_samples => FieldSamples::to_vec(&c),
+        Samples::Columns(c) if keep => FieldSamples::to_vec(&c),
         Samples::Columns(_) => Vec::new(),
     };
     let all_rows = idx.len() == log.len();
     res.data.lines = if all_rows {
-        std::mem::take(&mut log.lines)
+        log.lines.clone()
     } else {
         idx.iter().filter_map(|i| log.lines.get(i)).collect()
     };
-    res.data.t_s = match log.t_s.take() {
-        Some(t) if all_rows => Some(t),
-        Some(t) => Some(idx.iter().map(|i| t[i]).collect()),
-        None => None,
+    res.data.t_s = match &log.t_s {
+        Some(t) if keep && all_rows => Some(t.clone()),
+        Some(t) if keep => Some(idx.iter().map(|i| t[i]).collect()),
+        _ => None,
     };
-    Ok(res)
 }
 
 /// The readings a fit uses (sensor frame, nT), in `UsedRows` order.
@@ -400,7 +410,7 @@ impl UsedRows {
 const PAR_CHUNK: usize = 16_384;
 
 struct Ctx<'a> {
-    req: &'a CalibrateRequest,
+    req: &'a CalibrateRequest<'a>,
     log: &'a SweepLog,
     idx: &'a UsedRows,
     samples: Samples<'a>,
@@ -417,10 +427,10 @@ fn reference_from_site(site: &Site) -> Result<f64, Error> {
 /// Flag, else plan `[site] reference_nt`, else the plan's site through the model,
 /// else none (unanchored).
 fn resolve_reference(req: &CalibrateRequest) -> Result<(Option<f64>, ReferenceSource), Error> {
-    if let Some(r) = req.reference_nt {
+    if let Some(r) = req.options.reference_nt {
         return Ok((Some(r), ReferenceSource::Flag));
     }
-    if let Some(site) = req.plan.as_ref().and_then(|p| p.site.as_ref()) {
+    if let Some(site) = req.plan.and_then(|p| p.site.as_ref()) {
         if let Some(r) = site.reference_nt {
             return Ok((Some(r), ReferenceSource::Plan));
         }
@@ -464,7 +474,7 @@ fn calibrate_tumble<S: FieldSamples + ?Sized>(
         ctx.temp.map(|t| t.0),
         &TumbleOptions {
             reference_nt: reference,
-            robust: ctx.req.robust,
+            robust: ctx.req.options.robust,
             ..TumbleOptions::default()
         },
     )?;
@@ -514,7 +524,7 @@ fn calibrate_tumble<S: FieldSamples + ?Sized>(
         None => direction_spread_mapped(samples, &kept, correct)
             .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?,
     };
-    let corrected: Vec<Vector3<f64>> = if ctx.req.keep_samples {
+    let corrected: Vec<Vector3<f64>> = if ctx.req.options.keep_samples {
         (0..samples.len())
             .into_par_iter()
             .with_min_len(PAR_CHUNK)
@@ -566,19 +576,21 @@ fn calibrate_tumble<S: FieldSamples + ?Sized>(
         coverage: spread.coverage,
         warnings: Vec::new(),
         pass: None,
+        verdict: Verdict::NoLimit,
+        gates: Vec::new(),
         log: ctx.log.path.display().to_string(),
         soft_iron_frame: "sensor",
         soft_iron_sigma: rows(&w_sigma),
+        residual_rms_sigma_nt: 0.0,
         reference_source: source,
         residual_limit_nt: None,
-        robust_sigma_nt: (ctx.req.robust == Robust::Tukey).then_some(fit.robust_sigma_nt),
+        robust_sigma_nt: (ctx.req.options.robust == Robust::Tukey).then_some(fit.robust_sigma_nt),
         temperature,
         cage: None,
         iterations: Some(fit.iterations),
         rows_skipped: 0,
         samples_saturated: 0,
         notes: Vec::new(),
-        warning_kinds: Vec::new(),
         data: CalibrationData {
             // Filled by `run_calibrate` by moving, not copying (1e6-sample logs).
             samples_nt: Vec::new(),

@@ -9,19 +9,30 @@ use crate::sim::{
 use approx::assert_relative_eq;
 use nalgebra::Rotation3;
 
-fn request(log: PathBuf, plan: Option<&str>, reference_nt: Option<f64>) -> CalibrateRequest {
-    CalibrateRequest {
-        range_nt: None,
-        log,
-        plan: plan.map(|t| parse_plan(t, Path::new("plan.toml")).unwrap()),
+/// Read and screen `log` as closeout would, then calibrate.
+fn calibrate(
+    log: &Path,
+    plan: Option<&str>,
+    reference_nt: Option<f64>,
+    keep_samples: bool,
+) -> Result<CalibrationResult, Error> {
+    let plan = plan.map(|t| parse_plan(t, Path::new("plan.toml")).unwrap());
+    let options = crate::check::InputOptions {
+        plan_range_applies: true,
+        ..Default::default()
+    };
+    let input = crate::check::CheckInput::read(log, plan.as_ref(), &options)?;
+    let opts = CalibrateOptions {
         reference_nt,
-        read: ReadOptions::default(),
         robust: Robust::Tukey,
-        keep_samples: true,
-    }
+        keep_samples,
+    };
+    run_calibrate(&CheckRequest::new(&input, plan.as_ref(), opts))
 }
 
+use crate::log::ReadOptions;
 use std::path::Path;
+use std::path::PathBuf;
 
 fn tumble_file(dir: &Path, cfg: &TumbleConfig, seed: u64) -> PathBuf {
     let sim = simulate_tumble(cfg, seed).unwrap();
@@ -35,13 +46,13 @@ fn saturated_readings_are_left_out_and_counted() {
     let dir = tempfile::tempdir().unwrap();
     let log = tumble_file(dir.path(), &TumbleConfig::default(), 21);
     let plan = "[magnetometer]\nrange_nt = 46000.0\n";
-    let res = run_calibrate(&request(log, Some(plan), Some(48_000.0))).unwrap();
+    let res = calibrate(&log, Some(plan), Some(48_000.0), true).unwrap();
     assert!(res.samples_rejected > 0);
     assert_eq!(res.samples_used + res.samples_rejected, 1000);
-    assert!(res
-        .warning_kinds
-        .iter()
-        .any(|w| matches!(w, CalibrationWarning::Saturated { .. })));
+    assert!(res.warnings.iter().any(|w| matches!(
+        w,
+        CalibrationWarning::Input(crate::check::InputWarning::Saturated { .. })
+    )));
 }
 
 #[test]
@@ -52,10 +63,10 @@ fn hemisphere_tumble_warns_low_coverage() {
         ..TumbleConfig::default()
     };
     let log = tumble_file(dir.path(), &cfg, 8);
-    let res = run_calibrate(&request(log, None, Some(48_000.0))).unwrap();
+    let res = calibrate(&log, None, Some(48_000.0), true).unwrap();
     assert!(res.coverage <= 0.55, "{}", res.coverage);
     assert!(
-        res.warning_kinds
+        res.warnings
             .iter()
             .any(|w| matches!(w, CalibrationWarning::LowCoverage { .. })),
         "{:?}",
@@ -85,7 +96,7 @@ fn cage_with_article_to_cage_gives_a_body_frame_correction_and_misalignment() {
     write_cage_csv(&sim, std::fs::File::create(&log).unwrap()).unwrap();
     let plan = "[magnetometer]\nsensor_to_body = [\"+x\", \"-z\", \"+y\"]\n\
                 [cage]\narticle_to_cage = [\"+y\", \"-x\", \"+z\"]\n";
-    let res = run_calibrate(&request(log, Some(plan), None)).unwrap();
+    let res = calibrate(&log, Some(plan), None, true).unwrap();
     assert_eq!(res.method, Method::Cage);
     assert_eq!(res.soft_iron_frame, "body");
     let w = Matrix3::from_fn(|i, j| res.soft_iron[i][j]);
@@ -102,7 +113,7 @@ fn cage_with_article_to_cage_gives_a_body_frame_correction_and_misalignment() {
 fn bad_reference_is_a_usage_error() {
     let dir = tempfile::tempdir().unwrap();
     let log = tumble_file(dir.path(), &TumbleConfig::default(), 1);
-    let e = run_calibrate(&request(log, None, Some(-5.0))).unwrap_err();
+    let e = calibrate(&log, None, Some(-5.0), true).unwrap_err();
     assert!(matches!(e, Error::Usage(_)), "{e}");
 }
 
@@ -112,12 +123,8 @@ fn bad_reference_is_a_usage_error() {
 fn per_sample_data_is_kept_only_when_asked() {
     let dir = tempfile::tempdir().unwrap();
     let log = tumble_file(dir.path(), &TumbleConfig::default(), 31);
-    let with = run_calibrate(&request(log.clone(), None, Some(48_000.0))).unwrap();
-    let without = run_calibrate(&CalibrateRequest {
-        keep_samples: false,
-        ..request(log.clone(), None, Some(48_000.0))
-    })
-    .unwrap();
+    let with = calibrate(&log.clone(), None, Some(48_000.0), true).unwrap();
+    let without = calibrate(&log, None, Some(48_000.0), false).unwrap();
     // Kept: one reading per row, as read from the log, and its correction.
     let read = crate::log::read_sweep(&log, &ReadOptions::default()).unwrap();
     let b = read.b_nt.unwrap();

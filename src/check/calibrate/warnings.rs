@@ -2,6 +2,8 @@
 
 use std::fmt;
 
+use crate::check::InputWarning;
+
 /// Something the user should know about a calibration result.
 #[derive(Debug, Clone, PartialEq)]
 pub enum CalibrationWarning {
@@ -38,19 +40,8 @@ pub enum CalibrationWarning {
         /// All samples.
         total: usize,
     },
-    /// Saturated readings on one axis (at or beyond the range, or on a rail) were
-    /// left out.
-    Saturated {
-        /// Readings flagged on that axis.
-        count: usize,
-        /// What was found: axis, level and cause.
-        detail: String,
-    },
-    /// Rows were skipped by the reader under `--skip-bad-rows`.
-    SkippedRows {
-        /// Rows skipped.
-        count: usize,
-    },
+    /// Something the input builder found (saturation, skipped rows).
+    Input(InputWarning),
     /// The fitted scale is far from the reference magnitude.
     ScaleMismatch {
         /// det W^(1/3) − 1 as a fraction.
@@ -72,8 +63,8 @@ impl fmt::Display for CalibrationWarning {
             W::Unanchored => write!(
                 f,
                 "no reference field magnitude: the scale is unanchored (fixed by det W = 1), \
-                 so corrected fields are right in shape but not in size; give --reference-nt \
-                 or [site] reference_nt in the plan"
+                 so corrected fields are right in shape but not in size; give the reference \
+                 magnitude, or [site] reference_nt or the site's position and date in the plan"
             ),
             W::LowCoverage { coverage } => write!(
                 f,
@@ -104,13 +95,7 @@ impl fmt::Display for CalibrationWarning {
                 "{rejected} of {total} samples were rejected as outliers: check for torque-rod \
                  firings, moving magnetic objects or a varying ambient field during the test"
             ),
-            W::Saturated { detail, .. } => write!(f, "{detail}"),
-            W::SkippedRows { count } => {
-                write!(
-                    f,
-                    "{count} bad rows of the log were skipped (--skip-bad-rows)"
-                )
-            }
+            W::Input(w) => write!(f, "{w}"),
             W::ScaleMismatch { deviation } => write!(
                 f,
                 "the fitted scale differs from the reference magnitude by {:.1} %: check the \

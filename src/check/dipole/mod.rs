@@ -24,21 +24,22 @@
 //! Requirements: at least one background segment (refused otherwise), every mount label
 //! of the log listed in the plan.
 
-use std::path::PathBuf;
-
 use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
+use crate::check::outcome::{Gate, GateRole, Verdict};
+use crate::check::CheckRequest;
 use crate::fit::dipole::{
     fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
 };
-use crate::log::saturation::{screen_log, without_rows};
-use crate::log::{read_sweep, LogError, Plan, ReadOptions, Shown, SweepLog};
+use crate::log::saturation::without_rows;
+use crate::log::{LogError, Plan, Shown, SweepLog};
 use crate::physics::frames::rotation_z;
 use crate::Error;
 
 mod background;
 mod orbit;
+pub mod seam;
 mod uncertainty;
 mod warning;
 
@@ -69,40 +70,31 @@ pub enum DipolePosition {
     Fitted,
 }
 
-/// What `magproof dipole` needs.
-#[derive(Debug, Clone)]
-pub struct DipoleRequest {
-    /// The sweep log (CSV).
-    pub log: PathBuf,
-    /// The validated test plan (needs `[dipole_test]`).
-    pub plan: Plan,
-    /// How to read the log.
-    pub read_options: ReadOptions,
+/// The dipole check's own options; the log and plan come with the [`CheckRequest`].
+#[derive(Debug, Clone, Copy)]
+pub struct DipoleOptions {
     /// Orbit altitude, km.
     pub altitude_km: f64,
     /// Orbit inclination, deg; `None` uses [`DEFAULT_INCLINATION_DEG`] and says so.
     pub inclination_deg: Option<f64>,
     /// Dipole at the table origin, or fitted.
     pub position: DipolePosition,
-    /// Probe full-scale range per axis, nT (`--range`). Readings at or beyond it, or
-    /// piled up on a rail, are left out (DESIGN §4).
-    pub range_nt: Option<f64>,
 }
 
-impl DipoleRequest {
-    /// A request with the default orbit and the dipole at the table origin.
-    pub fn new(log: PathBuf, plan: Plan) -> Self {
-        Self {
-            log,
-            plan,
-            read_options: ReadOptions::default(),
+impl Default for DipoleOptions {
+    /// The default orbit, the dipole at the table origin.
+    fn default() -> Self {
+        DipoleOptions {
             altitude_km: DEFAULT_ALTITUDE_KM,
             inclination_deg: None,
             position: DipolePosition::AtTableOrigin,
-            range_nt: None,
         }
     }
 }
+
+/// What the dipole check needs: the screened log (saturated rows are left out), the
+/// plan (`[dipole_test]`, `[limits] residual_dipole_max_am2`) and [`DipoleOptions`].
+pub type DipoleRequest<'a> = CheckRequest<'a, DipoleOptions>;
 
 /// How the field was mapped.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -161,8 +153,12 @@ pub struct DipoleResult {
     pub altitude_km: f64,
     /// Worst-case disturbance torque |m|·Bmax, N·m.
     pub orbit_torque_max_n_m: f64,
-    /// Verdict against `limits.residual_dipole_max_am2`; null without a limit.
+    /// True only when `verdict` is pass; null without a limit.
     pub pass: Option<bool>,
+    /// `pass`, `fail` or `no-limit`, from the gates.
+    pub verdict: Verdict,
+    /// Every gate evaluated, failed or not.
+    pub gates: Vec<Gate>,
     /// "turntable" or "static".
     pub method: DipoleMethod,
     /// 1σ of |m|, A·m².
@@ -194,7 +190,7 @@ pub struct DipoleResult {
     pub background_samples: usize,
     /// Background segments found.
     pub background_segments: usize,
-    /// Log rows skipped under `--skip-bad-rows`.
+    /// Log rows skipped as asked (bad rows skipped, not refused).
     pub rows_skipped: usize,
     /// Rows flagged as saturated (beyond the range or on a rail) and left out.
     pub samples_saturated: usize,
@@ -216,12 +212,6 @@ pub struct DipoleResult {
     pub background: Vec<BackgroundSegment>,
 }
 
-/// Read the log and run the dipole check.
-pub fn run_dipole(req: &DipoleRequest) -> Result<DipoleResult, Error> {
-    let log = read_sweep(&req.log, &req.read_options)?;
-    evaluate_dipole(&log, req)
-}
-
 fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
     Error::Log(LogError::MissingColumn {
         path: Shown(log.path.clone()),
@@ -230,29 +220,38 @@ fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
     })
 }
 
-/// Run the dipole check on a log already read (`req.log` is not read again).
-/// Saturated rows are dropped first and counted in `samples_saturated`.
-pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
-    crate::log::plausible::check_field_scale(log)?;
-    let sat = screen_log(log, req.range_nt)?;
-    if sat.count() == 0 {
-        return evaluate_unsaturated(log, req);
-    }
-    let kept = without_rows(log, &sat.flagged);
-    let mut res = evaluate_unsaturated(&kept, req)?;
+/// Run the dipole check. Saturated rows are dropped first and counted in
+/// `samples_saturated`.
+pub fn run_dipole(req: &DipoleRequest) -> Result<DipoleResult, Error> {
+    let plan = req.require_plan("dipole", "its [dipole_test] gives the mounts and positions")?;
+    let input = req.input;
+    let sat = &input.saturation;
+    let mut res = if sat.count() == 0 {
+        evaluate_unsaturated(&input.log, plan, &req.options)?
+    } else {
+        let kept = without_rows(&input.log, &sat.flagged);
+        evaluate_unsaturated(&kept, plan, &req.options)?
+    };
     res.samples_saturated = sat.count();
-    res.warnings.extend(
-        sat.warnings()
-            .into_iter()
-            .map(|detail| DipoleWarning::Saturated { detail }),
-    );
+    res.rows_skipped = input.log.skipped_rows.len();
+    let mut warnings: Vec<DipoleWarning> = input
+        .warnings
+        .iter()
+        .cloned()
+        .map(DipoleWarning::Input)
+        .collect();
+    warnings.append(&mut res.warnings);
+    res.warnings = warnings;
     Ok(res)
 }
 
-fn evaluate_unsaturated(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
+fn evaluate_unsaturated(
+    log: &SweepLog,
+    plan: &Plan,
+    req: &DipoleOptions,
+) -> Result<DipoleResult, Error> {
     let inclination_deg = req.inclination_deg.unwrap_or(DEFAULT_INCLINATION_DEG);
     validate_orbit(req.altitude_km, inclination_deg)?;
-    let plan = &req.plan;
     let test = plan
         .dipole_test
         .as_ref()
@@ -440,7 +439,17 @@ fn evaluate_unsaturated(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleRes
         p.model_nt = model_field_nt(s, &fit.moment_body_am2, &fit.offset_body_m)
             .unwrap_or_else(Vector3::zeros);
     }
-    assemble(req, method, inclination_deg, fit, bg, points, warnings, log)
+    assemble(
+        plan,
+        req,
+        method,
+        inclination_deg,
+        fit,
+        bg,
+        points,
+        warnings,
+        log,
+    )
 }
 
 fn fit_error(log: &SweepLog, e: DipoleFitError) -> Error {
@@ -469,7 +478,8 @@ fn validate_orbit(altitude_km: f64, inclination_deg: f64) -> Result<(), Error> {
 
 #[allow(clippy::too_many_arguments)]
 fn assemble(
-    req: &DipoleRequest,
+    plan: &Plan,
+    req: &DipoleOptions,
     method: DipoleMethod,
     inclination_deg: f64,
     fit: DipoleFit,
@@ -480,15 +490,19 @@ fn assemble(
 ) -> Result<DipoleResult, Error> {
     let (mag, mag_sigma) = fit.magnitude_am2();
     let (bmax_nt, bmean_nt) = orbit_field(req.altitude_km, inclination_deg, orbit::model_date())?;
-    let limit = req.plan.limits.residual_dipole_max_am2;
-    let pass = limit.map(|l| mag <= l);
+    let limit = plan.limits.residual_dipole_max_am2;
+    let gates: Vec<Gate> = limit
+        .map(|l| Gate::at_most("moment", mag, l, GateRole::Article))
+        .into_iter()
+        .collect();
+    let verdict = Verdict::from_gates(&gates);
+    let pass = verdict.pass();
     if let Some(l) = limit {
         if (mag - l).abs() < 2.0 * mag_sigma {
             warnings.push(DipoleWarning::NearLimit { limit_am2: l });
         }
     }
-    let rods = req
-        .plan
+    let rods = plan
         .rods
         .iter()
         .filter_map(|r| {
@@ -510,6 +524,8 @@ fn assemble(
         altitude_km: req.altitude_km,
         orbit_torque_max_n_m: mag * bmax_nt * 1e-9,
         pass,
+        verdict,
+        gates,
         method,
         magnitude_sigma_am2: mag_sigma,
         offset_m: fit.offset_sigma_m.map(|_| fit.offset_body_m.into()),

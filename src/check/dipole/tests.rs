@@ -2,13 +2,15 @@
 //! stated uncertainty; refusals and warnings.
 #![allow(clippy::needless_range_loop)]
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use approx::assert_relative_eq;
 
 use super::*;
+use crate::check::CheckInput;
 use crate::log::plan::parse_plan;
 use crate::log::read_sweep_from;
+use crate::log::ReadOptions;
 use crate::sim::dipole::{
     simulate_static, simulate_turntable, DipoleSim, StaticConfig, TurntableConfig,
 };
@@ -25,10 +27,13 @@ fn run_csv(csv: &str, plan: &str, position: DipolePosition) -> Result<DipoleResu
         &ReadOptions::default(),
         &mut |_| {},
     )?;
-    let mut req = DipoleRequest::new(PathBuf::from("log.csv"), plan);
-    req.position = position;
-    req.inclination_deg = Some(97.4);
-    evaluate_dipole(&log, &req)
+    let input = CheckInput::screen(log, Default::default(), None)?;
+    let options = DipoleOptions {
+        position,
+        inclination_deg: Some(97.4),
+        ..Default::default()
+    };
+    run_dipole(&CheckRequest::new(&input, Some(&plan), options))
 }
 
 fn assert_within_sigma(r: &DipoleResult, truth: [f64; 3], k: f64) {
@@ -315,7 +320,13 @@ fn default_inclination_is_said() {
         &mut |_| {},
     )
     .unwrap();
-    let r = evaluate_dipole(&log, &DipoleRequest::new(PathBuf::from("log.csv"), plan)).unwrap();
+    let input = CheckInput::screen(log, Default::default(), None).unwrap();
+    let r = run_dipole(&CheckRequest::new(
+        &input,
+        Some(&plan),
+        DipoleOptions::default(),
+    ))
+    .unwrap();
     assert!((r.inclination_deg - 97.4).abs() < 1e-12);
     assert!(r.warnings.contains(&DipoleWarning::DefaultInclination));
 }

@@ -6,6 +6,7 @@ use std::fmt;
 use serde::{Serialize, Serializer};
 
 use super::DEFAULT_INCLINATION_DEG;
+use crate::check::InputWarning;
 
 /// Something the user should know about a dipole result: cause and remedy.
 #[derive(Debug, Clone, PartialEq)]
@@ -37,11 +38,9 @@ pub enum DipoleWarning {
     },
     /// The inclination was not given; the default was used.
     DefaultInclination,
-    /// Saturated readings on one axis were left out.
-    Saturated {
-        /// Axis, level, count and cause, in words.
-        detail: String,
-    },
+    /// Something the input builder found (saturation, skipped rows).
+    Input(InputWarning),
+
     /// The verdict lies within 2σ of the limit.
     NearLimit {
         /// The limit, A·m².
@@ -86,7 +85,7 @@ impl fmt::Display for DipoleWarning {
                 "orbit inclination not given: {DEFAULT_INCLINATION_DEG}° (sun-synchronous) \
                  assumed; give --inclination-deg"
             ),
-            DipoleWarning::Saturated { detail } => write!(f, "{detail}"),
+            DipoleWarning::Input(w) => write!(f, "{w}"),
             DipoleWarning::NearLimit { limit_am2 } => write!(
                 f,
                 "the magnitude lies within 2σ of the limit {limit_am2} A·m²: the verdict is \

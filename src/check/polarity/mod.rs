@@ -22,17 +22,22 @@
 //! position_m`, or a `[probe]`).
 
 mod passes;
+pub mod seam;
 mod timing;
 mod verdict;
+mod warning;
 
 use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 pub use timing::DriftModel;
 pub use verdict::{RodResult, Verdict};
+pub use warning::PolarityWarning;
 
+use crate::check::outcome::{self, Gate, GateRole};
+use crate::check::CheckRequest;
 use crate::fit::linear::LinearFit;
-use crate::log::{Plan, SweepLog};
+use crate::log::Plan;
 use crate::Error;
 use passes::FitContext;
 use timing::{AfterPulse, Pulse};
@@ -57,13 +62,9 @@ pub enum SensorChoice {
     Probe,
 }
 
-/// What to check: a log, its plan and the method's settings.
-#[derive(Debug, Clone)]
-pub struct PolarityRequest<'a> {
-    /// The pulse log (needs `t`, `bx by bz`, `cmd_<rod>` per plan rod).
-    pub log: &'a SweepLog,
-    /// The plan: `[[rod]]`, the sensor's geometry, `[limits] polarity_angle_max_deg`.
-    pub plan: &'a Plan,
+/// The polarity check's own options; the log and plan come with the [`CheckRequest`].
+#[derive(Debug, Clone, Copy)]
+pub struct PolarityOptions {
     /// Which sensor recorded the log.
     pub sensor: SensorChoice,
     /// SNR below which a rod is `no-response`.
@@ -72,23 +73,31 @@ pub struct PolarityRequest<'a> {
     pub drift: DriftModel,
     /// Largest lag searched, s (default: half the shortest pulse, at most 2 s).
     pub max_lag_s: Option<f64>,
-    /// The recording sensor's full-scale range per axis, nT (`--range`); without it the
-    /// plan's `[magnetometer] range_nt` applies when the magnetometer recorded the log.
-    pub range_nt: Option<f64>,
 }
 
-impl<'a> PolarityRequest<'a> {
-    /// A request with the default settings.
-    pub fn new(log: &'a SweepLog, plan: &'a Plan) -> Self {
-        Self {
-            log,
-            plan,
+impl Default for PolarityOptions {
+    fn default() -> Self {
+        PolarityOptions {
             sensor: SensorChoice::Auto,
             snr_min: DEFAULT_SNR_MIN,
             drift: DriftModel::Auto,
             max_lag_s: None,
-            range_nt: None,
         }
+    }
+}
+
+/// What to check: the screened pulse log (needs `t`, `bx by bz`, `cmd_<rod>` per plan
+/// rod), the plan (`[[rod]]`, the sensor's geometry, `[limits]
+/// polarity_angle_max_deg`) and [`PolarityOptions`].
+pub type PolarityRequest<'a> = CheckRequest<'a, PolarityOptions>;
+
+/// Whether the plan's `[magnetometer] range_nt` applies to a log recorded by `choice`:
+/// only when the flight magnetometer recorded it.
+pub fn magnetometer_recorded(plan: &Plan, choice: SensorChoice) -> bool {
+    match choice {
+        SensorChoice::Magnetometer => true,
+        SensorChoice::Probe => false,
+        SensorChoice::Auto => plan.probe.is_none(),
     }
 }
 
@@ -162,8 +171,13 @@ pub struct PolarityResult {
     pub samples_saturated: usize,
     /// Every pulse found.
     pub pulses: Vec<PulseResult>,
-    /// Anything the user should know (cause and remedy).
-    pub warnings: Vec<String>,
+    /// Anything the user should know (cause and remedy; each once, with a count).
+    #[serde(serialize_with = "outcome::serialize_tally")]
+    pub warnings: Vec<PolarityWarning>,
+    /// `pass`, `fail` or `inconclusive`, from the gates.
+    pub verdict: crate::check::Verdict,
+    /// Every gate evaluated, failed or not.
+    pub gates: Vec<Gate>,
     /// Decimated series for plots.
     #[serde(skip)]
     pub series: PolaritySeries,
@@ -219,8 +233,12 @@ fn sensor_geometry(plan: &Plan, choice: SensorChoice) -> Result<SensorGeometry, 
 /// Run the polarity check.
 #[allow(clippy::needless_range_loop)]
 pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> {
-    let plan = req.plan;
-    let log = req.log;
+    let plan = req.require_plan(
+        "polarity",
+        "its [[rod]] entries give each rod's axis and position",
+    )?;
+    let log = &req.input.log;
+    let req_opts = &req.options;
     if plan.rods.is_empty() {
         return Err(plan
             .missing(
@@ -229,16 +247,15 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
             )
             .into());
     }
-    if !(req.snr_min.is_finite() && req.snr_min > 0.0) {
+    if !(req_opts.snr_min.is_finite() && req_opts.snr_min > 0.0) {
         return Err(Error::Usage(format!(
             "the SNR threshold must be positive, found {}",
-            req.snr_min
+            req_opts.snr_min
         )));
     }
-    let sensor = sensor_geometry(plan, req.sensor)?;
+    let sensor = sensor_geometry(plan, req_opts.sensor)?;
     let t = log.require_time("polarity needs time for the lag and settle times")?;
     let b = log.require_field("polarity fits the measured field")?;
-    crate::log::plausible::check_field_scale(log)?;
     let mut names: Vec<String> = Vec::new();
     let mut columns: Vec<&[f64]> = Vec::new();
     for rod in &plan.rods {
@@ -246,13 +263,18 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         names.push(rod.name.clone());
         columns.push(&c.values);
     }
-    let mut warnings = Vec::new();
+    let mut warnings: Vec<PolarityWarning> = req
+        .input
+        .warnings
+        .iter()
+        .cloned()
+        .map(PolarityWarning::Input)
+        .collect();
     for c in &log.commands {
         if !names.iter().any(|n| n.eq_ignore_ascii_case(&c.rod)) {
-            warnings.push(format!(
-                "column \"{}\" has no [[rod]] in the plan: it is fitted (so it cannot leak into the others) but gets no verdict",
-                c.header
-            ));
+            warnings.push(PolarityWarning::UnplannedColumn {
+                header: c.header.clone(),
+            });
             names.push(c.rod.clone());
             columns.push(&c.values);
         }
@@ -302,10 +324,10 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         any_on[p.start..p.end].iter_mut().for_each(|v| *v = true);
     }
     if t.windows(2).any(|w| w[1] - w[0] > 5.0 * dt) {
-        warnings.push("the log has gaps longer than five sample intervals; lag and settle times assume even sampling".into());
+        warnings.push(PolarityWarning::Gaps);
     }
     let noise = timing::noise_sigma_nt(b, &any_on);
-    let basis = timing::drift_basis(req.drift, t[0], span, longest);
+    let basis = timing::drift_basis(req_opts.drift, t[0], span, longest);
     if basis.len() > 2000 || basis.len() * 4 > n {
         return Err(Error::Usage(format!(
             "the drift model needs {} terms for {n} rows ({}); choose wider knots or a lower degree",
@@ -326,10 +348,9 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         let both = mine.iter().any(|p| p.command > 0.0) && mine.iter().any(|p| p.command < 0.0);
         if !both {
             if c < n_rods {
-                warnings.push(format!(
-                    "rod \"{}\" was pulsed with one sign only: its remanence cannot be told from the baseline and is not measured; pulse it both ways",
-                    names[c]
-                ));
+                warnings.push(PolarityWarning::OneSignOnly {
+                    rod: names[c].clone(),
+                });
             }
             continue;
         }
@@ -347,18 +368,9 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     }
     // Saturated readings (at or beyond the range, or piled up on a rail): flagged,
     // never used.
-    let range_nt = req.range_nt.or_else(|| {
-        plan.magnetometer
-            .as_ref()
-            .and_then(|m| m.range_nt)
-            .filter(|_| sensor.kind == SensorChoice::Magnetometer)
-    });
-    let sat = crate::log::saturation::find_saturation(b, range_nt);
-    sat.refuse_if_axis_saturated(&log.path)?;
-    let mut excluded = sat.flagged.clone();
+    let mut excluded = req.input.saturation.flagged.clone();
     excluded.resize(n, false);
-    let saturated = sat.count();
-    warnings.extend(sat.warnings());
+    let saturated = req.input.saturated_rows();
     let mut ctx = FitContext {
         t,
         b,
@@ -374,21 +386,18 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let no_guard = vec![0.0; columns.len()];
     let fit1 = ctx.fit(&timing::shifted_rows(t, 0.0), &pulses, &no_guard, None)?;
     let couplings1: Vec<Vector3<f64>> = (0..columns.len()).map(|c| coupling(&fit1, c)).collect();
-    let max_lag_s = req.max_lag_s.unwrap_or((shortest / 2.0).min(2.0));
+    let max_lag_s = req_opts.max_lag_s.unwrap_or((shortest / 2.0).min(2.0));
     let max_lag_samples = ((max_lag_s / dt).round() as usize).clamp(1, n / 4 + 1);
     let lag_s = timing::estimate_lag_s(&columns, &couplings1, b, dt, max_lag_samples)
         .unwrap_or_else(|| {
-            warnings.push(
-                "no command edge lies far enough inside the log to estimate the lag; 0 s assumed"
-                    .into(),
-            );
+            warnings.push(PolarityWarning::NoLagEdge);
             0.0
         });
     if lag_s.abs() >= 0.95 * max_lag_samples as f64 * dt {
-        warnings.push(format!(
-            "the lag estimate {lag_s:.4} s is at the edge of the searched range (±{:.4} s): the true lag may be larger",
-            max_lag_samples as f64 * dt
-        ));
+        warnings.push(PolarityWarning::LagAtEdge {
+            lag_s,
+            max_s: max_lag_samples as f64 * dt,
+        });
     }
     let rows = timing::shifted_rows(t, lag_s);
     ctx.lag_s = lag_s;
@@ -446,7 +455,9 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let angle_max_source = if plan.limits.polarity_angle_max_deg.is_some() {
         "plan"
     } else {
-        warnings.push(format!("the plan sets no [limits] polarity_angle_max_deg: the default {DEFAULT_ANGLE_MAX_DEG}° is used"));
+        warnings.push(PolarityWarning::DefaultAngleLimit {
+            limit_deg: DEFAULT_ANGLE_MAX_DEG,
+        });
         "default"
     };
     let measured: Vec<verdict::Measured> = (0..n_rods)
@@ -470,10 +481,15 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         &sensor.sensor_to_body,
         &measured,
         angle_max_deg.to_radians(),
-        req.snr_min,
+        req_opts.snr_min,
         &mut warnings,
     )?;
-    let pass = rods.iter().all(|r| r.verdict == Verdict::Ok);
+    let gates: Vec<Gate> = rods
+        .iter()
+        .flat_map(|r| rod_gates(r, req_opts.snr_min, angle_max_deg))
+        .collect();
+    let verdict = crate::check::Verdict::from_gates(&gates);
+    let pass = verdict == crate::check::Verdict::Pass;
     let coupling_matrix_nt_per_command = (0..3)
         .map(|a| rods.iter().map(|r| r.coupling_nt_per_command[a]).collect())
         .collect();
@@ -482,9 +498,11 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         rods,
         lag_s,
         pass,
+        verdict,
+        gates,
         angle_max_deg,
         angle_max_source,
-        snr_min: req.snr_min,
+        snr_min: req_opts.snr_min,
         sensor: sensor.kind,
         coupling_matrix_nt_per_command,
         noise_sigma_nt: noise,
@@ -496,6 +514,42 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         warnings,
         series,
     })
+}
+
+/// A rod's gates: `snr:<rod>` (data: the response must stand above the noise), then
+/// `angle:<rod>` (article: the response within the angle limit of the expected
+/// direction) and, for a rod whose swap with another cannot be seen,
+/// `distinguishable:<rod>` (data).
+fn rod_gates(rod: &RodResult, snr_min: f64, angle_max_deg: f64) -> Vec<Gate> {
+    let snr = Gate::at_least(
+        format!("snr:{}", rod.name),
+        rod.snr,
+        snr_min,
+        GateRole::Data,
+    );
+    if !snr.ok {
+        return vec![snr];
+    }
+    let angle = rod.angle_to_expected_deg.unwrap_or(f64::NAN);
+    let mut gates = vec![
+        snr,
+        Gate::at_most(
+            format!("angle:{}", rod.name),
+            angle,
+            angle_max_deg,
+            GateRole::Article,
+        ),
+    ];
+    if rod.verdict == Verdict::Inconclusive && angle <= angle_max_deg {
+        gates.push(Gate {
+            name: format!("distinguishable:{}", rod.name),
+            value: 0.0,
+            limit: 1.0,
+            ok: false,
+            role: GateRole::Data,
+        });
+    }
+    gates
 }
 
 /// Coupling of command column `c`, sensor frame, nT per command unit.

@@ -20,7 +20,15 @@ fn check(sim: &PolaritySim) -> PolarityResult {
         &mut |_| {},
     )
     .unwrap();
-    run_polarity(&PolarityRequest::new(&log, &plan)).unwrap()
+    // The plan's magnetometer range applies, as closeout reads a polarity log.
+    let range_nt = plan.magnetometer.as_ref().and_then(|m| m.range_nt);
+    let input = crate::check::CheckInput::screen(log, Default::default(), range_nt).unwrap();
+    run_polarity(&CheckRequest::new(
+        &input,
+        Some(&plan),
+        PolarityOptions::default(),
+    ))
+    .unwrap()
 }
 
 fn verdicts(r: &PolarityResult) -> Vec<&'static str> {
@@ -219,7 +227,10 @@ fn rods_with_parallel_expected_fields_are_inconclusive() {
     let (_, r) = run(&cfg, 29);
     assert_eq!(verdicts(&r), ["inconclusive", "inconclusive", "ok"]);
     assert!(!r.pass);
-    assert!(r.warnings.iter().any(|w| w.contains("cannot be seen")));
+    assert!(r
+        .warnings
+        .iter()
+        .any(|w| w.to_string().contains("cannot be seen")));
 }
 
 #[test]
@@ -233,11 +244,11 @@ fn close_sensor_marks_gain_unreliable_and_default_limit_is_said() {
     assert_eq!(r.rods[0].gain_reliable, Some(false));
     assert_eq!(r.rods[1].gain_reliable, Some(true));
     assert_eq!(r.angle_max_source, "default");
-    assert!(r.warnings.iter().any(|w| w.contains("30°")));
+    assert!(r.warnings.iter().any(|w| w.to_string().contains("30°")));
     assert!(r
         .warnings
         .iter()
-        .any(|w| w.contains("gain ratio is unreliable")));
+        .any(|w| w.to_string().contains("gain ratio is unreliable")));
 }
 
 fn request_error(csv: &str, plan: &str) -> String {
@@ -249,9 +260,17 @@ fn request_error(csv: &str, plan: &str) -> String {
         &mut |_| {},
     )
     .unwrap();
-    run_polarity(&PolarityRequest::new(&log, &plan))
-        .unwrap_err()
-        .to_string()
+    let input = match crate::check::CheckInput::screen(log, Default::default(), None) {
+        Ok(i) => i,
+        Err(e) => return e.to_string(),
+    };
+    run_polarity(&CheckRequest::new(
+        &input,
+        Some(&plan),
+        PolarityOptions::default(),
+    ))
+    .unwrap_err()
+    .to_string()
 }
 
 const ONE_ROD: &str = "[magnetometer]\nposition_m = [0, 0, 0.3]\n[[rod]]\nname = \"x\"\naxis_body = [1, 0, 0]\nposition_m = [0, 0, 0]\n";
@@ -279,7 +298,9 @@ fn readings_at_the_range_are_left_out_and_reported() {
     let full = check(&simulate_polarity(&PolarityConfig::default(), 31).unwrap());
     let r = check(&sim);
     assert!(
-        r.warnings.iter().any(|w| w.contains("saturated")),
+        r.warnings
+            .iter()
+            .any(|w| w.to_string().contains("saturated")),
         "{:?}",
         r.warnings
     );

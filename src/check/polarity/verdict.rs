@@ -4,6 +4,7 @@ use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 use super::timing::{AfterPulse, Pulse};
+use super::warning::PolarityWarning;
 use super::DIPOLE_VALID_ROD_LENGTHS;
 use crate::fit::linear::LinearFit;
 use crate::log::Plan;
@@ -148,7 +149,7 @@ pub fn judge(
     measured: &[Measured],
     angle_max_rad: f64,
     snr_min: f64,
-    warnings: &mut Vec<String>,
+    warnings: &mut Vec<PolarityWarning>,
 ) -> Result<Vec<RodResult>, Error> {
     let body_to_sensor = sensor_to_body.transpose();
     let mut expected = Vec::with_capacity(plan.rods.len());
@@ -169,13 +170,14 @@ pub fn judge(
             if line_angle(&expected[i], &expected[j]).is_some_and(|a| a < angle_max_rad) {
                 ambiguous[i].push(j);
                 ambiguous[j].push(i);
-                warnings.push(format!(
-                    "rods \"{}\" and \"{}\" produce fields along nearly the same line at the sensor ({:.1}° apart, limit {:.1}°): a swap between them cannot be seen, both are inconclusive; move the sensor or use a probe elsewhere",
-                    plan.rods[i].name,
-                    plan.rods[j].name,
-                    line_angle(&expected[i], &expected[j]).unwrap_or(0.0).to_degrees(),
-                    angle_max_rad.to_degrees()
-                ));
+                warnings.push(PolarityWarning::Ambiguous {
+                    a: plan.rods[i].name.clone(),
+                    b: plan.rods[j].name.clone(),
+                    angle_deg: line_angle(&expected[i], &expected[j])
+                        .unwrap_or(0.0)
+                        .to_degrees(),
+                    limit_deg: angle_max_rad.to_degrees(),
+                });
             }
         }
     }
@@ -213,10 +215,11 @@ pub fn judge(
             .length_m
             .map(|l| distance_m >= DIPOLE_VALID_ROD_LENGTHS * l);
         if gain_reliable == Some(false) {
-            warnings.push(format!(
-                "rod \"{}\": the sensor is {:.3} m away, less than {DIPOLE_VALID_ROD_LENGTHS} rod lengths ({:.3} m): the point-dipole model is doubtful there, so the gain ratio is unreliable (the polarity verdict still holds)",
-                rod.name, distance_m, DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0)
-            ));
+            warnings.push(PolarityWarning::CloseToRod {
+                rod: rod.name.clone(),
+                distance_m,
+                needed_m: DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0),
+            });
         }
         let mut matches_rod = None;
         let mut matches_reversed = None;

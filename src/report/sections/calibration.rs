@@ -7,9 +7,9 @@
 
 use nalgebra::{Matrix2, Matrix3, Vector3};
 
-use super::{figure, pass_tone, pm, short, to_json};
+use super::{figure, pm, short, to_json, verdict_tone};
 use crate::check::calibrate::{CalibrationResult, Method, ReferenceSource};
-use crate::report::model::{Cell, Figure, Section, Table, Verdict};
+use crate::report::model::{Cell, Figure, Section, Table};
 use crate::report::plot::{draw_histogram, draw_xy, ellipse_points, Series, XyPlot};
 use crate::Error;
 
@@ -31,7 +31,7 @@ pub fn calibration_section(r: &CalibrationResult) -> Result<Section, Error> {
     ));
     if let Some(x) = r.reference_nt {
         let from = match r.reference_source {
-            ReferenceSource::Flag => "from --reference-nt",
+            ReferenceSource::Flag => "as given",
             ReferenceSource::Plan => "from the plan's [site]",
             ReferenceSource::Model => "IGRF at the plan's [site]",
             ReferenceSource::Unanchored | ReferenceSource::AppliedField => "",
@@ -46,8 +46,7 @@ pub fn calibration_section(r: &CalibrationResult) -> Result<Section, Error> {
             pm(r.hard_iron_nt[a], Some(r.hard_iron_sigma_nt[a]), "nT"),
         ));
     }
-    // RMS of n samples: relative 1σ ≈ 1/√(2n) (Gaussian residuals).
-    let rms_sd = r.residual_rms_nt / (2.0 * r.samples_used.max(1) as f64).sqrt();
+    let rms_sd = r.residual_rms_sigma_nt;
     fom.push((
         "residual RMS".into(),
         pm(r.residual_rms_nt, Some(rms_sd), "nT"),
@@ -61,14 +60,31 @@ pub fn calibration_section(r: &CalibrationResult) -> Result<Section, Error> {
     ));
     if let Some(c) = &r.cage {
         fom.push((
+            "scale factors".into(),
+            format!(
+                "x {}  y {}  z {}",
+                pm(c.scale_factors[0], Some(c.scale_factor_sigma[0]), ""),
+                pm(c.scale_factors[1], Some(c.scale_factor_sigma[1]), ""),
+                pm(c.scale_factors[2], Some(c.scale_factor_sigma[2]), "")
+            )
+            .replace("  ", " ")
+            .replace(" x", "  x"),
+        ));
+        fom.push((
             "misalignment".into(),
-            format!("{:.3}° (rotation of A = R·S)", c.misalignment_deg),
+            format!(
+                "{} (rotation of A = R·S)",
+                pm(c.misalignment_deg, Some(c.angle_sigma_deg), "°")
+            ),
         ));
         fom.push((
             "non-orthogonality".into(),
             format!(
-                "xy {:+.3}°  xz {:+.3}°  yz {:+.3}°",
-                c.non_orthogonality_deg[0], c.non_orthogonality_deg[1], c.non_orthogonality_deg[2]
+                "xy {:+.3}°  xz {:+.3}°  yz {:+.3}° (each ± {:.3}°)",
+                c.non_orthogonality_deg[0],
+                c.non_orthogonality_deg[1],
+                c.non_orthogonality_deg[2],
+                c.angle_sigma_deg
             ),
         ));
         fom.push((
@@ -109,7 +125,7 @@ pub fn calibration_section(r: &CalibrationResult) -> Result<Section, Error> {
                 r.residual_limit_nt
                     .map_or("none in the plan".into(), |l| format!("≤ {l} nT")),
             ),
-            Cell::toned(Verdict::from_pass(r.pass).word(), pass_tone(r.pass)),
+            Cell::toned(r.verdict.word(), verdict_tone(r.verdict)),
         ]],
     };
     let mut w_rows = Vec::new();
@@ -142,11 +158,11 @@ pub fn calibration_section(r: &CalibrationResult) -> Result<Section, Error> {
     Ok(Section {
         kind: "calibrate".into(),
         title: "Magnetometer calibration".into(),
-        verdict: Verdict::from_pass(r.pass),
+        verdict: r.verdict,
         figures_of_merit: fom,
         tables: vec![verdict_table, w_table],
         figures: calibration_figures(r)?,
-        warnings: r.warnings.clone(),
+        warnings: crate::check::outcome::tally(&r.warnings),
         notes,
         result: to_json(r)?,
     })
@@ -346,9 +362,10 @@ fn calibration_figures(r: &CalibrationResult) -> Result<Vec<Figure>, Error> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::check::calibrate::{run_calibrate, CalibrateRequest};
+    use crate::check::calibrate::{run_calibrate, CalibrateOptions};
+    use crate::check::{CheckInput, CheckRequest};
     use crate::fit::tumble::Robust;
-    use crate::log::ReadOptions;
+    use crate::report::Verdict;
     use crate::sim::{simulate_tumble, write_tumble_csv, TumbleConfig};
 
     fn tumble_result() -> CalibrationResult {
@@ -357,16 +374,13 @@ mod tests {
         let path = dir.path().join("tumble.csv");
         let mut f = std::fs::File::create(&path).unwrap();
         write_tumble_csv(&sim, &mut f).unwrap();
-        run_calibrate(&CalibrateRequest {
-            log: path,
-            plan: None,
+        let input = CheckInput::read(&path, None, &Default::default()).unwrap();
+        let options = CalibrateOptions {
             reference_nt: Some(sim.truth.reference_nt),
-            range_nt: None,
-            read: ReadOptions::default(),
             robust: Robust::Tukey,
             keep_samples: true,
-        })
-        .unwrap()
+        };
+        run_calibrate(&CheckRequest::new(&input, None, options)).unwrap()
     }
 
     #[test]
@@ -442,7 +456,7 @@ mod tests {
             .iter()
             .any(|n| n.contains("cannot see misalignment")));
         // No limit in a plan-less run: the verdict says so in words.
-        assert_eq!(s.verdict, Verdict::Info);
+        assert_eq!(s.verdict, Verdict::NoLimit);
         assert_eq!(s.tables[0].rows[0][3].text, "NO LIMIT");
     }
 }

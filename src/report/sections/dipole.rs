@@ -3,9 +3,9 @@
 
 #![allow(clippy::needless_range_loop)] // x, y, z indexed in step with AXES
 
-use super::{figure, pass_tone, pm, short, to_json};
+use super::{figure, pm, short, to_json, verdict_tone};
 use crate::check::dipole::{DipoleMethod, DipoleResult};
-use crate::report::model::{Cell, Figure, Section, Table, Verdict};
+use crate::report::model::{Cell, Figure, Section, Table};
 use crate::report::plot::{draw_xy, Series, XyPlot};
 use crate::Error;
 
@@ -80,7 +80,7 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
             r.residual_dipole_max_am2
                 .map_or("none in the plan".into(), |l| format!("≤ {l} A·m²")),
         ),
-        Cell::toned(Verdict::from_pass(r.pass).word(), pass_tone(r.pass)),
+        Cell::toned(r.verdict.word(), verdict_tone(r.verdict)),
     ]];
     for rod in &r.rods {
         rows.push(vec![
@@ -118,11 +118,11 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
     Ok(Section {
         kind: "dipole".into(),
         title: "Residual magnetic dipole".into(),
-        verdict: Verdict::from_pass(r.pass),
+        verdict: r.verdict,
         figures_of_merit: fom,
         tables: vec![table],
         figures: dipole_figures(r)?,
-        warnings: r.warnings.iter().map(ToString::to_string).collect(),
+        warnings: crate::check::outcome::tally(&r.warnings),
         notes,
         result: to_json(r)?,
     })
@@ -212,7 +212,8 @@ fn wrap_deg(angle_rad: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::check::dipole::{run_dipole, DipoleRequest};
+    use crate::check::dipole::run_dipole;
+    use crate::check::{CheckInput, CheckRequest};
     use crate::log::read_plan;
     use crate::report::model::Tone;
     use crate::sim::dipole::{simulate_turntable, TurntableConfig};
@@ -223,7 +224,8 @@ mod tests {
         let sim = simulate_turntable(&TurntableConfig::default(), 7).unwrap();
         let files = sim.write_to(dir.path()).unwrap();
         let plan = read_plan(&files.plan).unwrap();
-        let r = run_dipole(&DipoleRequest::new(files.log.clone(), plan)).unwrap();
+        let input = CheckInput::read(&files.log, Some(&plan), &Default::default()).unwrap();
+        let r = run_dipole(&CheckRequest::new(&input, Some(&plan), Default::default())).unwrap();
         let s = dipole_section(&r).unwrap();
         assert_eq!(s.figures.len(), r.mount_labels.len());
         assert!(s.figures[0].file_name == "dipole-mount-1.svg");
@@ -231,7 +233,7 @@ mod tests {
         let m = s.figures_of_merit.iter().find(|(k, _)| k == "|m|").unwrap();
         assert!(m.1.contains(" ± ") && m.1.ends_with("A·m²"), "{}", m.1);
         let verdict = &s.tables[0].rows[0][3];
-        assert_eq!(verdict.text, Verdict::from_pass(r.pass).word());
+        assert_eq!(verdict.text, r.verdict.word());
         if r.pass == Some(true) {
             assert_eq!(verdict.tone, Tone::Good);
         }

@@ -3,9 +3,9 @@
 
 use serde_json::Value;
 
-use super::{figure, pass_tone, pm, to_json};
+use super::{figure, pm, to_json, verdict_tone};
+use crate::ledger::history::kinds_of;
 use crate::ledger::{group_by_build, Change, Flag, Run};
-use crate::log::plan::StepKind;
 use crate::report::model::{Cell, Figure, Section, Table, Tone, Verdict};
 use crate::report::plot::{draw_xy, Series, XyPlot};
 use crate::Error;
@@ -34,23 +34,30 @@ struct BuildRow<'a> {
     serial: &'a str,
     build: &'a str,
     ordinal: f64,
-    calibrate: Option<&'a Run>,
-    polarity: Option<&'a Run>,
-    dipole: Option<&'a Run>,
+    /// The latest run of each kind recorded for this build.
+    latest: Vec<&'a Run>,
 }
 
-fn build_rows(runs: &[Run]) -> Vec<BuildRow<'_>> {
+impl<'a> BuildRow<'a> {
+    /// The latest run of `kind`, if the build has one.
+    fn of(&self, kind: &str) -> Option<&'a Run> {
+        self.latest.iter().find(|r| r.kind == kind).copied()
+    }
+}
+
+fn build_rows<'a>(runs: &'a [Run], kinds: &[String]) -> Vec<BuildRow<'a>> {
     let mut rows = Vec::new();
     for serial in group_by_build(runs) {
         for (k, b) in serial.builds.iter().enumerate() {
-            let last = |kind: StepKind| b.runs.iter().rev().find(|r| r.kind == kind).copied();
+            let latest = kinds
+                .iter()
+                .filter_map(|kind| b.runs.iter().rev().find(|r| r.kind == *kind).copied())
+                .collect();
             rows.push(BuildRow {
                 serial: serial.serial,
                 build: b.build,
                 ordinal: (k + 1) as f64,
-                calibrate: last(StepKind::Calibrate),
-                polarity: last(StepKind::Polarity),
-                dipole: last(StepKind::Dipole),
+                latest,
             });
         }
     }
@@ -59,9 +66,22 @@ fn build_rows(runs: &[Run]) -> Vec<BuildRow<'_>> {
 
 fn verdict_cell(run: Option<&Run>) -> Cell {
     match run {
-        Some(r) => Cell::toned(Verdict::from_pass(r.pass).word(), pass_tone(r.pass)),
+        Some(r) => {
+            let v = Verdict::from_pass(r.pass);
+            Cell::toned(v.word(), verdict_tone(v))
+        }
         None => Cell::plain("-"),
     }
+}
+
+/// A stored number of a run, by quantity name.
+fn quantity(run: &Run, name: &str) -> Option<(f64, Option<f64>)> {
+    run.quantities.iter().find_map(|q| match q.value {
+        crate::ledger::QuantityValue::Number { value, sigma } if q.name == name => {
+            Some((value, sigma))
+        }
+        _ => None,
+    })
 }
 
 fn flag_tone(f: Flag) -> Tone {
@@ -75,22 +95,14 @@ fn flag_tone(f: Flag) -> Tone {
 
 /// Build the history section from ledger runs and the changes between builds.
 pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
-    let rows = build_rows(runs);
-    let latest: Vec<Option<bool>> = rows
-        .iter()
-        .enumerate()
-        .filter(|(i, r)| rows.get(i + 1).map_or(true, |n| n.serial != r.serial))
-        .flat_map(|(_, r)| [r.calibrate, r.polarity, r.dipole])
-        .flatten()
-        .map(|r| r.pass)
-        .collect();
-    let verdict = if latest.contains(&Some(false)) {
-        Verdict::Fail
-    } else if latest.contains(&Some(true)) {
-        Verdict::Pass
-    } else {
-        Verdict::Info
-    };
+    let kinds = kinds_of(runs);
+    let rows = build_rows(runs, &kinds);
+    let verdict = Verdict::combine(
+        rows.iter()
+            .enumerate()
+            .filter(|(i, r)| rows.get(i + 1).map_or(true, |n| n.serial != r.serial))
+            .flat_map(|(_, r)| r.latest.iter().map(|run| Verdict::from_pass(run.pass))),
+    );
     let serials = group_by_build(runs).len();
     let alerts = changes.iter().filter(|c| c.flag.is_alert()).count();
     let fom = vec![
@@ -113,35 +125,31 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
     ];
     let build_table = Table {
         caption: "Latest run of each check per build (verdict of the latest build decides)".into(),
-        header: vec![
-            "serial".into(),
-            "build".into(),
-            "|m| [A·m²]".into(),
-            "dipole".into(),
-            "hard iron x/y/z [nT]".into(),
-            "calibration".into(),
-            "polarity".into(),
-        ],
+        header: ["serial", "build", "|m| [A·m²]", "hard iron x/y/z [nT]"]
+            .into_iter()
+            .map(String::from)
+            .chain(kinds.iter().cloned())
+            .collect(),
         rows: rows
             .iter()
             .map(|b| {
-                let m = b.dipole.and_then(|r| {
-                    let v = num(&r.result, "magnitude_am2")?;
-                    Some(pm(v, num(&r.result, "magnitude_sigma_am2"), ""))
+                let m = b.latest.iter().find_map(|r| {
+                    let (v, s) = quantity(r, "dipole_magnitude_am2")?;
+                    Some(pm(v, s, ""))
                 });
-                let h = b.calibrate.and_then(|r| {
-                    let h = vec3(&r.result, "hard_iron_nt")?;
-                    Some(format!("{:.0} / {:.0} / {:.0}", h[0], h[1], h[2]))
+                let h = b.latest.iter().find_map(|r| {
+                    let h = ["x", "y", "z"]
+                        .map(|a| quantity(r, &format!("hard_iron_{a}_nt")).map(|q| q.0));
+                    Some(format!("{:.0} / {:.0} / {:.0}", h[0]?, h[1]?, h[2]?))
                 });
-                vec![
+                let mut cells = vec![
                     Cell::plain(b.serial),
                     Cell::plain(b.build),
                     Cell::plain(m.unwrap_or_else(|| "-".into()).trim_end().to_string()),
-                    verdict_cell(b.dipole),
                     Cell::plain(h.unwrap_or_else(|| "-".into())),
-                    verdict_cell(b.calibrate),
-                    verdict_cell(b.polarity),
-                ]
+                ];
+                cells.extend(kinds.iter().map(|k| verdict_cell(b.of(k))));
+                cells
             })
             .collect(),
     };
@@ -168,7 +176,7 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
             .iter()
             .map(|c| {
                 let delta = match c.delta {
-                    Some(d) => pm(d, c.sigma, c.unit),
+                    Some(d) => pm(d, c.sigma, &c.unit),
                     None => format!("{} → {}", short_value(&c.from), short_value(&c.to)),
                 };
                 vec![
@@ -199,11 +207,7 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
             format!(
                 "{} {}: {} went from pass to fail between builds {} and {}; find what was \
                  added or changed in that build",
-                c.serial,
-                c.kind.as_str(),
-                c.quantity,
-                c.from_build,
-                c.to_build
+                c.serial, c.kind, c.quantity, c.from_build, c.to_build
             )
         })
         .collect();
@@ -249,11 +253,11 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         let pts: Vec<(f64, f64)> = rows
             .iter()
             .filter(|r| r.serial == *s)
-            .filter_map(|r| Some((r.ordinal, num(&r.dipole?.result, "magnitude_am2")?)))
+            .filter_map(|r| Some((r.ordinal, num(&r.of("dipole")?.result, "magnitude_am2")?)))
             .collect();
         for r in rows.iter().filter(|r| r.serial == *s) {
             if let Some(l) = r
-                .dipole
+                .of("dipole")
                 .and_then(|d| num(&d.result, "residual_dipole_max_am2"))
             {
                 limits.push((r.ordinal, l));
@@ -286,7 +290,12 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
             let pts: Vec<(f64, f64)> = rows
                 .iter()
                 .filter(|r| r.serial == *s)
-                .filter_map(|r| Some((r.ordinal, vec3(&r.calibrate?.result, "hard_iron_nt")?[a])))
+                .filter_map(|r| {
+                    Some((
+                        r.ordinal,
+                        vec3(&r.of("calibrate")?.result, "hard_iron_nt")?[a],
+                    ))
+                })
                 .collect();
             if !pts.is_empty() {
                 hi = hi.with(Series::points("", pts.clone(), a));
@@ -316,11 +325,16 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         let pts: Vec<(f64, f64)> = rows
             .iter()
             .filter(|r| r.serial == *s)
-            .filter_map(|r| Some((r.ordinal, num(&r.calibrate?.result, "residual_rms_nt")?)))
+            .filter_map(|r| {
+                Some((
+                    r.ordinal,
+                    num(&r.of("calibrate")?.result, "residual_rms_nt")?,
+                ))
+            })
             .collect();
         for r in rows.iter().filter(|r| r.serial == *s) {
             if let Some(l) = r
-                .calibrate
+                .of("calibrate")
                 .and_then(|c| num(&c.result, "residual_limit_nt"))
             {
                 limits.push((r.ordinal, l));
@@ -354,12 +368,17 @@ mod tests {
     use crate::ledger::{changes, ChangeRules, RunId};
     use serde_json::json;
 
-    fn run(id: i64, build: &str, kind: StepKind, pass: bool, result: Value) -> Run {
+    fn run(id: i64, build: &str, kind: &str, pass: bool, result: Value) -> Run {
         Run {
             id: RunId(id),
             serial: "QX-7".into(),
             build: build.into(),
-            kind,
+            kind: kind.into(),
+            quantities: {
+                let mut q = crate::ledger::legacy_quantities(kind, &result);
+                q.push(crate::ledger::Quantity::pass(kind, pass));
+                q
+            },
             recorded_at: format!("2026-11-2{id}T09:00:00.000Z"),
             tool_version: Some("0.1.0".into()),
             pass: Some(pass),
@@ -380,10 +399,10 @@ mod tests {
                    "residual_rms_nt": 40.0, "residual_limit_nt": 100.0, "pass": true})
         };
         let runs = vec![
-            run(1, "B1", StepKind::Dipole, true, dip(0.02, true)),
-            run(2, "B1", StepKind::Calibrate, true, cal(100.0)),
-            run(3, "B2", StepKind::Dipole, false, dip(0.09, false)),
-            run(4, "B2", StepKind::Calibrate, true, cal(400.0)),
+            run(1, "B1", "dipole", true, dip(0.02, true)),
+            run(2, "B1", "calibrate", true, cal(100.0)),
+            run(3, "B2", "dipole", false, dip(0.09, false)),
+            run(4, "B2", "calibrate", true, cal(400.0)),
         ];
         let ch = changes(&runs, &ChangeRules::default());
         let s = history_section(&runs, &ch).unwrap();
@@ -404,13 +423,18 @@ mod tests {
             .any(|c| c.text == "limit-crossed" && c.tone == Tone::Bad));
         assert!(!s.warnings.is_empty());
         assert_eq!(s.result["changes"].as_array().unwrap().len(), ch.len());
-        assert_eq!(s.tables[0].rows[1][3].text, "FAIL");
+        let dipole_column = s.tables[0]
+            .header
+            .iter()
+            .position(|h| h == "dipole")
+            .unwrap();
+        assert_eq!(s.tables[0].rows[1][dipole_column].text, "FAIL");
     }
 
     #[test]
     fn empty_ledger_gives_a_section_without_plots() {
         let s = history_section(&[], &[]).unwrap();
-        assert_eq!(s.verdict, Verdict::Info);
+        assert_eq!(s.verdict, Verdict::NoLimit);
         assert!(s.figures.is_empty());
     }
 }

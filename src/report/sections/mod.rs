@@ -30,12 +30,12 @@ fn to_json(value: &impl serde::Serialize) -> Result<serde_json::Value, Error> {
     serde_json::to_value(value).map_err(|e| Error::Internal(format!("result JSON: {e}")))
 }
 
-/// Tone of an optional pass flag.
-fn pass_tone(pass: Option<bool>) -> Tone {
-    match pass {
-        Some(true) => Tone::Good,
-        Some(false) => Tone::Bad,
-        None => Tone::Warn,
+/// Tone of a verdict.
+fn verdict_tone(v: super::Verdict) -> Tone {
+    match v {
+        super::Verdict::Pass => Tone::Good,
+        super::Verdict::Fail => Tone::Bad,
+        super::Verdict::Inconclusive | super::Verdict::NoLimit => Tone::Warn,
     }
 }
 

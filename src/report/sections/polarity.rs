@@ -5,7 +5,7 @@ use nalgebra::Vector3;
 
 use super::{figure, pm, short, to_json};
 use crate::check::polarity::{PolarityResult, RodResult, Verdict as RodVerdict};
-use crate::report::model::{Cell, Figure, Section, Table, Tone, Verdict};
+use crate::report::model::{Cell, Figure, Section, Table, Tone};
 use crate::report::plot::{draw_xy, Series, XyPlot};
 use crate::Error;
 
@@ -77,11 +77,11 @@ pub fn polarity_section(r: &PolarityResult) -> Result<Section, Error> {
     Ok(Section {
         kind: "polarity".into(),
         title: "Torque-rod polarity".into(),
-        verdict: Verdict::from_pass(Some(r.pass)),
+        verdict: r.verdict,
         figures_of_merit: fom,
         tables: vec![table],
         figures: polarity_figures(r)?,
-        warnings: r.warnings.clone(),
+        warnings: crate::check::outcome::tally(&r.warnings),
         notes,
         result: to_json(r)?,
     })
@@ -229,8 +229,10 @@ fn file_safe(name: &str, k: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::check::polarity::{run_polarity, PolarityRequest};
+    use crate::check::polarity::run_polarity;
+    use crate::check::{CheckInput, CheckRequest};
     use crate::log::{read_plan, read_sweep, ReadOptions};
+    use crate::report::Verdict;
     use crate::sim::polarity::{simulate_polarity, PolarityConfig};
 
     fn result(cfg: &PolarityConfig) -> PolarityResult {
@@ -239,7 +241,8 @@ mod tests {
         let [csv, plan, _] = sim.write(dir.path(), "p").unwrap();
         let plan = read_plan(&plan).unwrap();
         let log = read_sweep(&csv, &ReadOptions::default()).unwrap();
-        run_polarity(&PolarityRequest::new(&log, &plan)).unwrap()
+        let input = CheckInput::screen(log, Default::default(), None).unwrap();
+        run_polarity(&CheckRequest::new(&input, Some(&plan), Default::default())).unwrap()
     }
 
     #[test]

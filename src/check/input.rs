@@ -1,0 +1,173 @@
+//! The one input builder every check uses: read the log, resolve the field unit and the
+//! sensor range (command line, else plan, else default), screen the readings once for
+//! impossible values and saturation, and carry what the reader skipped. Checks take its
+//! [`CheckInput`] and never call the reader themselves.
+
+use std::fmt;
+use std::path::Path;
+
+use crate::log::plausible::check_field_scale;
+use crate::log::saturation::{screen_log, SaturationCause, SaturationReport};
+use crate::log::{read_sweep_with_progress, FieldUnit, Plan, ReadOptions, SweepLog};
+use crate::Error;
+
+/// How to read a log, as the user asked (each `None` falls back to the plan, then to
+/// the default).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct InputOptions {
+    /// Field unit of columns whose header names none; beats the plan's
+    /// `[magnetometer] unit`. Default nT.
+    pub unit: Option<FieldUnit>,
+    /// Sensor full-scale range per axis, nT; beats the plan's `[magnetometer] range_nt`
+    /// when that applies to the sensor that recorded the log.
+    pub range_nt: Option<f64>,
+    /// Skip rows with a bad cell (counted and reported) instead of refusing the log.
+    pub skip_bad_rows: bool,
+    /// Whether the plan's `[magnetometer] range_nt` applies: true when the flight
+    /// magnetometer recorded the log, false for an external probe.
+    pub plan_range_applies: bool,
+}
+
+/// Something about the input that every check reports the same way.
+#[derive(Debug, Clone, PartialEq)]
+pub enum InputWarning {
+    /// Readings on one axis were flagged as saturated and left out.
+    Saturated {
+        /// Sensor axis, 0 = x.
+        axis: usize,
+        /// Readings flagged on that axis.
+        count: usize,
+        /// The level, nT.
+        level_nt: f64,
+        /// Beyond the range, or piled up on a rail.
+        cause: SaturationCause,
+    },
+    /// Rows were skipped by the reader (`skip_bad_rows`).
+    SkippedRows {
+        /// Rows skipped.
+        count: usize,
+        /// Why the first one was skipped, with its line.
+        first: String,
+    },
+}
+
+impl fmt::Display for InputWarning {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            InputWarning::Saturated {
+                axis,
+                count,
+                level_nt,
+                cause: SaturationCause::BeyondRange,
+            } => write!(
+                f,
+                "sensor {}: {count} readings at or beyond the range ±{level_nt} nT were \
+                 flagged as saturated and left out",
+                axis_name(*axis)
+            ),
+            InputWarning::Saturated {
+                axis,
+                count,
+                level_nt,
+                cause: SaturationCause::Rail,
+            } => write!(
+                f,
+                "sensor {}: {count} readings piled up at {level_nt} nT (the axis's rail) were \
+                 flagged as saturated and left out; give the sensor's full-scale range if \
+                 that is not it",
+                axis_name(*axis)
+            ),
+            InputWarning::SkippedRows { count, first } => write!(
+                f,
+                "{count} bad rows were skipped as asked; the first: {first}; fix or remove \
+                 them to use every row"
+            ),
+        }
+    }
+}
+
+fn axis_name(axis: usize) -> &'static str {
+    ["x", "y", "z"].get(axis).copied().unwrap_or("?")
+}
+
+/// A log read and screened once, ready for any check.
+#[derive(Debug, Clone)]
+pub struct CheckInput {
+    /// The log, field in nT.
+    pub log: SweepLog,
+    /// The unit assumed for field columns whose header names none.
+    pub unit: FieldUnit,
+    /// The sensor range applied, nT per axis (`None`: only the rail heuristic).
+    pub range_nt: Option<f64>,
+    /// Rows flagged as saturated, and what was found per axis.
+    pub saturation: SaturationReport,
+    /// What the reader and the screens found, for the check's warnings.
+    pub warnings: Vec<InputWarning>,
+}
+
+impl CheckInput {
+    /// Read and screen the log at `path`.
+    pub fn read(path: &Path, plan: Option<&Plan>, options: &InputOptions) -> Result<Self, Error> {
+        Self::read_with_progress(path, plan, options, &mut |_| {})
+    }
+
+    /// As [`CheckInput::read`], calling `progress(bytes_read)` while the log is read.
+    pub fn read_with_progress(
+        path: &Path,
+        plan: Option<&Plan>,
+        options: &InputOptions,
+        progress: &mut dyn FnMut(u64),
+    ) -> Result<Self, Error> {
+        let magnetometer = plan.and_then(|p| p.magnetometer.as_ref());
+        let unit = options
+            .unit
+            .or_else(|| magnetometer.and_then(|m| m.unit))
+            .unwrap_or_default();
+        let read = ReadOptions {
+            default_unit: unit,
+            skip_bad_rows: options.skip_bad_rows,
+        };
+        let log = read_sweep_with_progress(path, &read, progress)?;
+        let range_nt = options.range_nt.or_else(|| {
+            magnetometer
+                .and_then(|m| m.range_nt)
+                .filter(|_| options.plan_range_applies)
+        });
+        Self::screen(log, unit, range_nt)
+    }
+
+    /// Screen a log already read: impossible values refuse it; saturated rows are
+    /// flagged (an axis saturated throughout refuses it).
+    pub fn screen(log: SweepLog, unit: FieldUnit, range_nt: Option<f64>) -> Result<Self, Error> {
+        check_field_scale(&log)?;
+        let saturation = screen_log(&log, range_nt)?;
+        let mut warnings: Vec<InputWarning> = saturation
+            .axes
+            .iter()
+            .map(|a| InputWarning::Saturated {
+                axis: a.axis,
+                count: a.count,
+                level_nt: a.level_nt,
+                cause: a.cause,
+            })
+            .collect();
+        if let Some(first) = log.skipped_rows.first() {
+            warnings.push(InputWarning::SkippedRows {
+                count: log.skipped_rows.len(),
+                first: first.reason.clone(),
+            });
+        }
+        Ok(CheckInput {
+            log,
+            unit,
+            range_nt,
+            saturation,
+            warnings,
+        })
+    }
+
+    /// Rows flagged as saturated.
+    pub fn saturated_rows(&self) -> usize {
+        self.saturation.count()
+    }
+}

@@ -1,0 +1,120 @@
+//! Warnings of the polarity check: each says its cause and its remedy, and is collected
+//! into the result (never printed from the library).
+
+use std::fmt;
+
+use super::DIPOLE_VALID_ROD_LENGTHS;
+use crate::check::InputWarning;
+
+/// Something the user should know about a polarity result: cause and remedy.
+#[derive(Debug, Clone, PartialEq)]
+pub enum PolarityWarning {
+    /// A command column with no `[[rod]]` in the plan.
+    UnplannedColumn {
+        /// The column's header.
+        header: String,
+    },
+    /// The log has gaps longer than five sample intervals.
+    Gaps,
+    /// A rod was pulsed with one sign only: its remanence is not measured.
+    OneSignOnly {
+        /// Rod name.
+        rod: String,
+    },
+    /// No command edge far enough inside the log to estimate the lag.
+    NoLagEdge,
+    /// The lag estimate sits at the edge of the searched range.
+    LagAtEdge {
+        /// The estimate, s.
+        lag_s: f64,
+        /// The searched range, ± s.
+        max_s: f64,
+    },
+    /// The plan sets no angle limit; the default was used.
+    DefaultAngleLimit {
+        /// The default, deg.
+        limit_deg: f64,
+    },
+    /// Two rods' expected fields lie along nearly the same line at the sensor.
+    Ambiguous {
+        /// First rod.
+        a: String,
+        /// Second rod.
+        b: String,
+        /// Angle between their expected lines, deg.
+        angle_deg: f64,
+        /// The angle limit, deg.
+        limit_deg: f64,
+    },
+    /// The sensor is closer than the point-dipole model's range to a rod.
+    CloseToRod {
+        /// Rod name.
+        rod: String,
+        /// Sensor distance, m.
+        distance_m: f64,
+        /// Distance the model needs, m.
+        needed_m: f64,
+    },
+    /// Something the input builder found (saturation, skipped rows).
+    Input(InputWarning),
+}
+
+impl fmt::Display for PolarityWarning {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use PolarityWarning as W;
+        match self {
+            W::UnplannedColumn { header } => write!(
+                f,
+                "column \"{header}\" has no [[rod]] in the plan: it is fitted (so it cannot \
+                 leak into the others) but gets no verdict"
+            ),
+            W::Gaps => write!(
+                f,
+                "the log has gaps longer than five sample intervals; lag and settle times \
+                 assume even sampling"
+            ),
+            W::OneSignOnly { rod } => write!(
+                f,
+                "rod \"{rod}\" was pulsed with one sign only: its remanence cannot be told \
+                 from the baseline and is not measured; pulse it both ways"
+            ),
+            W::NoLagEdge => write!(
+                f,
+                "no command edge lies far enough inside the log to estimate the lag; 0 s assumed"
+            ),
+            W::LagAtEdge { lag_s, max_s } => write!(
+                f,
+                "the lag estimate {lag_s:.4} s is at the edge of the searched range \
+                 (±{max_s:.4} s): the true lag may be larger"
+            ),
+            W::DefaultAngleLimit { limit_deg } => write!(
+                f,
+                "the plan sets no [limits] polarity_angle_max_deg: the default {limit_deg}° \
+                 is used"
+            ),
+            W::Ambiguous {
+                a,
+                b,
+                angle_deg,
+                limit_deg,
+            } => write!(
+                f,
+                "rods \"{a}\" and \"{b}\" produce fields along nearly the same line at the \
+                 sensor ({angle_deg:.1}° apart, limit {limit_deg:.1}°): a swap between them \
+                 cannot be seen, both are inconclusive; move the sensor or use a probe elsewhere"
+            ),
+            W::CloseToRod {
+                rod,
+                distance_m,
+                needed_m,
+            } => write!(
+                f,
+                "rod \"{rod}\": the sensor is {distance_m:.3} m away, less than \
+                 {DIPOLE_VALID_ROD_LENGTHS} rod lengths ({needed_m:.3} m): the point-dipole \
+                 model is doubtful there, so the gain ratio is unreliable (the polarity \
+                 verdict still holds)"
+            ),
+            W::Input(w) => write!(f, "{w}"),
+        }
+    }
+}

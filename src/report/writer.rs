@@ -1,0 +1,195 @@
+//! The presentation pipeline: one small trait, one writer per format (terminal text,
+//! JSON, an HTML report folder, flight parameters). Every writer reads the same
+//! [`RunReport`]; none recomputes a number. Each writer first says whether it can write
+//! ([`ReportWriter::prepare`]), so a command checks every output before it records
+//! anything, then writes ([`ReportWriter::write`]).
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use super::flight_params::{write_flight_params, ParamsFormat};
+use super::polarity_params::write_polarity_params;
+use super::{terminal, write_report_dir, RunReport};
+use crate::check::calibrate::CalibrationResult;
+use crate::check::polarity::PolarityResult;
+use crate::Error;
+
+/// Where a writer's output went, for the command to say.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Written {
+    /// To standard output.
+    Stdout,
+    /// Into this file or folder.
+    Path(PathBuf),
+}
+
+/// One output format.
+pub trait ReportWriter {
+    /// What it writes, for messages ("report folder", "flight parameters").
+    fn name(&self) -> &str;
+    /// Refuse now, before anything is recorded, what `write` would refuse later (an
+    /// existing destination without `force`, a bad file name).
+    fn prepare(&self) -> Result<(), Error> {
+        Ok(())
+    }
+    /// Write the report.
+    fn write(&self, run: &RunReport, stdout: &mut dyn Write) -> Result<Written, Error>;
+}
+
+/// The terminal summary (80 columns; colour only on a terminal without `NO_COLOR`).
+#[derive(Debug, Clone, Copy)]
+pub struct TerminalWriter {
+    /// Colour or not.
+    pub style: terminal::Style,
+}
+
+impl ReportWriter for TerminalWriter {
+    fn name(&self) -> &str {
+        "terminal summary"
+    }
+    fn write(&self, run: &RunReport, stdout: &mut dyn Write) -> Result<Written, Error> {
+        let text = terminal::render(run, &self.style);
+        stdout
+            .write_all(text.as_bytes())
+            .map_err(|e| Error::io("standard output", e))?;
+        Ok(Written::Stdout)
+    }
+}
+
+/// Exactly one JSON object (the result) on standard output.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct JsonWriter;
+
+impl ReportWriter for JsonWriter {
+    fn name(&self) -> &str {
+        "JSON"
+    }
+    fn write(&self, run: &RunReport, stdout: &mut dyn Write) -> Result<Written, Error> {
+        let text = serde_json::to_string_pretty(&run.result)
+            .map_err(|e| Error::Internal(format!("result JSON: {e}")))?;
+        writeln!(stdout, "{text}").map_err(|e| Error::io("standard output", e))?;
+        Ok(Written::Stdout)
+    }
+}
+
+/// A report folder: `report.html`, `result.json` and each plot as an SVG, written whole
+/// or not at all.
+#[derive(Debug, Clone)]
+pub struct HtmlWriter {
+    /// The folder.
+    pub dir: PathBuf,
+    /// Replace an existing folder.
+    pub force: bool,
+}
+
+impl ReportWriter for HtmlWriter {
+    fn name(&self) -> &str {
+        "report"
+    }
+    fn prepare(&self) -> Result<(), Error> {
+        check_destination(&self.dir, self.force, "report folder")?;
+        if self.dir.exists() && !self.dir.is_dir() {
+            return Err(Error::Usage(format!(
+                "{} exists and is not a folder",
+                self.dir.display()
+            )));
+        }
+        Ok(())
+    }
+    fn write(&self, run: &RunReport, _stdout: &mut dyn Write) -> Result<Written, Error> {
+        Ok(Written::Path(write_report_dir(&self.dir, self.force, run)?))
+    }
+}
+
+/// Which result flight-software parameters come from.
+#[derive(Debug, Clone, Copy)]
+pub enum ParamsSource<'a> {
+    /// A calibration: hard iron and W.
+    Calibration(&'a CalibrationResult),
+    /// A polarity check: the coupling matrix.
+    Polarity(&'a PolarityResult),
+}
+
+/// Flight-software parameters: FILE.json or FILE.h.
+#[derive(Debug, Clone)]
+pub struct FlightParamsWriter<'a> {
+    /// The result they come from.
+    pub source: ParamsSource<'a>,
+    /// FILE.json or FILE.h.
+    pub path: PathBuf,
+    /// Replace an existing file.
+    pub force: bool,
+}
+
+impl ReportWriter for FlightParamsWriter<'_> {
+    fn name(&self) -> &str {
+        "flight parameters"
+    }
+    fn prepare(&self) -> Result<(), Error> {
+        if let ParamsSource::Calibration(_) = self.source {
+            ParamsFormat::for_path(&self.path)?;
+        }
+        check_destination(&self.path, self.force, "parameter file")
+    }
+    fn write(&self, _run: &RunReport, _stdout: &mut dyn Write) -> Result<Written, Error> {
+        match self.source {
+            ParamsSource::Calibration(r) => write_flight_params(r, &self.path, self.force)?,
+            ParamsSource::Polarity(r) => write_polarity_params(r, &self.path, self.force)?,
+        }
+        Ok(Written::Path(self.path.clone()))
+    }
+}
+
+/// Refuse an existing destination unless replacing it was asked for, and one whose
+/// parent exists but is not a folder.
+fn check_destination(path: &Path, force: bool, what: &str) -> Result<(), Error> {
+    if path.exists() && !force {
+        return Err(Error::Usage(format!(
+            "{what} {} exists; replacing it must be asked for",
+            path.display()
+        )));
+    }
+    if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
+        if parent.exists() && !parent.is_dir() {
+            return Err(Error::Usage(format!(
+                "{}: {} is not a folder",
+                path.display(),
+                parent.display()
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Check every writer, then write with each in turn; returns where each wrote.
+pub fn write_all(
+    writers: &[Box<dyn ReportWriter + '_>],
+    run: &RunReport,
+    stdout: &mut dyn Write,
+) -> Result<Vec<(String, Written)>, Error> {
+    let mut out = Vec::with_capacity(writers.len());
+    for w in writers {
+        out.push((w.name().to_string(), w.write(run, stdout)?));
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn an_existing_folder_is_refused_before_anything_is_written() {
+        let dir = tempfile::tempdir().unwrap();
+        let w = HtmlWriter {
+            dir: dir.path().to_path_buf(),
+            force: false,
+        };
+        assert!(w.prepare().is_err());
+        let forced = HtmlWriter {
+            dir: dir.path().to_path_buf(),
+            force: true,
+        };
+        assert!(forced.prepare().is_ok());
+    }
+}
