@@ -340,3 +340,56 @@ fn json_and_csv_cannot_share_stdout() {
         .assert()
         .code(2);
 }
+
+/// `tests/data/ledger_v2_demo.db` is the ledger the demo wrote with the binary released
+/// before the kind became text checked in Rust (schema version 2, nine runs, `CHECK
+/// (kind IN …)` in its `runs` table); `ledger_v2_demo_history.json` is that binary's
+/// `history --json` of it. Made once with `magproof demo --out D` and `magproof history
+/// --ledger D/ledger.db --json` at commit d1c4fb9.
+#[test]
+fn a_ledger_written_by_the_previous_release_migrates_and_keeps_its_history() {
+    let t = TestDir::new();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data");
+    let db = t.join("old.db");
+    std::fs::copy(data.join("ledger_v2_demo.db"), &db).unwrap();
+    let before: HistoryJson = serde_json::from_str(
+        &std::fs::read_to_string(data.join("ledger_v2_demo_history.json")).unwrap(),
+    )
+    .unwrap();
+    let after = history_json(&t, &["--ledger", "old.db"]);
+    assert_eq!(after.runs.len(), before.runs.len());
+    assert_eq!(after.changes.len(), before.changes.len());
+    for (a, b) in after.changes.iter().zip(&before.changes) {
+        assert_eq!(
+            (&a.quantity, &a.from_build, &a.to_build, &a.flag),
+            (&b.quantity, &b.from_build, &b.to_build, &b.flag)
+        );
+        for (x, y) in [(a.delta, b.delta), (a.sigma, b.sigma)] {
+            match (x, y) {
+                (Some(x), Some(y)) => assert!((x - y).abs() <= 1e-12 * y.abs().max(1.0)),
+                (x, y) => assert_eq!(x, y, "{}", a.quantity),
+            }
+        }
+    }
+    let conn = rusqlite::Connection::open(&db).unwrap();
+    let version: i64 = conn
+        .query_row("PRAGMA user_version", [], |r| r.get(0))
+        .unwrap();
+    assert_eq!(version, magproof::ledger::CURRENT_VERSION);
+    let sql: String = conn
+        .query_row(
+            "SELECT sql FROM sqlite_master WHERE type = 'table' AND name = 'runs'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert!(!sql.contains("CHECK (kind"), "{sql}");
+    let integrity: String = conn
+        .query_row("PRAGMA integrity_check", [], |r| r.get(0))
+        .unwrap();
+    assert_eq!(integrity, "ok");
+    let inputs: i64 = conn
+        .query_row("SELECT count(*) FROM inputs", [], |r| r.get(0))
+        .unwrap();
+    assert_eq!(inputs, 18, "every run keeps its log and plan");
+}
