@@ -132,10 +132,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let rules = ChangeRules::default();
     let changes = changes(&runs, &rules);
     println!();
-    print!(
-        "{}",
-        super::history::render(&ledger_path, &runs, &changes, &rules)
-    );
+    print!("{}", super::history::render(&ledger_path, &runs, &changes)?);
 
     println!("\nWhere things are (under {}):", out.display());
     println!("  sample logs and plans   {}", samples.display());

@@ -4,7 +4,7 @@
 use std::fmt::Write as _;
 use std::io::IsTerminal;
 
-use super::model::{RunReport, Section, Tone, Verdict};
+use super::model::{Cell, RunReport, Section, Tone, Verdict};
 
 /// Width the summary keeps within.
 pub const WIDTH: usize = 80;
@@ -141,7 +141,7 @@ fn render_table(t: &super::model::Table, style: &Style) -> String {
             widths[k] = widths[k].max(c.text.chars().count());
         }
     }
-    // Keep within the width: shrink the widest column first.
+    // Keep within the width: shrink the widest column first (its cells wrap).
     while widths.iter().sum::<usize>() + 2 * cols + 2 > WIDTH {
         let Some((k, _)) = widths.iter().enumerate().max_by_key(|(_, w)| **w) else {
             break;
@@ -153,22 +153,64 @@ fn render_table(t: &super::model::Table, style: &Style) -> String {
     }
     let mut out = String::new();
     if !t.caption.is_empty() {
-        let _ = writeln!(out, "  {}", truncate(&t.caption, WIDTH - 2));
+        out.push_str(&wrap(&t.caption, "  ", WIDTH));
     }
-    let mut line = String::from("  ");
-    for (k, h) in t.header.iter().enumerate() {
-        let _ = write!(line, "{:<w$}  ", truncate(h, widths[k]), w = widths[k]);
-    }
-    let _ = writeln!(out, "{}", line.trim_end());
-    for row in &t.rows {
-        let mut line = String::from("  ");
-        for (k, c) in row.iter().enumerate().take(cols) {
-            let text = format!("{:<w$}", truncate(&c.text, widths[k]), w = widths[k]);
-            let _ = write!(line, "{}  ", style.paint(&text, c.tone));
+    let heads: Vec<Cell> = t.header.iter().map(|h| Cell::plain(h.as_str())).collect();
+    for row in std::iter::once(&heads).chain(&t.rows) {
+        // A cell longer than its column wraps onto further lines of the row.
+        let cells: Vec<Vec<String>> = row
+            .iter()
+            .enumerate()
+            .take(cols)
+            .map(|(k, c)| wrap_cell(&c.text, widths[k]))
+            .collect();
+        let height = cells.iter().map(Vec::len).max().unwrap_or(1);
+        for i in 0..height {
+            let mut line = String::from("  ");
+            for (k, c) in row.iter().enumerate().take(cols) {
+                let part = cells[k].get(i).map_or("", String::as_str);
+                let text = format!("{part:<w$}", w = widths[k]);
+                let _ = write!(line, "{}  ", style.paint(&text, c.tone));
+            }
+            let _ = writeln!(out, "{}", line.trim_end());
         }
-        let _ = writeln!(out, "{}", line.trim_end());
     }
     out
+}
+
+/// A cell's text cut into lines of at most `width` characters, at spaces where it can
+/// (a word longer than the width is cut).
+fn wrap_cell(text: &str, width: usize) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for word in text.split(' ') {
+        let mut word: Vec<char> = word.chars().collect();
+        loop {
+            let used = line.chars().count();
+            let sep = usize::from(used > 0);
+            if used + sep + word.len() <= width {
+                if sep == 1 {
+                    line.push(' ');
+                }
+                line.extend(word.iter());
+                break;
+            }
+            if used > 0 {
+                lines.push(std::mem::take(&mut line));
+                continue;
+            }
+            let rest = word.split_off(width.min(word.len()).max(1));
+            lines.push(word.into_iter().collect());
+            word = rest;
+            if word.is_empty() {
+                break;
+            }
+        }
+    }
+    if !line.is_empty() || lines.is_empty() {
+        lines.push(line);
+    }
+    lines
 }
 
 /// Render a whole report for the terminal.
@@ -236,5 +278,19 @@ mod tests {
         assert!(!text.contains('\x1b'));
         assert!(text.contains("[FAIL]"));
         assert!(text.contains("reversed"));
+        assert!(
+            text.contains(&"y".repeat(30)),
+            "a long cell wraps, it is not cut"
+        );
+    }
+
+    #[test]
+    fn a_cell_wraps_at_spaces_and_cuts_only_a_word_longer_than_the_column() {
+        assert_eq!(
+            wrap_cell("+0.00258 ± 0.00003 A·m² (94.3σ)", 20),
+            ["+0.00258 ± 0.00003", "A·m² (94.3σ)"]
+        );
+        assert_eq!(wrap_cell("abcdefgh", 3), ["abc", "def", "gh"]);
+        assert_eq!(wrap_cell("", 5), [""]);
     }
 }

@@ -3,6 +3,7 @@
 
 use serde_json::Value;
 
+use super::change_text::{change_amount, change_label, flag_text};
 use super::{figure, pm, to_json, verdict_tone};
 use crate::ledger::history::kinds_of;
 use crate::ledger::{group_by_build, Change, Flag, Run};
@@ -109,9 +110,18 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
         (
             "ledger".to_string(),
             format!(
-                "{} run(s), {} serial(s), {} build(s)",
+                "{} run(s), {} serial(s) ({}), {} build(s)",
                 runs.len(),
                 serials,
+                rows.iter()
+                    .map(|r| r.serial)
+                    .fold(Vec::<&str>::new(), |mut v, s| {
+                        if !v.contains(&s) {
+                            v.push(s);
+                        }
+                        v
+                    })
+                    .join(", "),
                 rows.len()
             ),
         ),
@@ -123,7 +133,7 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
             ),
         ),
     ];
-    let build_table = Table {
+    let mut build_table = Table {
         caption: "Latest run of each check per build (verdict of the latest build decides)".into(),
         header: ["serial", "build", "|m| [A·m²]", "hard iron x/y/z [nT]"]
             .into_iter()
@@ -163,7 +173,7 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
     let mut shown: Vec<&Change> = changes.iter().collect();
     shown.sort_by_key(rank);
     shown.truncate(MAX_CHANGE_ROWS);
-    let change_table = Table {
+    let mut change_table = Table {
         caption: "Changes between consecutive builds (attention first)".into(),
         header: vec![
             "serial".into(),
@@ -175,20 +185,26 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
         rows: shown
             .iter()
             .map(|c| {
-                let delta = match c.delta {
-                    Some(d) => pm(d, c.sigma, &c.unit),
-                    None => format!("{} → {}", short_value(&c.from), short_value(&c.to)),
-                };
                 vec![
                     Cell::plain(c.serial.clone()),
                     Cell::plain(format!("{} → {}", c.from_build, c.to_build)),
-                    Cell::plain(c.quantity.clone()),
-                    Cell::plain(delta.trim_end().to_string()),
-                    Cell::toned(c.flag.as_str(), flag_tone(c.flag)),
+                    Cell::plain(change_label(c)),
+                    Cell::plain(change_amount(c)),
+                    Cell::toned(flag_text(c.flag), flag_tone(c.flag)),
                 ]
             })
             .collect(),
     };
+    // One serial: its name is in the figures of merit; the tables keep their width for
+    // the numbers.
+    if serials == 1 {
+        for t in [&mut build_table, &mut change_table] {
+            t.header.remove(0);
+            for row in &mut t.rows {
+                row.remove(0);
+            }
+        }
+    }
     let mut notes = vec![
         "Builds are numbered 1, 2, … per serial in the order they were first recorded; the \
          plots use these numbers (see the table for the labels)."
@@ -222,14 +238,6 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
         notes,
         result: serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? }),
     })
-}
-
-fn short_value(v: &Value) -> String {
-    match v {
-        Value::String(s) => s.clone(),
-        Value::Null => "absent".into(),
-        other => other.to_string(),
-    }
 }
 
 /// A limit drawn as a step across each build (±0.4 around its ordinal).
@@ -417,10 +425,11 @@ mod tests {
             ]
         );
         assert!(s.figures[0].svg.contains("limit"));
-        let flags: Vec<&Cell> = s.tables[1].rows.iter().map(|r| &r[4]).collect();
+        let flag_column = s.tables[1].header.iter().position(|h| h == "flag").unwrap();
+        let flags: Vec<&Cell> = s.tables[1].rows.iter().map(|r| &r[flag_column]).collect();
         assert!(flags
             .iter()
-            .any(|c| c.text == "limit-crossed" && c.tone == Tone::Bad));
+            .any(|c| c.text == "limit-crossed !" && c.tone == Tone::Bad));
         assert!(!s.warnings.is_empty());
         assert_eq!(s.result["changes"].as_array().unwrap().len(), ch.len());
         let dipole_column = s.tables[0]

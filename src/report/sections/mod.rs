@@ -4,6 +4,7 @@
 //! lay sections out; nothing here recomputes a fitted number.
 
 mod calibration;
+pub mod change_text;
 mod dipole;
 mod history;
 mod polarity;

@@ -1,0 +1,109 @@
+//! Words for a change between builds, the same in every writer: a human label for the
+//! quantity (`hard iron x`, `|dipole|`, `rod y`) derived from its stable name, and the
+//! amount (`+60.0 ± 10.0 nT (6.0σ)`, `ok → reversed`).
+
+use crate::ledger::{Change, Flag};
+
+/// Unit tags that end quantity names, dropped from labels (the unit is shown apart).
+const UNIT_TAGS: [&str; 5] = ["_nt", "_am2", "_deg", "_s", "_1"];
+
+/// A human label for a quantity's stable name.
+pub fn change_label(c: &Change) -> String {
+    let q = c.quantity.as_str();
+    if q == "soft_iron_max_element" {
+        return match &c.detail {
+            Some(d) => format!("soft iron {}", d.trim_start_matches("element ")),
+            None => "soft iron".into(),
+        };
+    }
+    if let Some(kind) = q.strip_suffix("_pass") {
+        return format!("{kind} verdict");
+    }
+    if let Some(stem) = q.strip_suffix("_verdict") {
+        return stem.replace('_', " ");
+    }
+    let bare = UNIT_TAGS
+        .iter()
+        .find_map(|t| q.strip_suffix(t))
+        .unwrap_or(q);
+    match bare.strip_suffix("_magnitude") {
+        Some(stem) => format!("|{}|", stem.replace('_', " ")),
+        None => bare.replace('_', " "),
+    }
+}
+
+/// Decimals for about three significant digits of the larger of `a` and `b`.
+fn decimals(a: f64, b: f64) -> usize {
+    let m = a.abs().max(b.abs());
+    if m == 0.0 || !m.is_finite() {
+        return 1;
+    }
+    (2 - m.log10().floor() as i64).clamp(0, 9) as usize
+}
+
+/// `value ± sigma unit`, e.g. `+30.0 ± 5.0 nT`; `signed` puts a + on positive values;
+/// a dimensionless unit (`1`) is not written.
+pub fn fmt_pm(value: f64, sigma: Option<f64>, unit: &str, signed: bool) -> String {
+    let d = decimals(value, sigma.unwrap_or(0.0));
+    let v = if signed {
+        format!("{value:+.d$}")
+    } else {
+        format!("{value:.d$}")
+    };
+    let unit = if unit == "1" { "" } else { unit };
+    let sep = if unit.is_empty() { "" } else { " " };
+    match sigma {
+        Some(s) => format!("{v} ± {s:.d$}{sep}{unit}"),
+        None => format!("{v}{sep}{unit}"),
+    }
+}
+
+fn word(v: &serde_json::Value) -> String {
+    match v {
+        serde_json::Value::Bool(true) => "pass".into(),
+        serde_json::Value::Bool(false) => "fail".into(),
+        serde_json::Value::String(s) => s.clone(),
+        serde_json::Value::Null => "(none)".into(),
+        other => other.to_string(),
+    }
+}
+
+/// The change itself: `+30.0 ± 5.0 nT (6.0σ)` or `ok → reversed`.
+pub fn change_amount(c: &Change) -> String {
+    match c.delta {
+        Some(d) => {
+            let mut s = fmt_pm(d, c.sigma, &c.unit, true);
+            if let Some(sig) = c.sigma.filter(|s| *s > 0.0) {
+                s += &format!(" ({:.1}σ)", d.abs() / sig);
+            }
+            s
+        }
+        None if c.flag == Flag::Unchanged => word(&c.to),
+        None => format!("{} → {}", word(&c.from), word(&c.to)),
+    }
+}
+
+/// The flag's word, with `!` when it needs attention.
+pub fn flag_text(f: Flag) -> String {
+    if f.is_alert() {
+        format!("{} !", f.as_str())
+    } else {
+        f.as_str().to_string()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_carry_three_significant_digits_and_their_unit() {
+        assert_eq!(fmt_pm(30.0, Some(5.0), "nT", true), "+30.0 ± 5.0 nT");
+        assert_eq!(
+            fmt_pm(0.004, Some(0.00014), "A·m²", false),
+            "0.00400 ± 0.00014 A·m²"
+        );
+        assert_eq!(fmt_pm(812.44, None, "nT", false), "812 nT");
+        assert_eq!(fmt_pm(0.02, None, "1", true), "+0.0200");
+    }
+}
