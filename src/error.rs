@@ -1,4 +1,4 @@
-//! The library's top-level error and its mapping to the exit codes of DESIGN §6.
+//! The library's top-level error and its mapping to the exit codes in README.md.
 //!
 //! Each area has its own typed error (`LogError`, `PlanError`, `FitError`, …); this enum
 //! gathers them so the binary can choose an exit code: 2 for bad input or usage, 3 for an
@@ -60,7 +60,7 @@ pub enum Error {
 }
 
 impl Error {
-    /// Exit code for this error (DESIGN §6): 2 bad input or usage, 3 internal error.
+    /// Exit code for this error (README.md): 2 bad input or usage, 3 internal error.
     pub fn exit_code(&self) -> u8 {
         match self {
             Error::Internal(_) => 3,

@@ -6,9 +6,9 @@
 //! ledger of results per serial number and build.
 //!
 //! The library does the work; the `magproof` binary only parses the command line,
-//! calls into this crate and maps errors to exit codes (see `docs/` and DESIGN §6).
+//! calls into this crate and maps errors to exit codes (see README.md and `docs/`).
 //!
-//! Conventions (DESIGN §3): field in nanotesla (nT), dipole moment in A·m², length in
+//! Conventions (docs/formats.md): field in nanotesla (nT), dipole moment in A·m², length in
 //! m, time in s, angles in radians inside the library (degrees only in files and on
 //! screen). Frames: sensor (S), body (B), lab/table (L). A rotation named `a_to_b`
 //! maps coordinates in frame a to frame b: `v_b = a_to_b * v_a`.

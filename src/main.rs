@@ -1,5 +1,5 @@
 //! The `magproof` binary: parse the command line, call the library, map the outcome to
-//! an exit code (DESIGN §6): 0 ran and every verdict passed, 1 ran and a verdict failed,
+//! an exit code (README.md): 0 ran and every verdict passed, 1 ran and a verdict failed,
 //! 2 bad input or usage, 3 internal error.
 
 mod cli;

@@ -16,7 +16,7 @@ pub enum Outcome {
 }
 
 impl Outcome {
-    /// Exit code of DESIGN §6.
+    /// Exit code (README.md, "Commands").
     pub fn exit_code(self) -> u8 {
         match self {
             Outcome::Passed => 0,

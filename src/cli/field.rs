@@ -29,7 +29,7 @@ pub struct Args {
     json: bool,
 }
 
-/// The `field` result: the §7 keys of [`GeoField`] plus the request echoed back.
+/// The `field` result: the documented keys of [`GeoField`] (docs/geomagnetic.md) plus the request echoed back.
 #[derive(Serialize)]
 struct FieldResult {
     #[serde(flatten)]

@@ -65,7 +65,7 @@ enum ExportFormat {
     ChangesCsv,
 }
 
-/// The §7 history object.
+/// The history object (docs/ledger.md).
 #[derive(Serialize)]
 struct History<'a> {
     runs: &'a [Run],
@@ -83,7 +83,12 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let rules = ChangeRules::with_significance_sigma(args.significance_sigma)
         .map_err(|e| magproof::Error::Usage(format!("--significance-sigma: {e}")))?;
     let path = args.ledger.path();
-    let ledger = Ledger::open_existing(&path).map_err(magproof::Error::from)?;
+    let ledger = Ledger::open_existing(&path)
+        .map_err(magproof::Error::from)
+        .with_context(|| {
+            "runs are recorded by `magproof closeout` or a check given --record; name \
+             another ledger with --ledger or MAGPROOF_LEDGER"
+        })?;
     let filter = RunFilter {
         serial: args.serial.clone(),
         kind: args.kind,
@@ -136,7 +141,9 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
 /// Write a file through a temporary file in the same folder and a rename, so a reader
 /// never sees half of it ([`magproof::report::atomic::write_atomic`]).
 fn write_atomically(file: &Path, bytes: &[u8], force: bool) -> anyhow::Result<()> {
-    Ok(magproof::report::atomic::write_atomic(file, bytes, force)?)
+    magproof::report::atomic::write_atomic(file, bytes, force)
+        .map_err(anyhow::Error::from)
+        .context("--out (add --force to replace)")
 }
 
 /// The terminal view: the history section (builds, verdicts per kind, the changes with

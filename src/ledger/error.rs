@@ -6,7 +6,7 @@ use crate::log::Shown;
 #[derive(Debug, thiserror::Error)]
 pub enum LedgerError {
     /// A read was asked of a ledger file that does not exist (reads never create one).
-    #[error("{path}: no ledger file here; runs are recorded by `magproof closeout` or a check given --record (choose another file with --ledger or MAGPROOF_LEDGER)")]
+    #[error("{path}: no ledger file here; runs are recorded by a closeout or by a check asked to record; another ledger file can be named")]
     Missing {
         /// The path looked at.
         path: Shown,
@@ -81,7 +81,7 @@ pub enum LedgerError {
 }
 
 impl LedgerError {
-    /// Exit code (DESIGN §6): 2 for what the user can fix (missing or foreign file, newer
+    /// Exit code (README.md, "Commands"): 2 for what the user can fix (missing or foreign file, newer
     /// schema, unreadable input, plan without `[article]`), 3 for internal failures.
     pub fn exit_code(&self) -> u8 {
         match self {

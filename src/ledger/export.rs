@@ -87,7 +87,7 @@ fn value_cell(v: &serde_json::Value) -> String {
     }
 }
 
-/// One row per §7 change.
+/// One row per change.
 pub fn write_changes_csv(changes: &[Change], out: &mut dyn Write) -> Result<(), csv::Error> {
     let mut w = csv::Writer::from_writer(out);
     w.write_record(CHANGES_HEADER)?;

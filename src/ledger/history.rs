@@ -1,5 +1,5 @@
 //! Build-to-build history: the numbers each run carries (`Run::quantities`) and what changed
-//! from one build of a serial number to the next ([`changes`], the §7 `changes` array).
+//! from one build of a serial number to the next ([`changes`], the `changes` array of docs/ledger.md).
 //!
 //! Rules (also in `docs/ledger.md`):
 //! - builds of a serial are ordered by their first recorded run (ledger id, not clock);
@@ -97,7 +97,7 @@ impl ChangeRules {
     }
 }
 
-/// One entry of §7 `changes`.
+/// One entry of `changes` (docs/ledger.md).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Change {
     /// Serial number.
@@ -180,7 +180,7 @@ pub fn group_by_build(runs: &[Run]) -> Vec<SerialRuns<'_>> {
     out
 }
 
-/// The §7 `changes` of a set of runs: for each serial, kind and pair of consecutive
+/// The `changes` of a set of runs: for each serial, kind and pair of consecutive
 /// builds having that kind, one [`Change`] per quantity (see the module rules).
 pub fn changes(runs: &[Run], rules: &ChangeRules) -> Vec<Change> {
     let mut out = Vec::new();

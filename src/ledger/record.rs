@@ -117,7 +117,7 @@ pub(crate) fn hex(bytes: &[u8]) -> String {
     s
 }
 
-/// A run to record: one check's §7 result for one serial number and build.
+/// A run to record: one check's result for one serial number and build.
 #[derive(Debug, Clone)]
 pub struct NewRun {
     /// Serial number of the article (plan `[article] serial`).

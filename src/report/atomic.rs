@@ -14,7 +14,7 @@ use crate::Error;
 pub fn write_atomic(path: &Path, bytes: &[u8], force: bool) -> Result<(), Error> {
     if !force && path.exists() {
         return Err(Error::Usage(format!(
-            "{} exists; add --force to replace it",
+            "{} exists; replacing it must be asked for",
             path.display()
         )));
     }
@@ -59,7 +59,7 @@ impl ReportStaging {
             }
             if !force {
                 return Err(Error::Usage(format!(
-                    "report folder {} exists; add --force to replace it",
+                    "report folder {} exists; replacing it must be asked for",
                     dest.display()
                 )));
             }

@@ -32,7 +32,7 @@ impl ParamsFormat {
             Some(e) if e == "json" => Ok(ParamsFormat::Json),
             Some(e) if e == "h" => Ok(ParamsFormat::CHeader),
             _ => Err(Error::Usage(format!(
-                "--params-out {}: the file must end in .json or .h",
+                "{}: a parameter file must end in .json or .h",
                 path.display()
             ))),
         }
@@ -168,7 +168,7 @@ pub fn write_flight_params(
     let format = ParamsFormat::for_path(path)?;
     if path.exists() && !force {
         return Err(Error::Usage(format!(
-            "{} exists; give --force to replace it",
+            "{} exists; replacing it must be asked for",
             path.display()
         )));
     }

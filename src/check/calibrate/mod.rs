@@ -1,8 +1,8 @@
 //! `calibrate`: magnetometer calibration from a coil-cage sweep (when the log has
 //! `hx hy hz`) or a tumble test (otherwise), turned into a [`CalibrationResult`] whose
-//! JSON keys are those of DESIGN §7.
+//! JSON keys are listed in docs/calibration.md ("Output keys").
 //!
-//! Methods (DESIGN §8; details in `docs/calibration.md`): cage — linear least squares
+//! Methods (details in `docs/calibration.md`): cage — linear least squares
 //! `b = A h + b₀` ([`crate::fit::cage`]); tumble — Li & Griffiths (2004) algebraic
 //! ellipsoid fit refined by Levenberg–Marquardt on the magnitude residual with Tukey
 //! reweighting ([`crate::fit::tumble`]; Alonso & Shuster 2002, Crassidis et al. 2005,
@@ -160,7 +160,7 @@ pub struct CalibrationData {
     pub t_s: Option<Vec<f64>>,
 }
 
-/// Result of a calibration. The first eleven fields are the stable keys of DESIGN §7.
+/// Result of a calibration. The first eleven fields are the stable keys of docs/calibration.md.
 #[derive(Debug, Clone, Serialize)]
 pub struct CalibrationResult {
     /// `"cage"` or `"tumble"`.

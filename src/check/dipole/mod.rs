@@ -1,5 +1,5 @@
 //! Residual magnetic dipole of the article and its in-orbit disturbance torque
-//! (`magproof dipole`, DESIGN §5–§8).
+//! (`magproof dipole`, docs/dipole.md).
 //!
 //! Two ways to measure, told apart by the log's columns:
 //! * **turntable** (`angle` column): the article turns about the table's +z axis under
@@ -14,7 +14,7 @@
 //! in time between the segment means (held at the nearest segment outside them) and
 //! subtracted. The moment then comes from the least-squares fit of
 //! [`crate::fit::dipole`]. Method: residual dipole from field mapping around the article
-//! (DESIGN §8); torque τ = m × B, worst case |m|·Bmax (Wertz, *Spacecraft Attitude
+//! (docs/dipole.md); torque τ = m × B, worst case |m|·Bmax (Wertz, *Spacecraft Attitude
 //! Determination and Control*, 1978, §17.2).
 //!
 //! For the static method, a probe position with article-absent rows of its own gets its
@@ -63,7 +63,7 @@ pub const HIDDEN_RATIO: f64 = 0.05;
 /// Where the dipole sits.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum DipolePosition {
-    /// At the body point placed on the table origin (DESIGN §5).
+    /// At the body point placed on the table origin (docs/formats.md, `[dipole_test]`).
     #[default]
     AtTableOrigin,
     /// Fitted: three more unknowns (nonlinear fit).
@@ -138,7 +138,7 @@ pub struct DipolePoint {
     pub line: u64,
 }
 
-/// Result of `magproof dipole` (DESIGN §7 keys first; more keys after).
+/// Result of `magproof dipole` (the keys of docs/dipole.md "JSON keys" first; more keys after).
 #[derive(Debug, Clone, Serialize)]
 pub struct DipoleResult {
     /// Fitted moment, body frame (B), A·m².
@@ -455,7 +455,7 @@ fn evaluate_unsaturated(
 fn fit_error(log: &SweepLog, e: DipoleFitError) -> Error {
     match e {
         DipoleFitError::NotConverged(_) => Error::Degenerate(format!(
-            "{}: {e}; try without --fit-offset",
+            "{}: {e}; try the dipole at the table origin (no fitted offset)",
             log.path.display()
         )),
         _ => Error::Degenerate(format!("{}: {e}", log.path.display())),
@@ -465,12 +465,12 @@ fn fit_error(log: &SweepLog, e: DipoleFitError) -> Error {
 fn validate_orbit(altitude_km: f64, inclination_deg: f64) -> Result<(), Error> {
     if !(altitude_km.is_finite() && (100.0..=100_000.0).contains(&altitude_km)) {
         return Err(Error::Usage(format!(
-            "--altitude-km must lie in 100..100000 km, found {altitude_km}"
+            "the orbit altitude must lie in 100..100000 km, found {altitude_km}"
         )));
     }
     if !(inclination_deg.is_finite() && (0.0..=180.0).contains(&inclination_deg)) {
         return Err(Error::Usage(format!(
-            "--inclination-deg must lie in 0..180°, found {inclination_deg}"
+            "the orbit inclination must lie in 0..180°, found {inclination_deg}"
         )));
     }
     Ok(())

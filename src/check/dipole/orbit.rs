@@ -1,5 +1,5 @@
 //! Earth's field along a circular orbit, for the disturbance torque τ = m × B
-//! (DESIGN §8): worst case |m|·Bmax and orbit average |m|·B̄.
+//! (docs/dipole.md): worst case |m|·Bmax and orbit average |m|·B̄.
 //!
 //! - Bmax: the largest total field of the full IGRF-14 model (`physics::igrf`) at the
 //!   orbit's altitude over every longitude and the latitudes the orbit reaches

@@ -1,4 +1,4 @@
-//! Torque-rod polarity and coupling check (DESIGN §5–§7, issue 5).
+//! Torque-rod polarity and coupling check (docs/polarity.md).
 //!
 //! Method:
 //! 1. Pulses are found in every `cmd_<rod>` column (runs where the command is on).
@@ -139,7 +139,7 @@ impl PolaritySeries {
     pub const MAX_POINTS: usize = 4000;
 }
 
-/// Result of the polarity check; the first keys are those of DESIGN §7.
+/// Result of the polarity check; the first keys are the stable ones of docs/polarity.md.
 #[derive(Debug, Clone, Serialize)]
 pub struct PolarityResult {
     /// One entry per plan rod, in plan order.
@@ -219,8 +219,11 @@ fn sensor_geometry(plan: &Plan, choice: SensorChoice) -> Result<SensorGeometry, 
     };
     match choice {
         SensorChoice::Probe => probe().ok_or_else(|| {
-            plan.missing("probe", "--sensor probe needs the probe's position_m")
-                .into()
+            plan.missing(
+                "probe",
+                "a log recorded by the probe needs the probe's position_m",
+            )
+            .into()
         }),
         SensorChoice::Magnetometer => mag(),
         SensorChoice::Auto => match probe() {

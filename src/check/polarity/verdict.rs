@@ -1,4 +1,4 @@
-//! Per-rod verdicts from the measured couplings and the dipole geometry (DESIGN §7).
+//! Per-rod verdicts from the measured couplings and the dipole geometry (docs/polarity.md).
 
 use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
@@ -48,7 +48,7 @@ impl std::fmt::Display for Verdict {
     }
 }
 
-/// One rod's result; the first six keys are those of DESIGN §7.
+/// One rod's result; the first six keys are the stable ones of docs/polarity.md.
 #[derive(Debug, Clone, Serialize)]
 pub struct RodResult {
     /// Rod name.

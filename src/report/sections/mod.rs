@@ -1,6 +1,6 @@
 //! Check-specific report sections: each builder turns one result struct into a
 //! [`Section`](super::Section) with figures of merit (units, ±1σ), tables with verdict
-//! words, warnings, notes, plots and the §7 JSON. The writers in the parent module only
+//! words, warnings, notes, plots and the result JSON. The writers in the parent module only
 //! lay sections out; nothing here recomputes a fitted number.
 
 mod calibration;
@@ -26,7 +26,7 @@ fn figure(file_name: &str, caption: &str, svg: String) -> Figure {
     }
 }
 
-/// The §7 JSON of a result.
+/// The JSON of a result.
 fn to_json(value: &impl serde::Serialize) -> Result<serde_json::Value, Error> {
     serde_json::to_value(value).map_err(|e| Error::Internal(format!("result JSON: {e}")))
 }
