@@ -86,8 +86,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let ledger = Ledger::open_existing(&path)
         .map_err(magproof::Error::from)
         .with_context(|| {
-            "runs are recorded by `magproof closeout` or a check given --record; name \
-             another ledger with --ledger or MAGPROOF_LEDGER"
+            "reading the ledger (runs are recorded by `magproof closeout` or a check given \
+             --record; another ledger: --ledger or MAGPROOF_LEDGER)"
         })?;
     let filter = RunFilter {
         serial: args.serial.clone(),

@@ -6,7 +6,7 @@ use crate::log::Shown;
 #[derive(Debug, thiserror::Error)]
 pub enum LedgerError {
     /// A read was asked of a ledger file that does not exist (reads never create one).
-    #[error("{path}: no ledger file here; runs are recorded by a closeout or by a check asked to record; another ledger file can be named")]
+    #[error("{path}: no ledger file here")]
     Missing {
         /// The path looked at.
         path: Shown,
