@@ -318,7 +318,8 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let centre: [f64; 3] = std::array::from_fn(|a| b[a][..head].iter().sum::<f64>() / head as f64);
 
     // Remanence: after a pulse a rod keeps a small dipole along the sign of that pulse.
-    // Modelled as the held sign of the last pulse, for columns pulsed both ways (with
+    // Modelled as the sign of the last pulse while the command is off and zero while it
+    // is on (the field while on is the coupling's), for columns pulsed both ways (with
     // one sign only it cannot be told from the baseline).
     let mut rem: Vec<(usize, Vec<f64>)> = Vec::new();
     for c in 0..columns.len() {
@@ -341,7 +342,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
                 s = mine[k].command.signum();
                 k += 1;
             }
-            *v = s;
+            *v = if k > 0 && i < mine[k - 1].end { 0.0 } else { s };
         }
         rem.push((c, state));
     }
