@@ -22,6 +22,7 @@
 //! position_m`, or a `[probe]`).
 
 mod passes;
+mod rise;
 mod timing;
 mod verdict;
 
@@ -135,8 +136,12 @@ impl PolaritySeries {
 pub struct PolarityResult {
     /// One entry per plan rod, in plan order.
     pub rods: Vec<RodResult>,
-    /// Command-to-response lag, s (positive: the response follows the command).
+    /// Command-to-response pure delay, s (positive: the response follows the command);
+    /// each rod's first-order rise comes after it (`rods[].rise_time_s`).
     pub lag_s: f64,
+    /// 1σ of `lag_s`, s (for step responses: one sample interval over √12, as a step is
+    /// seen the same for any delay within one sample).
+    pub lag_sigma_s: f64,
     /// Every rod `ok`.
     pub pass: bool,
     /// Angle limit applied, deg.
@@ -406,25 +411,36 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         );
         fit2 = ctx.fit(&rows, &pulses, &no_guard, Some(&reject))?;
     }
-    let (after2, _) = ctx.after_pulses(&fit2, &pulses, lag_s, noise);
-    let guard: Vec<f64> = (0..columns.len())
-        .map(|c| {
-            let settle = after2
-                .iter()
-                .zip(&pulses)
-                .filter(|(_, p)| p.column == c)
-                .filter_map(|(a, _)| a.and_then(|a| a.settle_time_s))
-                .fold(0.0, f64::max);
-            let short = pulses
-                .iter()
-                .filter(|p| p.column == c)
-                .map(dur)
-                .fold(f64::INFINITY, f64::min);
-            settle.min(0.5 * short + lag_s.max(0.0))
-        })
-        .collect();
-    // Pass 3: transients after each edge get zero weight.
-    let fit = ctx.fit(&rows, &pulses, &guard, None)?;
+    // Pass 3: the delay and each rod's first-order rise, fitted on the rows after edges;
+    // then every row with the modelled commands (rows still far off are set aside).
+    let rise = rise::fit_rise(
+        &rise::RiseInput {
+            ctx: &ctx,
+            fit: &fit2,
+            rows: &rows,
+            lag0_s: lag_s,
+            dt_s: dt,
+            noise_nt: noise,
+            shortest_pulse_s: shortest,
+            snr_min: req.snr_min,
+        },
+        &mut warnings,
+    );
+    let lag_s = rise.lag_s;
+    ctx.lag_s = lag_s;
+    let rows = timing::shifted_rows(t, lag_s);
+    let response = rise::Response::new(&ctx, lag_s, &rise.tau_s);
+    let mut fit = ctx.fit(&response, &pulses, &no_guard, None)?;
+    let reject = ctx.transients(
+        &fit,
+        &response,
+        noise,
+        &pulses,
+        0.5 * shortest + lag_s.max(0.0),
+    );
+    if reject.iter().any(|&r| r) {
+        fit = ctx.fit(&response, &pulses, &no_guard, Some(&reject))?;
+    }
     let (after, dminus) = ctx.after_pulses(&fit, &pulses, lag_s, noise);
 
     let pulse_results: Vec<PulseResult> = pulses
@@ -465,7 +481,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
             verdict::Measured::new(&fit, c, rem_index, &mine)
         })
         .collect();
-    let rods = verdict::judge(
+    let mut rods = verdict::judge(
         plan,
         &sensor.position_m,
         &sensor.sensor_to_body,
@@ -474,14 +490,19 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         req.snr_min,
         &mut warnings,
     )?;
+    for (c, r) in rods.iter_mut().enumerate() {
+        r.rise_time_s = Some(rise.tau_s[c]);
+        r.rise_time_sigma_s = rise.tau_sigma_s[c];
+    }
     let pass = rods.iter().all(|r| r.verdict == Verdict::Ok);
     let coupling_matrix_nt_per_command = (0..3)
         .map(|a| rods.iter().map(|r| r.coupling_nt_per_command[a]).collect())
         .collect();
-    let series = ctx.series(&fit, &rows, &dminus);
+    let series = ctx.series(&fit, &response, &rows, &dminus);
     Ok(PolarityResult {
         rods,
         lag_s,
+        lag_sigma_s: rise.lag_sigma_s,
         pass,
         angle_max_deg,
         angle_max_source,
