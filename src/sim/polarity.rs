@@ -328,7 +328,7 @@ fn rod_moments(
         // The rod is at rest (target 0) before the log starts.
         let before = |j: usize| if j == 0 { 0.0 } else { target[j - 1] };
         let edges: Vec<(f64, f64)> = (0..n)
-            .filter(|&j| target[j] != before(j))
+            .filter(|&j| (target[j] - before(j)).abs() > 0.0)
             .map(|j| (j as f64 * dt_s + cfg.lag_s, target[j] - before(j)))
             .collect();
         let m = &mut out[k];

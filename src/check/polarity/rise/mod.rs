@@ -32,7 +32,7 @@ pub fn first_order(t_s: &[f64], u: &[f64], lag_s: f64, tau_s: f64) -> Vec<f64> {
     for &ti in &t_s[..n] {
         if tau_s > 0.0 {
             let gap = ti - t_prev;
-            if gap != last_gap {
+            if gap.to_bits() != last_gap.to_bits() {
                 decay = (-gap / tau_s).exp();
                 last_gap = gap;
             }
@@ -190,7 +190,9 @@ impl RiseInput<'_> {
         let (t, u) = (self.ctx.t, self.ctx.columns[c]);
         let (cc, rr, s) = self.target(c);
         let m = |j: usize| cc * u[j] + s.map_or(Vector3::zeros(), |s| rr * s[j]);
-        let changed = |j: usize| u[j] != u[j - 1] || s.is_some_and(|s| s[j] != s[j - 1]);
+        let changed = |j: usize| {
+            (u[j] - u[j - 1]).abs() > 0.0 || s.is_some_and(|s| (s[j] - s[j - 1]).abs() > 0.0)
+        };
         let edges: Vec<usize> = (1..t.len()).filter(|&j| changed(j)).collect();
         let w: [f64; 3] = std::array::from_fn(|a| 1.0 / self.noise_nt[a].max(1e-6).powi(2));
         let stride = edges.len().div_ceil(max_edges.max(1)).max(1);
