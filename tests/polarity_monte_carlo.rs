@@ -273,14 +273,14 @@ fn row(name: &str, t: &Tally) -> String {
     )
 }
 
-/// Monte Carlo test (fixed seeds 1000–1059 per scenario, 60 draws each, 300 in all, each
+/// Monte Carlo test (fixed seeds 1000–1079 per scenario, 80 draws each, 400 in all, each
 /// log 33 s at 50 Hz): the check's couplings are within 1.05× the RMS error of plain
 /// least squares given the true lag and rise time, and the stated σ of coupling, angle
 /// and gain ratio are honest (0.8–1.25), with and without a 20 ms rise.
 #[test]
 fn couplings_match_least_squares_and_sigma_is_honest_monte_carlo() {
     for s in scenarios() {
-        let t = monte_carlo(&s.cfg, 60, 1000);
+        let t = monte_carlo(&s.cfg, 80, 1000);
         eprintln!("{}", row(s.name, &t));
         assert!(
             t.error_ratio() < 1.05,

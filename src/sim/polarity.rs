@@ -465,4 +465,46 @@ mod tests {
         assert_eq!(log.commands.len(), 3);
         assert!(log.len() > 1000);
     }
+
+    // One rod, no noise, drift or ambient field: after the +1 command turns on at
+    // t_on, the field is G·m·(1 − exp(−(t − t_on − lag)/τ)) (first-order step response
+    // after the delay), and once off it decays to the remanent field G·m_r.
+    #[test]
+    fn field_is_the_delayed_first_order_response_and_remanence_only_when_off() {
+        let mut cfg = PolarityConfig {
+            cycles: 1,
+            noise_nt: 0.0,
+            ambient_nt: Vector3::zeros(),
+            drift_nt_per_s: Vector3::zeros(),
+            wander_nt: 0.0,
+            ..Default::default()
+        };
+        cfg.rods.truncate(1);
+        let (lag, tau) = (cfg.lag_s, cfg.rise_time_s);
+        let sim = simulate_polarity(&cfg, 1).unwrap();
+        let rows: Vec<Vec<f64>> = sim
+            .csv
+            .lines()
+            .skip(2)
+            .map(|l| l.split(',').map(|x| x.parse().unwrap()).collect())
+            .collect();
+        let c = Vector3::from(sim.truth.rods[0].coupling_nt_per_command);
+        let rem = Vector3::from(sim.truth.rods[0].remanent_offset_nt);
+        let (t_on, t_off) = (cfg.gap_s, cfg.gap_s + cfg.pulse_s);
+        for r in &rows {
+            let (t, b) = (r[0], Vector3::new(r[1], r[2], r[3]));
+            let s = t - t_on - lag;
+            let want = if s < 0.0 {
+                Vector3::zeros()
+            } else if t < t_off + lag {
+                c * (1.0 - (-s / tau).exp())
+            } else if t < t_off + cfg.gap_s {
+                let k = 1.0 - (-(t - t_off - lag) / tau).exp();
+                c * (1.0 - (-(t_off - t_on) / tau).exp()) * (1.0 - k) + rem * k
+            } else {
+                continue; // the negative pulse
+            };
+            assert!((b - want).norm() < 2e-3, "t {t}: {b} vs {want}");
+        }
+    }
 }

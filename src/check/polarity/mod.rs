@@ -8,10 +8,12 @@
 //! 3. The command-to-response lag is estimated by cross-correlating each command's first
 //!    difference with the field's first difference projected on that rod's coupling
 //!    (a matched filter), refined to a fraction of a sample by a parabola through the
-//!    peak; the commands are shifted by it and the fit is repeated.
+//!    peak; the commands are shifted by it and the fit is repeated without the rows far
+//!    off the model after edges. From that fit, a pure delay and each rod's first-order
+//!    rise time constant are fitted on the rows after command edges (`rise`), and the
+//!    final fit uses every row with the commands passed through that delay and rise.
 //! 4. After each pulse the settle time (back within 3σ of the noise around the settled
-//!    level) and the field step it leaves behind (remanence) are measured; samples in
-//!    the transient after each command edge get zero weight in the final fit.
+//!    level) and the field step it leaves behind (remanence) are measured.
 //! 5. The expected response of each rod at the sensor follows from the dipole field
 //!    B = μ0/(4π r³)(3(m·r̂)r̂ − m) (Jackson, *Classical Electrodynamics*, 3rd ed.,
 //!    eq. 5.56) with the rod's axis and position and the sensor's position and mounting.
