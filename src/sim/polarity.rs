@@ -1,8 +1,13 @@
 //! Synthetic torque-rod pulse logs with known truth, built from the dipole field.
 //!
-//! Each rod is pulsed in turn, positive then negative, with quiet gaps between. The
-//! current in a rod follows its command after a lag, with a first-order rise; a rod keeps
-//! a remanent dipole along its axis after a pulse (sign of the last pulse). Faults can be
+//! Each rod is pulsed in turn, positive then negative, with quiet gaps between. A rod's
+//! dipole follows a target after a pure delay (the lag) through a first-order lag of time
+//! constant τ (the rise): while the rod is driven the target is its dipole per command
+//! times the command; once it is off, the remanent dipole along its axis with the sign of
+//! the last pulse (zero before the first pulse). The command changes only at sample
+//! times (the logged value holds until the next sample), so the dipole at the sample
+//! times is computed in closed form: each change ΔM of the target at time tₑ adds
+//! ΔM·(1 − exp(−(t − tₑ − lag)/τ)) once t ≥ tₑ + lag. Faults can be
 //! injected: a rod wired backwards, two rods' commands swapped, a dead rod (gain 0). The
 //! field at the sensor is the sum of every rod's dipole field (DESIGN §8) plus an ambient
 //! field, a drift (linear plus a slow sinusoid) and white noise.
@@ -38,7 +43,8 @@ pub struct SimRod {
     pub gain: f64,
     /// Wired backwards: a positive command gives a negative dipole.
     pub reversed: bool,
-    /// Remanent dipole after a pulse, A·m² (along the axis, sign of the last pulse).
+    /// Remanent dipole once the rod is off after a pulse, A·m² (along the axis, sign of
+    /// the last pulse); while the rod is driven its dipole is set by the command alone.
     pub remanent_am2: f64,
 }
 
@@ -65,9 +71,9 @@ pub struct PolarityConfig {
     pub cycles: usize,
     /// Command amplitude, command units.
     pub command: f64,
-    /// Command-to-current lag, s.
+    /// Command-to-dipole pure delay, s.
     pub lag_s: f64,
-    /// First-order rise/fall time constant of the rod current, s (0 = instant).
+    /// First-order rise/fall time constant of the rod's dipole, s (0 = instant).
     pub rise_time_s: f64,
     /// Ambient field, sensor frame (S), nT.
     pub ambient_nt: Vector3<f64>,
@@ -128,7 +134,7 @@ impl Default for PolarityConfig {
 pub struct PolarityTruth {
     /// Seed of the noise.
     pub seed: u64,
-    /// Command-to-current lag, s.
+    /// Command-to-dipole pure delay, s.
     pub lag_s: f64,
     /// Rise time constant, s.
     pub rise_time_s: f64,
@@ -223,28 +229,29 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
             .ok_or_else(|| Error::Usage(format!("rod {} sits at the sensor", r.name)))?;
         per_am2.push(body_to_sensor * g * r.axis_body.normalize());
     }
-    // Schedule: per cycle, per rod: gap, +pulse, gap, −pulse; then a final gap.
+    // Schedule: per cycle, per rod: gap, +pulse, gap, −pulse; then a final gap. Edges
+    // are rounded to the sample grid (rows `on..off` carry the command).
+    let dt = 1.0 / cfg.sample_rate_hz;
+    let row = |time: f64| (time / dt).round() as usize;
     let period = cfg.gap_s + cfg.pulse_s;
-    let mut pulses: Vec<(usize, f64, f64, f64)> = Vec::new(); // column, on, off, command
+    let mut pulses: Vec<(usize, usize, usize, f64)> = Vec::new(); // column, on, off, command
     let mut t = 0.0;
     for _ in 0..cfg.cycles {
         for c in 0..nr {
             for sign in [1.0, -1.0] {
                 t += cfg.gap_s;
-                pulses.push((c, t, t + cfg.pulse_s, sign * cfg.command));
+                pulses.push((c, row(t), row(t + cfg.pulse_s), sign * cfg.command));
                 t += cfg.pulse_s;
             }
         }
     }
     let end = t + 2.0 * cfg.gap_s.max(period / 2.0);
-    let dt = 1.0 / cfg.sample_rate_hz;
     let n = (end / dt).floor() as usize + 1;
-    let command_at = |c: usize, time: f64| -> f64 {
-        pulses
-            .iter()
-            .find(|p| p.0 == c && time >= p.1 && time < p.2)
-            .map_or(0.0, |p| p.3)
-    };
+    let mut commands = vec![vec![0.0; n]; nr];
+    for &(c, on, off, cmd) in &pulses {
+        commands[c][on.min(n)..off.min(n)].fill(cmd);
+    }
+    let moments = rod_moments(cfg, &drives, &commands, dt);
 
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
     let noise =
@@ -255,41 +262,15 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
         let _ = write!(csv, ",cmd_{}", r.name);
     }
     csv.push('\n');
-    // Physical state: current (command units) and remanence sign per physical rod.
-    let mut current = vec![0.0; nr];
-    let mut rem_state = vec![0.0; nr];
-    let substeps = 10;
-    let h = dt / substeps as f64;
-    let mut time = 0.0;
     for i in 0..n {
         let ti = i as f64 * dt;
-        // Advance the physical state from `time` to `ti` on a fine grid.
-        while time < ti - 1e-12 {
-            let next = (time + h).min(ti);
-            for c in 0..nr {
-                let k = drives[c];
-                let drive = command_at(c, next - cfg.lag_s);
-                let sign = if cfg.rods[k].reversed { -1.0 } else { 1.0 };
-                let target = sign * drive;
-                current[k] = if cfg.rise_time_s > 0.0 {
-                    target + (current[k] - target) * (-(next - time) / cfg.rise_time_s).exp()
-                } else {
-                    target
-                };
-                if drive.abs() > 0.0 {
-                    rem_state[k] = (sign * drive).signum();
-                }
-            }
-            time = next;
-        }
         let mut b = cfg.ambient_nt
             + cfg.drift_nt_per_s * ti
             + Vector3::repeat(
                 cfg.wander_nt * (std::f64::consts::TAU * ti / cfg.wander_period_s).sin(),
             );
-        for (k, r) in cfg.rods.iter().enumerate() {
-            let m = r.gain * r.dipole_per_command_am2 * current[k] + r.remanent_am2 * rem_state[k];
-            b += per_am2[k] * m;
+        for (k, m) in moments.iter().enumerate() {
+            b += per_am2[k] * m[i];
         }
         let _ = write!(
             csv,
@@ -299,8 +280,8 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
             b.y + noise.sample(&mut rng),
             b.z + noise.sample(&mut rng)
         );
-        for c in 0..nr {
-            let _ = write!(csv, ",{}", command_at(c, ti));
+        for col in &commands {
+            let _ = write!(csv, ",{}", col[i]);
         }
         csv.push('\n');
     }
@@ -311,6 +292,66 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
         plan_toml: plan_toml(cfg),
         truth,
     })
+}
+
+/// Dipole of every physical rod at every sample time, A·m² along its axis: the target
+/// (dipole per command × command while driven, the remanent dipole of the last pulse's
+/// sign once off) delayed by the lag and passed through the first-order rise, exactly
+/// for a command that changes only at sample times. `commands[c]` is command column c;
+/// `drives[c]` the physical rod it drives.
+fn rod_moments(
+    cfg: &PolarityConfig,
+    drives: &[usize],
+    commands: &[Vec<f64>],
+    dt_s: f64,
+) -> Vec<Vec<f64>> {
+    let n = commands.first().map_or(0, Vec::len);
+    let mut out = vec![vec![0.0; n]; cfg.rods.len()];
+    for (c, col) in commands.iter().enumerate() {
+        let k = drives[c];
+        let rod = &cfg.rods[k];
+        let sign = if rod.reversed { -1.0 } else { 1.0 };
+        let per_command = sign * rod.gain * rod.dipole_per_command_am2;
+        // Target per row, and its changes (time of the row, step).
+        let mut last_sign = 0.0;
+        let target: Vec<f64> = col
+            .iter()
+            .map(|&u| {
+                if u != 0.0 {
+                    last_sign = (sign * u).signum();
+                    per_command * u
+                } else {
+                    rod.remanent_am2 * last_sign
+                }
+            })
+            .collect();
+        // The rod is at rest (target 0) before the log starts.
+        let before = |j: usize| if j == 0 { 0.0 } else { target[j - 1] };
+        let edges: Vec<(f64, f64)> = (0..n)
+            .filter(|&j| (target[j] - before(j)).abs() > 0.0)
+            .map(|j| (j as f64 * dt_s + cfg.lag_s, target[j] - before(j)))
+            .collect();
+        let m = &mut out[k];
+        let mut next = 0; // first edge not yet reached
+        let mut level = 0.0; // target reached so far (sum of the passed steps)
+        let mut tail = 0.0; // Σ steps · exp(−(t − tₑ)/τ) over the passed edges
+        for (i, mi) in m.iter_mut().enumerate() {
+            let ti = i as f64 * dt_s;
+            if cfg.rise_time_s > 0.0 {
+                tail *= (-dt_s / cfg.rise_time_s).exp();
+            }
+            while next < edges.len() && edges[next].0 <= ti + 1e-9 * dt_s {
+                let (te, step) = edges[next];
+                level += step;
+                if cfg.rise_time_s > 0.0 {
+                    tail += step * (-(ti - te).max(0.0) / cfg.rise_time_s).exp();
+                }
+                next += 1;
+            }
+            *mi = level - tail;
+        }
+    }
+    out
 }
 
 fn truth(
@@ -423,5 +464,47 @@ mod tests {
         .unwrap();
         assert_eq!(log.commands.len(), 3);
         assert!(log.len() > 1000);
+    }
+
+    // One rod, no noise, drift or ambient field: after the +1 command turns on at
+    // t_on, the field is G·m·(1 − exp(−(t − t_on − lag)/τ)) (first-order step response
+    // after the delay), and once off it decays to the remanent field G·m_r.
+    #[test]
+    fn field_is_the_delayed_first_order_response_and_remanence_only_when_off() {
+        let mut cfg = PolarityConfig {
+            cycles: 1,
+            noise_nt: 0.0,
+            ambient_nt: Vector3::zeros(),
+            drift_nt_per_s: Vector3::zeros(),
+            wander_nt: 0.0,
+            ..Default::default()
+        };
+        cfg.rods.truncate(1);
+        let (lag, tau) = (cfg.lag_s, cfg.rise_time_s);
+        let sim = simulate_polarity(&cfg, 1).unwrap();
+        let rows: Vec<Vec<f64>> = sim
+            .csv
+            .lines()
+            .skip(2)
+            .map(|l| l.split(',').map(|x| x.parse().unwrap()).collect())
+            .collect();
+        let c = Vector3::from(sim.truth.rods[0].coupling_nt_per_command);
+        let rem = Vector3::from(sim.truth.rods[0].remanent_offset_nt);
+        let (t_on, t_off) = (cfg.gap_s, cfg.gap_s + cfg.pulse_s);
+        for r in &rows {
+            let (t, b) = (r[0], Vector3::new(r[1], r[2], r[3]));
+            let s = t - t_on - lag;
+            let want = if s < 0.0 {
+                Vector3::zeros()
+            } else if t < t_off + lag {
+                c * (1.0 - (-s / tau).exp())
+            } else if t < t_off + cfg.gap_s {
+                let k = 1.0 - (-(t - t_off - lag) / tau).exp();
+                c * (1.0 - (-(t_off - t_on) / tau).exp()) * (1.0 - k) + rem * k
+            } else {
+                continue; // the negative pulse
+            };
+            assert!((b - want).norm() < 2e-3, "t {t}: {b} vs {want}");
+        }
     }
 }

@@ -8,10 +8,12 @@
 //! 3. The command-to-response lag is estimated by cross-correlating each command's first
 //!    difference with the field's first difference projected on that rod's coupling
 //!    (a matched filter), refined to a fraction of a sample by a parabola through the
-//!    peak; the commands are shifted by it and the fit is repeated.
+//!    peak; the commands are shifted by it and the fit is repeated without the rows far
+//!    off the model after edges. From that fit, a pure delay and each rod's first-order
+//!    rise time constant are fitted on the rows after command edges (`rise`), and the
+//!    final fit uses every row with the commands passed through that delay and rise.
 //! 4. After each pulse the settle time (back within 3σ of the noise around the settled
-//!    level) and the field step it leaves behind (remanence) are measured; samples in
-//!    the transient after each command edge get zero weight in the final fit.
+//!    level) and the field step it leaves behind (remanence) are measured.
 //! 5. The expected response of each rod at the sensor follows from the dipole field
 //!    B = μ0/(4π r³)(3(m·r̂)r̂ − m) (Jackson, *Classical Electrodynamics*, 3rd ed.,
 //!    eq. 5.56) with the rod's axis and position and the sensor's position and mounting.
@@ -22,6 +24,7 @@
 //! position_m`, or a `[probe]`).
 
 mod passes;
+mod rise;
 pub mod seam;
 mod timing;
 mod verdict;
@@ -144,8 +147,12 @@ impl PolaritySeries {
 pub struct PolarityResult {
     /// One entry per plan rod, in plan order.
     pub rods: Vec<RodResult>,
-    /// Command-to-response lag, s (positive: the response follows the command).
+    /// Command-to-response pure delay, s (positive: the response follows the command);
+    /// each rod's first-order rise comes after it (`rods[].rise_time_s`).
     pub lag_s: f64,
+    /// 1σ of `lag_s`, s (for step responses: one sample interval over √12, as a step is
+    /// seen the same for any delay within one sample).
+    pub lag_sigma_s: f64,
     /// Every rod `ok`.
     pub pass: bool,
     /// Angle limit applied, deg.
@@ -343,7 +350,8 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let centre: [f64; 3] = std::array::from_fn(|a| b[a][..head].iter().sum::<f64>() / head as f64);
 
     // Remanence: after a pulse a rod keeps a small dipole along the sign of that pulse.
-    // Modelled as the held sign of the last pulse, for columns pulsed both ways (with
+    // Modelled as the sign of the last pulse while the command is off and zero while it
+    // is on (the field while on is the coupling's), for columns pulsed both ways (with
     // one sign only it cannot be told from the baseline).
     let mut rem: Vec<(usize, Vec<f64>)> = Vec::new();
     for c in 0..columns.len() {
@@ -365,7 +373,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
                 s = mine[k].command.signum();
                 k += 1;
             }
-            *v = s;
+            *v = if k > 0 && i < mine[k - 1].end { 0.0 } else { s };
         }
         rem.push((c, state));
     }
@@ -417,25 +425,36 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         );
         fit2 = ctx.fit(&rows, &pulses, &no_guard, Some(&reject))?;
     }
-    let (after2, _) = ctx.after_pulses(&fit2, &pulses, lag_s, noise);
-    let guard: Vec<f64> = (0..columns.len())
-        .map(|c| {
-            let settle = after2
-                .iter()
-                .zip(&pulses)
-                .filter(|(_, p)| p.column == c)
-                .filter_map(|(a, _)| a.and_then(|a| a.settle_time_s))
-                .fold(0.0, f64::max);
-            let short = pulses
-                .iter()
-                .filter(|p| p.column == c)
-                .map(dur)
-                .fold(f64::INFINITY, f64::min);
-            settle.min(0.5 * short + lag_s.max(0.0))
-        })
-        .collect();
-    // Pass 3: transients after each edge get zero weight.
-    let fit = ctx.fit(&rows, &pulses, &guard, None)?;
+    // Pass 3: the delay and each rod's first-order rise, fitted on the rows after edges;
+    // then every row with the modelled commands (rows still far off are set aside).
+    let rise = rise::fit_rise(
+        &rise::RiseInput {
+            ctx: &ctx,
+            fit: &fit2,
+            rows: &rows,
+            lag0_s: lag_s,
+            dt_s: dt,
+            noise_nt: noise,
+            shortest_pulse_s: shortest,
+            snr_min: req_opts.snr_min,
+        },
+        &mut warnings,
+    );
+    let lag_s = rise.lag_s;
+    ctx.lag_s = lag_s;
+    let rows = timing::shifted_rows(t, lag_s);
+    let response = rise::Response::new(&ctx, lag_s, &rise.tau_s);
+    let mut fit = ctx.fit(&response, &pulses, &no_guard, None)?;
+    let reject = ctx.transients(
+        &fit,
+        &response,
+        noise,
+        &pulses,
+        0.5 * shortest + lag_s.max(0.0),
+    );
+    if reject.iter().any(|&r| r) {
+        fit = ctx.fit(&response, &pulses, &no_guard, Some(&reject))?;
+    }
     let (after, dminus) = ctx.after_pulses(&fit, &pulses, lag_s, noise);
 
     let pulse_results: Vec<PulseResult> = pulses
@@ -478,7 +497,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
             verdict::Measured::new(&fit, c, rem_index, &mine)
         })
         .collect();
-    let rods = verdict::judge(
+    let mut rods = verdict::judge(
         plan,
         &sensor.position_m,
         &sensor.sensor_to_body,
@@ -487,6 +506,10 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         req_opts.snr_min,
         &mut warnings,
     )?;
+    for (c, r) in rods.iter_mut().enumerate() {
+        r.rise_time_s = Some(rise.tau_s[c]);
+        r.rise_time_sigma_s = rise.tau_sigma_s[c];
+    }
     let gates: Vec<Gate> = rods
         .iter()
         .flat_map(|r| rod_gates(r, req_opts.snr_min, angle_max_deg))
@@ -496,10 +519,11 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let coupling_matrix_nt_per_command = (0..3)
         .map(|a| rods.iter().map(|r| r.coupling_nt_per_command[a]).collect())
         .collect();
-    let series = ctx.series(&fit, &rows, &dminus);
+    let series = ctx.series(&fit, &response, &rows, &dminus);
     Ok(PolarityResult {
         rods,
         lag_s,
+        lag_sigma_s: rise.lag_sigma_s,
         pass,
         verdict,
         gates,

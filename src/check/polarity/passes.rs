@@ -6,8 +6,57 @@ use crate::fit::arrow::ArrowLeastSquares;
 use crate::fit::linear::LinearFit;
 use crate::Error;
 
+use super::rise::Response;
 use super::timing::{self, AfterPulse, Pulse};
 use super::PolaritySeries;
+
+/// Where the head regressors of a row (commands, then remanence terms) come from.
+pub(super) trait Drive {
+    /// Write row i's head regressors into `out` (commands, then remanence terms); false
+    /// when the row has no command (its delayed command precedes the log).
+    fn head(&self, ctx: &FitContext, i: usize, out: &mut [f64]) -> bool;
+}
+
+/// Commands held from the row `rows[i]` (a pure delay, zero-order hold).
+impl Drive for [Option<usize>] {
+    #[inline]
+    fn head(&self, ctx: &FitContext, i: usize, out: &mut [f64]) -> bool {
+        let Some(j) = self[i] else { return false };
+        let nc = ctx.columns.len();
+        for (c, col) in ctx.columns.iter().enumerate() {
+            out[c] = col[j];
+        }
+        for (r, (_, state)) in ctx.rem.iter().enumerate() {
+            out[nc + r] = state[j];
+        }
+        true
+    }
+}
+
+impl Drive for Vec<Option<usize>> {
+    #[inline]
+    fn head(&self, ctx: &FitContext, i: usize, out: &mut [f64]) -> bool {
+        self.as_slice().head(ctx, i, out)
+    }
+}
+
+/// Commands after the delay and the first-order rise.
+impl Drive for Response {
+    #[inline]
+    fn head(&self, ctx: &FitContext, i: usize, out: &mut [f64]) -> bool {
+        if !self.valid[i] {
+            return false;
+        }
+        let nc = ctx.columns.len();
+        for (c, col) in self.commands.iter().enumerate() {
+            out[c] = col[i];
+        }
+        for (r, state) in self.rem.iter().enumerate() {
+            out[nc + r] = state[i];
+        }
+        true
+    }
+}
 
 /// What every fitting pass shares.
 pub(super) struct FitContext<'a> {
@@ -29,9 +78,9 @@ pub(super) struct FitContext<'a> {
 impl FitContext<'_> {
     /// One least-squares pass with lag-shifted commands; rows within `guard[c]` seconds
     /// after an edge of command column c get zero weight.
-    pub(super) fn fit(
+    pub(super) fn fit<D: Drive + ?Sized>(
         &self,
-        rows: &[Option<usize>],
+        drive: &D,
         pulses: &[Pulse],
         guard: &[f64],
         reject: Option<&[bool]>,
@@ -51,7 +100,7 @@ impl FitContext<'_> {
         let mut weight = vec![1.0; self.t.len()];
         let n = self.t.len();
         for (i, w) in weight.iter_mut().enumerate() {
-            if rows[i].is_none() || self.excluded[i] || reject.is_some_and(|r| r[i]) {
+            if self.excluded[i] || reject.is_some_and(|r| r[i]) {
                 *w = 0.0;
             }
         }
@@ -75,20 +124,13 @@ impl FitContext<'_> {
         let mut idx: Vec<usize> = Vec::with_capacity(nc + nr + nd);
         let mut vals: Vec<f64> = Vec::with_capacity(nc + nr + nd);
         for i in 0..n {
-            let Some(j) = rows[i] else { continue };
-            if weight[i] <= 0.0 {
+            if weight[i] <= 0.0 || !drive.head(self, i, &mut x[..nc + nr]) {
                 continue;
             }
             idx.clear();
             vals.clear();
-            for (c, col) in self.columns.iter().enumerate() {
-                idx.push(c);
-                vals.push(col[j]);
-            }
-            for (r, (_, state)) in self.rem.iter().enumerate() {
-                idx.push(nc + r);
-                vals.push(state[j]);
-            }
+            idx.extend(0..nc + nr);
+            vals.extend_from_slice(&x[..nc + nr]);
             let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
             for k in range {
                 idx.push(nc + nr + k);
@@ -109,10 +151,10 @@ impl FitContext<'_> {
     /// the residuals' robust σ (1.4826·MAD) on any axis, up to the first three rows in a
     /// row that do not. Only the run right after an edge is taken, so the steady part of
     /// a pulse can never be set aside. The walk does not stop before the lag has passed.
-    pub(super) fn transients(
+    pub(super) fn transients<D: Drive + ?Sized>(
         &self,
         fit: &LinearFit,
-        rows: &[Option<usize>],
+        rows: &D,
         noise: [f64; 3],
         pulses: &[Pulse],
         max_s: f64,
@@ -161,31 +203,22 @@ impl FitContext<'_> {
         reject
     }
 
-    /// Residual of every row per axis (NaN for rows without a shifted command).
-    pub(super) fn residuals(&self, fit: &LinearFit, rows: &[Option<usize>]) -> [Vec<f64>; 3] {
+    /// Residual of every row per axis (NaN for rows without a command).
+    pub(super) fn residuals<D: Drive + ?Sized>(&self, fit: &LinearFit, drive: &D) -> [Vec<f64>; 3] {
         let p = fit.names.len();
         let mut x = vec![0.0; p];
-        let nc = self.columns.len();
-        let nr = self.rem.len();
+        let head = self.columns.len() + self.rem.len();
         let mut out: [Vec<f64>; 3] = std::array::from_fn(|_| Vec::with_capacity(self.t.len()));
         for i in 0..self.t.len() {
-            let Some(j) = rows[i] else {
+            if !drive.head(self, i, &mut x[..head]) {
                 out.iter_mut().for_each(|o| o.push(f64::NAN));
                 continue;
-            };
-            {
-                for (c, col) in self.columns.iter().enumerate() {
-                    x[c] = col[j];
-                }
-                for (r, (_, state)) in self.rem.iter().enumerate() {
-                    x[nc + r] = state[j];
-                }
-                let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
-                let used = (0..nc + nr).chain(range.start + nc + nr..range.end + nc + nr);
-                for (a, o) in out.iter_mut().enumerate() {
-                    let model: f64 = used.clone().map(|q| x[q] * fit.coefficients[(q, a)]).sum();
-                    o.push(self.b[a][i] - self.centre[a] - model);
-                }
+            }
+            let range = self.basis.fill(self.t[i], &mut x[head..]);
+            let used = (0..head).chain(range.start + head..range.end + head);
+            for (a, o) in out.iter_mut().enumerate() {
+                let model: f64 = used.clone().map(|q| x[q] * fit.coefficients[(q, a)]).sum();
+                o.push(self.b[a][i] - self.centre[a] - model);
             }
         }
         out
@@ -268,31 +301,31 @@ impl FitContext<'_> {
         (out, d)
     }
 
-    /// Decimated series for plots.
-    pub(super) fn series(
+    /// Decimated series for plots: the model from `drive`, the commands from `rows`.
+    pub(super) fn series<D: Drive + ?Sized>(
         &self,
         fit: &LinearFit,
+        drive: &D,
         rows: &[Option<usize>],
         d: &[Vec<f64>; 3],
     ) -> PolaritySeries {
         let n = self.t.len();
+        let nc = self.columns.len();
+        let mut head = vec![0.0; nc + self.rem.len()];
         let step = n.div_ceil(PolaritySeries::MAX_POINTS).max(1);
         let mut s = PolaritySeries {
-            commands: vec![Vec::new(); self.columns.len()],
+            commands: vec![Vec::new(); nc],
             ..Default::default()
         };
         for i in (0..n).step_by(step) {
             s.t_s.push(self.t[i]);
+            let on = drive.head(self, i, &mut head);
             for a in 0..3 {
                 s.field_minus_drift_nt[a].push(d[a][i]);
-                let m: f64 = match rows[i] {
-                    Some(j) => self
-                        .columns
-                        .iter()
-                        .enumerate()
-                        .map(|(c, col)| col[j] * fit.coefficients[(c, a)])
-                        .sum(),
-                    None => 0.0,
+                let m: f64 = if on {
+                    (0..nc).map(|c| head[c] * fit.coefficients[(c, a)]).sum()
+                } else {
+                    0.0
                 };
                 s.model_nt[a].push(m);
             }

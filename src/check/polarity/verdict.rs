@@ -95,6 +95,11 @@ pub struct RodResult {
     pub remanent_offset_nt: Option<[f64; 3]>,
     /// 1σ of `remanent_offset_nt` per axis, nT.
     pub remanent_offset_sigma_nt: Option<[f64; 3]>,
+    /// Time constant of the first-order rise of the rod's field after the delay `lag_s`,
+    /// s (0: a step within one sample).
+    pub rise_time_s: Option<f64>,
+    /// 1σ of `rise_time_s`, s; null when the rise was not fitted (a step, or no response).
+    pub rise_time_sigma_s: Option<f64>,
     /// Why this verdict, in words.
     pub note: String,
 }
@@ -305,6 +310,8 @@ pub fn judge(
             settle_time_s: m.settle_time_s,
             remanent_offset_nt: m.remanent.map(|r| r.0.into()),
             remanent_offset_sigma_nt: m.remanent.map(|r| r.1.into()),
+            rise_time_s: None,
+            rise_time_sigma_s: None,
             note,
         });
     }

@@ -55,6 +55,22 @@ pub enum PolarityWarning {
         /// Distance the model needs, m.
         needed_m: f64,
     },
+    /// A rod's fitted rise time constant reached the searched limit.
+    RiseAtLimit {
+        /// Command column.
+        column: String,
+        /// The limit, s.
+        tau_max_s: f64,
+    },
+    /// The delay fitted with the rise sits at the edge of the range searched.
+    RiseDelayAtEdge {
+        /// The delay, s.
+        lag_s: f64,
+        /// Lower end of the range, s.
+        lo_s: f64,
+        /// Upper end of the range, s.
+        hi_s: f64,
+    },
     /// Something the input builder found (saturation, skipped rows).
     Input(InputWarning),
 }
@@ -113,6 +129,18 @@ impl fmt::Display for PolarityWarning {
                  {DIPOLE_VALID_ROD_LENGTHS} rod lengths ({needed_m:.3} m): the point-dipole \
                  model is doubtful there, so the gain ratio is unreliable (the polarity \
                  verdict still holds)"
+            ),
+            W::RiseAtLimit { column, tau_max_s } => write!(
+                f,
+                "column \"{column}\": the rise time constant reached the searched limit \
+                 {tau_max_s:.4} s (a tenth of the shortest pulse): the rise is not first-order \
+                 or the pulses are too short; pulse longer"
+            ),
+            W::RiseDelayAtEdge { lag_s, lo_s, hi_s } => write!(
+                f,
+                "the delay fitted with the rise ({lag_s:.4} s) is at the edge of the range \
+                 searched around the cross-correlation lag ({lo_s:.4} to {hi_s:.4} s): the \
+                 true delay may lie outside it"
             ),
             W::Input(w) => write!(f, "{w}"),
         }
