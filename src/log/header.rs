@@ -88,7 +88,7 @@ pub fn parse_header(
 ) -> Result<Header, LogError> {
     let delimiter = detect_delimiter(text);
     let mut ranges = Vec::new();
-    super::sweep::split_fields(text.as_bytes(), delimiter, &mut ranges);
+    super::bytes::split_fields(text.as_bytes(), delimiter, &mut ranges);
     let mut columns: Vec<Column> = Vec::with_capacity(ranges.len());
     let mut ignored = Vec::new();
     for (a, b) in ranges {

@@ -103,8 +103,8 @@ fn parse_part(
     let mut pos = 0;
     while pos < bytes.len() {
         let end = memchr::memchr(b'\n', &bytes[pos..]).map_or(bytes.len(), |i| pos + i);
-        let text = super::sweep::trim_line_end(&bytes[pos..end]);
-        if !super::sweep::is_blank_or_comment(text) {
+        let text = super::bytes::trim_line_end(&bytes[pos..end]);
+        if !super::bytes::is_blank_or_comment(text) {
             match fast.parse(text, &mut row, last_time) {
                 Some(time) => {
                     for (col, &k) in part.numbers.iter_mut().zip(numeric) {
