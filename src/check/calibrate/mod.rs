@@ -29,8 +29,8 @@ use crate::fit::coverage::{axis_name, direction_spread_mapped};
 use crate::fit::samples::{FieldColumns, FieldSamples};
 use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
 use crate::log::plan::Site;
-use crate::log::saturation::screen_log;
 use crate::log::{read_sweep_with_progress, Plan, ReadOptions, RowLines, SweepLog};
+use crate::screen::saturation::screen_log;
 use crate::Error;
 
 /// Temperature span above which a bias slope is fitted, °C.

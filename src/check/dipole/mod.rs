@@ -32,9 +32,9 @@ use serde::Serialize;
 use crate::fit::dipole::{
     fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
 };
-use crate::log::saturation::{screen_log, without_rows};
 use crate::log::{read_sweep, LogError, Plan, ReadOptions, Shown, SweepLog};
 use crate::physics::frames::rotation_z;
+use crate::screen::saturation::{screen_log, without_rows};
 use crate::Error;
 
 mod background;
@@ -233,7 +233,7 @@ fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
 /// Run the dipole check on a log already read (`req.log` is not read again).
 /// Saturated rows are dropped first and counted in `samples_saturated`.
 pub fn evaluate_dipole(log: &SweepLog, req: &DipoleRequest) -> Result<DipoleResult, Error> {
-    crate::log::plausible::check_field_scale(log)?;
+    crate::screen::plausible::check_field_scale(log)?;
     let sat = screen_log(log, req.range_nt)?;
     if sat.count() == 0 {
         return evaluate_unsaturated(log, req);

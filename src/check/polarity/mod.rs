@@ -238,7 +238,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let sensor = sensor_geometry(plan, req.sensor)?;
     let t = log.require_time("polarity needs time for the lag and settle times")?;
     let b = log.require_field("polarity fits the measured field")?;
-    crate::log::plausible::check_field_scale(log)?;
+    crate::screen::plausible::check_field_scale(log)?;
     let mut names: Vec<String> = Vec::new();
     let mut columns: Vec<&[f64]> = Vec::new();
     for rod in &plan.rods {
@@ -353,7 +353,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
             .and_then(|m| m.range_nt)
             .filter(|_| sensor.kind == SensorChoice::Magnetometer)
     });
-    let sat = crate::log::saturation::find_saturation(b, range_nt);
+    let sat = crate::screen::saturation::find_saturation(b, range_nt);
     sat.refuse_if_axis_saturated(&log.path)?;
     let mut excluded = sat.flagged.clone();
     excluded.resize(n, false);

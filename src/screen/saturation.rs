@@ -13,7 +13,7 @@ use std::path::Path;
 
 use rayon::prelude::*;
 
-use super::SweepLog;
+use crate::log::SweepLog;
 use crate::Error;
 
 /// Why a reading was flagged.
