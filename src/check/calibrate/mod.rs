@@ -231,7 +231,7 @@ pub fn run_calibrate_with_progress(
     }
     let mut log = read_sweep_with_progress(&req.log, &req.read, progress)?;
     let b = log.require_field("a calibration needs the measured field")?;
-    crate::log::plausible::check_field_scale(&log)?;
+    crate::screen::plausible::check_field_scale(&log)?;
     let range_nt = req.range_nt.or_else(|| {
         req.plan
             .as_ref()
@@ -411,7 +411,7 @@ struct Ctx<'a> {
 /// The reference magnitude from a plan's `[site]` through the geomagnetic model
 /// (IGRF-14 total field at the site's latitude, longitude, altitude and date).
 fn reference_from_site(site: &Site) -> Result<f64, Error> {
-    Ok(crate::physics::geomag::site_reference(site)?.total_nt)
+    Ok(crate::physics::geomag::site_reference(&site.geo_site())?.total_nt)
 }
 
 /// Flag, else plan `[site] reference_nt`, else the plan's site through the model,
