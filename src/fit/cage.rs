@@ -1,4 +1,4 @@
-//! Coil-cage calibration: linear least squares `b = A h + b₀ (+ k τ)` (DESIGN §8).
+//! Coil-cage calibration: linear least squares `b = A h + b₀ (+ k τ)` (see `docs/calibration.md`).
 //!
 //! h is the applied field (cage frame, nT), b the reading (sensor frame, nT), A the
 //! sensor's 3×3 response (gain, non-orthogonality, misalignment), b₀ the hard iron

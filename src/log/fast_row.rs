@@ -1,4 +1,4 @@
-//! Fast path for plain numeric rows of a sweep log (issue 10).
+//! Fast path for plain numeric rows of a sweep log.
 //!
 //! Most rows are unquoted decimals separated by the delimiter, with no blanks. This path
 //! reads such a row in one left-to-right pass: it finds each cell's end while parsing

@@ -1,5 +1,6 @@
-//! Readers for what the user brings: sweep logs (CSV, DESIGN §4) and test plans (TOML,
-//! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
+//! Readers for what the user brings: sweep logs (CSV) and test plans (TOML), both
+//! described in `docs/formats.md`. Units are converted here, once, to the internal ones
+//! (nT, m, s, rad).
 
 mod bytes;
 mod columns;

@@ -1,4 +1,4 @@
-//! Parsing one block of a sweep log on several cores (issue 10).
+//! Parsing one block of a sweep log on several cores.
 //!
 //! A block of complete lines is cut at line ends into one part per core. Each part is
 //! read with the fast path ([`FastRow`]) alone, into its own column buffers, and STOPS

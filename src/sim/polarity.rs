@@ -4,7 +4,7 @@
 //! current in a rod follows its command after a lag, with a first-order rise; a rod keeps
 //! a remanent dipole along its axis after a pulse (sign of the last pulse). Faults can be
 //! injected: a rod wired backwards, two rods' commands swapped, a dead rod (gain 0). The
-//! field at the sensor is the sum of every rod's dipole field (DESIGN §8) plus an ambient
+//! field at the sensor is the sum of every rod's dipole field plus an ambient
 //! field, a drift (linear plus a slow sinusoid) and white noise.
 //!
 //! [`simulate_polarity`] returns the CSV log, a matching plan (TOML) and the truth (JSON),

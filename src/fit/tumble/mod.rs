@@ -11,7 +11,7 @@
 //! Springmann & Cutler (2012), who fit current-dependent bias the same way.
 //!
 //! Parameters, in order: c₀ c₁ c₂ | W₀₀ W₁₁ W₂₂ W₀₁ W₀₂ W₁₂ | k₀ k₁ k₂ (the last three
-//! only with temperature). This matches `/work/shared/bench`'s reference layout.
+//! only with temperature).
 //!
 //! Robustness: iteratively reweighted least squares with Tukey's biweight
 //! (c = 4.685 σ̂, σ̂ = 1.4826 × median absolute deviation; 95 % efficient for Gaussian
