@@ -186,57 +186,11 @@ impl PolaritySim {
 }
 
 /// Simulate a polarity test (see the module doc).
-#[allow(clippy::needless_range_loop)] // command columns and physical rods are indexed together
 pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim, Error> {
+    let drives = check_config(cfg)?;
     let nr = cfg.rods.len();
-    if nr == 0 || cfg.cycles == 0 {
-        return Err(Error::Usage(
-            "simulation needs at least one rod and one cycle".into(),
-        ));
-    }
-    let positive = |x: f64| x.is_finite() && x > 0.0;
-    if !(positive(cfg.sample_rate_hz) && positive(cfg.pulse_s) && positive(cfg.gap_s)) {
-        return Err(Error::Usage(
-            "sample rate, pulse and gap must be positive".into(),
-        ));
-    }
-    if !(cfg.noise_nt >= 0.0 && cfg.rise_time_s >= 0.0 && cfg.lag_s.is_finite()) {
-        return Err(Error::Usage(
-            "noise and rise time must be ≥ 0, lag finite".into(),
-        ));
-    }
-    // Which physical rod each command column drives.
-    let mut drives: Vec<usize> = (0..nr).collect();
-    if let Some((a, b)) = cfg.swapped {
-        if a >= nr || b >= nr || a == b {
-            return Err(Error::Usage(format!(
-                "swapped rods ({a}, {b}) out of range"
-            )));
-        }
-        drives.swap(a, b);
-    }
-    let body_to_sensor = cfg.sensor_to_body.transpose();
-    // Field per A·m² of each physical rod's axis, sensor frame.
-    let mut per_am2 = Vec::with_capacity(nr);
-    for r in &cfg.rods {
-        let g = dipole_matrix(&(cfg.sensor_position_m - r.position_m))
-            .ok_or_else(|| Error::Usage(format!("rod {} sits at the sensor", r.name)))?;
-        per_am2.push(body_to_sensor * g * r.axis_body.normalize());
-    }
-    // Schedule: per cycle, per rod: gap, +pulse, gap, −pulse; then a final gap.
-    let period = cfg.gap_s + cfg.pulse_s;
-    let mut pulses: Vec<(usize, f64, f64, f64)> = Vec::new(); // column, on, off, command
-    let mut t = 0.0;
-    for _ in 0..cfg.cycles {
-        for c in 0..nr {
-            for sign in [1.0, -1.0] {
-                t += cfg.gap_s;
-                pulses.push((c, t, t + cfg.pulse_s, sign * cfg.command));
-                t += cfg.pulse_s;
-            }
-        }
-    }
-    let end = t + 2.0 * cfg.gap_s.max(period / 2.0);
+    let per_am2 = field_per_am2(cfg)?;
+    let (pulses, end) = pulse_schedule(cfg);
     let dt = 1.0 / cfg.sample_rate_hz;
     let n = (end / dt).floor() as usize + 1;
     let command_at = |c: usize, time: f64| -> f64 {
@@ -255,40 +209,22 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
         let _ = write!(csv, ",cmd_{}", r.name);
     }
     csv.push('\n');
-    // Physical state: current (command units) and remanence sign per physical rod.
-    let mut current = vec![0.0; nr];
-    let mut rem_state = vec![0.0; nr];
-    let substeps = 10;
-    let h = dt / substeps as f64;
-    let mut time = 0.0;
+    let mut rods = RodState {
+        current: vec![0.0; nr],
+        rem_state: vec![0.0; nr],
+        time_s: 0.0,
+    };
     for i in 0..n {
         let ti = i as f64 * dt;
-        // Advance the physical state from `time` to `ti` on a fine grid.
-        while time < ti - 1e-12 {
-            let next = (time + h).min(ti);
-            for c in 0..nr {
-                let k = drives[c];
-                let drive = command_at(c, next - cfg.lag_s);
-                let sign = if cfg.rods[k].reversed { -1.0 } else { 1.0 };
-                let target = sign * drive;
-                current[k] = if cfg.rise_time_s > 0.0 {
-                    target + (current[k] - target) * (-(next - time) / cfg.rise_time_s).exp()
-                } else {
-                    target
-                };
-                if drive.abs() > 0.0 {
-                    rem_state[k] = (sign * drive).signum();
-                }
-            }
-            time = next;
-        }
+        rods.advance(cfg, &drives, ti, dt, &command_at);
         let mut b = cfg.ambient_nt
             + cfg.drift_nt_per_s * ti
             + Vector3::repeat(
                 cfg.wander_nt * (std::f64::consts::TAU * ti / cfg.wander_period_s).sin(),
             );
         for (k, r) in cfg.rods.iter().enumerate() {
-            let m = r.gain * r.dipole_per_command_am2 * current[k] + r.remanent_am2 * rem_state[k];
+            let m = r.gain * r.dipole_per_command_am2 * rods.current[k]
+                + r.remanent_am2 * rods.rem_state[k];
             b += per_am2[k] * m;
         }
         let _ = write!(
@@ -311,6 +247,115 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
         plan_toml: plan_toml(cfg),
         truth,
     })
+}
+
+/// Refuse a configuration that cannot be simulated; else which physical rod each command
+/// column drives (the identity unless two are swapped).
+fn check_config(cfg: &PolarityConfig) -> Result<Vec<usize>, Error> {
+    let nr = cfg.rods.len();
+    if nr == 0 || cfg.cycles == 0 {
+        return Err(Error::Usage(
+            "simulation needs at least one rod and one cycle".into(),
+        ));
+    }
+    let positive = |x: f64| x.is_finite() && x > 0.0;
+    if !(positive(cfg.sample_rate_hz) && positive(cfg.pulse_s) && positive(cfg.gap_s)) {
+        return Err(Error::Usage(
+            "sample rate, pulse and gap must be positive".into(),
+        ));
+    }
+    if !(cfg.noise_nt >= 0.0 && cfg.rise_time_s >= 0.0 && cfg.lag_s.is_finite()) {
+        return Err(Error::Usage(
+            "noise and rise time must be ≥ 0, lag finite".into(),
+        ));
+    }
+    let mut drives: Vec<usize> = (0..nr).collect();
+    if let Some((a, b)) = cfg.swapped {
+        if a >= nr || b >= nr || a == b {
+            return Err(Error::Usage(format!(
+                "swapped rods ({a}, {b}) out of range"
+            )));
+        }
+        drives.swap(a, b);
+    }
+    Ok(drives)
+}
+
+/// Field at the sensor per A·m² along each physical rod's axis, sensor frame, nT/(A·m²).
+fn field_per_am2(cfg: &PolarityConfig) -> Result<Vec<Vector3<f64>>, Error> {
+    let body_to_sensor = cfg.sensor_to_body.transpose();
+    let mut per_am2 = Vec::with_capacity(cfg.rods.len());
+    for r in &cfg.rods {
+        let g = dipole_matrix(&(cfg.sensor_position_m - r.position_m))
+            .ok_or_else(|| Error::Usage(format!("rod {} sits at the sensor", r.name)))?;
+        per_am2.push(body_to_sensor * g * r.axis_body.normalize());
+    }
+    Ok(per_am2)
+}
+
+/// One commanded pulse: command column, on time (s), off time (s), command.
+type Pulse = (usize, f64, f64, f64);
+
+/// The pulses (per cycle, per rod: gap, +pulse, gap, −pulse) and the log's end time, s
+/// (a final gap after the last pulse).
+fn pulse_schedule(cfg: &PolarityConfig) -> (Vec<Pulse>, f64) {
+    let period = cfg.gap_s + cfg.pulse_s;
+    let mut pulses: Vec<Pulse> = Vec::new();
+    let mut t = 0.0;
+    for _ in 0..cfg.cycles {
+        for c in 0..cfg.rods.len() {
+            for sign in [1.0, -1.0] {
+                t += cfg.gap_s;
+                pulses.push((c, t, t + cfg.pulse_s, sign * cfg.command));
+                t += cfg.pulse_s;
+            }
+        }
+    }
+    (pulses, t + 2.0 * cfg.gap_s.max(period / 2.0))
+}
+
+/// Physical state of the rods: current (command units) and remanence sign per physical
+/// rod, at time `time_s`.
+struct RodState {
+    current: Vec<f64>,
+    rem_state: Vec<f64>,
+    time_s: f64,
+}
+
+impl RodState {
+    /// Advance the state to `ti` (s) on a grid of a tenth of the sample interval `dt`
+    /// (s), the commands delayed by the lag and the currents rising with the rise time.
+    #[allow(clippy::needless_range_loop)] // command columns and physical rods are indexed together
+    fn advance(
+        &mut self,
+        cfg: &PolarityConfig,
+        drives: &[usize],
+        ti: f64,
+        dt: f64,
+        command_at: &dyn Fn(usize, f64) -> f64,
+    ) {
+        let substeps = 10;
+        let h = dt / substeps as f64;
+        while self.time_s < ti - 1e-12 {
+            let time = self.time_s;
+            let next = (time + h).min(ti);
+            for c in 0..cfg.rods.len() {
+                let k = drives[c];
+                let drive = command_at(c, next - cfg.lag_s);
+                let sign = if cfg.rods[k].reversed { -1.0 } else { 1.0 };
+                let target = sign * drive;
+                self.current[k] = if cfg.rise_time_s > 0.0 {
+                    target + (self.current[k] - target) * (-(next - time) / cfg.rise_time_s).exp()
+                } else {
+                    target
+                };
+                if drive.abs() > 0.0 {
+                    self.rem_state[k] = (sign * drive).signum();
+                }
+            }
+            self.time_s = next;
+        }
+    }
 }
 
 fn truth(
