@@ -11,7 +11,9 @@ use super::raw::{
     RawArticle, RawDipoleTest, RawLimits, RawMagnetometer, RawPlan, RawProbe, RawRod, RawSite,
     RawStep,
 };
-use super::{Article, Cage, DipoleTest, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step};
+use super::types::{
+    Article, Cage, DipoleTest, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
+};
 use crate::log::error::{PlanError, Shown};
 use crate::log::units::FieldUnit;
 use crate::physics::frames::{check_rotation, rotation_from_axes};

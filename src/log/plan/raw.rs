@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use serde::Deserialize;
 
-use super::StepKind;
+use super::types::StepKind;
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]

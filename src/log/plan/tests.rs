@@ -1,6 +1,12 @@
 //! Tests of the plan reader: a full example, and each refusal naming its key.
 
+use std::path::{Path, PathBuf};
+
+use nalgebra::Vector3;
+
 use super::*;
+use crate::log::error::PlanError;
+use crate::log::units::FieldUnit;
 
 fn parse(text: &str) -> Result<Plan, PlanError> {
     parse_plan(text, Path::new("plan.toml"))
