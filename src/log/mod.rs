@@ -14,6 +14,8 @@ mod parallel;
 pub mod plan;
 mod row;
 mod row_lines;
+#[cfg(test)]
+mod row_paths_tests;
 mod sweep;
 mod sweep_log;
 pub mod units;
