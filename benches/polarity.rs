@@ -13,7 +13,8 @@ use magproof::check::polarity::run_polarity;
 use magproof::check::{CheckInput, CheckRequest};
 use magproof::log::plan::read_plan;
 use magproof::log::{read_sweep, ReadOptions};
-use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
+use magproof::sim::polarity::simulate_polarity;
+use magproof::sim::workload::polarity_config;
 
 fn bench_polarity(c: &mut Criterion) {
     let dir = std::env::temp_dir().join(format!("magproof-bench-polarity-{}", std::process::id()));
@@ -23,14 +24,7 @@ fn bench_polarity(c: &mut Criterion) {
     g.warm_up_time(std::time::Duration::from_secs(1));
     g.measurement_time(std::time::Duration::from_secs(5));
     for n in [10_000usize, 100_000, 1_000_000] {
-        let base = PolarityConfig::default();
-        // Rows per cycle: rods × (+, −) × (pulse + gap) × rate.
-        let per_cycle =
-            base.rods.len() as f64 * 2.0 * (base.pulse_s + base.gap_s) * base.sample_rate_hz;
-        let cfg = PolarityConfig {
-            cycles: ((n as f64 / per_cycle).round() as usize).max(1),
-            ..base
-        };
+        let cfg = polarity_config(n);
         let sim = simulate_polarity(&cfg, 42).expect("simulation");
         let [csv, plan, _] = sim.write(&dir, &format!("pol{n}")).expect("write");
         let log = read_sweep(&csv, &ReadOptions::default()).expect("log");

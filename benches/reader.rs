@@ -1,6 +1,6 @@
-//! Reader throughput (issue 10): MB/s of CSV read into columns, at 1e4, 1e5 and 1e6 rows.
-//! Input: a tumble log written by `sim`-like code with a fixed seed (4 columns, nT, ~38
-//! bytes a row, like `../shared/bench/make_big_log.py`).
+//! Reader throughput: MB/s of CSV read into columns, at 1e4, 1e5 and 1e6 rows.
+//! Input: a tumble-like log written here with a fixed seed (4 columns `t,bx,by,bz`, nT,
+//! ~38 bytes a row).
 
 use std::io::Write;
 

@@ -1,10 +1,11 @@
 #!/usr/bin/env python3
-"""Time `magproof calibrate` and the reference script side by side in one run (issue 10).
+"""Time `magproof calibrate` and a reference fitting script side by side in one run.
 
-    python3 benches/side_by_side.py [--log FILE] [--samples N] [--runs K] [--shared DIR]
+    python3 benches/side_by_side.py [--log FILE] [--samples N] [--runs K] --shared DIR
 
 Builds nothing: run `cargo build --release` first. Writes the benchmark log with
-`DIR/make_big_log.py` (DIR defaults to ../shared/bench beside the checkout) into a
+`DIR/make_big_log.py` (DIR: the folder holding the reference scripts `make_big_log.py`
+and `ref_fit.py`; they are not part of magproof) into a
 temporary folder unless --log is given, then, K times (default 3), runs
 `target/release/magproof calibrate LOG --reference-nt R --json` and
 `python3 DIR/ref_fit.py LOG --reference-nt R` one after the other under
@@ -107,7 +108,7 @@ def main():
     ap.add_argument("--samples", type=int, default=1_000_000)
     ap.add_argument("--runs", type=int, default=3)
     ap.add_argument("--linear", action="store_true", help="also time the first tenth")
-    ap.add_argument("--shared", default=os.path.join(ROOT, "..", "shared", "bench"))
+    ap.add_argument("--shared", required=True)
     a = ap.parse_args()
     if not os.path.exists(TIME):
         sys.exit(f"error: {TIME} not found (apt-get install time)")

@@ -8,21 +8,18 @@
 //!
 //! * `fit N`: the moment-and-offset fit on the samples of `benches/dipole.rs`
 //!   (`dipole_fit` group): two mounts, four full turns, 1 nT noise, seed 7.
-//! * `check-origin N` / `check-fitted N`: the whole dipole check (`evaluate_dipole`) on a
+//! * `check-origin N` / `check-fitted N`: the whole dipole check (`run_dipole`) on a
 //!   simulated turntable log with about N article rows, as in the `dipole_check` group.
 
 use std::path::Path;
 
 use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition};
 use magproof::check::{CheckInput, CheckRequest};
-use magproof::fit::dipole::{fit_moment_and_offset, model_field_nt, DipoleSample};
+use magproof::fit::dipole::fit_moment_and_offset;
 use magproof::log::plan::parse_plan;
 use magproof::log::{read_sweep_from, ReadOptions};
-use magproof::physics::frames::rotation_z;
-use magproof::sim::dipole::{simulate_turntable, TurntableConfig};
-use nalgebra::{Matrix3, Vector3};
-use rand::{rngs::StdRng, SeedableRng};
-use rand_distr::{Distribution, Normal};
+use magproof::sim::dipole::simulate_turntable;
+use magproof::sim::workload::{dipole_fit_samples, turntable_config};
 
 type Res = Result<(), Box<dyn std::error::Error>>;
 
@@ -42,10 +39,7 @@ fn main() -> Res {
 
 /// The whole check on a simulated turntable log (two mounts, 15° steps, 100 Hz).
 fn check(n: usize, position: DipolePosition) -> Res {
-    let mut cfg = TurntableConfig::default();
-    let steps = cfg.mounts.len() * (360.0 / cfg.step_deg).round() as usize;
-    cfg.samples_per_step = (n / steps).max(1);
-    cfg.article.sample_interval_s = 0.01;
+    let (cfg, _) = turntable_config(n);
     let sim = simulate_turntable(&cfg, 2026)?;
     let plan = parse_plan(&sim.plan_toml, Path::new("plan.toml"))?;
     let log = read_sweep_from(
@@ -70,28 +64,7 @@ fn check(n: usize, position: DipolePosition) -> Res {
 }
 
 fn fit(n: usize) -> Res {
-    let m = Vector3::new(0.012, -0.007, 0.009);
-    let o = Vector3::new(0.02, -0.01, 0.01);
-    let on_side = Matrix3::new(1.0, 0.0, 0.0, 0.0, 0.0, -1.0, 0.0, 1.0, 0.0);
-    let mut rng = StdRng::seed_from_u64(7);
-    let noise = Normal::new(0.0, 1.0)?;
-    let mut data = Vec::with_capacity(n);
-    for i in 0..n {
-        let mount = if i % 2 == 0 {
-            Matrix3::identity()
-        } else {
-            on_side
-        };
-        let angle = std::f64::consts::TAU * i as f64 / n as f64 * 4.0;
-        let mut s = DipoleSample {
-            probe_m: Vector3::new(0.6, 0.0, 0.05),
-            body_to_table: rotation_z(angle) * mount,
-            b_nt: Vector3::zeros(),
-        };
-        s.b_nt = model_field_nt(&s, &m, &o).ok_or("probe at the dipole")?
-            + Vector3::from_fn(|_, _| noise.sample(&mut rng));
-        data.push(s);
-    }
+    let data = dipole_fit_samples(n).ok_or("probe at the dipole")?;
     let fit = fit_moment_and_offset(&data)?;
     println!(
         "n = {n}: moment {:.6?} A·m², offset {:.5?} m, {} iterations, rms {:.4} nT",

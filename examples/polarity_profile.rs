@@ -7,17 +7,12 @@ use magproof::check::polarity::run_polarity;
 use magproof::check::{CheckInput, CheckRequest};
 use magproof::log::plan::read_plan;
 use magproof::log::{read_sweep, ReadOptions};
-use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
+use magproof::sim::polarity::simulate_polarity;
+use magproof::sim::workload::polarity_config;
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let n: usize = std::env::args().nth(1).map_or(Ok(100_000), |s| s.parse())?;
-    let base = PolarityConfig::default();
-    let per_cycle =
-        base.rods.len() as f64 * 2.0 * (base.pulse_s + base.gap_s) * base.sample_rate_hz;
-    let cfg = PolarityConfig {
-        cycles: ((n as f64 / per_cycle).round() as usize).max(1),
-        ..base
-    };
+    let cfg = polarity_config(n);
     let tmp = tempfile::tempdir()?;
     let dir = std::env::args()
         .nth(2)

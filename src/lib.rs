@@ -22,6 +22,7 @@ pub mod ledger;
 pub mod log;
 pub mod physics;
 pub mod report;
+pub mod screen;
 pub mod sim;
 
 pub use error::Error;

@@ -1,4 +1,4 @@
-//! Property tests of the log and plan readers (issue 11): on arbitrary bytes and on
+//! Property tests of the log and plan readers: on arbitrary bytes and on
 //! mutated valid files they never panic; they either read the input or refuse it with a
 //! message that names the file (and, for row problems, the line).
 //!

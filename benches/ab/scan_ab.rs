@@ -1,4 +1,4 @@
-//! Paired A/B timing of the sweep-log number scanner (issue 10), outside cargo.
+//! Paired A/B timing of the sweep-log number scanner, outside cargo.
 //!
 //! Kept in a subfolder of `benches/` so that cargo does not build it as a bench target
 //! (it needs the two copies below, which exist only while comparing).
@@ -10,16 +10,20 @@
 //! last, the last ending at the line end (line ends are found once, before timing).
 //!
 //! ```sh
-//! git show 6b833ba:src/log/number.rs > /tmp/number_old.rs   # the version to compare with
-//! cp src/log/number.rs /tmp/number_new.rs
-//! rustc -O --edition 2021 benches/ab/scan_ab.rs -o /tmp/scan_ab
-//! /tmp/scan_ab /tmp/big/big.csv 41
+//! git show REV:src/log/number.rs > benches/ab/number_old.rs   # the version to compare with
+//! cp src/log/number.rs benches/ab/number_new.rs
+//! mkdir -p target/ab && rustc -O --edition 2021 benches/ab/scan_ab.rs -o target/ab/scan_ab
+//! target/ab/scan_ab LOG.csv 41   # any plain four-column log, e.g. one from `magproof simulate`
+//! rm benches/ab/number_old.rs benches/ab/number_new.rs
 //! ```
+//!
+//! The two copies sit beside this file (`#[path]` is relative to it) and are not
+//! committed.
 
 #![allow(dead_code)]
-#[path = "/tmp/number_new.rs"]
+#[path = "number_new.rs"]
 mod number_new;
-#[path = "/tmp/number_old.rs"]
+#[path = "number_old.rs"]
 mod number_old;
 
 use std::hint::black_box;

@@ -6,9 +6,9 @@
 use std::fmt;
 use std::path::Path;
 
-use crate::log::plausible::check_field_scale;
-use crate::log::saturation::{screen_log, SaturationCause, SaturationReport};
 use crate::log::{read_sweep_with_progress, FieldUnit, Plan, ReadOptions, SweepLog};
+use crate::screen::plausible::check_field_scale;
+use crate::screen::saturation::{screen_log, SaturationCause, SaturationReport};
 use crate::Error;
 
 /// How to read a log, as the user asked (each `None` falls back to the plan, then to

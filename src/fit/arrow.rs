@@ -165,21 +165,7 @@ impl ArrowLeastSquares {
             )));
         }
         // Jacobi scaling to unit diagonal, as in the dense solver.
-        let mut scale = DVector::zeros(p);
-        for a in 0..p {
-            let diag = if a < m {
-                self.a[(a, a)]
-            } else {
-                self.band[(a - m) * stride]
-            };
-            if diag.is_nan() || diag <= 0.0 {
-                return Err(Error::Degenerate(format!(
-                    "linear fit: parameter \"{}\" has no data (its regressor is zero on every used row)",
-                    self.names[a]
-                )));
-            }
-            scale[a] = 1.0 / diag.sqrt();
-        }
+        let scale = self.jacobi_scale()?;
         let a_s = DMatrix::from_fn(m, m, |i, j| {
             let (lo, hi) = (i.min(j), i.max(j));
             self.a[(lo, hi)] * scale[i] * scale[j]
@@ -219,24 +205,7 @@ impl ArrowLeastSquares {
                 .inverse()
         };
         // Scaled inverse in blocks, then unscaled.
-        let zs = &z * &s_inv; // d×m: Z S⁻¹
-        let mut scaled_inv = DMatrix::zeros(p, p);
-        scaled_inv.view_mut((0, 0), (m, m)).copy_from(&s_inv);
-        let top_right = -zs.transpose(); // −S⁻¹ Zᵀ (S⁻¹ symmetric)
-        scaled_inv.view_mut((0, m), (m, d)).copy_from(&top_right);
-        scaled_inv
-            .view_mut((m, 0), (d, m))
-            .copy_from(&top_right.transpose());
-        let mut unit = vec![0.0; d];
-        for col in 0..d {
-            unit.iter_mut().for_each(|v| *v = 0.0);
-            unit[col] = 1.0;
-            chol.solve_in_place(&mut unit);
-            for (row, u) in unit.iter().enumerate() {
-                let zsz: f64 = (0..m).map(|q| zs[(row, q)] * z[(col, q)]).sum();
-                scaled_inv[(m + row, m + col)] = u + zsz;
-            }
-        }
+        let scaled_inv = scaled_inverse(&z, &s_inv, &chol);
         let mut yty = self.yty.clone();
         for j in 0..k {
             for l in 0..j {
@@ -253,12 +222,61 @@ impl ArrowLeastSquares {
         ))
     }
 
+    /// 1/√diag of the normal matrix (Jacobi scaling to unit diagonal); a parameter
+    /// without data (zero diagonal) is refused by name.
+    fn jacobi_scale(&self) -> Result<DVector<f64>, Error> {
+        let p = self.names.len();
+        let (m, stride) = (self.head, self.bandwidth + 1);
+        let mut scale = DVector::zeros(p);
+        for a in 0..p {
+            let diag = if a < m {
+                self.a[(a, a)]
+            } else {
+                self.band[(a - m) * stride]
+            };
+            if diag.is_nan() || diag <= 0.0 {
+                return Err(Error::Degenerate(format!(
+                    "linear fit: parameter \"{}\" has no data (its regressor is zero on every used row)",
+                    self.names[a]
+                )));
+            }
+            scale[a] = 1.0 / diag.sqrt();
+        }
+        Ok(scale)
+    }
+
     /// Refuse a (near) singular scaled Schur complement, naming the head parameters of
     /// its weakest direction.
     fn check_head_rank(&self, s: &DMatrix<f64>) -> Result<(), Error> {
         let head = &self.names[..s.nrows().min(self.names.len())];
         super::linear::refuse_ill_conditioned(s, head)
     }
+}
+
+/// The scaled normal matrix's inverse, assembled in blocks from Z = D⁻¹ Cᵀ (d×m), the
+/// Schur complement's inverse S⁻¹ (m×m) and the band factor of D (d×d).
+fn scaled_inverse(z: &DMatrix<f64>, s_inv: &DMatrix<f64>, chol: &BandCholesky) -> DMatrix<f64> {
+    let (d, m) = (z.nrows(), z.ncols());
+    let p = m + d;
+    let zs = z * s_inv; // d×m: Z S⁻¹
+    let mut scaled_inv = DMatrix::zeros(p, p);
+    scaled_inv.view_mut((0, 0), (m, m)).copy_from(s_inv);
+    let top_right = -zs.transpose(); // −S⁻¹ Zᵀ (S⁻¹ symmetric)
+    scaled_inv.view_mut((0, m), (m, d)).copy_from(&top_right);
+    scaled_inv
+        .view_mut((m, 0), (d, m))
+        .copy_from(&top_right.transpose());
+    let mut unit = vec![0.0; d];
+    for col in 0..d {
+        unit.iter_mut().for_each(|v| *v = 0.0);
+        unit[col] = 1.0;
+        chol.solve_in_place(&mut unit);
+        for (row, u) in unit.iter().enumerate() {
+            let zsz: f64 = (0..m).map(|q| zs[(row, q)] * z[(col, q)]).sum();
+            scaled_inv[(m + row, m + col)] = u + zsz;
+        }
+    }
+    scaled_inv
 }
 
 /// Cholesky factor `L` of a symmetric positive-definite band matrix, stored by rows:

@@ -1,4 +1,5 @@
-//! Coil-cage calibration: linear least squares `b = A h + b₀ (+ k τ)` (DESIGN §8).
+//! Coil-cage calibration: linear least squares `b = A h + b₀ (+ k τ)` (see
+//! `docs/calibration.md`).
 //!
 //! h is the applied field (cage frame, nT), b the reading (sensor frame, nT), A the
 //! sensor's 3×3 response (gain, non-orthogonality, misalignment), b₀ the hard iron
@@ -72,24 +73,144 @@ pub fn fit_cage(
     let tmean = temp_c
         .map(|t| t.iter().sum::<f64>() / n as f64)
         .unwrap_or(0.0);
-    let row = |i: usize| -> [f64; 5] {
-        let h = applied_nt[i];
-        let tau = temp_c.map(|t| t[i] - tmean).unwrap_or(0.0);
-        [h.x, h.y, h.z, 1.0, tau]
+    let design = Design {
+        applied_nt,
+        temp_c,
+        tmean_c: tmean,
     };
-    let mut xtx = SMatrix::<f64, 5, 5>::zeros();
-    let mut xty = SMatrix::<f64, 5, 3>::zeros();
-    for (i, b) in samples_nt.iter().enumerate() {
-        let x = row(i);
-        for a in 0..p {
-            for c in a..p {
-                xtx[(a, c)] += x[a] * x[c];
-            }
-            for c in 0..3 {
-                xty[(a, c)] += x[a] * b[c];
-            }
+    let (xtx, xty) = design.normal_equations(samples_nt, p);
+    let (xtx_inv, condition) = invert_normal_matrix(&xtx, p)?;
+    let mut beta = SMatrix::<f64, 5, 3>::zeros();
+    for a in 0..p {
+        for c in 0..3 {
+            beta[(a, c)] = (0..p).map(|k| xtx_inv[(a, k)] * xty[(k, c)]).sum();
         }
     }
+    let res = design.residuals(samples_nt, &beta, p);
+    let dof = (n - p) as f64;
+    let axis_var = res.rss / dof;
+    let sd = |k: usize, axis: usize| (axis_var[axis] * xtx_inv[(k, k)]).max(0.0).sqrt();
+    let response = Matrix3::from_fn(|a, j| beta[(j, a)]);
+    let response_sigma = Matrix3::from_fn(|a, j| sd(j, a));
+    let (slope, slope_sd) = if p == 5 {
+        (
+            Some(Vector3::new(beta[(4, 0)], beta[(4, 1)], beta[(4, 2)])),
+            Some(Vector3::new(sd(4, 0), sd(4, 1), sd(4, 2))),
+        )
+    } else {
+        (None, None)
+    };
+    let response_row_cov =
+        [0, 1, 2].map(|a| Matrix3::from_fn(|j, l| axis_var[a] * xtx_inv[(j, l)]));
+    Ok(CageFit {
+        response,
+        response_sigma,
+        response_row_cov,
+        hard_iron_nt: Vector3::new(beta[(3, 0)], beta[(3, 1)], beta[(3, 2)]),
+        hard_iron_sigma_nt: Vector3::new(sd(3, 0), sd(3, 1), sd(3, 2)),
+        temp_slope_nt_per_c: slope,
+        temp_slope_sigma_nt_per_c: slope_sd,
+        residuals_nt: res.residuals_nt,
+        axis_sigma_nt: axis_var.map(f64::sqrt),
+        residual_rms_nt: (res.sum_len2 / n as f64).sqrt(),
+        worst_residual: res.worst,
+        condition,
+    })
+}
+
+/// The design matrix X = [hx hy hz 1 (τ)] of a cage fit, row by row.
+struct Design<'a> {
+    /// Applied field per sample, cage frame, nT.
+    applied_nt: &'a [Vector3<f64>],
+    /// Temperature per sample, °C, when fitted.
+    temp_c: Option<&'a [f64]>,
+    /// Mean temperature, °C (0 without temperature).
+    tmean_c: f64,
+}
+
+/// Residuals of a cage fit and their sums.
+struct CageResiduals {
+    /// b − X β per sample, sensor frame, nT.
+    residuals_nt: Vec<Vector3<f64>>,
+    /// Residual sum of squares per sensor axis, nT².
+    rss: Vector3<f64>,
+    /// Σ |residual|², nT².
+    sum_len2: f64,
+    /// Largest |residual| (nT) and its sample index.
+    worst: (f64, usize),
+}
+
+impl Design<'_> {
+    /// Row `i` of X (the fifth element is 0 without temperature).
+    fn row(&self, i: usize) -> [f64; 5] {
+        let h = self.applied_nt[i];
+        let tau = self.temp_c.map(|t| t[i] - self.tmean_c).unwrap_or(0.0);
+        [h.x, h.y, h.z, 1.0, tau]
+    }
+
+    /// XᵀX (upper triangle of the leading p×p block) and XᵀY, Y the readings (nT), in
+    /// one pass.
+    fn normal_equations(
+        &self,
+        samples_nt: &[Vector3<f64>],
+        p: usize,
+    ) -> (SMatrix<f64, 5, 5>, SMatrix<f64, 5, 3>) {
+        let mut xtx = SMatrix::<f64, 5, 5>::zeros();
+        let mut xty = SMatrix::<f64, 5, 3>::zeros();
+        for (i, b) in samples_nt.iter().enumerate() {
+            let x = self.row(i);
+            for a in 0..p {
+                for c in a..p {
+                    xtx[(a, c)] += x[a] * x[c];
+                }
+                for c in 0..3 {
+                    xty[(a, c)] += x[a] * b[c];
+                }
+            }
+        }
+        (xtx, xty)
+    }
+
+    /// Residuals b − X β of every sample, with their sums.
+    fn residuals(
+        &self,
+        samples_nt: &[Vector3<f64>],
+        beta: &SMatrix<f64, 5, 3>,
+        p: usize,
+    ) -> CageResiduals {
+        let mut residuals_nt = Vec::with_capacity(samples_nt.len());
+        let mut rss = Vector3::zeros();
+        let (mut sum_len2, mut worst) = (0.0, (0.0, 0usize));
+        for (i, b) in samples_nt.iter().enumerate() {
+            let x = self.row(i);
+            let mut r = *b;
+            for c in 0..3 {
+                r[c] -= (0..p).map(|a| x[a] * beta[(a, c)]).sum::<f64>();
+            }
+            rss += r.component_mul(&r);
+            let l2 = r.norm_squared();
+            sum_len2 += l2;
+            if l2.sqrt() > worst.0 {
+                worst = (l2.sqrt(), i);
+            }
+            residuals_nt.push(r);
+        }
+        CageResiduals {
+            residuals_nt,
+            rss,
+            sum_len2,
+            worst,
+        }
+    }
+}
+
+/// (XᵀX)⁻¹ of the leading p×p block of `xtx` (upper triangle given), through the
+/// equilibrated matrix M = D⁻¹ XᵀX D⁻¹ (D = √diag), and the condition number of M. A
+/// zero column or a rank-deficient grid is refused with the reason.
+fn invert_normal_matrix(
+    xtx: &SMatrix<f64, 5, 5>,
+    p: usize,
+) -> Result<(nalgebra::DMatrix<f64>, f64), FitError> {
     // Work on the leading p×p block; equilibrate for conditioning.
     let mut m = nalgebra::DMatrix::<f64>::zeros(p, p);
     let mut d = vec![0.0; p];
@@ -135,58 +256,7 @@ pub fn fit_cage(
             xtx_inv[(a, c)] /= d[a] * d[c];
         }
     }
-    let mut beta = SMatrix::<f64, 5, 3>::zeros();
-    for a in 0..p {
-        for c in 0..3 {
-            beta[(a, c)] = (0..p).map(|k| xtx_inv[(a, k)] * xty[(k, c)]).sum();
-        }
-    }
-    let mut residuals_nt = Vec::with_capacity(n);
-    let mut rss = Vector3::zeros();
-    let (mut sum_len2, mut worst) = (0.0, (0.0, 0usize));
-    for (i, b) in samples_nt.iter().enumerate() {
-        let x = row(i);
-        let mut r = *b;
-        for c in 0..3 {
-            r[c] -= (0..p).map(|a| x[a] * beta[(a, c)]).sum::<f64>();
-        }
-        rss += r.component_mul(&r);
-        let l2 = r.norm_squared();
-        sum_len2 += l2;
-        if l2.sqrt() > worst.0 {
-            worst = (l2.sqrt(), i);
-        }
-        residuals_nt.push(r);
-    }
-    let dof = (n - p) as f64;
-    let axis_var = rss / dof;
-    let sd = |k: usize, axis: usize| (axis_var[axis] * xtx_inv[(k, k)]).max(0.0).sqrt();
-    let response = Matrix3::from_fn(|a, j| beta[(j, a)]);
-    let response_sigma = Matrix3::from_fn(|a, j| sd(j, a));
-    let (slope, slope_sd) = if p == 5 {
-        (
-            Some(Vector3::new(beta[(4, 0)], beta[(4, 1)], beta[(4, 2)])),
-            Some(Vector3::new(sd(4, 0), sd(4, 1), sd(4, 2))),
-        )
-    } else {
-        (None, None)
-    };
-    let response_row_cov =
-        [0, 1, 2].map(|a| Matrix3::from_fn(|j, l| axis_var[a] * xtx_inv[(j, l)]));
-    Ok(CageFit {
-        response,
-        response_sigma,
-        response_row_cov,
-        hard_iron_nt: Vector3::new(beta[(3, 0)], beta[(3, 1)], beta[(3, 2)]),
-        hard_iron_sigma_nt: Vector3::new(sd(3, 0), sd(3, 1), sd(3, 2)),
-        temp_slope_nt_per_c: slope,
-        temp_slope_sigma_nt_per_c: slope_sd,
-        residuals_nt,
-        axis_sigma_nt: axis_var.map(f64::sqrt),
-        residual_rms_nt: (sum_len2 / n as f64).sqrt(),
-        worst_residual: worst,
-        condition,
-    })
+    Ok((xtx_inv, condition))
 }
 
 /// Refuse a grid whose applied fields do not span three dimensions, naming the axis.

@@ -86,32 +86,7 @@ pub fn fit_ellipsoid<S: FieldSamples + ?Sized>(samples_nt: &S) -> Result<Ellipso
             "an ellipsoid needs at least 10 samples, found {n}"
         )));
     }
-    // Pass 1: mean.
-    let mean = (0..n).fold(Vector3::zeros(), |a, i| a + samples_nt.at(i)) / n as f64;
-    // Pass 2: scatter matrix of the centred (unscaled) design rows, upper triangle; in
-    // parallel chunks for long logs (exact up to the order of the sums).
-    let (mut s, sum_sq) = if n > 4 * CHUNK {
-        (0..n.div_ceil(CHUNK))
-            .into_par_iter()
-            .map(|c| scatter(samples_nt, c * CHUNK..((c + 1) * CHUNK).min(n), &mean))
-            .reduce(|| (Matrix10::zeros(), 0.0), |a, b| (a.0 + b.0, a.1 + b.1))
-    } else {
-        scatter(samples_nt, 0..n, &mean)
-    };
-    let scale = (sum_sq / n as f64).sqrt();
-    if !(scale.is_finite() && scale > 0.0) {
-        return Err(FitError::Degenerate(
-            "all samples are identical: no ellipsoid can be fitted".into(),
-        ));
-    }
-    // Undo scaling: column i of the scaled D is column i of D divided by scale^deg(i).
-    for i in 0..10 {
-        for j in i..10 {
-            let v = s[(i, j)] / scale.powi(DEGREE[i] + DEGREE[j]);
-            s[(i, j)] = v;
-            s[(j, i)] = v;
-        }
-    }
+    let (mean, s, scale) = centred_scatter(samples_nt)?;
     let s11: Matrix6<f64> = s.fixed_view::<6, 6>(0, 0).into_owned();
     let s12: SMatrix<f64, 6, 4> = s.fixed_view::<6, 4>(0, 6).into_owned();
     let s22: SMatrix<f64, 4, 4> = s.fixed_view::<4, 4>(6, 6).into_owned();
@@ -162,6 +137,42 @@ pub fn fit_ellipsoid<S: FieldSamples + ?Sized>(samples_nt: &S) -> Result<Ellipso
         centre_nt: mean + scale * x0,
         shape_per_nt: l / scale,
     })
+}
+
+/// The mean of the samples (nT), the scatter matrix of the centred design rows (full,
+/// in units of the unscaled rows) and the RMS distance from the mean used to scale them
+/// (nT). Identical samples are refused.
+fn centred_scatter<S: FieldSamples + ?Sized>(
+    samples_nt: &S,
+) -> Result<(Vector3<f64>, Matrix10, f64), FitError> {
+    let n = samples_nt.len();
+    // Pass 1: mean.
+    let mean = (0..n).fold(Vector3::zeros(), |a, i| a + samples_nt.at(i)) / n as f64;
+    // Pass 2: scatter matrix of the centred (unscaled) design rows, upper triangle; in
+    // parallel chunks for long logs (exact up to the order of the sums).
+    let (mut s, sum_sq) = if n > 4 * CHUNK {
+        (0..n.div_ceil(CHUNK))
+            .into_par_iter()
+            .map(|c| scatter(samples_nt, c * CHUNK..((c + 1) * CHUNK).min(n), &mean))
+            .reduce(|| (Matrix10::zeros(), 0.0), |a, b| (a.0 + b.0, a.1 + b.1))
+    } else {
+        scatter(samples_nt, 0..n, &mean)
+    };
+    let scale = (sum_sq / n as f64).sqrt();
+    if !(scale.is_finite() && scale > 0.0) {
+        return Err(FitError::Degenerate(
+            "all samples are identical: no ellipsoid can be fitted".into(),
+        ));
+    }
+    // Undo scaling: column i of the scaled D is column i of D divided by scale^deg(i).
+    for i in 0..10 {
+        for j in i..10 {
+            let v = s[(i, j)] / scale.powi(DEGREE[i] + DEGREE[j]);
+            s[(i, j)] = v;
+            s[(j, i)] = v;
+        }
+    }
+    Ok((mean, s, scale))
 }
 
 /// Eigenvector of `s v = μ c v` for the unique positive μ (`s` symmetric PSD, `c` with

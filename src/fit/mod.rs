@@ -1,5 +1,6 @@
 //! Fits: algebraic ellipsoid fit, geometric refinement with argmin, linear cage fit,
-//! dipole fit, robust weights and covariance (DESIGN §8).
+//! dipole fit, robust weights and covariance (methods: `docs/calibration.md`,
+//! `docs/dipole.md`).
 
 pub mod arrow;
 pub mod cage;

@@ -5,8 +5,9 @@ use std::collections::HashMap;
 
 use super::header::{ColumnKind, Header};
 use super::parallel::Part;
+use super::row::RowParser;
 use super::row_lines::RowLines;
-use super::sweep::{CommandColumn, RowParser, SweepLog};
+use super::sweep_log::{CommandColumn, SweepLog};
 
 /// Accumulates good rows into columns.
 pub(super) struct ColumnsBuilder {

@@ -88,7 +88,7 @@ pub fn parse_header(
 ) -> Result<Header, LogError> {
     let delimiter = detect_delimiter(text);
     let mut ranges = Vec::new();
-    super::sweep::split_fields(text.as_bytes(), delimiter, &mut ranges);
+    super::bytes::split_fields(text.as_bytes(), delimiter, &mut ranges);
     let mut columns: Vec<Column> = Vec::with_capacity(ranges.len());
     let mut ignored = Vec::new();
     for (a, b) in ranges {
@@ -117,6 +117,17 @@ pub fn parse_header(
         }
         columns.push(Column { raw, kind, scale });
     }
+    check_triples(&columns, path, line)?;
+    Ok(Header {
+        delimiter,
+        columns,
+        ignored,
+    })
+}
+
+/// Refuse a header with one or two of a triple (`bx by bz`, `hx hy hz`, `px py pz`):
+/// they come as all three or none.
+fn check_triples(columns: &[Column], path: &Path, line: u64) -> Result<(), LogError> {
     for (group, kinds) in [
         (
             "bx, by, bz",
@@ -158,11 +169,7 @@ pub fn parse_header(
             });
         }
     }
-    Ok(Header {
-        delimiter,
-        columns,
-        ignored,
-    })
+    Ok(())
 }
 
 /// The delimiter is whichever of `,` `;` tab occurs most often in the header.

@@ -1,4 +1,4 @@
-//! Line splitting over large blocks for the sweep-log reader (issue 10).
+//! Line splitting over large blocks for the sweep-log reader.
 //!
 //! The file is read in blocks of [`BLOCK_BYTES`] into one reused buffer and lines are
 //! handed out as slices of it, so no per-line copy or allocation happens and the file is

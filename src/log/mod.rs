@@ -1,6 +1,8 @@
-//! Readers for what the user brings: sweep logs (CSV, DESIGN §4) and test plans (TOML,
-//! DESIGN §5). Units are converted here, once, to the internal ones (nT, m, s, rad).
+//! Readers for what the user brings: sweep logs (CSV) and test plans (TOML), both
+//! described in `docs/formats.md`. Units are converted here, once, to the internal ones
+//! (nT, m, s, rad).
 
+mod bytes;
 mod columns;
 mod error;
 mod fast_row;
@@ -10,18 +12,18 @@ mod lines;
 mod number;
 mod parallel;
 pub mod plan;
-pub mod plausible;
+mod row;
 mod row_lines;
-pub mod saturation;
+#[cfg(test)]
+mod row_paths_tests;
 mod sweep;
+mod sweep_log;
 pub mod units;
 
 pub use error::{LogError, PlanError, Shown};
 pub use header::parse_iso8601;
 pub use plan::{read_plan, Plan};
 pub use row_lines::RowLines;
-pub use sweep::{
-    read_sweep, read_sweep_from, read_sweep_with_progress, CommandColumn, ReadOptions, SkippedRow,
-    SweepLog,
-};
+pub use sweep::{read_sweep, read_sweep_from, read_sweep_with_progress, ReadOptions};
+pub use sweep_log::{CommandColumn, SkippedRow, SweepLog};
 pub use units::FieldUnit;

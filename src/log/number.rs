@@ -1,4 +1,4 @@
-//! Fast decimal-number parsing for the sweep-log reader (issue 10).
+//! Fast decimal-number parsing for the sweep-log reader.
 //!
 //! Log cells are nearly always plain decimals such as `-30361.881`. For those,
 //! [`parse_plain_decimal`] reads the digits into an integer mantissa `m` and a power of

@@ -1,4 +1,4 @@
-//! Parsing one block of a sweep log on several cores (issue 10).
+//! Parsing one block of a sweep log on several cores.
 //!
 //! A block of complete lines is cut at line ends into one part per core. Each part is
 //! read with the fast path ([`FastRow`]) alone, into its own column buffers, and STOPS
@@ -103,8 +103,8 @@ fn parse_part(
     let mut pos = 0;
     while pos < bytes.len() {
         let end = memchr::memchr(b'\n', &bytes[pos..]).map_or(bytes.len(), |i| pos + i);
-        let text = super::sweep::trim_line_end(&bytes[pos..end]);
-        if !super::sweep::is_blank_or_comment(text) {
+        let text = super::bytes::trim_line_end(&bytes[pos..end]);
+        if !super::bytes::is_blank_or_comment(text) {
             match fast.parse(text, &mut row, last_time) {
                 Some(time) => {
                     for (col, &k) in part.numbers.iter_mut().zip(numeric) {

@@ -1,20 +1,27 @@
-//! Streaming reader for sweep logs (DESIGN §4).
+//! Streaming reader for sweep logs (format: `docs/formats.md`).
 //!
 //! The file is read line by line into one reused buffer; each data row is parsed into a
 //! small row buffer and, once the whole row is good, appended to columns of `f64`. The
 //! file is never held in memory as one string.
+//!
+//! The reader's files depend on each other one way only: `bytes` (byte helpers) and
+//! `sweep_log` (the public [`SweepLog`]) use nothing else of the reader; `header` uses
+//! `bytes`; `row` (the general row parser) uses `bytes` and `header`; `fast_row`,
+//! `parallel` and `columns` come next; this file, the reader itself, comes last.
 
 use std::fs::File;
 use std::io::Read;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
+use super::bytes::{is_blank_or_comment, trim_line_end};
 use super::columns::ColumnsBuilder;
 use super::error::{LogError, Shown};
 use super::fast_row::FastRow;
-use super::header::{parse_header, ColumnKind, Header, TimeUnit};
+use super::header::{parse_header, Header};
 use super::lines::LineReader;
 use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
-use super::row_lines::RowLines;
+use super::row::RowParser;
+use super::sweep_log::{SkippedRow, SweepLog};
 use super::units::FieldUnit;
 
 /// How to read a sweep log.
@@ -27,114 +34,7 @@ pub struct ReadOptions {
     pub skip_bad_rows: bool,
 }
 
-/// A row that was skipped under `--skip-bad-rows`, with the reason.
-#[derive(Debug, Clone)]
-pub struct SkippedRow {
-    /// 1-based line in the file.
-    pub line: u64,
-    /// The error the row would have raised.
-    pub reason: String,
-}
-
-/// One torque-rod command column (`cmd_<rod>`), in the log's own command unit.
-#[derive(Debug, Clone)]
-pub struct CommandColumn {
-    /// Rod name: the header name after `cmd_`, lower case.
-    pub rod: String,
-    /// The column as written in the header.
-    pub header: String,
-    /// Command value per row (any unit; the plan's nominal dipole is per this unit).
-    pub values: Vec<f64>,
-}
-
-/// A sweep log read into columns. Every column has one entry per kept row.
-#[derive(Debug, Clone, Default)]
-pub struct SweepLog {
-    /// The file it came from.
-    pub path: PathBuf,
-    /// Time of each row, s. From ISO-8601 timestamps: seconds after the first row.
-    pub t_s: Option<Vec<f64>>,
-    /// The first ISO-8601 timestamp as written, when time was given that way.
-    pub t0_iso: Option<String>,
-    /// Measured field, sensor frame (S), nT: `[bx, by, bz]`.
-    pub b_nt: Option<[Vec<f64>; 3]>,
-    /// Applied reference field, cage frame, nT: `[hx, hy, hz]`.
-    pub h_nt: Option<[Vec<f64>; 3]>,
-    /// Temperature, °C.
-    pub temp_c: Option<Vec<f64>>,
-    /// Torque-rod commands, one column per rod, in header order.
-    pub commands: Vec<CommandColumn>,
-    /// Turntable angle, rad (right-handed about the table's +z axis).
-    pub angle_rad: Option<Vec<f64>>,
-    /// Mount label per row; `None` where the article is absent (empty cell or `none`).
-    pub mount: Option<Vec<Option<u32>>>,
-    /// The distinct mount labels, indexed by the values of `mount`.
-    pub mount_labels: Vec<String>,
-    /// Probe position, table frame (L), m: `[px, py, pz]`.
-    pub probe_m: Option<[Vec<f64>; 3]>,
-    /// 1-based file line of each kept row, for messages.
-    pub lines: RowLines,
-    /// Columns present in the file that no check uses, as written in the header.
-    pub ignored_columns: Vec<String>,
-    /// Rows skipped under `--skip-bad-rows`.
-    pub skipped_rows: Vec<SkippedRow>,
-    /// Line of the header.
-    pub header_line: u64,
-}
-
-impl SweepLog {
-    /// Number of kept rows.
-    pub fn len(&self) -> usize {
-        self.lines.len()
-    }
-
-    /// True when no row was kept.
-    pub fn is_empty(&self) -> bool {
-        self.lines.is_empty()
-    }
-
-    fn missing(&self, column: &str, why: &str) -> LogError {
-        LogError::MissingColumn {
-            path: Shown(self.path.clone()),
-            column: column.to_string(),
-            why: why.to_string(),
-        }
-    }
-
-    /// The measured field columns, or an error naming the missing column and why
-    /// the caller needs it.
-    pub fn require_field(&self, why: &str) -> Result<&[Vec<f64>; 3], LogError> {
-        self.b_nt
-            .as_ref()
-            .ok_or_else(|| self.missing("bx, by, bz", why))
-    }
-
-    /// The time column, or an error saying why it is needed.
-    pub fn require_time(&self, why: &str) -> Result<&[f64], LogError> {
-        self.t_s.as_deref().ok_or_else(|| self.missing("t", why))
-    }
-
-    /// The command column of one rod, or an error naming `cmd_<rod>`.
-    pub fn require_command(&self, rod: &str, why: &str) -> Result<&CommandColumn, LogError> {
-        let key = rod.to_ascii_lowercase();
-        self.commands
-            .iter()
-            .find(|c| c.rod == key)
-            .ok_or_else(|| self.missing(&format!("cmd_{rod}"), why))
-    }
-
-    /// Measured field of row `i`, sensor frame, nT.
-    pub fn field_at(&self, i: usize) -> Option<nalgebra::Vector3<f64>> {
-        let b = self.b_nt.as_ref()?;
-        Some(nalgebra::Vector3::new(
-            *b[0].get(i)?,
-            *b[1].get(i)?,
-            *b[2].get(i)?,
-        ))
-    }
-}
-
-/// Read a sweep log from a file (DESIGN §4).
+/// Read a sweep log from a file (format: `docs/formats.md`).
 pub fn read_sweep(path: &Path, options: &ReadOptions) -> Result<SweepLog, LogError> {
     read_sweep_with_progress(path, options, &mut |_| {})
 }
@@ -263,6 +163,31 @@ impl RowSink<'_> {
     }
 }
 
+/// How far the reader has got in the file, and when to report progress next.
+struct ReadPos<'p> {
+    /// Lines read so far (the last one read is line `line_no`, 1-based).
+    line_no: u64,
+    /// Bytes consumed so far.
+    bytes_read: u64,
+    /// `progress` is called once `bytes_read` reaches this.
+    next_report: u64,
+    /// True once the columns have room for the whole file (or its size is unknown).
+    sized: bool,
+    /// The file size in bytes, when known.
+    size_hint_bytes: Option<u64>,
+    progress: &'p mut dyn FnMut(u64),
+}
+
+impl ReadPos<'_> {
+    /// Call `progress` when another 4 MiB have been read since the last call.
+    fn report(&mut self) {
+        if self.bytes_read >= self.next_report {
+            (self.progress)(self.bytes_read);
+            self.next_report = self.bytes_read + (1 << 22);
+        }
+    }
+}
+
 pub(crate) fn read_sweep_impl(
     reader: impl Read + Send,
     path: &Path,
@@ -272,39 +197,22 @@ pub(crate) fn read_sweep_impl(
     size_hint_bytes: Option<u64>,
 ) -> Result<SweepLog, LogError> {
     let mut lines = LineReader::new(reader);
-    let shown = || Shown(path.to_path_buf());
-    let io_err = |source| LogError::Io {
-        path: Shown(path.to_path_buf()),
-        source,
+    let mut pos = ReadPos {
+        line_no: 0,
+        bytes_read: 0,
+        next_report: 1 << 22,
+        // Once some rows are in, the columns get room for the whole file at the bytes
+        // per row seen so far (growing them by doubling would copy and page them in
+        // again).
+        sized: size_hint_bytes.is_none(),
+        size_hint_bytes,
+        progress,
     };
-    let mut line_no: u64 = 0;
-    let mut next_report: u64 = 1 << 22;
-    let mut bytes_read: u64;
-
-    // Header: the first line that is neither blank nor a comment.
-    let header: Header = loop {
-        let Some((buf, consumed)) = lines.next_line().map_err(io_err)? else {
-            return Err(LogError::NoHeader { path: shown() });
-        };
-        line_no += 1;
-        bytes_read = consumed;
-        let mut text: &[u8] = trim_line_end(buf);
-        if line_no == 1 {
-            text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
-        }
-        if is_blank_or_comment(text) {
-            continue;
-        }
-        let text = std::str::from_utf8(text).map_err(|_| LogError::NotUtf8 {
-            path: shown(),
-            line: line_no,
-        })?;
-        break parse_header(text, path, line_no, options.default_unit)?;
-    };
+    let header = read_header(&mut lines, path, options, &mut pos)?;
 
     let log = SweepLog {
         path: path.to_path_buf(),
-        header_line: line_no,
+        header_line: pos.line_no,
         ignored_columns: header.ignored.clone(),
         ..SweepLog::default()
     };
@@ -318,77 +226,142 @@ pub(crate) fn read_sweep_impl(
         log,
     };
 
-    // Once some rows are in, the columns get room for the whole file at the bytes per
-    // row seen so far (growing them by doubling would copy and page them in again).
-    let mut sized = size_hint_bytes.is_none();
     // Large plain blocks: parts parsed on all cores, appended in order (see parallel.rs).
     let threads = match row_path {
         RowPath::Parallel(n) => n,
         _ => rayon::current_num_threads(),
     };
     if threads > 1 {
-        let mut pool: Vec<Part> = Vec::new();
         let min_bytes = match row_path {
             RowPath::Parallel(_) => 0,
             _ => MIN_PARALLEL_BYTES,
         };
-        while let Some(fast) = sink.fast.clone() {
-            // While this block is parsed, the next one is read (see `LineReader`).
-            let before = line_no;
-            let (sink, pool) = (&mut sink, &mut pool);
-            let parse = |block: &[u8]| -> Result<u64, LogError> {
-                if block.len() < min_bytes {
-                    return sink.lines(block, before);
-                }
-                let pieces = split_block(block, threads);
-                parse_parts(
-                    &pieces,
-                    pool,
-                    &fast,
-                    header.columns.len(),
-                    &sink.builder.numeric,
-                    sink.builder.has_time,
-                );
-                let mut done = 0;
-                for (bytes, part) in pieces.iter().zip(pool.iter()) {
-                    done += sink.part(bytes, part, before + done)?;
-                }
-                Ok(done)
-            };
-            let Some((done, consumed)) = lines.next_block_with(parse).map_err(io_err)? else {
-                break;
-            };
-            line_no += done?;
-            bytes_read = consumed;
-            if !sized {
-                sized = sink.builder.reserve_for(bytes_read, size_hint_bytes);
-            }
-            if bytes_read >= next_report {
-                progress(bytes_read);
-                next_report = bytes_read + (1 << 22);
-            }
-        }
+        read_blocks(&mut lines, &mut sink, &mut pos, threads, min_bytes)?;
     }
+    read_lines(&mut lines, &mut sink, &mut pos)?;
+    finish(sink, &mut pos)
+}
 
-    while let Some((buf, consumed)) = lines.next_line().map_err(io_err)? {
-        line_no += 1;
-        bytes_read = consumed;
-        if !sized && line_no % 1024 == 0 {
-            sized = sink.builder.reserve_for(bytes_read, size_hint_bytes);
-        }
-        if bytes_read >= next_report {
-            progress(bytes_read);
-            next_report = bytes_read + (1 << 22);
-        }
-        sink.line(buf, line_no)?;
+fn io_error(path: &Path) -> impl Fn(std::io::Error) -> LogError + '_ {
+    move |source| LogError::Io {
+        path: Shown(path.to_path_buf()),
+        source,
     }
+}
+
+/// Read up to the header, the first line that is neither blank nor a comment, and
+/// parse it.
+fn read_header(
+    lines: &mut LineReader<impl Read>,
+    path: &Path,
+    options: &ReadOptions,
+    pos: &mut ReadPos<'_>,
+) -> Result<Header, LogError> {
+    let shown = || Shown(path.to_path_buf());
+    loop {
+        let Some((buf, consumed)) = lines.next_line().map_err(io_error(path))? else {
+            return Err(LogError::NoHeader { path: shown() });
+        };
+        pos.line_no += 1;
+        pos.bytes_read = consumed;
+        let mut text: &[u8] = trim_line_end(buf);
+        if pos.line_no == 1 {
+            text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
+        }
+        if is_blank_or_comment(text) {
+            continue;
+        }
+        let text = std::str::from_utf8(text).map_err(|_| LogError::NotUtf8 {
+            path: shown(),
+            line: pos.line_no,
+        })?;
+        return parse_header(text, path, pos.line_no, options.default_unit);
+    }
+}
+
+/// Read block after block while the rows take the fast path: blocks of at least
+/// `min_bytes` are cut into `threads` parts parsed in parallel and appended in order.
+fn read_blocks(
+    lines: &mut LineReader<impl Read + Send>,
+    sink: &mut RowSink<'_>,
+    pos: &mut ReadPos<'_>,
+    threads: usize,
+    min_bytes: usize,
+) -> Result<(), LogError> {
+    let mut pool: Vec<Part> = Vec::new();
+    let ncols = sink.header.columns.len();
+    while let Some(fast) = sink.fast.clone() {
+        // While this block is parsed, the next one is read (see `LineReader`).
+        let before = pos.line_no;
+        let (sink, pool) = (&mut *sink, &mut pool);
+        let parse = |block: &[u8]| -> Result<u64, LogError> {
+            if block.len() < min_bytes {
+                return sink.lines(block, before);
+            }
+            let pieces = split_block(block, threads);
+            parse_parts(
+                &pieces,
+                pool,
+                &fast,
+                ncols,
+                &sink.builder.numeric,
+                sink.builder.has_time,
+            );
+            let mut done = 0;
+            for (bytes, part) in pieces.iter().zip(pool.iter()) {
+                done += sink.part(bytes, part, before + done)?;
+            }
+            Ok(done)
+        };
+        let Some((done, consumed)) = lines.next_block_with(parse).map_err(io_error(sink.path))?
+        else {
+            break;
+        };
+        pos.line_no += done?;
+        pos.bytes_read = consumed;
+        if !pos.sized {
+            pos.sized = sink
+                .builder
+                .reserve_for(pos.bytes_read, pos.size_hint_bytes);
+        }
+        pos.report();
+    }
+    Ok(())
+}
+
+/// Read the rest of the file line by line.
+fn read_lines(
+    lines: &mut LineReader<impl Read>,
+    sink: &mut RowSink<'_>,
+    pos: &mut ReadPos<'_>,
+) -> Result<(), LogError> {
+    while let Some((buf, consumed)) = lines.next_line().map_err(io_error(sink.path))? {
+        pos.line_no += 1;
+        pos.bytes_read = consumed;
+        if !pos.sized && pos.line_no % 1024 == 0 {
+            pos.sized = sink
+                .builder
+                .reserve_for(pos.bytes_read, pos.size_hint_bytes);
+        }
+        pos.report();
+        sink.line(buf, pos.line_no)?;
+    }
+    Ok(())
+}
+
+/// Report the final progress and move the columns into the log; a file without a kept
+/// row is an error.
+fn finish(sink: RowSink<'_>, pos: &mut ReadPos<'_>) -> Result<SweepLog, LogError> {
     let RowSink {
+        path,
+        header,
         builder,
         mut row,
         mut log,
         ..
     } = sink;
-    progress(bytes_read);
+    let shown = || Shown(path.to_path_buf());
+    (pos.progress)(pos.bytes_read);
     if builder.lines.is_empty() {
         if log.skipped_rows.is_empty() {
             return Err(LogError::NoRows {
@@ -410,214 +383,9 @@ pub(crate) fn read_sweep_impl(
             found: String::new(),
         });
     }
-    builder.finish(&header, &mut log);
+    builder.finish(header, &mut log);
     log.t0_iso = row.first_iso.take();
     Ok(log)
-}
-
-pub(crate) fn trim_line_end(buf: &[u8]) -> &[u8] {
-    let mut end = buf.len();
-    while end > 0 && (buf[end - 1] == b'\n' || buf[end - 1] == b'\r') {
-        end -= 1;
-    }
-    &buf[..end]
-}
-
-pub(crate) fn is_blank_or_comment(text: &[u8]) -> bool {
-    match text.iter().position(|c| !c.is_ascii_whitespace()) {
-        None => true,
-        Some(i) => text[i] == b'#',
-    }
-}
-
-/// Parsed cells of one row, before they are committed to the columns.
-pub(super) struct RowParser {
-    pub(super) numbers: Vec<f64>,
-    /// The row's mount label, valid when `has_label` (a reused buffer: no per-row
-    /// allocation).
-    pub(super) mount_label: String,
-    pub(super) has_label: bool,
-    pub(super) time_s: Option<f64>,
-    fields: Vec<(usize, usize)>,
-    first_epoch_s: Option<f64>,
-    first_iso: Option<String>,
-    time_is_iso: Option<bool>,
-}
-
-impl RowParser {
-    fn new(header: &Header) -> Self {
-        RowParser {
-            numbers: vec![0.0; header.columns.len()],
-            mount_label: String::new(),
-            has_label: false,
-            time_s: None,
-            fields: Vec::with_capacity(header.columns.len()),
-            first_epoch_s: None,
-            first_iso: None,
-            time_is_iso: None,
-        }
-    }
-
-    fn parse(
-        &mut self,
-        text: &[u8],
-        path: &Path,
-        line: u64,
-        header: &Header,
-        last_time: Option<f64>,
-    ) -> Result<(), LogError> {
-        split_fields(text, header.delimiter, &mut self.fields);
-        if self.fields.len() != header.columns.len() {
-            return Err(LogError::RowLength {
-                path: Shown(path.to_path_buf()),
-                line,
-                expected: header.columns.len(),
-                found: self.fields.len(),
-            });
-        }
-        self.has_label = false;
-        self.time_s = None;
-        for (k, col) in header.columns.iter().enumerate() {
-            let (a, b) = self.fields[k];
-            let cell = trim_cell(&text[a..b]);
-            let cell_err = |problem: &str| LogError::Cell {
-                path: Shown(path.to_path_buf()),
-                line,
-                column: col.raw.clone(),
-                problem: problem.to_string(),
-                found: shorten(cell),
-            };
-            match &col.kind {
-                ColumnKind::Ignored => {}
-                ColumnKind::Mount => {
-                    let s = std::str::from_utf8(cell)
-                        .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
-                    let s = s.trim();
-                    self.has_label = !(s.is_empty() || s.eq_ignore_ascii_case("none"));
-                    if self.has_label {
-                        self.mount_label.clear();
-                        self.mount_label.push_str(s);
-                    }
-                }
-                ColumnKind::Time(unit) => {
-                    let t = self.parse_time(cell, *unit, &cell_err)?;
-                    if let Some(prev) = last_time {
-                        if t < prev {
-                            return Err(LogError::TimeBackwards {
-                                path: Shown(path.to_path_buf()),
-                                line,
-                                column: col.raw.clone(),
-                                found: t,
-                                previous: prev,
-                            });
-                        }
-                    }
-                    self.time_s = Some(t);
-                }
-                _ => {
-                    let v = parse_number(cell, &cell_err)?;
-                    self.numbers[k] = v * col.scale;
-                    if !self.numbers[k].is_finite() {
-                        return Err(cell_err("the value overflows once converted"));
-                    }
-                }
-            }
-        }
-        Ok(())
-    }
-
-    fn parse_time(
-        &mut self,
-        cell: &[u8],
-        unit: TimeUnit,
-        cell_err: &dyn Fn(&str) -> LogError,
-    ) -> Result<f64, LogError> {
-        let looks_iso = cell.len() >= 10 && cell[4] == b'-' && cell[7] == b'-';
-        match (self.time_is_iso, looks_iso) {
-            (Some(true), false) => {
-                return Err(cell_err(
-                    "expected an ISO-8601 timestamp like the rows before",
-                ))
-            }
-            (Some(false), true) => return Err(cell_err("expected seconds like the rows before")),
-            _ => {}
-        }
-        self.time_is_iso = Some(looks_iso);
-        if !looks_iso {
-            return Ok(parse_number(cell, cell_err)? * unit.to_seconds());
-        }
-        let s =
-            std::str::from_utf8(cell).map_err(|_| cell_err("expected an ISO-8601 timestamp"))?;
-        let epoch_s = super::header::parse_iso8601(s).ok_or_else(|| {
-            cell_err("expected an ISO-8601 timestamp such as 2026-11-20T09:30:00.25Z")
-        })?;
-        let first = *self.first_epoch_s.get_or_insert(epoch_s);
-        if self.first_iso.is_none() {
-            self.first_iso = Some(s.to_string());
-        }
-        Ok(epoch_s - first)
-    }
-}
-
-fn parse_number(cell: &[u8], cell_err: &dyn Fn(&str) -> LogError) -> Result<f64, LogError> {
-    if cell.is_empty() {
-        return Err(cell_err("expected a number, the cell is empty"));
-    }
-    match fast_float2::parse::<f64, _>(cell) {
-        Ok(v) if v.is_finite() => Ok(v),
-        Ok(_) => Err(cell_err("expected a finite number")),
-        Err(_) => Err(cell_err("expected a number")),
-    }
-}
-
-fn trim_cell(cell: &[u8]) -> &[u8] {
-    let start = cell.iter().position(|c| !c.is_ascii_whitespace());
-    let Some(start) = start else { return &[] };
-    let end = cell
-        .iter()
-        .rposition(|c| !c.is_ascii_whitespace())
-        .unwrap_or(start);
-    let cell = &cell[start..=end];
-    if cell.len() >= 2 && cell[0] == b'"' && cell[cell.len() - 1] == b'"' {
-        &cell[1..cell.len() - 1]
-    } else {
-        cell
-    }
-}
-
-fn shorten(cell: &[u8]) -> String {
-    let s = String::from_utf8_lossy(cell);
-    if s.chars().count() > 40 {
-        let head: String = s.chars().take(37).collect();
-        format!("{head}...")
-    } else {
-        s.into_owned()
-    }
-}
-
-/// Split a line into field byte ranges. Double-quoted fields may hold the delimiter.
-pub(crate) fn split_fields(text: &[u8], delimiter: u8, out: &mut Vec<(usize, usize)>) {
-    out.clear();
-    if memchr::memchr(b'"', text).is_none() {
-        let mut start = 0;
-        for i in memchr::memchr_iter(delimiter, text) {
-            out.push((start, i));
-            start = i + 1;
-        }
-        out.push((start, text.len()));
-        return;
-    }
-    let mut start = 0;
-    let mut in_quotes = false;
-    for (i, &c) in text.iter().enumerate() {
-        if c == b'"' {
-            in_quotes = !in_quotes;
-        } else if c == delimiter && !in_quotes {
-            out.push((start, i));
-            start = i + 1;
-        }
-    }
-    out.push((start, text.len()));
 }
 
 #[cfg(test)]

@@ -1,4 +1,5 @@
-//! Field units of DESIGN §4 and their exact conversion to nanotesla.
+//! Field units of sweep logs and plans (listed in `docs/formats.md`) and their exact
+//! conversion to nanotesla.
 //!
 //! Every factor is an exact power of ten (1 G = 10⁻⁴ T = 100 000 nT, 1 mG = 100 nT,
 //! 1 µT = 1 000 nT), so integer readings convert without rounding.
@@ -61,7 +62,7 @@ impl fmt::Display for FieldUnit {
     }
 }
 
-/// The text was not one of the field units of DESIGN §4.
+/// The text was not one of the field units listed in `docs/formats.md`.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 #[error("unknown field unit \"{0}\" (expected one of T, mT, uT, µT, nT, G, mG)")]
 pub struct UnknownUnit(pub String);

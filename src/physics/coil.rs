@@ -5,7 +5,7 @@
 //!   Electrodynamics*, 4th ed., Example 5.6):
 //!   B_z = μ0 N I R² / (2 (R² + z²)^(3/2)), along the axis, right-handed about the current.
 //! - Helmholtz pair (two such coils, coaxial, spaced R apart), field at the centre:
-//!   B = (4/5)^(3/2) μ0 N I / R (DESIGN §8).
+//!   B = (4/5)^(3/2) μ0 N I / R (see `docs/geomagnetic.md`, Coil fields).
 //!
 //! μ0 = 4π × 1e-7 T·m/A (the pre-2019 exact value; the SI 2019 value differs by 5.5e-10
 //! relative). Results in nT. A geometry with a non-positive or non-finite radius gives

@@ -1,4 +1,5 @@
-//! Frames and rotations (DESIGN §3): sensor (S), body (B), lab/table (L), cage (C).
+//! Frames and rotations: sensor (S), body (B), lab/table (L), cage (C); how plans write
+//! them is in `docs/formats.md` (Rotations).
 //!
 //! A rotation named `a_to_b` maps a vector's coordinates in frame a to frame b:
 //! `v_b = a_to_b * v_a`. Plans may write a rotation as axis shorthand, a list of three

@@ -16,7 +16,6 @@ use serde::Serialize;
 use time::Date;
 
 use super::igrf::{coefficients_on, igrf_field, GeomagError, REFERENCE_RADIUS_KM};
-use crate::log::plan::Site;
 
 /// Equatorial dipole field at the reference radius, B0 = √(g10² + g11² + h11²), nT,
 /// from the IGRF-14 coefficients on `date`.
@@ -135,6 +134,23 @@ pub enum ReferenceSource {
     Igrf14,
 }
 
+/// A test site as the geomagnetic model needs it: geodetic position, date, and an
+/// optional measured field magnitude that overrides the model. (The plan's `[site]`
+/// table is read into this by the plan reader.)
+#[derive(Debug, Clone, PartialEq)]
+pub struct GeoSite {
+    /// Geodetic latitude, deg (−90..90).
+    pub lat_deg: f64,
+    /// Longitude, deg east.
+    pub lon_deg: f64,
+    /// Altitude above the WGS-84 ellipsoid, m.
+    pub alt_m: f64,
+    /// Date of the test (the model's epoch); needed unless `reference_nt` is given.
+    pub date: Option<Date>,
+    /// Measured reference field magnitude, nT; overrides the model when given.
+    pub reference_nt: Option<f64>,
+}
+
 /// The reference field magnitude of a test site.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SiteReference {
@@ -145,10 +161,10 @@ pub struct SiteReference {
 }
 
 /// Reference field magnitude for a tumble calibration at `site`: its `reference_nt` if
-/// the plan gives one (DESIGN §5: the plan beats the model), else IGRF-14 at its
-/// latitude, longitude, altitude and date. A site without either a reference or a date
-/// is refused, naming `[site] date`.
-pub fn site_reference(site: &Site) -> Result<SiteReference, GeomagError> {
+/// the plan gives one (the plan beats the model, see `docs/geomagnetic.md`), else
+/// IGRF-14 at its latitude, longitude, altitude and date. A site without either a
+/// reference or a date is refused, naming `[site] date`.
+pub fn site_reference(site: &GeoSite) -> Result<SiteReference, GeomagError> {
     if let Some(total_nt) = site.reference_nt {
         if !(total_nt.is_finite() && total_nt > 0.0) {
             return Err(GeomagError::Site(format!(

@@ -165,8 +165,8 @@ fn bad_orbits_are_refused() {
     assert!(orbit_field_nt(500.0, 50.0, date!(2031 - 01 - 01)).is_err());
 }
 
-fn site(reference_nt: Option<f64>, date: Option<Date>) -> Site {
-    Site {
+fn site(reference_nt: Option<f64>, date: Option<Date>) -> GeoSite {
+    GeoSite {
         lat_deg: 47.0,
         lon_deg: 8.0,
         alt_m: 400.0,

@@ -82,7 +82,8 @@ pub enum GeomagError {
     Table(String),
 }
 
-/// The geomagnetic main field at a site: the `field` result of DESIGN §7.
+/// The geomagnetic main field at a site: the result of `magproof field` (its JSON keys
+/// are listed in `docs/geomagnetic.md`).
 ///
 /// Components are relative to the WGS-84 ellipsoid at the site (geodetic north, east,
 /// and down along the ellipsoid normal).

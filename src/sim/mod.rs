@@ -4,6 +4,7 @@ pub mod cage;
 pub mod dipole;
 pub mod polarity;
 pub mod tumble;
+pub mod workload;
 
 pub use cage::{simulate_cage, write_cage_csv, CageConfig, CageGrid, CageSim, CageTruth};
 pub use tumble::{

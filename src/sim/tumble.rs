@@ -206,7 +206,7 @@ pub fn simulate_tumble(cfg: &TumbleConfig, seed: u64) -> Result<TumbleSim, Error
     })
 }
 
-/// Write a simulated tumble as a sweep log (DESIGN §4): `t [s], bx [nT], by [nT],
+/// Write a simulated tumble as a sweep log (`docs/formats.md`): `t [s], bx [nT], by [nT],
 /// bz [nT]` and `temp [degC]` when simulated, with a comment line naming the seed.
 pub fn write_tumble_csv(sim: &TumbleSim, mut out: impl Write) -> std::io::Result<()> {
     writeln!(

@@ -1,5 +1,5 @@
 //! `magproof closeout`: every step of a plan, one ledger record per step, history across
-//! builds (issue 7). Logs come from the simulators with fixed seeds; the plan is written
+//! builds. Logs come from the simulators with fixed seeds; the plan is written
 //! here so that the geometry matches what was simulated.
 
 use crate::util::TestDir;
@@ -223,7 +223,7 @@ fn single_checks_record_only_when_asked() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
-    assert!(!ledger.exists(), "no --record, no ledger (DESIGN §6)");
+    assert!(!ledger.exists(), "no --record, no ledger");
     let out = run(&["--record"]);
     assert_eq!(
         out.status.code(),

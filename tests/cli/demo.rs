@@ -1,7 +1,7 @@
 //! `magproof demo`: the bundled scenario runs from an empty folder and tells its story —
 //! B1's y rod reversed, B2 passing, B3's dipole jump flagged by history — and exits 0.
 
-use super::util::{assert_code, assert_stderr_has, magproof, Dir};
+use super::util::{assert_code, assert_stderr_has, json_stdout, stdout, TestDir};
 use serde_json::Value;
 
 fn json_file(path: &std::path::Path) -> Value {
@@ -20,8 +20,8 @@ fn step<'a>(closeout: &'a Value, kind: &str) -> &'a Value {
 
 #[test]
 fn demo_tells_the_three_build_story_and_exits_0() {
-    let d = Dir::new();
-    let run = magproof(&d, &["demo"]);
+    let d = TestDir::new();
+    let run = d.run(&["demo"]);
     assert_code(&run, 0);
     // Default output: one new magproof-demo-<time> folder in the current one.
     let made: Vec<_> = std::fs::read_dir(d.path())
@@ -63,17 +63,17 @@ fn demo_tells_the_three_build_story_and_exits_0() {
     assert_eq!(json_file(&reports.join("tmr-0207-b1/result.json")), b1);
 
     // B3: the dipole jump is flagged significant by history, against B2.
-    let hist = magproof(
-        &d,
-        &[
-            "history",
-            "--ledger",
-            out.join("ledger.db").to_str().unwrap(),
-            "--json",
-        ],
-    );
+    let hist = d.run(&[
+        "history",
+        "--ledger",
+        out.join("ledger.db").to_str().unwrap(),
+        "--json",
+    ]);
     assert_code(&hist, 0);
-    let changes = hist.json()["changes"].as_array().expect("changes").clone();
+    let changes = json_stdout(&hist)["changes"]
+        .as_array()
+        .expect("changes")
+        .clone();
     let flag = |q: &str, from: &str, to: &str| -> String {
         changes
             .iter()
@@ -97,18 +97,18 @@ fn demo_tells_the_three_build_story_and_exits_0() {
         "ledger.db",
     ] {
         assert!(
-            run.stdout.contains(part),
+            stdout(&run).contains(part),
             "stdout lacks {part:?}:\n{}",
-            run.stdout
+            stdout(&run)
         );
     }
 }
 
 #[test]
 fn demo_refuses_an_occupied_folder_without_force() {
-    let d = Dir::new();
+    let d = TestDir::new();
     d.write("busy/keep.txt", "mine");
-    let run = magproof(&d, &["demo", "--out", "busy"]);
+    let run = d.run(&["demo", "--out", "busy"]);
     assert_code(&run, 2);
     assert_stderr_has(&run, &["not empty", "--force"]);
     assert_eq!(

@@ -1,5 +1,5 @@
 //! `magproof dipole`: simulated logs with known moments through the binary; exit codes,
-//! the JSON contract (DESIGN §7) and the terminal summary.
+//! the JSON keys of `docs/dipole.md` and the terminal summary.
 
 use serde::Deserialize;
 

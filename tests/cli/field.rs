@@ -1,4 +1,4 @@
-//! `magproof field`: the IGRF-14 reference at a site, JSON keys of DESIGN §7, refusals.
+//! `magproof field`: the IGRF-14 reference at a site, JSON keys of `docs/geomagnetic.md`, refusals.
 
 use serde::Deserialize;
 

@@ -1,4 +1,4 @@
-//! `magproof polarity`: verdicts, exit codes, JSON keys of DESIGN §7, parameter files and
+//! `magproof polarity`: verdicts, exit codes, JSON keys of `docs/polarity.md`, parameter files and
 //! refusals, on logs simulated from the dipole field (`magproof::sim::polarity`).
 
 use std::path::PathBuf;

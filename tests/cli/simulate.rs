@@ -2,7 +2,7 @@
 //! recovers the simulator's truth within the uncertainty it reports (the round trip).
 //! The truth is known by construction, so the comparison is independent of the fit.
 
-use super::util::{assert_code, assert_stderr_has, magproof, Dir};
+use super::util::{assert_code, assert_stderr_has, json_stdout, TestDir};
 use serde_json::Value;
 
 /// Numbers of a JSON array (panics on a wrong shape: a test failure, not user data).
@@ -35,8 +35,8 @@ fn assert_within(what: &str, fit: &Value, sigma: &Value, truth: &Value) {
     }
 }
 
-fn simulate(dir: &Dir, args: &[&str]) -> Value {
-    let run = magproof(dir, args);
+fn simulate(dir: &TestDir, args: &[&str]) -> Value {
+    let run = dir.run(args);
     assert_code(&run, 0);
     let out = args
         .iter()
@@ -49,7 +49,7 @@ fn simulate(dir: &Dir, args: &[&str]) -> Value {
 
 #[test]
 fn tumble_round_trip_recovers_hard_and_soft_iron() {
-    let d = Dir::new();
+    let d = TestDir::new();
     let t = simulate(
         &d,
         &[
@@ -73,18 +73,15 @@ fn tumble_round_trip_recovers_hard_and_soft_iron() {
             "49500",
         ],
     );
-    let run = magproof(
-        &d,
-        &[
-            "calibrate",
-            "t/tumble.csv",
-            "--plan",
-            "t/plan.toml",
-            "--json",
-        ],
-    );
+    let run = d.run(&[
+        "calibrate",
+        "t/tumble.csv",
+        "--plan",
+        "t/plan.toml",
+        "--json",
+    ]);
     assert_code(&run, 0);
-    let r = run.json();
+    let r = json_stdout(&run);
     assert_eq!(r["reference_nt"].as_f64(), Some(49_500.0));
     let truth = &t["truth"];
     assert_within(
@@ -110,7 +107,7 @@ fn tumble_round_trip_recovers_hard_and_soft_iron() {
 
 #[test]
 fn cage_round_trip_recovers_the_full_correction() {
-    let d = Dir::new();
+    let d = TestDir::new();
     let t = simulate(
         &d,
         &[
@@ -124,12 +121,9 @@ fn cage_round_trip_recovers_the_full_correction() {
             "-400,700,1200",
         ],
     );
-    let run = magproof(
-        &d,
-        &["calibrate", "c/cage.csv", "--plan", "c/plan.toml", "--json"],
-    );
+    let run = d.run(&["calibrate", "c/cage.csv", "--plan", "c/plan.toml", "--json"]);
     assert_code(&run, 0);
-    let r = run.json();
+    let r = json_stdout(&run);
     let truth = &t["truth"];
     assert_within(
         "hard iron",
@@ -148,7 +142,7 @@ fn cage_round_trip_recovers_the_full_correction() {
 
 #[test]
 fn polarity_round_trip_finds_the_reversed_rod_and_the_couplings() {
-    let d = Dir::new();
+    let d = TestDir::new();
     let t = simulate(
         &d,
         &[
@@ -164,18 +158,15 @@ fn polarity_round_trip_finds_the_reversed_rod_and_the_couplings() {
             "0.05",
         ],
     );
-    let run = magproof(
-        &d,
-        &[
-            "polarity",
-            "p/pulses.csv",
-            "--plan",
-            "p/plan.toml",
-            "--json",
-        ],
-    );
+    let run = d.run(&[
+        "polarity",
+        "p/pulses.csv",
+        "--plan",
+        "p/plan.toml",
+        "--json",
+    ]);
     assert_code(&run, 1);
-    let r = run.json();
+    let r = json_stdout(&run);
     assert_eq!(r["pass"], Value::Bool(false));
     for (fit, truth) in r["rods"]
         .as_array()
@@ -197,25 +188,22 @@ fn polarity_round_trip_finds_the_reversed_rod_and_the_couplings() {
 
 #[test]
 fn polarity_swapped_rods_are_wrong_axis() {
-    let d = Dir::new();
+    let d = TestDir::new();
     let t = simulate(
         &d,
         &[
             "simulate", "polarity", "--seed", "14", "--out", "p", "--swap", "x,z",
         ],
     );
-    let run = magproof(
-        &d,
-        &[
-            "polarity",
-            "p/pulses.csv",
-            "--plan",
-            "p/plan.toml",
-            "--json",
-        ],
-    );
+    let run = d.run(&[
+        "polarity",
+        "p/pulses.csv",
+        "--plan",
+        "p/plan.toml",
+        "--json",
+    ]);
     assert_code(&run, 1);
-    let r = run.json();
+    let r = json_stdout(&run);
     let verdicts: Vec<&str> = r["rods"]
         .as_array()
         .unwrap()
@@ -235,7 +223,7 @@ fn polarity_swapped_rods_are_wrong_axis() {
 #[test]
 fn dipole_round_trip_recovers_the_moment_turntable_and_static() {
     for method in ["turntable", "static"] {
-        let d = Dir::new();
+        let d = TestDir::new();
         let t = simulate(
             &d,
             &[
@@ -254,9 +242,9 @@ fn dipole_round_trip_recovers_the_moment_turntable_and_static() {
             ],
         );
         let log = format!("m/{}", t["log"].as_str().unwrap());
-        let run = magproof(&d, &["dipole", &log, "--plan", "m/plan.toml", "--json"]);
+        let run = d.run(&["dipole", &log, "--plan", "m/plan.toml", "--json"]);
         assert_code(&run, 0);
-        let r = run.json();
+        let r = json_stdout(&run);
         assert_within(
             &format!("{method} moment"),
             &r["moment_body_am2"],
@@ -268,7 +256,7 @@ fn dipole_round_trip_recovers_the_moment_turntable_and_static() {
 
 #[test]
 fn same_seed_same_bytes_and_an_occupied_folder_is_refused() {
-    let d = Dir::new();
+    let d = TestDir::new();
     simulate(
         &d,
         &[
@@ -300,64 +288,52 @@ fn same_seed_same_bytes_and_an_occupied_folder_is_refused() {
         let b = std::fs::read(d.join("b").join(f)).unwrap();
         assert!(a == b, "{f} differs between two runs with the same seed");
     }
-    let again = magproof(&d, &["simulate", "tumble", "--seed", "4", "--out", "a"]);
+    let again = d.run(&["simulate", "tumble", "--seed", "4", "--out", "a"]);
     assert_code(&again, 2);
     assert_stderr_has(&again, &["not empty", "--force"]);
-    let forced = magproof(
-        &d,
-        &["simulate", "tumble", "--seed", "4", "--out", "a", "--force"],
-    );
+    let forced = d.run(&["simulate", "tumble", "--seed", "4", "--out", "a", "--force"]);
     assert_code(&forced, 0);
 }
 
 #[test]
 fn bad_options_are_usage_errors() {
-    let d = Dir::new();
-    let r = magproof(
-        &d,
-        &[
-            "simulate",
-            "polarity",
-            "--seed",
-            "1",
-            "--out",
-            "p",
-            "--reverse",
-            "w",
-        ],
-    );
+    let d = TestDir::new();
+    let r = d.run(&[
+        "simulate",
+        "polarity",
+        "--seed",
+        "1",
+        "--out",
+        "p",
+        "--reverse",
+        "w",
+    ]);
     assert_code(&r, 2);
     assert_stderr_has(&r, &["no rod named"]);
     assert!(
         !d.join("p").exists(),
         "a refused run must not leave a folder behind"
     );
-    let r = magproof(
-        &d,
-        &[
-            "simulate",
-            "tumble",
-            "--seed",
-            "1",
-            "--out",
-            "t",
-            "--soft-iron",
-            "1,1",
-        ],
-    );
+    let r = d.run(&[
+        "simulate",
+        "tumble",
+        "--seed",
+        "1",
+        "--out",
+        "t",
+        "--soft-iron",
+        "1,1",
+    ]);
     assert_code(&r, 2);
-    let r = magproof(
-        &d,
-        &[
-            "simulate",
-            "tumble",
-            "--seed",
-            "1",
-            "--out",
-            "t",
-            "--outlier-rate",
-            "2",
-        ],
-    );
+    let r = d.run(&[
+        "simulate",
+        "tumble",
+        "--seed",
+        "1",
+        "--out",
+        "t",
+        "--outlier-rate",
+        "2",
+    ]);
     assert_code(&r, 2);
 }

@@ -9,116 +9,6 @@ use std::process::Output;
 use assert_cmd::Command;
 
 /// A temporary folder that lives as long as the test.
-pub struct Dir {
-    tmp: tempfile::TempDir,
-}
-
-impl Dir {
-    /// A fresh, empty folder.
-    pub fn new() -> Self {
-        Dir {
-            tmp: tempfile::tempdir().expect("create a temporary folder"),
-        }
-    }
-
-    /// Path of the folder.
-    pub fn path(&self) -> &Path {
-        self.tmp.path()
-    }
-
-    /// Path of a file in the folder.
-    pub fn join(&self, name: &str) -> PathBuf {
-        self.tmp.path().join(name)
-    }
-
-    /// Write a text file and return its path.
-    pub fn write(&self, name: &str, text: &str) -> PathBuf {
-        self.write_bytes(name, text.as_bytes())
-    }
-
-    /// Write a file of bytes and return its path.
-    pub fn write_bytes(&self, name: &str, bytes: &[u8]) -> PathBuf {
-        let p = self.join(name);
-        if let Some(parent) = p.parent() {
-            std::fs::create_dir_all(parent).expect("create fixture folder");
-        }
-        std::fs::write(&p, bytes).expect("write fixture");
-        p
-    }
-
-    /// A command for the binary, run in this folder, with a ledger path inside it.
-    pub fn cmd(&self) -> Command {
-        let mut c = Command::cargo_bin("magproof").expect("binary built");
-        c.current_dir(self.path());
-        c.env("MAGPROOF_LEDGER", self.join("ledger.db"));
-        c.env("NO_COLOR", "1");
-        c
-    }
-}
-
-/// What a run of the binary gave.
-pub struct Run {
-    /// Exit code (-1 if killed by a signal).
-    pub code: i32,
-    /// Standard output.
-    pub stdout: String,
-    /// Standard error.
-    pub stderr: String,
-}
-
-impl Run {
-    /// Parse stdout as exactly one JSON object.
-    pub fn json(&self) -> serde_json::Value {
-        let v: serde_json::Value = serde_json::from_str(self.stdout.trim()).unwrap_or_else(|e| {
-            panic!(
-                "stdout is not one JSON object ({e}):\n{}\nstderr:\n{}",
-                self.stdout, self.stderr
-            )
-        });
-        assert!(v.is_object(), "stdout JSON is not an object: {v}");
-        v
-    }
-}
-
-/// Run a command to completion.
-pub fn run(mut cmd: Command) -> Run {
-    let out: Output = cmd.output().expect("run magproof");
-    Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
-    }
-}
-
-/// Run `magproof ARGS…` in `dir`.
-pub fn magproof(dir: &Dir, args: &[&str]) -> Run {
-    let mut c = dir.cmd();
-    c.args(args);
-    run(c)
-}
-
-/// Assert an exit code, showing both streams when it differs.
-pub fn assert_code(run: &Run, code: i32) {
-    assert_eq!(
-        run.code, code,
-        "unexpected exit code\n--- stdout\n{}\n--- stderr\n{}",
-        run.stdout, run.stderr
-    );
-}
-
-/// Assert that stderr holds every one of `parts`.
-pub fn assert_stderr_has(run: &Run, parts: &[&str]) {
-    for p in parts {
-        assert!(
-            run.stderr.contains(p),
-            "stderr lacks {p:?}\n--- stderr\n{}",
-            run.stderr
-        );
-    }
-}
-
-// ---- helpers in the style some theme modules use ---------------------------------
-/// A temporary folder that lives as long as the test.
 pub struct TestDir {
     dir: tempfile::TempDir,
 }
@@ -141,7 +31,8 @@ impl TestDir {
         self.dir.path().join(name)
     }
 
-    /// Write a file inside the folder and return its path.
+    /// Write a file (text or bytes) inside the folder, creating its parent folders, and
+    /// return its path.
     pub fn write(&self, name: &str, contents: impl AsRef<[u8]>) -> PathBuf {
         let p = self.join(name);
         if let Some(parent) = p.parent() {
@@ -158,13 +49,61 @@ impl TestDir {
         cmd.current_dir(self.path()).env_remove("MAGPROOF_LEDGER");
         cmd
     }
+
+    /// Run `magproof ARGS…` in this folder to completion.
+    pub fn run(&self, args: &[&str]) -> Output {
+        self.magproof().args(args).output().expect("run magproof")
+    }
 }
 
-/// Parse stdout as exactly one JSON value.
-pub fn json_stdout(out: &std::process::Output) -> serde_json::Value {
-    let text = String::from_utf8_lossy(&out.stdout);
-    serde_json::from_str(&text)
-        .unwrap_or_else(|e| panic!("stdout is not one JSON object: {e}\n{text}"))
+/// Standard output of a finished command, as text.
+pub fn stdout(out: &Output) -> String {
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+/// Standard error of a finished command, as text.
+pub fn stderr(out: &Output) -> String {
+    String::from_utf8_lossy(&out.stderr).into_owned()
+}
+
+/// Parse stdout as exactly one JSON object.
+pub fn json_stdout(out: &Output) -> serde_json::Value {
+    let text = stdout(out);
+    let v: serde_json::Value = serde_json::from_str(text.trim()).unwrap_or_else(|e| {
+        panic!(
+            "stdout is not one JSON object ({e}):\n{text}\nstderr:\n{}",
+            stderr(out)
+        )
+    });
+    assert!(v.is_object(), "stdout JSON is not an object: {v}");
+    v
+}
+
+/// Assert an exit code, showing both streams when it differs.
+pub fn assert_code(out: &Output, code: i32) {
+    assert_eq!(
+        out.status.code(),
+        Some(code),
+        "unexpected exit code\n--- stdout\n{}\n--- stderr\n{}",
+        stdout(out),
+        stderr(out)
+    );
+}
+
+/// Assert that stderr holds every one of `parts`.
+pub fn assert_stderr_has(out: &Output, parts: &[&str]) {
+    let err = stderr(out);
+    for p in parts {
+        assert!(err.contains(p), "stderr lacks {p:?}\n--- stderr\n{err}");
+    }
+}
+
+/// A file under tests/data.
+pub fn data(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests")
+        .join("data")
+        .join(name)
 }
 
 // ---- headless browser -------------------------------------------------------------
@@ -247,45 +186,4 @@ pub fn png_ink(png: &Path) -> (f64, usize) {
         colours.insert((r >> 5, g >> 5, b >> 5));
     }
     (inked as f64 / total.max(1) as f64, colours.len())
-}
-
-/// Standard output of a finished command, as text.
-pub fn stdout(out: &std::process::Output) -> String {
-    String::from_utf8_lossy(&out.stdout).into_owned()
-}
-
-/// Standard error of a finished command, as text.
-pub fn stderr(out: &std::process::Output) -> String {
-    String::from_utf8_lossy(&out.stderr).into_owned()
-}
-
-/// The `magproof` binary as an assert_cmd command, run wherever the test runs.
-pub fn bin() -> Command {
-    Command::cargo_bin("magproof").expect("binary built")
-}
-
-/// A fresh temporary folder, removed when dropped.
-pub fn temp_dir() -> tempfile::TempDir {
-    tempfile::tempdir().expect("temp dir")
-}
-
-/// A file under tests/data.
-pub fn data(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests")
-        .join("data")
-        .join(name)
-}
-
-/// Write `text` to `dir/name` and return the path.
-pub fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, text).expect("write test file");
-    p
-}
-
-/// Parse stdout as exactly one JSON object.
-pub fn json_of(out: &std::process::Output) -> serde_json::Value {
-    let s = String::from_utf8_lossy(&out.stdout);
-    serde_json::from_str(&s).unwrap_or_else(|e| panic!("stdout is not one JSON object: {e}\n{s}"))
 }

@@ -421,7 +421,7 @@ struct Ctx<'a> {
 /// The reference magnitude from a plan's `[site]` through the geomagnetic model
 /// (IGRF-14 total field at the site's latitude, longitude, altitude and date).
 fn reference_from_site(site: &Site) -> Result<f64, Error> {
-    Ok(crate::physics::geomag::site_reference(site)?.total_nt)
+    Ok(crate::physics::geomag::site_reference(&site.geo_site())?.total_nt)
 }
 
 /// Flag, else plan `[site] reference_nt`, else the plan's site through the model,

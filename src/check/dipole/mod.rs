@@ -32,9 +32,9 @@ use crate::check::CheckRequest;
 use crate::fit::dipole::{
     fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
 };
-use crate::log::saturation::without_rows;
 use crate::log::{LogError, Plan, Shown, SweepLog};
 use crate::physics::frames::rotation_z;
+use crate::screen::saturation::without_rows;
 use crate::Error;
 
 mod background;

@@ -1,5 +1,5 @@
 //! Dipole fit: the body-frame moment of a point dipole from field samples taken at known
-//! probe positions and article orientations (DESIGN §8).
+//! probe positions and article orientations (method: `docs/dipole.md`).
 //!
 //! Model, for sample i (table frame L; the probe's axes are parallel to the table's):
 //!

@@ -1,6 +1,6 @@
 #!/usr/bin/env python3
 """Reference values for magproof's calibration tests, computed once with general-purpose
-libraries and stored as test data (DESIGN §9).
+libraries and stored as test data.
 
 Writes, into tests/data/:
   calib_tumble.csv     a synthetic tumble log (t, bx, by, bz in nT), generated with numpy

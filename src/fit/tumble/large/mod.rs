@@ -42,9 +42,12 @@ use super::lanes::{
 };
 use super::problem::{CHUNK, MAX_P};
 use super::{sym_from_params, TUKEY_C};
-use crate::fit::coverage::{cell_index, DirectionSpread, DirectionSums, ALL_CELLS};
+use crate::fit::coverage::{DirectionSpread, DirectionSums};
 use crate::fit::robust::median_and_sigma_near;
 use crate::fit::samples::FieldSamples;
+
+mod spread;
+use spread::SpreadLanes;
 
 /// Stop when the step is below this fraction of the parameters' standard error.
 pub(super) const STEP_TOL: f64 = 1e-2;
@@ -158,67 +161,6 @@ struct Want {
     newton: bool,
     /// The kept samples' unweighted JᵀJ, and the spread of their corrected directions.
     kept: bool,
-}
-
-/// Sums of the corrected directions v̂ of the kept samples, lane by lane, and the
-/// cells they hit (see [`crate::fit::coverage`]).
-struct SpreadLanes {
-    /// Σ v̂ v̂ᵀ: xx yy zz xy xz yz.
-    scatter: [L2; 6],
-    /// Σ v̂.
-    sum: [L2; 3],
-    hit: u64,
-    n: usize,
-}
-
-impl Default for SpreadLanes {
-    fn default() -> Self {
-        let zero = L2::splat(0.0);
-        SpreadLanes {
-            scatter: [zero; 6],
-            sum: [zero; 3],
-            hit: 0,
-            n: 0,
-        }
-    }
-}
-
-impl SpreadLanes {
-    /// Add the lanes of `vh` that `m` selects.
-    #[inline(always)]
-    fn add(&mut self, m: Mask2, vh: [L2; 3]) {
-        let zero = L2::splat(0.0);
-        let [x, y, z] = vh.map(|c| L2::select(m, c, zero));
-        let s = &mut self.scatter;
-        s[0] = s[0] + x * x;
-        s[1] = s[1] + y * y;
-        s[2] = s[2] + z * z;
-        s[3] = s[3] + x * y;
-        s[4] = s[4] + x * z;
-        s[5] = s[5] + y * z;
-        self.sum[0] = self.sum[0] + x;
-        self.sum[1] = self.sum[1] + y;
-        self.sum[2] = self.sum[2] + z;
-        for l in 0..LANES {
-            if m.0[l] != 0 {
-                self.n += 1;
-                // Once every cell is hit, no later sample changes that.
-                if self.hit != ALL_CELLS {
-                    self.hit |= 1 << cell_index(x.0[l], y.0[l], z.0[l]);
-                }
-            }
-        }
-    }
-
-    fn sums(&self) -> DirectionSums {
-        let lanes = |v: L2| v.0[0] + v.0[1];
-        DirectionSums::from_parts(
-            self.hit,
-            self.scatter.map(lanes),
-            self.sum.map(lanes),
-            self.n,
-        )
-    }
 }
 
 /// One pass's fixed inputs.
@@ -410,22 +352,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         sum_sq_w: &mut [f64; LANES],
     ) -> usize {
         let len = rs.len();
-        // d = b − c − k τ per axis; zero past the end of the block.
-        let mut d = [[[0.0; LANES]; GROUPS]; 3];
-        let mut tau = [[0.0; LANES]; GROUPS];
-        for kk in 0..len {
-            let bi = self.samples_nt.at(first + kk);
-            let (g, l) = (kk / LANES, kk % LANES);
-            let t = if NP == 12 {
-                ts.and_then(|t| t.get(kk)).copied().unwrap_or(0.0)
-            } else {
-                0.0
-            };
-            tau[g][l] = t;
-            for i in 0..3 {
-                d[i][g][l] = bi[i] - self.c[i] - self.k[i] * t;
-            }
-        }
+        let (d, tau) = self.block_offsets::<NP>(first, len, ts);
         let w = &self.w;
         let zero = L2::splat(0.0);
         let one = L2::splat(1.0);
@@ -473,17 +400,7 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
             wrb[g] = wr.0;
             ssw = ssw + L2::select(keep, wr * r, zero);
             let t = L2(tau[g]);
-            let mut j = [zero; MAX_P];
-            for i in 0..3 {
-                j[i] = zero - wv[i];
-                j[9 + i] = (zero - wv[i]) * t;
-            }
-            j[3] = vh[0] * dv[0];
-            j[4] = vh[1] * dv[1];
-            j[5] = vh[2] * dv[2];
-            j[6] = vh[0] * dv[1] + vh[1] * dv[0];
-            j[7] = vh[0] * dv[2] + vh[2] * dv[0];
-            j[8] = vh[1] * dv[2] + vh[2] * dv[1];
+            let j = lane_jacobian(vh, dv, wv, t);
             if KEPT {
                 // v̂ = 0 (n = 0) has no direction and is not counted.
                 spread.add(keep.and(n.gt(zero)), vh);
@@ -499,15 +416,75 @@ impl<'a, S: FieldSamples + ?Sized> PassCtx<'a, S> {
         }
         sum_sq_w[0] += ssw.0[0];
         sum_sq_w[1] += ssw.0[1];
-        let mut count = 0;
-        for (kk, (ri, wi)) in rs.iter_mut().zip(ws.iter_mut()).enumerate() {
-            let (g, l) = (kk / LANES, kk % LANES);
-            *ri = r_out[g][l];
-            *wi = w_out[g][l];
-            count += kept[g][l] as usize;
-        }
-        count
+        write_back(rs, ws, &r_out, &w_out, &kept)
     }
+
+    /// d = b − c − k τ per axis (nT) and τ (°C) of the `len` samples from `first`, laid
+    /// out by lane group; zero past the end of the block.
+    #[inline(always)]
+    #[allow(clippy::type_complexity)]
+    fn block_offsets<const NP: usize>(
+        &self,
+        first: usize,
+        len: usize,
+        ts: Option<&[f64]>,
+    ) -> ([[[f64; LANES]; GROUPS]; 3], [[f64; LANES]; GROUPS]) {
+        // d = b − c − k τ per axis; zero past the end of the block.
+        let mut d = [[[0.0; LANES]; GROUPS]; 3];
+        let mut tau = [[0.0; LANES]; GROUPS];
+        for kk in 0..len {
+            let bi = self.samples_nt.at(first + kk);
+            let (g, l) = (kk / LANES, kk % LANES);
+            let t = if NP == 12 {
+                ts.and_then(|t| t.get(kk)).copied().unwrap_or(0.0)
+            } else {
+                0.0
+            };
+            tau[g][l] = t;
+            for i in 0..3 {
+                d[i][g][l] = bi[i] - self.c[i] - self.k[i] * t;
+            }
+        }
+        (d, tau)
+    }
+}
+
+/// The Jacobian row of two samples at once: ∂r/∂c = −W v̂, ∂r/∂W from v̂ and d, and
+/// ∂r/∂k = −W v̂ τ (the last three used only with temperature).
+#[inline(always)]
+fn lane_jacobian(vh: [L2; 3], dv: [L2; 3], wv: [L2; 3], t: L2) -> [L2; MAX_P] {
+    let zero = L2::splat(0.0);
+    let mut j = [zero; MAX_P];
+    for i in 0..3 {
+        j[i] = zero - wv[i];
+        j[9 + i] = (zero - wv[i]) * t;
+    }
+    j[3] = vh[0] * dv[0];
+    j[4] = vh[1] * dv[1];
+    j[5] = vh[2] * dv[2];
+    j[6] = vh[0] * dv[1] + vh[1] * dv[0];
+    j[7] = vh[0] * dv[2] + vh[2] * dv[0];
+    j[8] = vh[1] * dv[2] + vh[2] * dv[1];
+    j
+}
+
+/// Store the block's residuals (nT) and weights; returns the number kept.
+#[inline(always)]
+fn write_back(
+    rs: &mut [f64],
+    ws: &mut [f64],
+    r_out: &[[f64; LANES]; GROUPS],
+    w_out: &[[f64; LANES]; GROUPS],
+    kept: &[[bool; LANES]; GROUPS],
+) -> usize {
+    let mut count = 0;
+    for (kk, (ri, wi)) in rs.iter_mut().zip(ws.iter_mut()).enumerate() {
+        let (g, l) = (kk / LANES, kk % LANES);
+        *ri = r_out[g][l];
+        *wi = w_out[g][l];
+        count += kept[g][l] as usize;
+    }
+    count
 }
 
 #[cfg(test)]

@@ -85,17 +85,7 @@ fn the_tiled_pass_sums_what_a_plain_loop_sums() {
             let m = t.iter().sum::<f64>() / t.len() as f64;
             t.iter().map(|x| x - m).collect()
         });
-        // Parameters near the truth (W = soft iron, c = hard iron, k = slopes).
-        let w = cfg.soft_iron;
-        let mut p: Vec<f64> = (cfg.hard_iron_nt + Vector3::new(3.0, -2.0, 1.0))
-            .iter()
-            .copied()
-            .collect();
-        p.extend(super::super::SYM_INDEX.iter().map(|&(i, j)| w[(i, j)]));
-        if np == 12 {
-            p.extend(cfg.temp_slope_nt_per_c.iter().map(|k| k * 0.9));
-        }
-        let p = DVector::from_vec(p);
+        let p = start_params(&cfg, np);
         let sigma = 3.0 * cfg.noise_nt;
         for len in [1, 7, 63, 1000] {
             let t = tdev.as_deref().map(|t| &t[..len]);
@@ -116,60 +106,101 @@ fn the_tiled_pass_sums_what_a_plain_loop_sums() {
                 ctx.chunk::<9, true, true>(0, &mut res, &mut wts)
             };
             let tag = |what: &str| format!("np {np}, {len} samples: {what}");
-            for i in 0..len {
-                let (r, w) = (want.residuals[i], want.weights[i]);
-                if r.is_nan() {
-                    assert!(res[i].is_nan() && wts[i] == 0.0, "{}", tag("NaN sample"));
-                } else {
-                    close(res[i], r, cfg.reference_nt, &tag("residual"));
-                    close(wts[i], w, 1.0, &tag("weight"));
-                }
-            }
-            assert_eq!(got.count, want.count, "{}", tag("count"));
-            close(got.sum_sq_w, want.sum_sq_w, want.sum_sq_w, &tag("Σwr²"));
-            for a in 0..np {
-                close(
-                    got.gradient[a],
-                    want.gradient[a],
-                    want.gradient_abs[a],
-                    &tag("g"),
-                );
-                for b in a..np {
-                    let h = (got.hessian[a][b], want.hessian[a][b]);
-                    close(h.0, h.1, want.hessian_abs[a][b], &tag("H"));
-                    let k = (got.jtj_kept[a][b], want.kept[a][b]);
-                    close(k.0, k.1, want.kept_abs[a][b], &tag("JᵀJ kept"));
-                }
-            }
+            assert_sums_match(&got, &want, &res, &wts, np, cfg.reference_nt, &tag);
             // The other instantiations sum the same gradient and their own matrix,
             // bit for bit (same products, same order).
             if np == 9 {
-                let bits = |m: &[[f64; MAX_P]; MAX_P]| -> Vec<u64> {
-                    m.iter().flatten().map(|x| x.to_bits()).collect()
-                };
-                let g_bits =
-                    |g: &[f64; MAX_P]| -> Vec<u64> { g.iter().map(|x| x.to_bits()).collect() };
-                let n_only = ctx.chunk::<9, true, false>(0, &mut res, &mut wts);
-                let k_only = ctx.chunk::<9, false, true>(0, &mut res, &mut wts);
-                assert_eq!(
-                    bits(&n_only.hessian),
-                    bits(&got.hessian),
-                    "{}",
-                    tag("H alone")
-                );
-                assert_eq!(
-                    bits(&k_only.jtj_kept),
-                    bits(&got.jtj_kept),
-                    "{}",
-                    tag("kept")
-                );
-                assert_eq!(
-                    g_bits(&k_only.gradient),
-                    g_bits(&got.gradient),
-                    "{}",
-                    tag("g")
-                );
+                assert_instantiations_agree(&ctx, &got, &mut res, &mut wts, &tag);
             }
         }
     }
+}
+
+/// Parameters near the truth of `cfg` (W = soft iron, c = hard iron off by a few nT, k =
+/// 0.9 × the slopes when `np` = 12).
+fn start_params(cfg: &TumbleConfig, np: usize) -> DVector<f64> {
+    let w = cfg.soft_iron;
+    let mut p: Vec<f64> = (cfg.hard_iron_nt + Vector3::new(3.0, -2.0, 1.0))
+        .iter()
+        .copied()
+        .collect();
+    p.extend(super::super::SYM_INDEX.iter().map(|&(i, j)| w[(i, j)]));
+    if np == 12 {
+        p.extend(cfg.temp_slope_nt_per_c.iter().map(|k| k * 0.9));
+    }
+    DVector::from_vec(p)
+}
+
+/// The tiled pass's residuals (nT), weights, count, Σwr², gradient and matrices equal
+/// the plain loop's within rounding.
+fn assert_sums_match(
+    got: &PassAcc,
+    want: &Reference,
+    res: &[f64],
+    wts: &[f64],
+    np: usize,
+    reference_nt: f64,
+    tag: &dyn Fn(&str) -> String,
+) {
+    let len = res.len();
+    for i in 0..len {
+        let (r, w) = (want.residuals[i], want.weights[i]);
+        if r.is_nan() {
+            assert!(res[i].is_nan() && wts[i] == 0.0, "{}", tag("NaN sample"));
+        } else {
+            close(res[i], r, reference_nt, &tag("residual"));
+            close(wts[i], w, 1.0, &tag("weight"));
+        }
+    }
+    assert_eq!(got.count, want.count, "{}", tag("count"));
+    close(got.sum_sq_w, want.sum_sq_w, want.sum_sq_w, &tag("Σwr²"));
+    for a in 0..np {
+        close(
+            got.gradient[a],
+            want.gradient[a],
+            want.gradient_abs[a],
+            &tag("g"),
+        );
+        for b in a..np {
+            let h = (got.hessian[a][b], want.hessian[a][b]);
+            close(h.0, h.1, want.hessian_abs[a][b], &tag("H"));
+            let k = (got.jtj_kept[a][b], want.kept[a][b]);
+            close(k.0, k.1, want.kept_abs[a][b], &tag("JᵀJ kept"));
+        }
+    }
+}
+
+/// The Newton-only and kept-only instantiations of a pass sum the same gradient and
+/// their own matrix as the full one (`got`), bit for bit.
+fn assert_instantiations_agree(
+    ctx: &PassCtx<[Vector3<f64>]>,
+    got: &PassAcc,
+    res: &mut [f64],
+    wts: &mut [f64],
+    tag: &dyn Fn(&str) -> String,
+) {
+    let bits = |m: &[[f64; MAX_P]; MAX_P]| -> Vec<u64> {
+        m.iter().flatten().map(|x| x.to_bits()).collect()
+    };
+    let g_bits = |g: &[f64; MAX_P]| -> Vec<u64> { g.iter().map(|x| x.to_bits()).collect() };
+    let n_only = ctx.chunk::<9, true, false>(0, res, wts);
+    let k_only = ctx.chunk::<9, false, true>(0, res, wts);
+    assert_eq!(
+        bits(&n_only.hessian),
+        bits(&got.hessian),
+        "{}",
+        tag("H alone")
+    );
+    assert_eq!(
+        bits(&k_only.jtj_kept),
+        bits(&got.jtj_kept),
+        "{}",
+        tag("kept")
+    );
+    assert_eq!(
+        g_bits(&k_only.gradient),
+        g_bits(&got.gradient),
+        "{}",
+        tag("g")
+    );
 }

@@ -1,4 +1,4 @@
-//! Saturated readings (DESIGN §4): a value at or beyond the sensor's full-scale range, or
+//! Saturated readings (see `docs/reliability.md`): a value at or beyond the sensor's full-scale range, or
 //! a value piled up at an axis's extreme (the sensor's rail). Such rows are flagged and
 //! left out of fits, never silently used.
 //!
@@ -13,7 +13,7 @@ use std::path::Path;
 
 use rayon::prelude::*;
 
-use super::SweepLog;
+use crate::log::SweepLog;
 use crate::Error;
 
 /// Why a reading was flagged.

@@ -6,7 +6,7 @@
 
 use rayon::prelude::*;
 
-use super::SweepLog;
+use crate::log::SweepLog;
 use crate::Error;
 
 /// Values per task when a long log is checked in parallel.

@@ -1,0 +1,20 @@
+//! Test-plan reader (format: `docs/formats.md`): the article, its geometry and its
+//! limits, in TOML.
+//!
+//! Unknown keys are refused by name so that a typo never passes silently; rotations are
+//! checked to be proper (orthonormal, det +1, within 1e-6); every vector is finite.
+//!
+//! The files depend on each other one way: `types.rs` holds the validated public types,
+//! `raw.rs` the TOML shapes as written (using `types`), and `parse.rs` the checks that
+//! turn one into the other (using both).
+
+mod parse;
+mod raw;
+#[cfg(test)]
+mod tests;
+mod types;
+
+pub use parse::{parse_plan, read_plan};
+pub use types::{
+    Article, Cage, DipoleTest, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
+};

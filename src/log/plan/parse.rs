@@ -1,0 +1,361 @@
+//! Validation of a plan read from TOML: each table of the raw shapes (`raw.rs`) is
+//! checked and turned into the public types, with errors naming the offending key
+//! (`rod[1].axis_body`, `site.lat_deg`, ...). Tables are checked in file-format order,
+//! so the first error reported does not depend on how the checks are grouped.
+
+use std::path::{Path, PathBuf};
+
+use nalgebra::{Matrix3, Vector3};
+
+use super::raw::{
+    RawArticle, RawDipoleTest, RawLimits, RawMagnetometer, RawPlan, RawProbe, RawRod, RawSite,
+    RawStep,
+};
+use super::types::{
+    Article, Cage, DipoleTest, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
+};
+use crate::log::error::{PlanError, Shown};
+use crate::log::units::FieldUnit;
+use crate::physics::frames::{check_rotation, rotation_from_axes};
+
+/// Read and validate a test plan.
+pub fn read_plan(path: &Path) -> Result<Plan, PlanError> {
+    let text = std::fs::read_to_string(path).map_err(|source| PlanError::Io {
+        path: Shown(path.to_path_buf()),
+        source,
+    })?;
+    parse_plan(&text, path)
+}
+
+/// Parse and validate plan text; `path` is used for messages and relative log paths.
+pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let raw: RawPlan = toml::from_str(text).map_err(|e| PlanError::Syntax {
+        path: Shown(path.to_path_buf()),
+        message: one_line(&e.to_string()),
+    })?;
+    let v = Validator { path };
+    let article = raw.article.map(|a| v.article(a)).transpose()?;
+    let magnetometer = raw.magnetometer.map(|m| v.magnetometer(m)).transpose()?;
+    let probe = raw.probe.map(|p| v.probe(p)).transpose()?;
+    let site = raw.site.map(|s| v.site(s)).transpose()?;
+    let cage = match raw.cage {
+        Some(c) => Some(Cage {
+            article_to_cage: v.rotation("cage.article_to_cage", Some(&c.article_to_cage))?,
+        }),
+        None => None,
+    };
+    let rods = v.rods(raw.rod)?;
+    let dipole_test = raw.dipole_test.map(|d| v.dipole_test(d)).transpose()?;
+    let dir = plan_dir(path);
+    let steps = steps(raw.step, &dir, text);
+    let limits = v.limits(raw.limits)?;
+    Ok(Plan {
+        path: path.to_path_buf(),
+        dir,
+        article,
+        magnetometer,
+        probe,
+        site,
+        cage,
+        rods,
+        dipole_test,
+        steps,
+        limits,
+    })
+}
+
+/// Checks of single values, with errors naming the key and the plan file.
+struct Validator<'a> {
+    path: &'a Path,
+}
+
+impl Validator<'_> {
+    fn invalid(&self, key: &str, problem: String) -> PlanError {
+        PlanError::Invalid {
+            path: Shown(self.path.to_path_buf()),
+            key: key.to_string(),
+            problem,
+        }
+    }
+
+    /// A vector whose every element is finite.
+    fn vec3(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
+        if v.iter().all(|x| x.is_finite()) {
+            Ok(Vector3::from(v))
+        } else {
+            Err(self.invalid(key, "every element must be a finite number".into()))
+        }
+    }
+
+    /// An optional value that, when given, is finite and positive.
+    fn positive(&self, key: &str, v: Option<f64>) -> Result<Option<f64>, PlanError> {
+        match v {
+            Some(x) if !(x.is_finite() && x > 0.0) => {
+                Err(self.invalid(key, format!("must be a positive number, found {x}")))
+            }
+            _ => Ok(v),
+        }
+    }
+
+    /// A proper rotation; identity when not given.
+    fn rotation(&self, key: &str, v: Option<&toml::Value>) -> Result<Matrix3<f64>, PlanError> {
+        match v {
+            None => Ok(Matrix3::identity()),
+            Some(v) => parse_rotation(v).map_err(|p| self.invalid(key, p)),
+        }
+    }
+
+    fn article(&self, a: RawArticle) -> Result<Article, PlanError> {
+        if a.serial.trim().is_empty() {
+            return Err(self.invalid("article.serial", "must not be empty".into()));
+        }
+        if a.build.trim().is_empty() {
+            return Err(self.invalid("article.build", "must not be empty".into()));
+        }
+        Ok(Article {
+            serial: a.serial.trim().to_string(),
+            build: a.build.trim().to_string(),
+        })
+    }
+
+    fn magnetometer(&self, m: RawMagnetometer) -> Result<Magnetometer, PlanError> {
+        Ok(Magnetometer {
+            sensor_to_body: self
+                .rotation("magnetometer.sensor_to_body", m.sensor_to_body.as_ref())?,
+            position_m: m
+                .position_m
+                .map(|p| self.vec3("magnetometer.position_m", p))
+                .transpose()?,
+            unit: m
+                .unit
+                .map(|u| u.parse::<FieldUnit>())
+                .transpose()
+                .map_err(|e| self.invalid("magnetometer.unit", e.to_string()))?,
+            range_nt: self.positive("magnetometer.range_nt", m.range_nt)?,
+        })
+    }
+
+    fn probe(&self, p: RawProbe) -> Result<Probe, PlanError> {
+        Ok(Probe {
+            position_m: self.vec3("probe.position_m", p.position_m)?,
+            sensor_to_body: self.rotation("probe.sensor_to_body", p.sensor_to_body.as_ref())?,
+        })
+    }
+
+    fn site(&self, s: RawSite) -> Result<Site, PlanError> {
+        if !(s.lat_deg.is_finite() && (-90.0..=90.0).contains(&s.lat_deg)) {
+            return Err(self.invalid(
+                "site.lat_deg",
+                format!("must lie in −90..90, found {}", s.lat_deg),
+            ));
+        }
+        if !(s.lon_deg.is_finite() && (-360.0..=360.0).contains(&s.lon_deg)) {
+            return Err(self.invalid(
+                "site.lon_deg",
+                format!("must lie in −360..360, found {}", s.lon_deg),
+            ));
+        }
+        if !s.alt_m.is_finite() {
+            return Err(self.invalid("site.alt_m", "must be a finite number".into()));
+        }
+        let date = s
+            .date
+            .as_deref()
+            .map(|d| parse_date(d).map_err(|p| self.invalid("site.date", p)))
+            .transpose()?;
+        Ok(Site {
+            lat_deg: s.lat_deg,
+            lon_deg: s.lon_deg,
+            alt_m: s.alt_m,
+            date,
+            reference_nt: self.positive("site.reference_nt", s.reference_nt)?,
+        })
+    }
+
+    fn rods(&self, raw: Vec<RawRod>) -> Result<Vec<Rod>, PlanError> {
+        let mut rods = Vec::with_capacity(raw.len());
+        for (i, r) in raw.into_iter().enumerate() {
+            let key = |k: &str| format!("rod[{i}].{k}");
+            let name = r.name.trim().to_string();
+            if name.is_empty()
+                || !name
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
+            {
+                return Err(self.invalid(
+                    &key("name"),
+                    format!(
+                        "\"{}\" must be a non-empty name of letters, digits, _ or -",
+                        r.name
+                    ),
+                ));
+            }
+            if rods
+                .iter()
+                .any(|o: &Rod| o.name.eq_ignore_ascii_case(&name))
+            {
+                return Err(self.invalid(&key("name"), format!("rod \"{name}\" is listed twice")));
+            }
+            let axis = self.vec3(&key("axis_body"), r.axis_body)?;
+            let n = axis.norm();
+            if n < 1e-9 {
+                return Err(self.invalid(&key("axis_body"), "must not be the zero vector".into()));
+            }
+            rods.push(Rod {
+                name,
+                axis_body: axis / n,
+                position_m: self.vec3(&key("position_m"), r.position_m)?,
+                dipole_per_command_am2: self
+                    .positive(&key("dipole_per_command_am2"), r.dipole_per_command_am2)?,
+                length_m: self.positive(&key("length_m"), r.length_m)?,
+            });
+        }
+        Ok(rods)
+    }
+
+    fn dipole_test(&self, d: RawDipoleTest) -> Result<DipoleTest, PlanError> {
+        let mut mounts: Vec<Mount> = Vec::new();
+        for (i, m) in d.mount.into_iter().enumerate() {
+            let label = m.label.trim().to_string();
+            let key = format!("dipole_test.mount[{i}]");
+            if label.is_empty() || label.eq_ignore_ascii_case("none") {
+                return Err(self.invalid(
+                    &format!("{key}.label"),
+                    "must be a label other than empty or \"none\" (those mark article-absent rows)"
+                        .into(),
+                ));
+            }
+            if mounts.iter().any(|o| o.label == label) {
+                return Err(self.invalid(
+                    &format!("{key}.label"),
+                    format!("mount \"{label}\" is listed twice"),
+                ));
+            }
+            mounts.push(Mount {
+                label,
+                body_to_table: self
+                    .rotation(&format!("{key}.body_to_table"), Some(&m.body_to_table))?,
+            });
+        }
+        Ok(DipoleTest {
+            probe_position_m: d
+                .probe_position_m
+                .map(|p| self.vec3("dipole_test.probe_position_m", p))
+                .transpose()?,
+            mounts,
+        })
+    }
+
+    fn limits(&self, raw: RawLimits) -> Result<Limits, PlanError> {
+        let limits = Limits {
+            residual_dipole_max_am2: self.positive(
+                "limits.residual_dipole_max_am2",
+                raw.residual_dipole_max_am2,
+            )?,
+            calibration_residual_max_nt: self.positive(
+                "limits.calibration_residual_max_nt",
+                raw.calibration_residual_max_nt,
+            )?,
+            polarity_angle_max_deg: self
+                .positive("limits.polarity_angle_max_deg", raw.polarity_angle_max_deg)?,
+        };
+        if let Some(a) = limits.polarity_angle_max_deg {
+            if a >= 90.0 {
+                return Err(self.invalid(
+                    "limits.polarity_angle_max_deg",
+                    format!("must be below 90°, found {a}"),
+                ));
+            }
+        }
+        Ok(limits)
+    }
+}
+
+/// The plan's folder, against which relative paths in it are resolved (`.` when the
+/// plan path has none).
+fn plan_dir(path: &Path) -> PathBuf {
+    path.parent()
+        .map(|p| {
+            if p.as_os_str().is_empty() {
+                Path::new(".")
+            } else {
+                p
+            }
+        })
+        .unwrap_or(Path::new("."))
+        .to_path_buf()
+}
+
+/// Closeout steps, their log paths resolved against the plan's folder `dir`; each
+/// step's kind kept as written, with its line in `text` (the registry of checks says
+/// which kinds exist).
+fn steps(raw: Vec<RawStep>, dir: &Path, text: &str) -> Vec<Step> {
+    raw.into_iter()
+        .map(|s| Step {
+            log: if s.log.is_absolute() {
+                s.log
+            } else {
+                dir.join(s.log)
+            },
+            kind_line: text[..s.kind.span().start.min(text.len())]
+                .matches('\n')
+                .count()
+                + 1,
+            kind: s.kind.into_inner(),
+        })
+        .collect()
+}
+
+/// A rotation given as axis shorthand (`["+x","-z","+y"]`) or a 3×3 matrix row by row.
+fn parse_rotation(v: &toml::Value) -> Result<Matrix3<f64>, String> {
+    let arr = v.as_array().ok_or_else(|| {
+        "expected three signed axes such as [\"+x\", \"+y\", \"+z\"] or a 3×3 matrix".to_string()
+    })?;
+    if arr.iter().all(|e| e.is_str()) {
+        let axes: Vec<&str> = arr.iter().filter_map(|e| e.as_str()).collect();
+        return rotation_from_axes(&axes);
+    }
+    if arr.len() != 3 {
+        return Err(format!(
+            "a rotation matrix needs 3 rows, found {}",
+            arr.len()
+        ));
+    }
+    let mut m = Matrix3::zeros();
+    for (i, row) in arr.iter().enumerate() {
+        let row = row
+            .as_array()
+            .filter(|r| r.len() == 3)
+            .ok_or_else(|| format!("row {} must be an array of 3 numbers", i + 1))?;
+        for (j, x) in row.iter().enumerate() {
+            m[(i, j)] = x
+                .as_float()
+                .or_else(|| x.as_integer().map(|k| k as f64))
+                .ok_or_else(|| format!("row {} element {} is not a number", i + 1, j + 1))?;
+        }
+    }
+    check_rotation(&m)?;
+    Ok(m)
+}
+
+fn parse_date(s: &str) -> Result<time::Date, String> {
+    let fmt = time::macros::format_description!("[year]-[month]-[day]");
+    time::Date::parse(s.trim(), &fmt)
+        .map_err(|_| format!("expected a date as YYYY-MM-DD, found \"{s}\""))
+}
+
+/// The TOML parser's message spans several lines with a source excerpt; keep its first
+/// line (which names line and column) and its last (what is wrong).
+fn one_line(msg: &str) -> String {
+    let lines: Vec<&str> = msg
+        .lines()
+        .map(str::trim)
+        .filter(|l| !l.is_empty())
+        .collect();
+    match (lines.first(), lines.last()) {
+        (Some(a), Some(b)) if lines.len() > 1 => format!("{a}: {b}"),
+        (Some(a), _) => a.to_string(),
+        _ => msg.to_string(),
+    }
+}

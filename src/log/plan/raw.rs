@@ -1,0 +1,103 @@
+//! The plan's TOML tables as written, before validation. Unknown keys are refused by
+//! name (`deny_unknown_fields`), so that a typo never passes silently.
+
+use std::path::PathBuf;
+
+use serde::Deserialize;
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawPlan {
+    pub(super) article: Option<RawArticle>,
+    pub(super) magnetometer: Option<RawMagnetometer>,
+    pub(super) probe: Option<RawProbe>,
+    pub(super) site: Option<RawSite>,
+    pub(super) cage: Option<RawCage>,
+    #[serde(default)]
+    pub(super) rod: Vec<RawRod>,
+    pub(super) dipole_test: Option<RawDipoleTest>,
+    #[serde(default)]
+    pub(super) step: Vec<RawStep>,
+    #[serde(default)]
+    pub(super) limits: RawLimits,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawArticle {
+    pub(super) serial: String,
+    pub(super) build: String,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawMagnetometer {
+    pub(super) sensor_to_body: Option<toml::Value>,
+    pub(super) position_m: Option<[f64; 3]>,
+    pub(super) unit: Option<String>,
+    pub(super) range_nt: Option<f64>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawProbe {
+    pub(super) position_m: [f64; 3],
+    pub(super) sensor_to_body: Option<toml::Value>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawSite {
+    pub(super) lat_deg: f64,
+    pub(super) lon_deg: f64,
+    #[serde(default)]
+    pub(super) alt_m: f64,
+    pub(super) date: Option<String>,
+    pub(super) reference_nt: Option<f64>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawCage {
+    pub(super) article_to_cage: toml::Value,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawRod {
+    pub(super) name: String,
+    pub(super) axis_body: [f64; 3],
+    pub(super) position_m: [f64; 3],
+    pub(super) dipole_per_command_am2: Option<f64>,
+    pub(super) length_m: Option<f64>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawDipoleTest {
+    pub(super) probe_position_m: Option<[f64; 3]>,
+    #[serde(default)]
+    pub(super) mount: Vec<RawMount>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawMount {
+    pub(super) label: String,
+    pub(super) body_to_table: toml::Value,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawStep {
+    pub(super) kind: toml::Spanned<String>,
+    pub(super) log: PathBuf,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawLimits {
+    pub(super) residual_dipole_max_am2: Option<f64>,
+    pub(super) calibration_residual_max_nt: Option<f64>,
+    pub(super) polarity_angle_max_deg: Option<f64>,
+}

@@ -1,0 +1,188 @@
+//! The validated test plan and its sections, in internal units (m, nT, rad) and named
+//! frames (body B, sensor S, table L, cage C).
+
+use std::path::{Path, PathBuf};
+
+use nalgebra::{Matrix3, Vector3};
+
+use crate::log::error::{PlanError, Shown};
+use crate::log::units::FieldUnit;
+use crate::physics::geomag::GeoSite;
+
+/// A validated test plan.
+#[derive(Debug, Clone)]
+pub struct Plan {
+    /// The plan file.
+    pub path: PathBuf,
+    /// The folder log paths are relative to.
+    pub dir: PathBuf,
+    /// `[article]`: identity for the ledger.
+    pub article: Option<Article>,
+    /// `[magnetometer]`: the flight magnetometer as installed.
+    pub magnetometer: Option<Magnetometer>,
+    /// `[probe]`: an external probe used instead of the flight magnetometer.
+    pub probe: Option<Probe>,
+    /// `[site]`: where a tumble test was done.
+    pub site: Option<Site>,
+    /// `[cage]`: how the article sits in the cage.
+    pub cage: Option<Cage>,
+    /// `[[rod]]`: torque rods.
+    pub rods: Vec<Rod>,
+    /// `[dipole_test]`: turntable geometry.
+    pub dipole_test: Option<DipoleTest>,
+    /// `[[step]]`: what `closeout` runs, in order.
+    pub steps: Vec<Step>,
+    /// `[limits]`: pass/fail limits.
+    pub limits: Limits,
+}
+
+/// `[article]`.
+#[derive(Debug, Clone)]
+pub struct Article {
+    /// Serial number.
+    pub serial: String,
+    /// Build label.
+    pub build: String,
+}
+
+/// `[magnetometer]`.
+#[derive(Debug, Clone)]
+pub struct Magnetometer {
+    /// Rotation sensor → body: `v_b = sensor_to_body * v_s`.
+    pub sensor_to_body: Matrix3<f64>,
+    /// Sensor position, body frame (B), m.
+    pub position_m: Option<Vector3<f64>>,
+    /// Field unit of logs whose columns carry none.
+    pub unit: Option<FieldUnit>,
+    /// Full-scale range per axis, nT: readings at or beyond it are flagged as saturated.
+    pub range_nt: Option<f64>,
+}
+
+/// `[probe]`: an external magnetometer placed near the article.
+#[derive(Debug, Clone)]
+pub struct Probe {
+    /// Probe position, body frame (B), m.
+    pub position_m: Vector3<f64>,
+    /// Rotation probe → body.
+    pub sensor_to_body: Matrix3<f64>,
+}
+
+/// `[site]`.
+#[derive(Debug, Clone)]
+pub struct Site {
+    /// Geodetic latitude, deg (−90..90).
+    pub lat_deg: f64,
+    /// Longitude, deg east.
+    pub lon_deg: f64,
+    /// Altitude above the WGS-84 ellipsoid, m.
+    pub alt_m: f64,
+    /// Date of the test.
+    pub date: Option<time::Date>,
+    /// Reference field magnitude, nT; overrides the geomagnetic model.
+    pub reference_nt: Option<f64>,
+}
+
+impl Site {
+    /// The site as the geomagnetic model takes it.
+    pub fn geo_site(&self) -> GeoSite {
+        GeoSite {
+            lat_deg: self.lat_deg,
+            lon_deg: self.lon_deg,
+            alt_m: self.alt_m,
+            date: self.date,
+            reference_nt: self.reference_nt,
+        }
+    }
+}
+
+/// `[cage]`.
+#[derive(Debug, Clone)]
+pub struct Cage {
+    /// Rotation article (body) → cage: `v_c = article_to_cage * v_b`.
+    pub article_to_cage: Matrix3<f64>,
+}
+
+/// `[[rod]]`.
+#[derive(Debug, Clone)]
+pub struct Rod {
+    /// Name; its log column is `cmd_<name>`.
+    pub name: String,
+    /// Unit vector of the positive dipole for a positive command, body frame (B).
+    pub axis_body: Vector3<f64>,
+    /// Rod centre, body frame (B), m.
+    pub position_m: Vector3<f64>,
+    /// Nominal dipole per unit command, A·m² per command unit.
+    pub dipole_per_command_am2: Option<f64>,
+    /// Rod length, m (for the point-dipole validity check).
+    pub length_m: Option<f64>,
+}
+
+/// `[dipole_test]`.
+#[derive(Debug, Clone)]
+pub struct DipoleTest {
+    /// Probe position, table frame (L), m.
+    pub probe_position_m: Option<Vector3<f64>>,
+    /// Mounts of the article on the table.
+    pub mounts: Vec<Mount>,
+}
+
+/// `[[dipole_test.mount]]`.
+#[derive(Debug, Clone)]
+pub struct Mount {
+    /// Label as written in the log's `mount` column.
+    pub label: String,
+    /// Rotation body → table at angle zero.
+    pub body_to_table: Matrix3<f64>,
+}
+
+/// `[[step]]`.
+#[derive(Debug, Clone)]
+pub struct Step {
+    /// What to run: a check kind's name, as written (the registry of checks in
+    /// `check::kind` says which names exist; closeout refuses any other by its line).
+    pub kind: String,
+    /// 1-based line of the step's `kind` in the plan file.
+    pub kind_line: usize,
+    /// Log path, resolved against the plan's folder.
+    pub log: PathBuf,
+}
+
+/// `[limits]`.
+#[derive(Debug, Clone, Default)]
+pub struct Limits {
+    /// Largest acceptable residual dipole magnitude, A·m².
+    pub residual_dipole_max_am2: Option<f64>,
+    /// Largest acceptable calibration residual RMS, nT.
+    pub calibration_residual_max_nt: Option<f64>,
+    /// Largest acceptable angle between measured and expected rod response, deg.
+    pub polarity_angle_max_deg: Option<f64>,
+}
+
+impl Plan {
+    /// Error for a section this command needs.
+    pub fn missing(&self, section: &str, why: &str) -> PlanError {
+        PlanError::MissingSection {
+            path: Shown(self.path.clone()),
+            section: section.to_string(),
+            why: why.to_string(),
+        }
+    }
+
+    /// Error for an invalid value found while using the plan.
+    pub fn invalid(&self, key: &str, problem: impl Into<String>) -> PlanError {
+        PlanError::Invalid {
+            path: Shown(self.path.clone()),
+            key: key.to_string(),
+            problem: problem.into(),
+        }
+    }
+
+    /// Resolve a path written in the plan against the plan's folder.
+    pub fn resolve(&self, p: &Path) -> PathBuf {
+        if p.is_absolute() {
+            p.to_path_buf()
+        } else {
+            self.dir.join(p)
+        }
+    }
+}
