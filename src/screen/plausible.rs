@@ -33,8 +33,8 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
                 let line = log.lines.get(i).unwrap_or(0);
                 return Err(Error::Degenerate(format!(
                     "{}:{line}: {prefix}{} = {:e} nT is beyond any physical field (limit \
-                     {MAX_FIELD_NT:e} nT = 1000 T); check the field unit (--unit, or the \
-                     column header)",
+                     {MAX_FIELD_NT:e} nT = 1000 T); check the field unit (the unit given, the \
+                     plan's, or the column header's)",
                     log.path.display(),
                     ["x", "y", "z"][axis],
                     col[i]
@@ -49,8 +49,8 @@ pub fn check_field_scale(log: &SweepLog) -> Result<(), Error> {
         if !b[0].is_empty() && largest < MIN_SIGNAL_NT {
             return Err(Error::Degenerate(format!(
                 "{}: the largest field reading is {largest:e} nT, below {MIN_SIGNAL_NT:e} nT \
-                 (1 pT): no magnetometer resolves that; check the field unit (--unit, or the \
-                 column header) or whether the sensor gave any signal",
+                 (1 pT): no magnetometer resolves that; check the field unit (the unit given, the \
+                 plan's, or the column header's) or whether the sensor gave any signal",
                 log.path.display()
             )));
         }

@@ -55,29 +55,6 @@ impl SaturationReport {
         self.flagged.iter().filter(|f| **f).count()
     }
 
-    /// One warning per finding, naming the axis, the level and what was done.
-    pub fn warnings(&self) -> Vec<String> {
-        self.axes
-            .iter()
-            .map(|a| {
-                let axis = AXIS_NAMES.get(a.axis).copied().unwrap_or("?");
-                match a.cause {
-                    SaturationCause::BeyondRange => format!(
-                        "sensor {axis}: {} readings at or beyond the range ±{} nT were flagged \
-                         as saturated and left out",
-                        a.count, a.level_nt
-                    ),
-                    SaturationCause::Rail => format!(
-                        "sensor {axis}: {} readings piled up at {} nT (the axis's rail) were \
-                         flagged as saturated and left out; give --range if that is not the \
-                         sensor's full scale",
-                        a.count, a.level_nt
-                    ),
-                }
-            })
-            .collect()
-    }
-
     /// Refuse (`Error::Degenerate`) when every row of some axis is flagged: nothing of
     /// that axis is left to use.
     pub fn refuse_if_axis_saturated(&self, path: &Path) -> Result<(), Error> {
@@ -100,8 +77,8 @@ impl SaturationReport {
                 .collect();
             return Err(Error::Degenerate(format!(
                 "{}: every one of the {n} readings of sensor {} is saturated ({}): nothing \
-                 usable is left on that axis; check the sensor range (--range, [magnetometer] \
-                 range_nt), the field unit, or whether the axis is stuck",
+                 usable is left on that axis; check the sensor's full-scale range (given, or \
+                 [magnetometer] range_nt in the plan), the field unit, or whether the axis is stuck",
                 path.display(),
                 AXIS_NAMES.get(axis).copied().unwrap_or("?"),
                 levels.join(", ")

@@ -9,7 +9,7 @@
 //! times is computed in closed form: each change ΔM of the target at time tₑ adds
 //! ΔM·(1 − exp(−(t − tₑ − lag)/τ)) once t ≥ tₑ + lag. Faults can be
 //! injected: a rod wired backwards, two rods' commands swapped, a dead rod (gain 0). The
-//! field at the sensor is the sum of every rod's dipole field (DESIGN §8) plus an ambient
+//! field at the sensor is the sum of every rod's dipole field plus an ambient
 //! field, a drift (linear plus a slow sinusoid) and white noise.
 //!
 //! [`simulate_polarity`] returns the CSV log, a matching plan (TOML) and the truth (JSON),

@@ -8,7 +8,7 @@ use magproof::sim::dipole::{
     simulate_static, simulate_turntable, DipoleSim, StaticConfig, TurntableConfig,
 };
 
-/// The §7 keys (and a few more) as the test reads them back.
+/// The documented keys (docs/dipole.md, and a few more) as the test reads them back.
 #[derive(Debug, Deserialize)]
 struct DipoleJson {
     moment_body_am2: [f64; 3],

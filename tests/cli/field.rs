@@ -4,7 +4,7 @@ use serde::Deserialize;
 
 use crate::util::{json_stdout, TestDir};
 
-/// The §7 `field` keys, read back strictly (a missing key fails the parse).
+/// The documented `field` keys (docs/geomagnetic.md), read back strictly (a missing key fails the parse).
 #[derive(Deserialize)]
 struct FieldJson {
     north_nt: f64,
