@@ -24,13 +24,14 @@
 //! Requirements: at least one background segment (refused otherwise), every mount label
 //! of the log listed in the plan.
 
+use crate::fit::FitError;
 use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 use crate::check::outcome::{Gate, GateRole, Verdict};
 use crate::check::CheckRequest;
 use crate::fit::dipole::{
-    fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleFitError, DipoleSample,
+    fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleSample,
 };
 use crate::log::{LogError, Plan, Shown, SweepLog};
 use crate::physics::frames::rotation_z;
@@ -452,9 +453,9 @@ fn evaluate_unsaturated(
     )
 }
 
-fn fit_error(log: &SweepLog, e: DipoleFitError) -> Error {
+fn fit_error(log: &SweepLog, e: FitError) -> Error {
     match e {
-        DipoleFitError::NotConverged(_) => Error::Degenerate(format!(
+        FitError::NotConverged(_) => Error::Degenerate(format!(
             "{}: {e}; try the dipole at the table origin (no fitted offset)",
             log.path.display()
         )),

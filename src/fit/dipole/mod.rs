@@ -26,6 +26,7 @@
 //! and the probe must be well away from the article (point-dipole model; common practice:
 //! a distance of several times the article's largest size).
 
+use crate::fit::FitError;
 use argmin::core::{CostFunction, Error as ArgminError, Jacobian, Operator};
 use nalgebra::{DMatrix, DVector, Matrix3, SymmetricEigen, Vector3, Vector6};
 
@@ -42,40 +43,6 @@ pub struct DipoleSample {
     pub body_to_table: Matrix3<f64>,
     /// Article field at the probe (measured minus background), table frame (L), nT.
     pub b_nt: Vector3<f64>,
-}
-
-/// Why a dipole fit could not be made.
-#[derive(Debug, Clone, thiserror::Error)]
-pub enum DipoleFitError {
-    /// Fewer samples than unknowns allow a residual estimate for.
-    #[error(
-        "too few samples: {found} field samples for {unknowns} unknowns (need at least {needed})"
-    )]
-    TooFewSamples {
-        /// Samples given.
-        found: usize,
-        /// Unknowns in the model.
-        unknowns: usize,
-        /// Samples needed.
-        needed: usize,
-    },
-    /// A sample puts the probe at the dipole.
-    #[error("sample {index}: the probe sits at the dipole's position; the point-dipole model is undefined there")]
-    ProbeAtDipole {
-        /// 0-based sample index.
-        index: usize,
-    },
-    /// The design cannot separate some component: its normal matrix is singular.
-    #[error("the geometry cannot separate {what}: the design matrix is singular (singular-value ratio {ratio:.1e})")]
-    Singular {
-        /// What cannot be separated.
-        what: String,
-        /// Smallest over largest singular value.
-        ratio: f64,
-    },
-    /// The nonlinear solver failed or stopped without converging.
-    #[error("the offset fit did not converge: {0}")]
-    NotConverged(String),
 }
 
 /// A fitted dipole.
@@ -140,11 +107,11 @@ pub fn model_field_nt(
 fn normal_equations(
     samples: &[DipoleSample],
     offset_body_m: &Vector3<f64>,
-) -> Result<(Matrix3<f64>, Vector3<f64>), DipoleFitError> {
+) -> Result<(Matrix3<f64>, Vector3<f64>), FitError> {
     let mut n = Matrix3::zeros();
     let mut g = Vector3::zeros();
     for (index, s) in samples.iter().enumerate() {
-        let a = model_matrix(s, offset_body_m).ok_or(DipoleFitError::ProbeAtDipole { index })?;
+        let a = model_matrix(s, offset_body_m).ok_or(FitError::ProbeAtDipole { index })?;
         n += a.transpose() * a;
         g += a.transpose() * s.b_nt;
     }
@@ -178,9 +145,9 @@ pub const SINGULAR_RATIO: f64 = 1e-6;
 pub fn fit_moment(
     samples: &[DipoleSample],
     offset_body_m: &Vector3<f64>,
-) -> Result<DipoleFit, DipoleFitError> {
+) -> Result<DipoleFit, FitError> {
     if samples.len() < 2 {
-        return Err(DipoleFitError::TooFewSamples {
+        return Err(FitError::TooFewSamples {
             found: samples.len(),
             unknowns: 3,
             needed: 2,
@@ -189,12 +156,12 @@ pub fn fit_moment(
     let (n, g) = normal_equations(samples, offset_body_m)?;
     let (ratio, dir) = weakest_direction(&n);
     if ratio < SINGULAR_RATIO {
-        return Err(DipoleFitError::Singular {
+        return Err(FitError::Singular {
             what: format!("the moment along body {}", describe_direction(&dir)),
             ratio,
         });
     }
-    let inv = n.try_inverse().ok_or_else(|| DipoleFitError::Singular {
+    let inv = n.try_inverse().ok_or_else(|| FitError::Singular {
         what: "the moment components".into(),
         ratio,
     })?;
@@ -274,7 +241,7 @@ impl<'a> OffsetProblem<'a> {
 }
 
 fn probe_at_dipole(index: usize) -> ArgminError {
-    ArgminError::msg(DipoleFitError::ProbeAtDipole { index }.to_string())
+    ArgminError::msg(FitError::ProbeAtDipole { index }.to_string())
 }
 
 impl Operator for OffsetProblem<'_> {
@@ -324,9 +291,9 @@ impl CostFunction for OffsetProblem<'_> {
 /// Fit the moment and the dipole's position offset together (see the module doc),
 /// seeded from the linear fit at zero offset. Stopping at the iteration limit is an
 /// error, never a silent result.
-pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, DipoleFitError> {
+pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, FitError> {
     if samples.len() < 3 {
-        return Err(DipoleFitError::TooFewSamples {
+        return Err(FitError::TooFewSamples {
             found: samples.len(),
             unknowns: 6,
             needed: 3,
@@ -338,9 +305,9 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
     // The project's damped solver (fit::lm, Levenberg–Marquardt on argmin's Solver), fed
     // normal equations accumulated in one pass over the samples (see `normal`).
     let out = solve(OffsetProblem::new(samples), p0, 200)
-        .map_err(|e| DipoleFitError::NotConverged(e.to_string()))?;
+        .map_err(|e| FitError::NotConverged(e.to_string()))?;
     if !matches!(out.termination, LmTermination::Converged) {
-        return Err(DipoleFitError::NotConverged(format!(
+        return Err(FitError::NotConverged(format!(
             "solver stopped: {}",
             out.termination
         )));
@@ -351,17 +318,17 @@ pub fn fit_moment_and_offset(samples: &[DipoleSample]) -> Result<DipoleFit, Dipo
         Vector3::new(p[3], p[4], p[5]),
     );
     let (jtj, _, rss) = normal::offset_normal_equations(samples, &m, &o)
-        .map_err(|index| DipoleFitError::ProbeAtDipole { index })?;
+        .map_err(|index| FitError::ProbeAtDipole { index })?;
     let eig = SymmetricEigen::new(jtj);
     let (lo, hi) = (eig.eigenvalues.min().max(0.0), eig.eigenvalues.max());
     let ratio = if hi > 0.0 { (lo / hi).sqrt() } else { 0.0 };
-    let inv =
-        jtj.try_inverse()
-            .filter(|_| ratio > 1e-9)
-            .ok_or_else(|| DipoleFitError::Singular {
-                what: "the moment from the dipole's position".into(),
-                ratio,
-            })?;
+    let inv = jtj
+        .try_inverse()
+        .filter(|_| ratio > 1e-9)
+        .ok_or_else(|| FitError::Singular {
+            what: "the moment from the dipole's position".into(),
+            ratio,
+        })?;
     let dof = (3 * samples.len() - 6) as f64;
     let cov = inv * (rss / dof);
     let sig = Vector6::from_fn(|i, _| cov[(i, i)].max(0.0).sqrt());
