@@ -16,10 +16,11 @@ pub mod input;
 pub mod kind;
 pub mod outcome;
 pub mod polarity;
+pub mod units_sense;
 
 pub use input::{CheckInput, InputOptions, InputWarning};
 pub use kind::{CheckKind, CheckSpec};
-pub use outcome::{CheckResult, Gate, GateRole, Verdict};
+pub use outcome::{Bound, CheckResult, Gate, GateRole, Verdict};
 
 use crate::log::Plan;
 use crate::Error;

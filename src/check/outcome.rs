@@ -102,6 +102,29 @@ pub enum GateRole {
     Data,
 }
 
+/// Which side of its limit a gate's value must be on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Bound {
+    /// `value ≤ limit`.
+    AtMost,
+    /// `value ≥ limit`.
+    AtLeast,
+    /// `value > limit`.
+    Above,
+}
+
+impl Bound {
+    /// The relation as a symbol.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            Bound::AtMost => "≤",
+            Bound::AtLeast => "≥",
+            Bound::Above => ">",
+        }
+    }
+}
+
 /// One test behind a verdict: a value against a limit.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Gate {
@@ -111,6 +134,8 @@ pub struct Gate {
     pub value: f64,
     /// The limit it is tested against.
     pub limit: f64,
+    /// Which side of the limit the value must be on.
+    pub bound: Bound,
     /// Whether the value is on the right side of the limit.
     pub ok: bool,
     /// What a failure means.
@@ -124,6 +149,7 @@ impl Gate {
             name: name.into(),
             value,
             limit,
+            bound: Bound::AtMost,
             ok: value <= limit,
             role,
         }
@@ -135,7 +161,20 @@ impl Gate {
             name: name.into(),
             value,
             limit,
+            bound: Bound::AtLeast,
             ok: value >= limit,
+            role,
+        }
+    }
+
+    /// A gate that holds when `value > limit` (a NaN value fails).
+    pub fn above(name: impl Into<String>, value: f64, limit: f64, role: GateRole) -> Self {
+        Gate {
+            name: name.into(),
+            value,
+            limit,
+            bound: Bound::Above,
+            ok: value > limit,
             role,
         }
     }

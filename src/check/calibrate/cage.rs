@@ -58,16 +58,17 @@ pub(super) fn calibrate_cage(
         }
         None => (a_inv, w_sigma_c),
     };
-    if fit.response.determinant() < 0.0 {
-        warnings.push(CalibrationWarning::Reflection);
-    }
-    let (r, s) = polar_decomposition(&a_f)
-        .ok_or_else(|| Error::Internal("SVD of the cage response failed".into()))?;
     // Nominal F→S: body→sensor from [magnetometer] when F is the body, else identity.
     let nominal = match (article_to_cage, plan.and_then(|p| p.magnetometer.as_ref())) {
         (Some(_), Some(m)) => m.sensor_to_body.transpose(),
         _ => Matrix3::identity(),
     };
+    let flipped_axis = (a_f.determinant() < 0.0).then(|| flipped_axis(&a_f, &nominal));
+    if let Some(axis) = flipped_axis {
+        warnings.push(CalibrationWarning::Reflection { axis });
+    }
+    let (r, s) = polar_decomposition(&a_f)
+        .ok_or_else(|| Error::Internal("SVD of the cage response failed".into()))?;
     let misalignment_deg = rotation_angle(&(r * nominal.transpose())).to_degrees();
     let (scale, nonorth) = scale_and_non_orthogonality(&a_f);
     let spread = direction_spread(&applied)
@@ -109,6 +110,8 @@ pub(super) fn calibrate_cage(
         pass: None,
         verdict: super::Verdict::NoLimit,
         gates: Vec::new(),
+        converged: true,
+        samples_rod_on: 0,
         log: ctx.log.path.display().to_string(),
         soft_iron_frame: frame,
         soft_iron_sigma: rows(&w_sigma),
@@ -135,6 +138,10 @@ pub(super) fn calibrate_cage(
                 .unwrap_or(0),
             axis_sigma_nt: fit.axis_sigma_nt.into(),
             condition_number: fit.condition,
+            design_condition: design_condition(&applied),
+            applied_mean_nt: applied.iter().map(|h| h.norm()).sum::<f64>()
+                / applied.len().max(1) as f64,
+            flipped_axis: flipped_axis.flatten(),
         }),
         iterations: None,
         rows_skipped: 0,
@@ -174,4 +181,32 @@ fn scale_sigma(a: &Matrix3<f64>, sigma: &Matrix3<f64>) -> [f64; 3] {
 fn angle_sigma_deg(sigma: &Matrix3<f64>) -> f64 {
     let mean = sigma.iter().sum::<f64>() / 9.0;
     (2.0f64).sqrt() * mean.to_degrees()
+}
+
+/// Ratio of the largest to the smallest singular value of the applied fields (rows of
+/// the n × 3 design); infinite when they do not span three dimensions.
+fn design_condition(applied: &[Vector3<f64>]) -> f64 {
+    let mut gram = Matrix3::zeros();
+    for h in applied {
+        gram += h * h.transpose();
+    }
+    let ev = gram.symmetric_eigenvalues();
+    let (lo, hi) = (ev.min().max(0.0), ev.max());
+    if lo > 0.0 {
+        (hi / lo).sqrt()
+    } else {
+        f64::INFINITY
+    }
+}
+
+/// The sensor axis that reads against the nominal mounting in a reflected response:
+/// the one whose diagonal element of A·nominalᵀ (sensor → sensor, ≈ I when mounted as
+/// planned) is negative, when exactly one is.
+fn flipped_axis(a: &Matrix3<f64>, nominal: &Matrix3<f64>) -> Option<&'static str> {
+    let d = a * nominal.transpose();
+    let negative: Vec<usize> = (0..3).filter(|&i| d[(i, i)] < 0.0).collect();
+    match negative.as_slice() {
+        [i] => Some(["x", "y", "z"][*i]),
+        _ => None,
+    }
 }

@@ -15,6 +15,8 @@
 //! (then `W = article_to_cageᵀ · A⁻¹`).
 
 mod cage;
+mod gates;
+mod rods;
 pub mod seam;
 mod warnings;
 
@@ -22,6 +24,11 @@ use nalgebra::{Matrix3, Vector3};
 use rayon::prelude::*;
 use serde::Serialize;
 
+pub use gates::{
+    ALIGNMENT_MAX_DEG, COVERAGE_MIN, DESIGN_CONDITION_MAX, HARD_IRON_MAX_UNANCHORED_NT,
+    RESIDUAL_MAX_FRACTION, RODS_ON_SHARE_MAX, SAMPLES_USED_MIN, SOFT_IRON_MAX, SOFT_IRON_MIN,
+};
+pub use rods::DEFAULT_SETTLE_S;
 pub use warnings::CalibrationWarning;
 
 use crate::fit::coverage::{axis_name, direction_spread_mapped};
@@ -31,7 +38,8 @@ use crate::log::plan::Site;
 use crate::log::{RowLines, SweepLog};
 use crate::Error;
 
-use super::outcome::{self, Gate, GateRole, Verdict};
+use super::outcome::{self, Gate, Verdict};
+use super::units_sense::{check_unit_sense, ExpectedField};
 use super::CheckRequest;
 
 /// Temperature span above which a bias slope is fitted, °C.
@@ -139,6 +147,13 @@ pub struct CageDetails {
     pub axis_sigma_nt: [f64; 3],
     /// Condition number of the (equilibrated) normal matrix.
     pub condition_number: f64,
+    /// Ratio of the largest to the smallest singular value of the applied fields.
+    pub design_condition: f64,
+    /// Mean magnitude of the applied fields, nT.
+    pub applied_mean_nt: f64,
+    /// The sensor axis whose sign is reversed when the response is a reflection
+    /// (det A < 0), against the nominal mounting.
+    pub flipped_axis: Option<&'static str>,
 }
 
 /// Per-sample data kept for plots and reports (not in the JSON).
@@ -187,8 +202,12 @@ pub struct CalibrationResult {
     pub warnings: Vec<CalibrationWarning>,
     /// True only when `verdict` is pass; null when there is nothing to judge against.
     pub pass: Option<bool>,
-    /// `pass`, `fail`, `inconclusive` or `no-limit`, from the gates.
+    /// `pass`, `fail` or `inconclusive`, from the gates.
     pub verdict: Verdict,
+    /// Whether every solve converged and the robust reweighting settled.
+    pub converged: bool,
+    /// Rows left out because a torque rod was on or settling (`cmd_<rod>` columns).
+    pub samples_rod_on: usize,
     /// Every gate evaluated, failed or not.
     pub gates: Vec<Gate>,
     // ---- further keys ----
@@ -243,9 +262,24 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
         .map(CalibrationWarning::Input)
         .collect();
     let mut notes = Vec::new();
-    // Usable rows: drop saturated readings (beyond the range, or piled up on a rail).
-    let idx = UsedRows::new(log.len(), &req.input.saturation.flagged);
-    let saturated = log.len() - idx.len();
+    check_unit_sense(req.input, expected_field(req, log)?)?;
+    // Usable rows: drop saturated readings (beyond the range, or piled up on a rail) and
+    // rows with a rod on or settling.
+    let saturated = req.input.saturated_rows();
+    let rods = rods::rod_blanking(log, req.plan);
+    let idx = if rods.rows > 0 {
+        let flagged: Vec<bool> = (0..log.len())
+            .map(|i| rods.blanked[i] || req.input.saturation.flagged.get(i) == Some(&true))
+            .collect();
+        warnings.push(CalibrationWarning::RodsOn {
+            rows: rods.rows,
+            total: log.len(),
+            columns: rods.columns,
+        });
+        UsedRows::new(log.len(), &flagged)
+    } else {
+        UsedRows::new(log.len(), &req.input.saturation.flagged)
+    };
     // Every row used: the fit reads the field columns in place. Else the used rows are
     // collected in parallel straight into a new vector (no serial zero-fill first).
     let samples = match &idx {
@@ -284,10 +318,17 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     };
     let limit = req.plan.and_then(|p| p.limits.calibration_residual_max_nt);
     res.residual_limit_nt = limit;
-    res.gates = limit
-        .map(|l| Gate::at_most("residual", res.residual_rms_nt, l, GateRole::Article))
-        .into_iter()
-        .collect();
+    res.samples_rod_on = rods.rows;
+    let facts = gates::GateFacts {
+        samples_offered: ctx.samples.len(),
+        rods_on_share: rods.rows as f64 / log.len().max(1) as f64,
+        design_condition: res.cage.as_ref().map(|c| c.design_condition),
+        alignment_known: req
+            .plan
+            .is_some_and(|p| p.cage.is_some() && p.magnetometer.is_some()),
+    };
+    let limits = req.plan.map(|p| p.limits.gates).unwrap_or_default();
+    res.gates = gates::calibration_gates(&res, &facts, &limits, limit);
     res.verdict = Verdict::from_gates(&res.gates);
     res.pass = res.verdict.pass();
     res.residual_rms_sigma_nt = rms_sigma(res.residual_rms_nt, res.samples_used);
@@ -297,6 +338,29 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     res.samples_saturated = saturated;
     keep_per_sample_data(&mut res, ctx, req.options.keep_samples);
     Ok(res)
+}
+
+/// The field the log should show: the applied fields of a cage, the reference of a
+/// tumble, else the geomagnetic range.
+fn expected_field(req: &CalibrateRequest, log: &SweepLog) -> Result<ExpectedField, Error> {
+    if let Some(h) = &log.h_nt {
+        let n = h[0].len().max(1);
+        let mean = (0..h[0].len())
+            .map(|i| (h[0][i] * h[0][i] + h[1][i] * h[1][i] + h[2][i] * h[2][i]).sqrt())
+            .sum::<f64>()
+            / n as f64;
+        return Ok(ExpectedField::Magnitude {
+            nt: mean,
+            what: "mean applied field",
+        });
+    }
+    Ok(match resolve_reference(req)?.0 {
+        Some(nt) => ExpectedField::Magnitude {
+            nt,
+            what: "reference",
+        },
+        None => ExpectedField::Geomagnetic,
+    })
 }
 
 /// 1σ of an RMS over `n` samples of Gaussian residuals: RMS/√(2n) (first-order
@@ -578,6 +642,8 @@ fn calibrate_tumble<S: FieldSamples + ?Sized>(
         pass: None,
         verdict: Verdict::NoLimit,
         gates: Vec::new(),
+        converged: fit.solver_problems.is_empty() && fit.irls_converged,
+        samples_rod_on: 0,
         log: ctx.log.path.display().to_string(),
         soft_iron_frame: "sensor",
         soft_iron_sigma: rows(&w_sigma),

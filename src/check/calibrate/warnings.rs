@@ -48,7 +48,19 @@ pub enum CalibrationWarning {
         deviation: f64,
     },
     /// The cage response includes a reflection (det A < 0).
-    Reflection,
+    Reflection {
+        /// The sensor axis that looks reversed, when one stands out.
+        axis: Option<&'static str>,
+    },
+    /// Rows with a torque rod on or settling were left out.
+    RodsOn {
+        /// Rows left out.
+        rows: usize,
+        /// All rows.
+        total: usize,
+        /// Command columns in the log.
+        columns: usize,
+    },
     /// A temperature column is present but spans too little for a slope.
     TemperatureSpanSmall {
         /// Span, °C.
@@ -102,10 +114,27 @@ impl fmt::Display for CalibrationWarning {
                  reference field and the log's field unit",
                 deviation * 100.0
             ),
-            W::Reflection => write!(
+            W::Reflection { axis } => match axis {
+                Some(a) => write!(
+                    f,
+                    "the cage response contains a reflection (det A < 0): sensor {a} reads \
+                     against the plan's mounting; check that axis's wiring and the plan's \
+                     sensor_to_body"
+                ),
+                None => write!(
+                    f,
+                    "the cage response contains a reflection (det A < 0): a sensor axis or a \
+                     coil pair is wired or labelled with the wrong sign"
+                ),
+            },
+            W::RodsOn {
+                rows,
+                total,
+                columns,
+            } => write!(
                 f,
-                "the cage response contains a reflection (det A < 0): a sensor axis or a coil \
-                 pair is wired or labelled with the wrong sign"
+                "{rows} of {total} rows had a torque rod on or settling ({columns} command \
+                 column(s)) and were left out of the fit; calibrate with the rods off"
             ),
             W::TemperatureSpanSmall { span_c } => write!(
                 f,

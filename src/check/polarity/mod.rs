@@ -568,13 +568,12 @@ fn rod_gates(rod: &RodResult, snr_min: f64, angle_max_deg: f64) -> Vec<Gate> {
         ),
     ];
     if rod.verdict == Verdict::Inconclusive && angle <= angle_max_deg {
-        gates.push(Gate {
-            name: format!("distinguishable:{}", rod.name),
-            value: 0.0,
-            limit: 1.0,
-            ok: false,
-            role: GateRole::Data,
-        });
+        gates.push(Gate::at_least(
+            format!("distinguishable:{}", rod.name),
+            0.0,
+            1.0,
+            GateRole::Data,
+        ));
     }
     gates
 }

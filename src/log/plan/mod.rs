@@ -16,5 +16,5 @@ mod types;
 
 pub use parse::{parse_plan, read_plan};
 pub use types::{
-    Article, Cage, DipoleTest, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
+    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
 };

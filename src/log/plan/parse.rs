@@ -12,7 +12,7 @@ use super::raw::{
     RawStep,
 };
 use super::types::{
-    Article, Cage, DipoleTest, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
+    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
 };
 use crate::log::error::{PlanError, Shown};
 use crate::log::units::FieldUnit;
@@ -209,6 +209,7 @@ impl Validator<'_> {
                 dipole_per_command_am2: self
                     .positive(&key("dipole_per_command_am2"), r.dipole_per_command_am2)?,
                 length_m: self.positive(&key("length_m"), r.length_m)?,
+                settle_s: self.positive(&key("settle_s"), r.settle_s)?,
             });
         }
         Ok(rods)
@@ -247,6 +248,39 @@ impl Validator<'_> {
         })
     }
 
+    fn gate_limits(&self, raw: &RawLimits) -> Result<GateLimits, PlanError> {
+        let share = |key: &str, v: Option<f64>| -> Result<Option<f64>, PlanError> {
+            match v {
+                Some(x) if !(0.0..=1.0).contains(&x) => Err(self.invalid(
+                    &format!("limits.{key}"),
+                    format!("must be a share between 0 and 1, found {x}"),
+                )),
+                other => Ok(other),
+            }
+        };
+        let g = GateLimits {
+            coverage_min: share("coverage_min", raw.coverage_min)?,
+            hard_iron_max_nt: self.positive("limits.hard_iron_max_nt", raw.hard_iron_max_nt)?,
+            soft_iron_min: self.positive("limits.soft_iron_min", raw.soft_iron_min)?,
+            soft_iron_max: self.positive("limits.soft_iron_max", raw.soft_iron_max)?,
+            residual_max_fraction: share("residual_max_fraction", raw.residual_max_fraction)?,
+            samples_used_min: share("samples_used_min", raw.samples_used_min)?,
+            rods_on_share_max: share("rods_on_share_max", raw.rods_on_share_max)?,
+            design_condition_max: self
+                .positive("limits.design_condition_max", raw.design_condition_max)?,
+            alignment_max_deg: self.positive("limits.alignment_max_deg", raw.alignment_max_deg)?,
+        };
+        if let (Some(lo), Some(hi)) = (g.soft_iron_min, g.soft_iron_max) {
+            if lo >= hi {
+                return Err(self.invalid(
+                    "limits.soft_iron_min",
+                    format!("must be below limits.soft_iron_max ({lo} ≥ {hi})"),
+                ));
+            }
+        }
+        Ok(g)
+    }
+
     fn limits(&self, raw: RawLimits) -> Result<Limits, PlanError> {
         let limits = Limits {
             residual_dipole_max_am2: self.positive(
@@ -259,6 +293,7 @@ impl Validator<'_> {
             )?,
             polarity_angle_max_deg: self
                 .positive("limits.polarity_angle_max_deg", raw.polarity_angle_max_deg)?,
+            gates: self.gate_limits(&raw)?,
         };
         if let Some(a) = limits.polarity_angle_max_deg {
             if a >= 90.0 {

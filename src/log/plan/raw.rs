@@ -70,6 +70,7 @@ pub(super) struct RawRod {
     pub(super) position_m: [f64; 3],
     pub(super) dipole_per_command_am2: Option<f64>,
     pub(super) length_m: Option<f64>,
+    pub(super) settle_s: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -100,4 +101,13 @@ pub(super) struct RawLimits {
     pub(super) residual_dipole_max_am2: Option<f64>,
     pub(super) calibration_residual_max_nt: Option<f64>,
     pub(super) polarity_angle_max_deg: Option<f64>,
+    pub(super) coverage_min: Option<f64>,
+    pub(super) hard_iron_max_nt: Option<f64>,
+    pub(super) soft_iron_min: Option<f64>,
+    pub(super) soft_iron_max: Option<f64>,
+    pub(super) residual_max_fraction: Option<f64>,
+    pub(super) samples_used_min: Option<f64>,
+    pub(super) rods_on_share_max: Option<f64>,
+    pub(super) design_condition_max: Option<f64>,
+    pub(super) alignment_max_deg: Option<f64>,
 }

@@ -115,6 +115,9 @@ pub struct Rod {
     pub dipole_per_command_am2: Option<f64>,
     /// Rod length, m (for the point-dipole validity check).
     pub length_m: Option<f64>,
+    /// Time the rod's field takes to settle after a command change, s (the blanking
+    /// window of a calibration with rods in the log; default 0.2 s).
+    pub settle_s: Option<f64>,
 }
 
 /// `[dipole_test]`.
@@ -156,6 +159,33 @@ pub struct Limits {
     pub calibration_residual_max_nt: Option<f64>,
     /// Largest acceptable angle between measured and expected rod response, deg.
     pub polarity_angle_max_deg: Option<f64>,
+    /// Calibration gates (docs/calibration.md, "Gates"); `None` takes the default.
+    pub gates: GateLimits,
+}
+
+/// Limits of the calibration gates, each overriding its default when given
+/// (docs/calibration.md, "Gates", gives the defaults and the reason for each).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct GateLimits {
+    /// Smallest tumble coverage, 0..1.
+    pub coverage_min: Option<f64>,
+    /// Largest |hard iron|, nT.
+    pub hard_iron_max_nt: Option<f64>,
+    /// Smallest eigenvalue of W.
+    pub soft_iron_min: Option<f64>,
+    /// Largest eigenvalue of W.
+    pub soft_iron_max: Option<f64>,
+    /// Largest residual RMS as a fraction of the reference magnitude.
+    pub residual_max_fraction: Option<f64>,
+    /// Smallest share of the unflagged samples the fit must use, 0..1.
+    pub samples_used_min: Option<f64>,
+    /// Largest share of a tumble's rows with a rod on (or settling), 0..1.
+    pub rods_on_share_max: Option<f64>,
+    /// Largest ratio of the largest to the smallest singular value of a cage's applied
+    /// fields.
+    pub design_condition_max: Option<f64>,
+    /// Largest misalignment of a cage calibration against the plan's mounting, deg.
+    pub alignment_max_deg: Option<f64>,
 }
 
 impl Plan {

@@ -7,7 +7,7 @@
 
 use nalgebra::{Matrix2, Matrix3, Vector3};
 
-use super::{figure, pm, short, to_json, verdict_tone};
+use super::{figure, pm, short, to_json};
 use crate::check::calibrate::{CalibrationResult, Method, ReferenceSource};
 use crate::report::model::{Cell, Figure, Section, Table};
 use crate::report::plot::{draw_histogram, draw_xy, ellipse_points, Series, XyPlot};
@@ -110,24 +110,7 @@ pub fn calibration_section(r: &CalibrationResult) -> Result<Section, Error> {
         ));
     }
 
-    let verdict_table = Table {
-        caption: "Verdict".into(),
-        header: vec![
-            "quantity".into(),
-            "value".into(),
-            "limit".into(),
-            "verdict".into(),
-        ],
-        rows: vec![vec![
-            Cell::plain("residual RMS"),
-            Cell::plain(pm(r.residual_rms_nt, Some(rms_sd), "nT")),
-            Cell::plain(
-                r.residual_limit_nt
-                    .map_or("none in the plan".into(), |l| format!("≤ {l} nT")),
-            ),
-            Cell::toned(r.verdict.word(), verdict_tone(r.verdict)),
-        ]],
-    };
+    let verdict_table = super::gates_table(&r.gates);
     let mut w_rows = Vec::new();
     for i in 0..3 {
         let mut row = vec![Cell::plain(AXES[i])];
@@ -455,8 +438,9 @@ mod tests {
             .notes
             .iter()
             .any(|n| n.contains("cannot see misalignment")));
-        // No limit in a plan-less run: the verdict says so in words.
-        assert_eq!(s.verdict, Verdict::NoLimit);
-        assert_eq!(s.tables[0].rows[0][3].text, "NO LIMIT");
+        // A plan-less run is judged by its gates alone; every gate is listed in words.
+        assert_eq!(s.verdict, Verdict::Pass);
+        assert_eq!(s.tables[0].rows.len(), r.gates.len());
+        assert!(s.tables[0].rows.iter().all(|row| row[3].text == "met"));
     }
 }

@@ -120,7 +120,7 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
         title: "Residual magnetic dipole".into(),
         verdict: r.verdict,
         figures_of_merit: fom,
-        tables: vec![table],
+        tables: vec![table, super::gates_table(&r.gates)],
         figures: dipole_figures(r)?,
         warnings: crate::check::outcome::tally(&r.warnings),
         notes,

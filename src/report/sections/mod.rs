@@ -31,6 +31,40 @@ fn to_json(value: &impl serde::Serialize) -> Result<serde_json::Value, Error> {
     serde_json::to_value(value).map_err(|e| Error::Internal(format!("result JSON: {e}")))
 }
 
+/// The gates behind a verdict: name, value, limit and the word for each (every gate,
+/// failed or not).
+pub(crate) fn gates_table(gates: &[crate::check::Gate]) -> super::Table {
+    use crate::check::GateRole;
+    let rows = gates
+        .iter()
+        .map(|g| {
+            let (word, tone) = match (g.ok, g.role) {
+                (true, _) => ("met", Tone::Good),
+                (false, GateRole::Article) => ("FAILED", Tone::Bad),
+                (false, GateRole::Data) => ("cannot tell", Tone::Warn),
+            };
+            vec![
+                super::Cell::plain(g.name.replace('_', " ")),
+                super::Cell::plain(short(g.value)),
+                super::Cell::plain(format!("{} {}", g.bound.symbol(), short(g.limit))),
+                super::Cell::toned(word, tone),
+            ]
+        })
+        .collect();
+    super::Table {
+        caption: "Gates behind the verdict (a failed article gate fails the check; a \
+                  failed data gate makes it inconclusive)"
+            .into(),
+        header: vec![
+            "gate".into(),
+            "value".into(),
+            "limit".into(),
+            "result".into(),
+        ],
+        rows,
+    }
+}
+
 /// Tone of a verdict.
 fn verdict_tone(v: super::Verdict) -> Tone {
     match v {

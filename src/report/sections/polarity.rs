@@ -79,7 +79,7 @@ pub fn polarity_section(r: &PolarityResult) -> Result<Section, Error> {
         title: "Torque-rod polarity".into(),
         verdict: r.verdict,
         figures_of_merit: fom,
-        tables: vec![table],
+        tables: vec![table, super::gates_table(&r.gates)],
         figures: polarity_figures(r)?,
         warnings: crate::check::outcome::tally(&r.warnings),
         notes,
