@@ -26,3 +26,5 @@ mod reliability;
 mod report;
 #[path = "cli/simulate.rs"]
 mod simulate;
+#[path = "cli/verdicts.rs"]
+mod verdicts;

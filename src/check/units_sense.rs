@@ -97,7 +97,9 @@ pub fn check_unit_sense(input: &CheckInput, expected: ExpectedField) -> Result<(
             }
             let mid = (lo * hi).sqrt();
             match unit_for(assumed, mid / mean) {
-                Some(u) if (lo..=hi).contains(&(mean * u.to_nt_factor() / assumed.to_nt_factor())) => {
+                Some(u)
+                    if (lo..=hi).contains(&(mean * u.to_nt_factor() / assumed.to_nt_factor())) =>
+                {
                     Err(Error::Degenerate(format!(
                         "{path}: mean |b| is {mean:.4e} nT, outside the geomagnetic range \
                          {lo:.0}–{hi:.0} nT: the field columns look like {u} read as \
@@ -116,9 +118,15 @@ mod tests {
 
     #[test]
     fn a_thousandfold_shortfall_read_as_nt_is_microtesla() {
-        assert_eq!(unit_for(FieldUnit::Nanotesla, 1000.0), Some(FieldUnit::Microtesla));
+        assert_eq!(
+            unit_for(FieldUnit::Nanotesla, 1000.0),
+            Some(FieldUnit::Microtesla)
+        );
         assert_eq!(unit_for(FieldUnit::Nanotesla, 1e5), Some(FieldUnit::Gauss));
-        assert_eq!(unit_for(FieldUnit::Microtesla, 1e-3), Some(FieldUnit::Nanotesla));
+        assert_eq!(
+            unit_for(FieldUnit::Microtesla, 1e-3),
+            Some(FieldUnit::Nanotesla)
+        );
         assert_eq!(unit_for(FieldUnit::Nanotesla, 30.0), None);
     }
 }

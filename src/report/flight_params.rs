@@ -70,6 +70,9 @@ pub struct FlightParams {
     pub residual_rms_nt: f64,
     /// 1σ of the hard iron, nT.
     pub hard_iron_sigma_nt: [f64; 3],
+    /// The calibration's verdict. Parameters of a calibration that did not pass are
+    /// written only when asked to, and say so here and in `MAGCAL_VERDICT_PASSED`.
+    pub verdict: crate::check::Verdict,
 }
 
 const APPLY: &str = "b_corr = W * (b_meas - hard_iron - temp_slope * (T - temp_ref))";
@@ -99,6 +102,7 @@ impl FlightParams {
             reference_nt: r.reference_nt,
             residual_rms_nt: r.residual_rms_nt,
             hard_iron_sigma_nt: r.hard_iron_sigma_nt,
+            verdict: r.verdict,
         }
     }
 
@@ -125,7 +129,20 @@ impl FlightParams {
             self.hard_iron_sigma_nt[1],
             self.hard_iron_sigma_nt[2]
         ));
+        if self.verdict != crate::check::Verdict::Pass {
+            s.push_str(&format!(
+                "/* WARNING: this calibration's verdict is {}: these parameters were written \
+                 on request and must not fly without review. */\n",
+                self.verdict
+            ));
+        }
         s.push_str("#ifndef MAGPROOF_MAGCAL_H\n#define MAGPROOF_MAGCAL_H\n\n");
+        s.push_str(&format!(
+            "/* 1 when the calibration passed every gate, 0 when it did not ({}). */\n\
+             #define MAGCAL_VERDICT_PASSED {}\n\n",
+            self.verdict,
+            u8::from(self.verdict == crate::check::Verdict::Pass)
+        ));
         s.push_str("/* Hard iron, sensor frame, nT. */\n");
         s.push_str(&format!(
             "static const double MAGCAL_HARD_IRON_NT[3] = {};\n\n",

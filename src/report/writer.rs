@@ -126,8 +126,20 @@ impl ReportWriter for FlightParamsWriter<'_> {
         "flight parameters"
     }
     fn prepare(&self) -> Result<(), Error> {
-        if let ParamsSource::Calibration(_) = self.source {
-            ParamsFormat::for_path(&self.path)?;
+        let verdict = match self.source {
+            ParamsSource::Calibration(r) => {
+                ParamsFormat::for_path(&self.path)?;
+                r.verdict
+            }
+            ParamsSource::Polarity(r) => r.verdict,
+        };
+        if verdict != crate::check::Verdict::Pass && !self.force {
+            return Err(Error::Usage(format!(
+                "{}: flight parameters are written only for a passing verdict, and this \
+                 one is {verdict}; replacing that rule must be asked for (the file then \
+                 says the verdict)",
+                self.path.display()
+            )));
         }
         check_destination(&self.path, self.force, "parameter file")
     }

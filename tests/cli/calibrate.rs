@@ -219,7 +219,10 @@ fn no_reference_gives_unanchored_scale_with_a_warning() {
         .iter()
         .map(|g| g["name"].as_str().unwrap())
         .collect();
-    assert!(gates.contains(&"coverage") && !gates.contains(&"residual"), "{gates:?}");
+    assert!(
+        gates.contains(&"coverage") && !gates.contains(&"residual"),
+        "{gates:?}"
+    );
 }
 
 #[test]

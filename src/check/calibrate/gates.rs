@@ -72,8 +72,13 @@ pub(super) fn calibration_gates(
         GateRole::Article,
     ));
     gates.push(soft_iron_gate(r, limits));
-    if let Some(reference) = r.reference_nt.or(r.cage.as_ref().map(|c| c.applied_mean_nt)) {
-        let fraction = limits.residual_max_fraction.unwrap_or(RESIDUAL_MAX_FRACTION);
+    if let Some(reference) = r
+        .reference_nt
+        .or(r.cage.as_ref().map(|c| c.applied_mean_nt))
+    {
+        let fraction = limits
+            .residual_max_fraction
+            .unwrap_or(RESIDUAL_MAX_FRACTION);
         gates.push(Gate::at_most(
             "residual",
             r.residual_rms_nt,

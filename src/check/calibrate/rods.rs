@@ -74,7 +74,9 @@ mod tests {
         // On at rows 2–3; off at row 4, settling until 0.4 + 0.2 s: rows 4 and 5
         // (0.5 s), not row 6 (0.6 s, 0.2 s after the change).
         let b = rod_blanking(&log, None);
-        let expect = [false, false, true, true, true, true, false, false, false, false];
+        let expect = [
+            false, false, true, true, true, true, false, false, false, false,
+        ];
         assert_eq!(b.blanked, expect);
         assert_eq!(b.rows, 4);
     }

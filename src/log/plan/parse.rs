@@ -12,7 +12,8 @@ use super::raw::{
     RawStep,
 };
 use super::types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site, Step,
+    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
+    Step,
 };
 use crate::log::error::{PlanError, Shown};
 use crate::log::units::FieldUnit;
