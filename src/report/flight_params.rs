@@ -226,6 +226,7 @@ mod tests {
             reference_nt: Some(48_000.0),
             residual_rms_nt: 50.0,
             hard_iron_sigma_nt: [2.8, 2.9, 2.8],
+            verdict: crate::check::Verdict::Pass,
         }
     }
 
