@@ -174,3 +174,48 @@ fn flight_parameters_of_a_failing_calibration_need_force_and_say_so() {
     assert!(text.contains("#define MAGCAL_VERDICT_PASSED 0"), "{text}");
     assert!(text.contains("verdict is FAIL"), "{text}");
 }
+
+#[test]
+fn a_flipped_magnetometer_axis_is_never_ok_and_the_fitting_mapping_is_named() {
+    let t = TestDir::new();
+    let pol = simulate(&t, "polarity");
+    // The harness reverses the magnetometer's z axis: every bz reading changes sign.
+    let text = std::fs::read_to_string(pol.join("pulses.csv")).unwrap();
+    let mut lines = text.lines();
+    let mut out: Vec<String> = Vec::new();
+    for l in lines.by_ref() {
+        out.push(l.to_string());
+        if !l.starts_with('#') {
+            break;
+        }
+    }
+    for l in lines {
+        let mut cells: Vec<String> = l.split(',').map(String::from).collect();
+        let bz: f64 = cells[3].parse().unwrap();
+        cells[3] = format!("{}", -bz);
+        out.push(cells.join(","));
+    }
+    let flipped = t.write("flipped.csv", out.join("\n") + "\n");
+    let run = t
+        .magproof()
+        .args(["polarity", "--json", "--plan"])
+        .arg(pol.join("plan.toml"))
+        .arg(&flipped)
+        .output()
+        .unwrap();
+    assert_code(&run, 1);
+    let j = json_stdout(&run);
+    let verdicts: Vec<&str> = j["rods"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["verdict"].as_str().unwrap())
+        .collect();
+    assert!(!verdicts.contains(&"ok"), "{verdicts:?}");
+    assert!(verdicts.contains(&"off-axis"), "{verdicts:?}");
+    assert!(
+        j["warnings"].to_string().contains("z reads −z"),
+        "{}",
+        j["warnings"]
+    );
+}

@@ -23,6 +23,7 @@
 //! at least one pulse, a plan with `[[rod]]` and the sensor's position (`[magnetometer]
 //! position_m`, or a `[probe]`).
 
+mod mapping;
 mod passes;
 mod rise;
 pub mod seam;
@@ -34,7 +35,7 @@ use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 pub use timing::DriftModel;
-pub use verdict::{RodResult, Verdict};
+pub use verdict::{consistency_limit_deg, RodResult, Verdict, MODEL_ERROR_DEG};
 pub use warning::PolarityWarning;
 
 use crate::check::outcome::{self, Gate, GateRole};
@@ -510,6 +511,23 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         r.rise_time_s = Some(rise.tau_s[c]);
         r.rise_time_sigma_s = rise.tau_sigma_s[c];
     }
+    let decidable: Vec<_> = rods
+        .iter()
+        .filter(|r| r.snr >= req_opts.snr_min)
+        .map(|r| {
+            (
+                Vector3::from(r.coupling_nt_per_command),
+                Vector3::from(r.expected_nt_per_am2),
+                verdict::consistency_limit_deg(r.angle_sigma_deg),
+            )
+        })
+        .collect();
+    if let Some(m) = mapping::better_mapping(&decidable) {
+        warnings.push(PolarityWarning::MappingFits {
+            description: m.description,
+            worst_angle_deg: m.worst_angle_deg,
+        });
+    }
     let gates: Vec<Gate> = rods
         .iter()
         .flat_map(|r| rod_gates(r, req_opts.snr_min, angle_max_deg))
@@ -567,6 +585,14 @@ fn rod_gates(rod: &RodResult, snr_min: f64, angle_max_deg: f64) -> Vec<Gate> {
             GateRole::Article,
         ),
     ];
+    if angle <= angle_max_deg {
+        gates.push(Gate::at_most(
+            format!("model_consistency:{}", rod.name),
+            angle,
+            verdict::consistency_limit_deg(rod.angle_sigma_deg),
+            GateRole::Article,
+        ));
+    }
     if rod.verdict == Verdict::Inconclusive && angle <= angle_max_deg {
         gates.push(Gate::at_least(
             format!("distinguishable:{}", rod.name),

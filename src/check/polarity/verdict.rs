@@ -12,6 +12,16 @@ use crate::physics::dipole::dipole_matrix;
 use crate::physics::frames::angle_between;
 use crate::Error;
 
+/// The point-dipole model's own direction error when no finite-rod model applies, deg
+/// (common practice for rods a few lengths from the sensor).
+pub const MODEL_ERROR_DEG: f64 = 3.0;
+
+/// Largest angle from the expected direction consistent with the model and the
+/// measurement: the model's error plus 3σ of the measured angle, deg.
+pub fn consistency_limit_deg(angle_sigma_deg: Option<f64>) -> f64 {
+    MODEL_ERROR_DEG + 3.0 * angle_sigma_deg.unwrap_or(0.0)
+}
+
 /// A rod's verdict.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
@@ -27,6 +37,10 @@ pub enum Verdict {
     /// The data cannot tell: the response matches no rod, or two rods' expected
     /// directions at the sensor are too close to tell a swap.
     Inconclusive,
+    /// Within the angle limit, but farther from the expected direction than the
+    /// model's own error plus 3σ of the measurement: something in the chain (a sensor
+    /// axis, the mounting, the rod's axis) is not as the plan says.
+    OffAxis,
 }
 
 impl Verdict {
@@ -38,6 +52,7 @@ impl Verdict {
             Verdict::WrongAxis => "wrong-axis",
             Verdict::NoResponse => "no-response",
             Verdict::Inconclusive => "inconclusive",
+            Verdict::OffAxis => "off-axis",
         }
     }
 }
@@ -247,7 +262,20 @@ pub fn judge(
                 ),
             )
         } else if let Some(a) = angle.filter(|a| *a <= angle_max_rad) {
-            (Verdict::Ok, format!("{:.1}° from expected", deg(a)))
+            let consistent = consistency_limit_deg(angle_sigma);
+            if deg(a) <= consistent {
+                (Verdict::Ok, format!("{:.1}° from expected", deg(a)))
+            } else {
+                (
+                    Verdict::OffAxis,
+                    format!(
+                        "{:.1}° from expected, beyond the model's {MODEL_ERROR_DEG}° plus 3σ \
+                         ({consistent:.2}°): check the sensor axes, the mounting and the \
+                         rod's axis",
+                        deg(a)
+                    ),
+                )
+            }
         } else if let Some(a) = angle.filter(|a| std::f64::consts::PI - a <= angle_max_rad) {
             (
                 Verdict::Reversed,

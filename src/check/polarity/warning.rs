@@ -71,6 +71,13 @@ pub enum PolarityWarning {
         /// Upper end of the range, s.
         hi_s: f64,
     },
+    /// Another magnetometer mapping explains every rod's response; the plan's does not.
+    MappingFits {
+        /// The sensor axes as they read against the plan's ("z reads −z").
+        description: String,
+        /// Largest angle of a response from its expected direction under it, deg.
+        worst_angle_deg: f64,
+    },
     /// Something the input builder found (saturation, skipped rows).
     Input(InputWarning),
 }
@@ -141,6 +148,15 @@ impl fmt::Display for PolarityWarning {
                 "the delay fitted with the rise ({lag_s:.4} s) is at the edge of the range \
                  searched around the cross-correlation lag ({lo_s:.4} to {hi_s:.4} s): the \
                  true delay may lie outside it"
+            ),
+            W::MappingFits {
+                description,
+                worst_angle_deg,
+            } => write!(
+                f,
+                "the responses fit a magnetometer whose {description} (every rod within \
+                 {worst_angle_deg:.1}° of its expected direction), not the plan's mapping: \
+                 check the magnetometer's harness and the plan's sensor_to_body"
             ),
             W::Input(w) => write!(f, "{w}"),
         }

@@ -90,7 +90,7 @@ pub fn polarity_section(r: &PolarityResult) -> Result<Section, Error> {
 fn rod_tone(v: RodVerdict) -> Tone {
     match v {
         RodVerdict::Ok => Tone::Good,
-        RodVerdict::Reversed | RodVerdict::WrongAxis => Tone::Bad,
+        RodVerdict::Reversed | RodVerdict::WrongAxis | RodVerdict::OffAxis => Tone::Bad,
         RodVerdict::NoResponse | RodVerdict::Inconclusive => Tone::Warn,
     }
 }
