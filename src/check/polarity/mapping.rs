@@ -113,7 +113,8 @@ mod tests {
             .collect();
         let m = better_mapping(&rods).unwrap();
         assert_eq!(m.description, "z reads −z");
-        assert!(m.worst_angle_deg < 1e-9);
+        // acos near 1 resolves angles to about 1e-6° in f64.
+        assert!(m.worst_angle_deg < 1e-5, "{}", m.worst_angle_deg);
         // Responses as planned: nothing to say.
         let good: Vec<_> = expected.iter().map(|e| (*e, *e, 3.5)).collect();
         assert!(better_mapping(&good).is_none());
