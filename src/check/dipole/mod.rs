@@ -181,6 +181,8 @@ pub struct DipoleResult {
     pub orbit_torque_max_sigma_n_m: f64,
     /// Orbit-average torque with m ⊥ B throughout (attitude-independent bound), N·m.
     pub orbit_torque_mean_n_m: f64,
+    /// 1σ of the orbit-average torque, N·m (from the σ of |m|).
+    pub orbit_torque_mean_sigma_n_m: f64,
     /// |m| as a fraction of each rod's nominal dipole.
     pub rods: Vec<RodFraction>,
     /// The plan's limit, A·m².
@@ -537,6 +539,7 @@ fn assemble(
         orbit_field_model: ORBIT_MODEL.to_string(),
         orbit_torque_max_sigma_n_m: mag_sigma * bmax_nt * 1e-9,
         orbit_torque_mean_n_m: mag * bmean_nt * 1e-9,
+        orbit_torque_mean_sigma_n_m: mag_sigma * bmean_nt * 1e-9,
         rods,
         residual_dipole_max_am2: limit,
         samples_used: fit.samples,

@@ -67,10 +67,9 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
             "N·m",
         ),
     ));
-    let mean_sigma = r.magnitude_sigma_am2 * r.orbit_field_mean_nt * 1e-9;
     fom.push((
         "torque, orbit mean (m ⊥ B)".into(),
-        pm(r.orbit_torque_mean_n_m, Some(mean_sigma), "N·m"),
+        pm(r.orbit_torque_mean_n_m, Some(r.orbit_torque_mean_sigma_n_m), "N·m"),
     ));
 
     let mut rows = vec![vec![
