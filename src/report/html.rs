@@ -38,6 +38,7 @@ main { max-width:1240px; margin:0 auto; padding:18px 28px 40px; }
 .badge.pass { background:var(--pass); }
 .badge.fail { background:var(--fail); }
 .badge.info { background:var(--info); }
+.badge.inconclusive { background:var(--info); }
 section.check { background:var(--card); border:1px solid var(--line); border-radius:6px;
                 padding:16px 20px; margin:0 0 20px; }
 section.check > h2 { margin:0 0 10px; font-size:19px; display:flex; gap:12px; align-items:center; }
