@@ -16,29 +16,33 @@
 
 mod cage;
 mod gates;
+mod result;
 mod rods;
 pub mod seam;
+mod tumble;
 mod warnings;
 
 use nalgebra::{Matrix3, Vector3};
 use rayon::prelude::*;
-use serde::Serialize;
 
 pub use gates::{
     ALIGNMENT_MAX_DEG, COVERAGE_MIN, DESIGN_CONDITION_MAX, HARD_IRON_MAX_UNANCHORED_NT,
     RESIDUAL_MAX_FRACTION, RODS_ON_SHARE_MAX, SAMPLES_USED_MIN, SOFT_IRON_MAX, SOFT_IRON_MIN,
 };
+pub use result::{
+    CageDetails, CalibrationData, CalibrationResult, Method, ReferenceSource, TemperatureFit,
+};
 pub use rods::DEFAULT_SETTLE_S;
 pub use warnings::CalibrationWarning;
 
-use crate::fit::coverage::{axis_name, direction_spread_mapped};
+use crate::fit::coverage::axis_name;
 use crate::fit::samples::{FieldColumns, FieldSamples};
-use crate::fit::tumble::{fit_tumble, Robust, TumbleOptions, SYM_INDEX};
+use crate::fit::tumble::Robust;
 use crate::log::plan::Site;
-use crate::log::{RowLines, SweepLog};
+use crate::log::SweepLog;
 use crate::Error;
 
-use super::outcome::{self, Gate, Verdict};
+use super::outcome::Verdict;
 use super::units_sense::{check_unit_sense, ExpectedField};
 use super::CheckRequest;
 
@@ -76,172 +80,6 @@ impl Default for CalibrateOptions {
 /// What to calibrate: the screened log, the plan (optional: `[site]`, `[cage]`,
 /// `[limits] calibration_residual_max_nt` are used) and [`CalibrateOptions`].
 pub type CalibrateRequest<'a> = CheckRequest<'a, CalibrateOptions>;
-
-/// Which fit was done.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Method {
-    /// Coil-cage sweep with known applied fields.
-    Cage,
-    /// Tumble test in the ambient field.
-    Tumble,
-}
-
-/// Where the reference magnitude came from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum ReferenceSource {
-    /// Given by the user (command line or request).
-    Flag,
-    /// The plan's `[site] reference_nt`.
-    Plan,
-    /// The plan's `[site]` through the geomagnetic model.
-    Model,
-    /// None: scale fixed by det W = 1.
-    Unanchored,
-    /// A cage sweep needs none (the applied fields are the reference).
-    AppliedField,
-}
-
-/// Temperature dependence, when the log's `temp` spans more than 10 °C.
-#[derive(Debug, Clone, Serialize)]
-pub struct TemperatureFit {
-    /// Span of the temperature column, °C.
-    pub span_c: f64,
-    /// Mean temperature the hard iron refers to, °C.
-    pub reference_c: f64,
-    /// Bias slope, sensor frame, nT/°C.
-    pub slope_nt_per_c: [f64; 3],
-    /// 1σ of the slope, nT/°C.
-    pub slope_sigma_nt_per_c: [f64; 3],
-}
-
-/// Cage-only details.
-#[derive(Debug, Clone, Serialize)]
-pub struct CageDetails {
-    /// Response A (reading in S per applied field in the reference frame), rows.
-    pub response: [[f64; 3]; 3],
-    /// 1σ of each element of A.
-    pub response_sigma: [[f64; 3]; 3],
-    /// Scale factor of each sensor axis (row lengths of A), dimensionless.
-    pub scale_factors: [f64; 3],
-    /// 1σ of each scale factor.
-    pub scale_factor_sigma: [f64; 3],
-    /// Approximate 1σ of `misalignment_deg` and `non_orthogonality_deg`, deg.
-    pub angle_sigma_deg: f64,
-    /// Non-orthogonality of the sensor axes xy, xz, yz: 90° minus the angle between
-    /// their sensitive directions, deg.
-    pub non_orthogonality_deg: [f64; 3],
-    /// Rotation R of the polar decomposition A = R·S (reference frame → sensor).
-    pub rotation: [[f64; 3]; 3],
-    /// Symmetric part S of A = R·S.
-    pub stretch: [[f64; 3]; 3],
-    /// Angle between R and the nominal mounting, deg (nominal: `[magnetometer]
-    /// sensor_to_body` with `[cage]`, else sensor axes parallel to the cage axes).
-    pub misalignment_deg: f64,
-    /// Largest residual vector length, nT.
-    pub worst_residual_nt: f64,
-    /// File line of the worst residual.
-    pub worst_residual_line: u64,
-    /// Residual standard deviation per sensor axis, nT.
-    pub axis_sigma_nt: [f64; 3],
-    /// Condition number of the (equilibrated) normal matrix.
-    pub condition_number: f64,
-    /// Ratio of the largest to the smallest singular value of the applied fields.
-    pub design_condition: f64,
-    /// Mean magnitude of the applied fields, nT.
-    pub applied_mean_nt: f64,
-    /// The sensor axis whose sign is reversed when the response is a reflection
-    /// (det A < 0), against the nominal mounting.
-    pub flipped_axis: Option<&'static str>,
-}
-
-/// Per-sample data kept for plots and reports (not in the JSON).
-#[derive(Debug, Clone, Default)]
-pub struct CalibrationData {
-    /// Readings used by the fit, sensor frame, nT (may be empty without
-    /// [`CalibrateOptions::keep_samples`]).
-    pub samples_nt: Vec<Vector3<f64>>,
-    /// Corrected field `W (b − hard_iron)` per sample, `soft_iron_frame`, nT (empty
-    /// for a tumble fit asked without [`CalibrateOptions::keep_samples`]).
-    pub corrected_nt: Vec<Vector3<f64>>,
-    /// Residual per sample, nT (tumble: magnitude residual; cage: residual length).
-    pub residuals_nt: Vec<f64>,
-    /// Whether each sample was kept (false: rejected by the robust fit).
-    pub kept: Vec<bool>,
-    /// File line of each sample.
-    pub lines: RowLines,
-    /// Time of each sample, s, when the log has one.
-    pub t_s: Option<Vec<f64>>,
-}
-
-/// Result of a calibration. The first eleven fields are the stable keys of docs/calibration.md.
-#[derive(Debug, Clone, Serialize)]
-pub struct CalibrationResult {
-    /// `"cage"` or `"tumble"`.
-    pub method: Method,
-    /// Hard iron, sensor frame (S), nT.
-    pub hard_iron_nt: [f64; 3],
-    /// Correction W, rows: `b_true ≈ W (b_meas − hard_iron)`, into `soft_iron_frame`.
-    pub soft_iron: [[f64; 3]; 3],
-    /// Reference field magnitude used, nT (null for a cage sweep or when unanchored).
-    pub reference_nt: Option<f64>,
-    /// RMS residual, nT (tumble: of |W(b−c)| − R over kept samples; cage: of the
-    /// residual vector's length).
-    pub residual_rms_nt: f64,
-    /// Samples the fit used.
-    pub samples_used: usize,
-    /// Samples given zero weight by the robust fit or flagged unusable (saturated).
-    pub samples_rejected: usize,
-    /// 1σ of the hard iron per axis, nT.
-    pub hard_iron_sigma_nt: [f64; 3],
-    /// Direction coverage 0..1 (fraction of 48 equal-area sphere cells hit).
-    pub coverage: f64,
-    /// Warnings, each with cause and remedy (as text: each once, with a count).
-    #[serde(serialize_with = "outcome::serialize_tally")]
-    pub warnings: Vec<CalibrationWarning>,
-    /// True only when `verdict` is pass; null when there is nothing to judge against.
-    pub pass: Option<bool>,
-    /// `pass`, `fail` or `inconclusive`, from the gates.
-    pub verdict: Verdict,
-    /// Whether every solve converged and the robust reweighting settled.
-    pub converged: bool,
-    /// Rows left out because a torque rod was on or settling (`cmd_<rod>` columns).
-    pub samples_rod_on: usize,
-    /// Every gate evaluated, failed or not.
-    pub gates: Vec<Gate>,
-    // ---- further keys ----
-    /// The log file.
-    pub log: String,
-    /// Frame of `W (b − hard_iron)`: "sensor", "cage" or "body".
-    pub soft_iron_frame: &'static str,
-    /// 1σ of each element of W.
-    pub soft_iron_sigma: [[f64; 3]; 3],
-    /// 1σ of `residual_rms_nt`, nT: RMS/√(2n) over the samples used.
-    pub residual_rms_sigma_nt: f64,
-    /// Where `reference_nt` came from.
-    pub reference_source: ReferenceSource,
-    /// The residual limit applied, nT.
-    pub residual_limit_nt: Option<f64>,
-    /// Robust noise estimate (1.4826 × MAD of residuals), nT (tumble).
-    pub robust_sigma_nt: Option<f64>,
-    /// Temperature dependence, when fitted.
-    pub temperature: Option<TemperatureFit>,
-    /// Cage-only details.
-    pub cage: Option<CageDetails>,
-    /// Solver iterations (tumble, summed over reweighting rounds).
-    pub iterations: Option<u64>,
-    /// Rows the reader skipped (when asked to skip bad rows).
-    pub rows_skipped: usize,
-    /// Rows flagged as saturated (beyond the range or on a rail) and left out; they are
-    /// also counted in `samples_rejected`.
-    pub samples_saturated: usize,
-    /// Facts about the method the reader should keep in mind.
-    pub notes: Vec<String>,
-    /// Per-sample data for plots.
-    #[serde(skip)]
-    pub data: CalibrationData,
-}
 
 /// Run a calibration on a screened log: choose the fit, compute the result and verdict.
 pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error> {
@@ -313,8 +151,10 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     };
     let mut res = match &ctx.samples {
         _ if log.h_nt.is_some() => cage::calibrate_cage(&ctx, &mut warnings, &mut notes)?,
-        Samples::Columns(c) => calibrate_tumble(&ctx, c, &mut warnings, &mut notes)?,
-        Samples::Copied(v) => calibrate_tumble(&ctx, v.as_slice(), &mut warnings, &mut notes)?,
+        Samples::Columns(c) => tumble::calibrate_tumble(&ctx, c, &mut warnings, &mut notes)?,
+        Samples::Copied(v) => {
+            tumble::calibrate_tumble(&ctx, v.as_slice(), &mut warnings, &mut notes)?
+        }
     };
     let limit = req.plan.and_then(|p| p.limits.calibration_residual_max_nt);
     res.residual_limit_nt = limit;
@@ -521,152 +361,6 @@ fn conditioning_warning(cov: &Matrix3<f64>) -> Option<CalibrationWarning> {
     } else {
         None
     }
-}
-
-fn calibrate_tumble<S: FieldSamples + ?Sized>(
-    ctx: &Ctx,
-    samples: &S,
-    warnings: &mut Vec<CalibrationWarning>,
-    notes: &mut Vec<String>,
-) -> Result<CalibrationResult, Error> {
-    let (reference, source) = resolve_reference(ctx.req)?;
-    if reference.is_none() {
-        warnings.push(CalibrationWarning::Unanchored);
-    }
-    let fit = fit_tumble(
-        samples,
-        ctx.temp.map(|t| t.0),
-        &TumbleOptions {
-            reference_nt: reference,
-            robust: ctx.req.options.robust,
-            ..TumbleOptions::default()
-        },
-    )?;
-    for t in &fit.solver_problems {
-        warnings.push(CalibrationWarning::NotConverged {
-            reason: t.to_string(),
-        });
-    }
-    if !fit.irls_converged {
-        warnings.push(CalibrationWarning::ReweightingUnsettled {
-            rounds: fit.irls_rounds,
-        });
-    }
-    let total = samples.len() + ctx.saturated;
-    if fit.samples_rejected * 10 > samples.len() {
-        warnings.push(CalibrationWarning::ManyRejected {
-            rejected: fit.samples_rejected,
-            total,
-        });
-    }
-    if reference.is_some() {
-        let dev = fit.soft_iron.determinant().cbrt() - 1.0;
-        if dev.abs() > 0.2 {
-            warnings.push(CalibrationWarning::ScaleMismatch { deviation: dev });
-        }
-    }
-    let c_nt = fit.hard_iron_nt;
-    let w = fit.soft_iron;
-    let k = fit.temp_slope_nt_per_c.unwrap_or_else(Vector3::zeros);
-    let tmean = ctx
-        .temp
-        .map(|(t, _)| t.iter().sum::<f64>() / t.len() as f64)
-        .unwrap_or(0.0);
-    let correct = |i: usize, b: &Vector3<f64>| {
-        let tau = ctx.temp.map_or(0.0, |(t, _)| t[i] - tmean);
-        w * (b - c_nt - k * tau)
-    };
-    let kept: Vec<bool> = fit
-        .weights
-        .par_iter()
-        .with_min_len(PAR_CHUNK)
-        .map(|&x| x > 0.0)
-        .collect();
-    // The long-log route sums the spread in its last pass; else one pass here.
-    let spread = match fit.kept_direction_spread.clone() {
-        Some(s) => s,
-        None => direction_spread_mapped(samples, &kept, correct)
-            .ok_or_else(|| Error::Degenerate("no usable field direction".into()))?,
-    };
-    let corrected: Vec<Vector3<f64>> = if ctx.req.options.keep_samples {
-        (0..samples.len())
-            .into_par_iter()
-            .with_min_len(PAR_CHUNK)
-            .map(|i| correct(i, &samples.at(i)))
-            .collect()
-    } else {
-        Vec::new()
-    };
-    if spread.coverage < LOW_COVERAGE {
-        warnings.push(CalibrationWarning::LowCoverage {
-            coverage: spread.coverage,
-        });
-    }
-    let cov_c: Matrix3<f64> = fit.covariance.fixed_view::<3, 3>(0, 0).into_owned();
-    warnings.extend(conditioning_warning(&cov_c));
-    notes.push(
-        "a tumble cannot see misalignment (W is symmetric): misalignment needs a cage sweep \
-         or a reference attitude"
-            .into(),
-    );
-    let mut w_sigma = Matrix3::zeros();
-    for (m, &(i, j)) in SYM_INDEX.iter().enumerate() {
-        let s = fit.covariance[(3 + m, 3 + m)].max(0.0).sqrt();
-        w_sigma[(i, j)] = s;
-        w_sigma[(j, i)] = s;
-    }
-    let temperature = match (
-        fit.temp_slope_nt_per_c,
-        fit.temp_slope_sigma_nt_per_c,
-        ctx.temp,
-    ) {
-        (Some(k), Some(ks), Some((_, span))) => Some(TemperatureFit {
-            span_c: span,
-            reference_c: tmean,
-            slope_nt_per_c: k.into(),
-            slope_sigma_nt_per_c: ks.into(),
-        }),
-        _ => None,
-    };
-    Ok(CalibrationResult {
-        method: Method::Tumble,
-        hard_iron_nt: c_nt.into(),
-        soft_iron: rows(&w),
-        reference_nt: reference,
-        residual_rms_nt: fit.residual_rms_nt,
-        samples_used: fit.samples_used,
-        samples_rejected: fit.samples_rejected + ctx.saturated,
-        hard_iron_sigma_nt: fit.hard_iron_sigma_nt.into(),
-        coverage: spread.coverage,
-        warnings: Vec::new(),
-        pass: None,
-        verdict: Verdict::NoLimit,
-        gates: Vec::new(),
-        converged: fit.solver_problems.is_empty() && fit.irls_converged,
-        samples_rod_on: 0,
-        log: ctx.log.path.display().to_string(),
-        soft_iron_frame: "sensor",
-        soft_iron_sigma: rows(&w_sigma),
-        residual_rms_sigma_nt: 0.0,
-        reference_source: source,
-        residual_limit_nt: None,
-        robust_sigma_nt: (ctx.req.options.robust == Robust::Tukey).then_some(fit.robust_sigma_nt),
-        temperature,
-        cage: None,
-        iterations: Some(fit.iterations),
-        rows_skipped: 0,
-        samples_saturated: 0,
-        notes: Vec::new(),
-        data: CalibrationData {
-            // Filled by `run_calibrate` by moving, not copying (1e6-sample logs).
-            samples_nt: Vec::new(),
-            corrected_nt: corrected,
-            residuals_nt: fit.residuals_nt,
-            kept,
-            lines: RowLines::new(),
-            t_s: None,
-        },
-    })
 }
 
 #[cfg(test)]

@@ -69,7 +69,11 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
     ));
     fom.push((
         "torque, orbit mean (m ⊥ B)".into(),
-        pm(r.orbit_torque_mean_n_m, Some(r.orbit_torque_mean_sigma_n_m), "N·m"),
+        pm(
+            r.orbit_torque_mean_n_m,
+            Some(r.orbit_torque_mean_sigma_n_m),
+            "N·m",
+        ),
     ));
 
     let mut rows = vec![vec![
