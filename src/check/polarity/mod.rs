@@ -23,8 +23,10 @@
 //! at least one pulse, a plan with `[[rod]]` and the sensor's position (`[magnetometer]
 //! position_m`, or a `[probe]`).
 
+mod gates;
 mod mapping;
 mod passes;
+mod result;
 mod rise;
 pub mod seam;
 mod timing;
@@ -34,11 +36,12 @@ mod warning;
 use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
+pub use result::{PolarityResult, PolaritySeries, PulseResult};
 pub use timing::DriftModel;
 pub use verdict::{consistency_limit_deg, RodResult, Verdict, MODEL_ERROR_DEG};
 pub use warning::PolarityWarning;
 
-use crate::check::outcome::{self, Gate, GateRole};
+use crate::check::outcome::Gate;
 use crate::check::CheckRequest;
 use crate::fit::linear::LinearFit;
 use crate::log::Plan;
@@ -103,92 +106,6 @@ pub fn magnetometer_recorded(plan: &Plan, choice: SensorChoice) -> bool {
         SensorChoice::Probe => false,
         SensorChoice::Auto => plan.probe.is_none(),
     }
-}
-
-/// One pulse and what it left behind.
-#[derive(Debug, Clone, Serialize)]
-pub struct PulseResult {
-    /// Rod (command column without `cmd_`).
-    pub rod: String,
-    /// Time the command turned on, s.
-    pub t_on_s: f64,
-    /// Time the command turned off, s.
-    pub t_off_s: f64,
-    /// Mean command during the pulse, command units.
-    pub command: f64,
-    /// From command off until the field stays within 3σ of its settled level, s
-    /// (includes the lag); null if it did not settle before the next pulse.
-    pub settle_time_s: Option<f64>,
-    /// Settled field after the pulse minus before it, sensor frame, nT.
-    pub step_nt: Option<[f64; 3]>,
-    /// 1σ of `step_nt` per axis, nT.
-    pub step_sigma_nt: Option<[f64; 3]>,
-}
-
-/// Series for plots, decimated to at most [`PolaritySeries::MAX_POINTS`] points.
-#[derive(Debug, Clone, Default)]
-pub struct PolaritySeries {
-    /// Time, s.
-    pub t_s: Vec<f64>,
-    /// Measured field minus the fitted drift, sensor frame, nT.
-    pub field_minus_drift_nt: [Vec<f64>; 3],
-    /// Fitted rod response (couplings × lag-shifted commands), sensor frame, nT.
-    pub model_nt: [Vec<f64>; 3],
-    /// Lag-shifted commands, one vector per command column (plan rods first).
-    pub commands: Vec<Vec<f64>>,
-}
-
-impl PolaritySeries {
-    /// Largest number of points kept for plots.
-    pub const MAX_POINTS: usize = 4000;
-}
-
-/// Result of the polarity check; the first keys are the stable ones of docs/polarity.md.
-#[derive(Debug, Clone, Serialize)]
-pub struct PolarityResult {
-    /// One entry per plan rod, in plan order.
-    pub rods: Vec<RodResult>,
-    /// Command-to-response pure delay, s (positive: the response follows the command);
-    /// each rod's first-order rise comes after it (`rods[].rise_time_s`).
-    pub lag_s: f64,
-    /// 1σ of `lag_s`, s (for step responses: one sample interval over √12, as a step is
-    /// seen the same for any delay within one sample).
-    pub lag_sigma_s: f64,
-    /// Every rod `ok`.
-    pub pass: bool,
-    /// Angle limit applied, deg.
-    pub angle_max_deg: f64,
-    /// Where the angle limit came from: "plan" or "default".
-    pub angle_max_source: &'static str,
-    /// SNR threshold for `no-response`.
-    pub snr_min: f64,
-    /// Which sensor's geometry was used.
-    pub sensor: SensorChoice,
-    /// Coupling matrix, sensor frame, nT per command unit: rows = sensor x, y, z;
-    /// columns = rods in plan order.
-    pub coupling_matrix_nt_per_command: Vec<Vec<f64>>,
-    /// White-noise σ per sensor axis, nT (from first differences with every rod off).
-    pub noise_sigma_nt: [f64; 3],
-    /// Residual σ per sensor axis of the final fit, nT.
-    pub residual_sigma_nt: [f64; 3],
-    /// Drift terms used.
-    pub drift: String,
-    /// Rows with non-zero weight in the final fit.
-    pub samples_used: usize,
-    /// Rows flagged as saturated (beyond the range or on a rail) and left out.
-    pub samples_saturated: usize,
-    /// Every pulse found.
-    pub pulses: Vec<PulseResult>,
-    /// Anything the user should know (cause and remedy; each once, with a count).
-    #[serde(serialize_with = "outcome::serialize_tally")]
-    pub warnings: Vec<PolarityWarning>,
-    /// `pass`, `fail` or `inconclusive`, from the gates.
-    pub verdict: crate::check::Verdict,
-    /// Every gate evaluated, failed or not.
-    pub gates: Vec<Gate>,
-    /// Decimated series for plots.
-    #[serde(skip)]
-    pub series: PolaritySeries,
 }
 
 /// The sensor's geometry in the body frame.
@@ -530,7 +447,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     }
     let gates: Vec<Gate> = rods
         .iter()
-        .flat_map(|r| rod_gates(r, req_opts.snr_min, angle_max_deg))
+        .flat_map(|r| gates::rod_gates(r, req_opts.snr_min, angle_max_deg))
         .collect();
     let verdict = crate::check::Verdict::from_gates(&gates);
     let pass = verdict == crate::check::Verdict::Pass;
@@ -559,49 +476,6 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         warnings,
         series,
     })
-}
-
-/// A rod's gates: `snr:<rod>` (data: the response must stand above the noise), then
-/// `angle:<rod>` (article: the response within the angle limit of the expected
-/// direction) and, for a rod whose swap with another cannot be seen,
-/// `distinguishable:<rod>` (data).
-fn rod_gates(rod: &RodResult, snr_min: f64, angle_max_deg: f64) -> Vec<Gate> {
-    let snr = Gate::at_least(
-        format!("snr:{}", rod.name),
-        rod.snr,
-        snr_min,
-        GateRole::Data,
-    );
-    if !snr.ok {
-        return vec![snr];
-    }
-    let angle = rod.angle_to_expected_deg.unwrap_or(f64::NAN);
-    let mut gates = vec![
-        snr,
-        Gate::at_most(
-            format!("angle:{}", rod.name),
-            angle,
-            angle_max_deg,
-            GateRole::Article,
-        ),
-    ];
-    if angle <= angle_max_deg {
-        gates.push(Gate::at_most(
-            format!("model_consistency:{}", rod.name),
-            angle,
-            verdict::consistency_limit_deg(rod.angle_sigma_deg),
-            GateRole::Article,
-        ));
-    }
-    if rod.verdict == Verdict::Inconclusive && angle <= angle_max_deg {
-        gates.push(Gate::at_least(
-            format!("distinguishable:{}", rod.name),
-            0.0,
-            1.0,
-            GateRole::Data,
-        ));
-    }
-    gates
 }
 
 /// Coupling of command column `c`, sensor frame, nT per command unit.

@@ -1,0 +1,93 @@
+//! What the polarity check returns: the result whose JSON keys docs/polarity.md lists,
+//! each pulse and what it left behind, and the decimated series kept for plots.
+
+use serde::Serialize;
+
+use super::{PolarityWarning, RodResult, SensorChoice};
+use crate::check::outcome::{self, Gate};
+
+/// One pulse and what it left behind.
+#[derive(Debug, Clone, Serialize)]
+pub struct PulseResult {
+    /// Rod (command column without `cmd_`).
+    pub rod: String,
+    /// Time the command turned on, s.
+    pub t_on_s: f64,
+    /// Time the command turned off, s.
+    pub t_off_s: f64,
+    /// Mean command during the pulse, command units.
+    pub command: f64,
+    /// From command off until the field stays within 3σ of its settled level, s
+    /// (includes the lag); null if it did not settle before the next pulse.
+    pub settle_time_s: Option<f64>,
+    /// Settled field after the pulse minus before it, sensor frame, nT.
+    pub step_nt: Option<[f64; 3]>,
+    /// 1σ of `step_nt` per axis, nT.
+    pub step_sigma_nt: Option<[f64; 3]>,
+}
+
+/// Series for plots, decimated to at most [`PolaritySeries::MAX_POINTS`] points.
+#[derive(Debug, Clone, Default)]
+pub struct PolaritySeries {
+    /// Time, s.
+    pub t_s: Vec<f64>,
+    /// Measured field minus the fitted drift, sensor frame, nT.
+    pub field_minus_drift_nt: [Vec<f64>; 3],
+    /// Fitted rod response (couplings × lag-shifted commands), sensor frame, nT.
+    pub model_nt: [Vec<f64>; 3],
+    /// Lag-shifted commands, one vector per command column (plan rods first).
+    pub commands: Vec<Vec<f64>>,
+}
+
+impl PolaritySeries {
+    /// Largest number of points kept for plots.
+    pub const MAX_POINTS: usize = 4000;
+}
+
+/// Result of the polarity check; the first keys are the stable ones of docs/polarity.md.
+#[derive(Debug, Clone, Serialize)]
+pub struct PolarityResult {
+    /// One entry per plan rod, in plan order.
+    pub rods: Vec<RodResult>,
+    /// Command-to-response pure delay, s (positive: the response follows the command);
+    /// each rod's first-order rise comes after it (`rods[].rise_time_s`).
+    pub lag_s: f64,
+    /// 1σ of `lag_s`, s (for step responses: one sample interval over √12, as a step is
+    /// seen the same for any delay within one sample).
+    pub lag_sigma_s: f64,
+    /// Every rod `ok`.
+    pub pass: bool,
+    /// Angle limit applied, deg.
+    pub angle_max_deg: f64,
+    /// Where the angle limit came from: "plan" or "default".
+    pub angle_max_source: &'static str,
+    /// SNR threshold for `no-response`.
+    pub snr_min: f64,
+    /// Which sensor's geometry was used.
+    pub sensor: SensorChoice,
+    /// Coupling matrix, sensor frame, nT per command unit: rows = sensor x, y, z;
+    /// columns = rods in plan order.
+    pub coupling_matrix_nt_per_command: Vec<Vec<f64>>,
+    /// White-noise σ per sensor axis, nT (from first differences with every rod off).
+    pub noise_sigma_nt: [f64; 3],
+    /// Residual σ per sensor axis of the final fit, nT.
+    pub residual_sigma_nt: [f64; 3],
+    /// Drift terms used.
+    pub drift: String,
+    /// Rows with non-zero weight in the final fit.
+    pub samples_used: usize,
+    /// Rows flagged as saturated (beyond the range or on a rail) and left out.
+    pub samples_saturated: usize,
+    /// Every pulse found.
+    pub pulses: Vec<PulseResult>,
+    /// Anything the user should know (cause and remedy; each once, with a count).
+    #[serde(serialize_with = "outcome::serialize_tally")]
+    pub warnings: Vec<PolarityWarning>,
+    /// `pass`, `fail` or `inconclusive`, from the gates.
+    pub verdict: crate::check::Verdict,
+    /// Every gate evaluated, failed or not.
+    pub gates: Vec<Gate>,
+    /// Decimated series for plots.
+    #[serde(skip)]
+    pub series: PolaritySeries,
+}
