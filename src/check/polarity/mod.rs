@@ -184,13 +184,6 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let sensor = sensor_geometry(plan, req_opts.sensor)?;
     let t = log.require_time("polarity needs time for the lag and settle times")?;
     let b = log.require_field("polarity fits the measured field")?;
-    let mut names: Vec<String> = Vec::new();
-    let mut columns: Vec<&[f64]> = Vec::new();
-    for rod in &plan.rods {
-        let c = log.require_command(&rod.name, &format!("the plan lists rod \"{}\"", rod.name))?;
-        names.push(rod.name.clone());
-        columns.push(&c.values);
-    }
     let mut warnings: Vec<PolarityWarning> = req
         .input
         .warnings
@@ -198,15 +191,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         .cloned()
         .map(PolarityWarning::Input)
         .collect();
-    for c in &log.commands {
-        if !names.iter().any(|n| n.eq_ignore_ascii_case(&c.rod)) {
-            warnings.push(PolarityWarning::UnplannedColumn {
-                header: c.header.clone(),
-            });
-            names.push(c.rod.clone());
-            columns.push(&c.values);
-        }
-    }
+    let (names, columns) = command_columns(plan, log, &mut warnings)?;
     let n = t.len();
     let n_rods = plan.rods.len();
     if b.iter().any(|c| c.len() != n) || columns.iter().any(|c| c.len() != n) {
@@ -216,28 +201,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         )));
     }
     let pulses = timing::find_pulses(&columns);
-    if pulses.is_empty() {
-        return Err(Error::Degenerate(format!(
-            "{}: no pulses: every cmd_ column is zero, so no rod was driven",
-            log.path.display()
-        )));
-    }
-    for (ci, rod) in plan.rods.iter().enumerate() {
-        if !pulses.iter().any(|p| p.column == ci) {
-            return Err(Error::Degenerate(format!(
-                "{}: rod \"{}\" was never pulsed (cmd_{} is zero throughout)",
-                log.path.display(),
-                rod.name,
-                rod.name
-            )));
-        }
-    }
-    if n < 10 {
-        return Err(Error::Degenerate(format!(
-            "{}: {n} rows are too few for a polarity check",
-            log.path.display()
-        )));
-    }
+    refuse_unpulsed(plan, log, &pulses, n)?;
     let dt = timing::median_interval_s(t)
         .filter(|d| *d > 0.0)
         .ok_or_else(|| {
@@ -267,34 +231,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let head = n.min(100);
     let centre: [f64; 3] = std::array::from_fn(|a| b[a][..head].iter().sum::<f64>() / head as f64);
 
-    // Remanence: after a pulse a rod keeps a small dipole along the sign of that pulse.
-    // Modelled as the sign of the last pulse while the command is off and zero while it
-    // is on (the field while on is the coupling's), for columns pulsed both ways (with
-    // one sign only it cannot be told from the baseline).
-    let mut rem: Vec<(usize, Vec<f64>)> = Vec::new();
-    for c in 0..columns.len() {
-        let mine: Vec<&Pulse> = pulses.iter().filter(|p| p.column == c).collect();
-        let both = mine.iter().any(|p| p.command > 0.0) && mine.iter().any(|p| p.command < 0.0);
-        if !both {
-            if c < n_rods {
-                warnings.push(PolarityWarning::OneSignOnly {
-                    rod: names[c].clone(),
-                });
-            }
-            continue;
-        }
-        let mut state = vec![0.0; n];
-        let mut k = 0;
-        let mut s = 0.0;
-        for (i, v) in state.iter_mut().enumerate() {
-            while k < mine.len() && mine[k].start <= i {
-                s = mine[k].command.signum();
-                k += 1;
-            }
-            *v = if k > 0 && i < mine[k - 1].end { 0.0 } else { s };
-        }
-        rem.push((c, state));
-    }
+    let rem = remanence_states(&columns, &pulses, n, &names[..n_rods], &mut warnings);
     // Saturated readings (at or beyond the range, or piled up on a rail): flagged,
     // never used.
     let mut excluded = req.input.saturation.flagged.clone();
@@ -476,6 +413,102 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
         warnings,
         series,
     })
+}
+
+/// The command columns: the plan's rods first (each must have its `cmd_<rod>` column),
+/// then any other `cmd_` column, which is fitted so it cannot leak into the others but
+/// gets no verdict.
+fn command_columns<'a>(
+    plan: &Plan,
+    log: &'a crate::log::SweepLog,
+    warnings: &mut Vec<PolarityWarning>,
+) -> Result<(Vec<String>, Vec<&'a [f64]>), Error> {
+    let mut names: Vec<String> = Vec::new();
+    let mut columns: Vec<&[f64]> = Vec::new();
+    for rod in &plan.rods {
+        let c = log.require_command(&rod.name, &format!("the plan lists rod \"{}\"", rod.name))?;
+        names.push(rod.name.clone());
+        columns.push(&c.values);
+    }
+    for c in &log.commands {
+        if !names.iter().any(|n| n.eq_ignore_ascii_case(&c.rod)) {
+            warnings.push(PolarityWarning::UnplannedColumn {
+                header: c.header.clone(),
+            });
+            names.push(c.rod.clone());
+            columns.push(&c.values);
+        }
+    }
+    Ok((names, columns))
+}
+
+/// Refuse a log with no pulse at all, a plan rod never pulsed, or too few rows.
+fn refuse_unpulsed(
+    plan: &Plan,
+    log: &crate::log::SweepLog,
+    pulses: &[Pulse],
+    n: usize,
+) -> Result<(), Error> {
+    if pulses.is_empty() {
+        return Err(Error::Degenerate(format!(
+            "{}: no pulses: every cmd_ column is zero, so no rod was driven",
+            log.path.display()
+        )));
+    }
+    for (ci, rod) in plan.rods.iter().enumerate() {
+        if !pulses.iter().any(|p| p.column == ci) {
+            return Err(Error::Degenerate(format!(
+                "{}: rod \"{}\" was never pulsed (cmd_{} is zero throughout)",
+                log.path.display(),
+                rod.name,
+                rod.name
+            )));
+        }
+    }
+    if n < 10 {
+        return Err(Error::Degenerate(format!(
+            "{}: {n} rows are too few for a polarity check",
+            log.path.display()
+        )));
+    }
+    Ok(())
+}
+
+/// Remanence: after a pulse a rod keeps a small dipole along the sign of that pulse.
+/// Modelled as the sign of the last pulse while the command is off and zero while it is
+/// on (the field while on is the coupling's), for columns pulsed both ways (with one
+/// sign only it cannot be told from the baseline: a plan rod gets a warning). Returns
+/// (column, state per row).
+fn remanence_states(
+    columns: &[&[f64]],
+    pulses: &[Pulse],
+    n: usize,
+    rod_names: &[String],
+    warnings: &mut Vec<PolarityWarning>,
+) -> Vec<(usize, Vec<f64>)> {
+    let mut rem: Vec<(usize, Vec<f64>)> = Vec::new();
+    for c in 0..columns.len() {
+        let mine: Vec<&Pulse> = pulses.iter().filter(|p| p.column == c).collect();
+        let both = mine.iter().any(|p| p.command > 0.0) && mine.iter().any(|p| p.command < 0.0);
+        if !both {
+            if let Some(rod) = rod_names.get(c) {
+                warnings.push(PolarityWarning::OneSignOnly { rod: rod.clone() });
+            }
+            continue;
+        }
+        let mut state = vec![0.0; n];
+        let mut k = 0;
+        let mut s = 0.0;
+        for (i, v) in state.iter_mut().enumerate() {
+            while k < mine.len() && mine[k].start <= i {
+                s = mine[k].command.signum();
+                k += 1;
+            }
+            *v = if k > 0 && i < mine[k - 1].end { 0.0 } else { s };
+        }
+        rem.push((c, state));
+    }
+    rem
 }
 
 /// Coupling of command column `c`, sensor frame, nT per command unit.
