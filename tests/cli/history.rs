@@ -341,7 +341,7 @@ fn json_and_csv_cannot_share_stdout() {
         .code(2);
 }
 
-/// `tests/data/ledger_v2_demo.db` is the ledger the demo wrote with the binary released
+/// `tests/data/ledger_v2_demo.sqlite` is the ledger the demo wrote with the binary released
 /// before the kind became text checked in Rust (schema version 2, nine runs, `CHECK
 /// (kind IN …)` in its `runs` table); `ledger_v2_demo_history.json` is that binary's
 /// `history --json` of it. Made once with `magproof demo --out D` and `magproof history
@@ -351,7 +351,7 @@ fn a_ledger_written_by_the_previous_release_migrates_and_keeps_its_history() {
     let t = TestDir::new();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data");
     let db = t.join("old.db");
-    std::fs::copy(data.join("ledger_v2_demo.db"), &db).unwrap();
+    std::fs::copy(data.join("ledger_v2_demo.sqlite"), &db).unwrap();
     let before: HistoryJson = serde_json::from_str(
         &std::fs::read_to_string(data.join("ledger_v2_demo_history.json")).unwrap(),
     )
