@@ -103,10 +103,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let samples = out.join("sample-logs");
     write_samples(&samples)?;
     let ledger_path = out.join("ledger.db");
-    if ledger_path.exists() {
-        // --force: the demo's ledger starts fresh every time.
-        std::fs::remove_file(&ledger_path).map_err(|e| Error::io(&ledger_path, e))?;
-    }
+    // --force: the demo's ledger starts fresh every time, its side files with it (a
+    // write-ahead log left from a killed run would be replayed into the new ledger).
+    magproof::ledger::remove_with_side_files(&ledger_path)
+        .map_err(|e| Error::io(&ledger_path, e))?;
 
     println!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three");
     println!("builds closed out in order into a fresh ledger. All data are simulated.\n");
@@ -146,10 +146,12 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let history_dir = out.join("reports").join("history");
     let section = magproof::report::sections::history_section(&runs, &changes)?;
     let json = section.result.clone();
+    let ledger_sha256 =
+        magproof::log::hash::sha256_file(&ledger_path).map_err(|e| Error::io(&ledger_path, e))?;
     let report = super::present::run_report(
         "History of TMR-0207",
         None,
-        &[ledger_path.as_path()],
+        &[(ledger_path.as_path(), ledger_sha256.as_str())],
         vec![section],
         json,
     )?;

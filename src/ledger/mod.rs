@@ -10,7 +10,8 @@
 //!   both succeed (the second waits for the first's commit);
 //! - `synchronous = FULL`: a committed run survives the process being killed (and power
 //!   loss on a disk that honours flushes);
-//! - the same inputs recorded twice for the same serial, build and kind are one run
+//! - the same inputs, analysed with the same options by the same magproof version,
+//!   recorded twice for the same serial, build and kind are one run
 //!   ([`Recorded::AlreadyThere`]);
 //! - the schema carries a version and migrates forward on open; a newer one is refused.
 
@@ -84,6 +85,7 @@ impl Ledger {
             | OpenFlags::SQLITE_OPEN_CREATE
             | OpenFlags::SQLITE_OPEN_NO_MUTEX;
         if !path.exists() {
+            refuse_stale_side_files(path)?;
             // Failing here is not final: opening below reports the cause by name.
             let _ = Self::create_whole(path, flags);
         }
@@ -101,6 +103,8 @@ impl Ledger {
             name.unwrap_or_else(|| "ledger".into()),
             std::process::id()
         ));
+        // The private name is this process's; anything under it is a dead process's.
+        let _ = remove_with_side_files(&tmp);
         let made = Self::open_once(&tmp, flags, schema::OnEmpty::Create).map(drop);
         let linked = made.and_then(|()| match std::fs::hard_link(&tmp, path) {
             Ok(()) => Ok(()),
@@ -110,11 +114,7 @@ impl Ledger {
                 reason: format!("cannot link the new ledger into place: {e}"),
             }),
         });
-        for suffix in ["", "-wal", "-shm"] {
-            let mut p = tmp.clone().into_os_string();
-            p.push(suffix);
-            let _ = std::fs::remove_file(p);
-        }
+        let _ = remove_with_side_files(&tmp);
         linked
     }
 
@@ -195,8 +195,8 @@ impl Ledger {
     /// Record a set of runs (e.g. every step of a closeout) in ONE transaction, all
     /// stamped with the same `recorded_at` (now, UTC) and [`crate::VERSION`].
     ///
-    /// Dedupe: a run whose serial, build, kind and input hashes (SHA-256 of every input
-    /// file, paths ignored) equal a run already in the ledger — or earlier in the same
+    /// Dedupe: a run whose serial, build, kind, input hashes (SHA-256 of every input
+    /// file, paths ignored), analysis options and tool version equal a run already in the ledger — or earlier in the same
     /// slice — is not written again; its entry in the answer is
     /// [`Recorded::AlreadyThere`] with the existing id (the first recording's result,
     /// time and version are kept). The answer has one entry per given run, in order.
@@ -387,9 +387,53 @@ impl Ledger {
     }
 }
 
+/// SQLite's side files of a database at `path`: its write-ahead log and shared-memory
+/// index.
+pub fn side_files(path: &Path) -> [PathBuf; 2] {
+    ["-wal", "-shm"].map(|suffix| {
+        let mut p = path.as_os_str().to_os_string();
+        p.push(suffix);
+        PathBuf::from(p)
+    })
+}
+
+/// Delete a database file and then its side files, whichever exist. When the database
+/// itself cannot be deleted its side files are kept (they may hold committed runs).
+pub fn remove_with_side_files(path: &Path) -> std::io::Result<()> {
+    let gone = |r: std::io::Result<()>| match r {
+        Err(e) if e.kind() != std::io::ErrorKind::NotFound => Err(e),
+        _ => Ok(()),
+    };
+    gone(std::fs::remove_file(path))?;
+    for p in side_files(path) {
+        gone(std::fs::remove_file(p))?;
+    }
+    Ok(())
+}
+
+/// Refuse to create a ledger at `path` (absent) while side files of an earlier database
+/// of that name are there: SQLite would replay a stale write-ahead log into the new file.
+/// Side files seen while another process has just created the ledger are its own, not
+/// stale: the ledger is looked for again after them.
+fn refuse_stale_side_files(path: &Path) -> Result<(), LedgerError> {
+    let found: Vec<String> = side_files(path)
+        .iter()
+        .filter(|p| p.exists())
+        .map(|p| p.display().to_string())
+        .collect();
+    if found.is_empty() || path.exists() {
+        return Ok(());
+    }
+    Err(LedgerError::StaleSideFiles {
+        path: Shown(path.to_path_buf()),
+        files: found.join(" and "),
+    })
+}
+
 /// Record one check's result for `--record`: open (or create) the ledger at
 /// `ledger_path`, file the run under the plan's `[article]` serial and build with the log
-/// and the plan as inputs, in one transaction.
+/// and the plan as inputs, in one transaction. `log` is the log's path and the hash of
+/// the bytes analysed; `options` the analysis options that changed the result.
 ///
 /// Fails with [`LedgerError::NoArticle`] (before touching the ledger) when the plan has
 /// no `[article]`.
@@ -397,9 +441,10 @@ pub fn record_check(
     ledger_path: &Path,
     plan: &Plan,
     result: &dyn CheckResult,
-    log: &Path,
+    log: (&Path, &str),
+    options: serde_json::Value,
 ) -> Result<Recorded, LedgerError> {
-    let run = NewRun::from_result(plan, result, log)?;
+    let run = NewRun::from_result(plan, result, log, options)?;
     let mut ledger = Ledger::open(ledger_path)?;
     let recorded = ledger.record_runs(std::slice::from_ref(&run))?;
     recorded
