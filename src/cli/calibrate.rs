@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
-use super::present::{present_check, read_input};
+use super::present::{present_check, read_input, Analysed};
 use magproof::check::calibrate::{run_calibrate, CalibrateOptions};
 use magproof::check::CheckRequest;
 use magproof::fit::tumble::Robust;
@@ -64,8 +64,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         // Only the report's plots use the per-sample data.
         keep_samples: args.output.report.is_some(),
     };
+    let key = serde_json::json!({
+        "reference_nt": options.reference_nt,
+        "robust": format!("{:?}", options.robust),
+    });
     let result = run_calibrate(&CheckRequest::new(&input, plan.as_ref(), options))
         .map_err(|e| flag_hint(e, "--reference-nt"))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
     drop(input);
     let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
     if let Some(p) = &args.params_out {
@@ -77,8 +82,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     }
     present_check(
         &result,
-        &args.log,
-        (plan.as_ref(), args.plan.as_deref()),
+        analysed,
+        plan.as_ref(),
         &args.output,
         &args.record,
         extra,

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use clap::Args as ClapArgs;
 
 use super::common::{InputArgs, Outcome, OutputArgs};
-use super::present::{present_check, read_input};
+use super::present::{present_check, read_input, Analysed};
 use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition, DEFAULT_ALTITUDE_KM};
 use magproof::check::CheckRequest;
 use magproof::log::read_plan;
@@ -53,12 +53,18 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             DipolePosition::AtTableOrigin
         },
     };
+    let key = serde_json::json!({
+        "altitude_km": options.altitude_km,
+        "inclination_deg": options.inclination_deg,
+        "fit_offset": args.fit_offset,
+    });
     let result = run_dipole(&CheckRequest::new(&input, Some(&plan), options))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
     drop(input);
     present_check(
         &result,
-        &args.log,
-        (Some(&plan), Some(&args.plan)),
+        analysed,
+        Some(&plan),
         &args.output,
         &args.record,
         Vec::new(),

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
-use super::present::{present_check, read_input};
+use super::present::{present_check, read_input, Analysed};
 use magproof::check::polarity::{
     magnetometer_recorded, run_polarity, DriftModel, PolarityOptions, SensorChoice, DEFAULT_SNR_MIN,
 };
@@ -109,7 +109,14 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         drift: args.drift,
         max_lag_s: args.max_lag_s,
     };
+    let key = serde_json::json!({
+        "sensor": format!("{:?}", options.sensor),
+        "snr_min": options.snr_min,
+        "drift": format!("{:?}", options.drift),
+        "max_lag_s": options.max_lag_s,
+    });
     let result = run_polarity(&CheckRequest::new(&input, Some(&plan), options))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
     drop(input);
     let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
     if let Some(p) = &args.params_out {
@@ -121,8 +128,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     }
     present_check(
         &result,
-        &args.log,
-        (Some(&plan), Some(&args.plan)),
+        analysed,
+        Some(&plan),
         &args.output,
         &args.record,
         extra,

@@ -46,6 +46,11 @@ impl<R: Read> LineReader<R> {
         }
     }
 
+    /// The reader wrapped (every byte of it has been read once the lines are done).
+    pub fn inner(&self) -> &R {
+        &self.inner
+    }
+
     /// The next line without its `\n` (a `\r` before it is kept), with the bytes
     /// handed out so far (this line included), or `None` at the end. The last line
     /// counts even without a final `\n`, as long as it is not empty.

@@ -17,6 +17,7 @@ use super::bytes::{is_blank_or_comment, trim_line_end};
 use super::columns::ColumnsBuilder;
 use super::error::{LogError, Shown};
 use super::fast_row::FastRow;
+use super::hash::HashingReader;
 use super::header::{parse_header, Header};
 use super::lines::LineReader;
 use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
@@ -196,7 +197,7 @@ pub(crate) fn read_sweep_impl(
     row_path: RowPath,
     size_hint_bytes: Option<u64>,
 ) -> Result<SweepLog, LogError> {
-    let mut lines = LineReader::new(reader);
+    let mut lines = LineReader::new(HashingReader::new(reader));
     let mut pos = ReadPos {
         line_no: 0,
         bytes_read: 0,
@@ -239,6 +240,7 @@ pub(crate) fn read_sweep_impl(
         read_blocks(&mut lines, &mut sink, &mut pos, threads, min_bytes)?;
     }
     read_lines(&mut lines, &mut sink, &mut pos)?;
+    sink.log.sha256 = lines.inner().hex_digest();
     finish(sink, &mut pos)
 }
 

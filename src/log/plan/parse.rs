@@ -29,6 +29,7 @@ pub fn read_plan(path: &Path) -> Result<Plan, PlanError> {
 
 /// Parse and validate plan text; `path` is used for messages and relative log paths.
 pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
+    let sha256 = crate::log::hash::sha256_bytes(text.as_bytes());
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let raw: RawPlan = toml::from_str(text).map_err(|e| PlanError::Syntax {
         path: Shown(path.to_path_buf()),
@@ -62,6 +63,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         dipole_test,
         steps,
         limits,
+        sha256,
     })
 }
 
