@@ -157,7 +157,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let report = closeout_report(&result)?;
     emit(&writers, &report, args.output.force, || Ok(()))?;
     if !args.output.json {
-        print!("{}", verdict_lines(&result, recorded.as_ref()));
+        out!("{}", verdict_lines(&result, recorded.as_ref()))?;
     }
     Ok(outcome(result.verdict()))
 }

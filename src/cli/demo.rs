@@ -108,13 +108,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     magproof::ledger::remove_with_side_files(&ledger_path)
         .map_err(|e| Error::io(&ledger_path, e))?;
 
-    println!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three");
-    println!("builds closed out in order into a fresh ledger. All data are simulated.\n");
+    outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
+    outln!("builds closed out in order into a fresh ledger. All data are simulated.\n")?;
     let mut reports = Vec::new();
     for folder in BUILDS {
         let plan = samples.join(folder).join("plan.toml");
         let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false, |_| Ok(()))?;
-        print!("{}", build_summary(&result));
+        out!("{}", build_summary(&result))?;
         let dir = out.join("reports").join(folder);
         std::fs::create_dir_all(out.join("reports")).map_err(|e| Error::io(&dir, e))?;
         // report.html, result.json and plots; then the terminal text beside them.
@@ -131,17 +131,17 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let runs = ledger.runs(&RunFilter::default()).map_err(Error::from)?;
     let rules = ChangeRules::default();
     let changes = changes(&runs, &rules);
-    println!();
-    print!("{}", super::history::render(&ledger_path, &runs, &changes)?);
+    outln!()?;
+    out!("{}", super::history::render(&ledger_path, &runs, &changes)?)?;
 
-    println!("\nWhere things are (under {}):", out.display());
-    println!("  sample logs and plans   {}", samples.display());
-    println!("  ledger                  {}", ledger_path.display());
+    outln!("\nWhere things are (under {}):", out.display())?;
+    outln!("  sample logs and plans   {}", samples.display())?;
+    outln!("  ledger                  {}", ledger_path.display())?;
     for r in &reports {
-        println!(
+        outln!(
             "  closeout report         {}",
             r.join("report.html").display()
-        );
+        )?;
     }
     let history_dir = out.join("reports").join("history");
     let section = magproof::report::sections::history_section(&runs, &changes)?;
@@ -156,13 +156,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         json,
     )?;
     let path = magproof::report::write_report_dir(&history_dir, true, &report)?;
-    println!(
+    outln!(
         "  history report          {}",
         path.join("report.html").display()
-    );
-    println!(
+    )?;
+    outln!(
         "Look again with: magproof history --ledger {}",
         ledger_path.display()
-    );
+    )?;
     Ok(Outcome::Passed)
 }

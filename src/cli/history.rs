@@ -131,10 +131,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             runs: &runs,
             changes: &changes,
         };
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        outln!("{}", serde_json::to_string_pretty(&doc)?)?;
         return Ok(Outcome::Passed);
     }
-    print!("{}", render(&path, &runs, &changes)?);
+    out!("{}", render(&path, &runs, &changes)?)?;
     Ok(Outcome::Passed)
 }
 

@@ -8,7 +8,9 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use super::flight_params::{write_flight_params, ParamsFormat};
-use super::polarity_params::write_polarity_params;
+use super::polarity_params::{
+    write_polarity_params, ParamsFormat as PolarityFormat, PolarityParams,
+};
 use super::{terminal, write_report_dir, RunReport};
 use crate::check::calibrate::CalibrationResult;
 use crate::check::polarity::PolarityResult;
@@ -119,8 +121,14 @@ impl ReportWriter for FlightParamsWriter<'_> {
         "flight parameters"
     }
     fn prepare(&self) -> Result<(), Error> {
-        if let ParamsSource::Calibration(_) = self.source {
-            ParamsFormat::for_path(&self.path)?;
+        match self.source {
+            ParamsSource::Calibration(_) => {
+                ParamsFormat::for_path(&self.path)?;
+            }
+            ParamsSource::Polarity(r) => {
+                // Render once now: what rendering refuses is refused before recording.
+                PolarityParams::from_result(r).render(PolarityFormat::from_path(&self.path))?;
+            }
         }
         check_destination(&self.path, self.force, "parameter file")
     }

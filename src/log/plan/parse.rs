@@ -108,6 +108,21 @@ impl Validator<'_> {
         }
     }
 
+    /// Refuse a control character (escape sequences, line breaks) in text that is shown
+    /// on the terminal, in reports and in file names.
+    fn plain_text(&self, key: &str, value: &str) -> Result<(), PlanError> {
+        match value.chars().find(|c| c.is_control()) {
+            None => Ok(()),
+            Some(c) => Err(self.invalid(
+                key,
+                format!(
+                    "{value:?} holds the control character U+{:04X}; use printable text",
+                    c as u32
+                ),
+            )),
+        }
+    }
+
     fn article(&self, a: RawArticle) -> Result<Article, PlanError> {
         if a.serial.trim().is_empty() {
             return Err(self.invalid("article.serial", "must not be empty".into()));
@@ -115,6 +130,8 @@ impl Validator<'_> {
         if a.build.trim().is_empty() {
             return Err(self.invalid("article.build", "must not be empty".into()));
         }
+        self.plain_text("article.serial", &a.serial)?;
+        self.plain_text("article.build", &a.build)?;
         Ok(Article {
             serial: a.serial.trim().to_string(),
             build: a.build.trim().to_string(),
@@ -228,6 +245,7 @@ impl Validator<'_> {
                         .into(),
                 ));
             }
+            self.plain_text(&format!("{key}.label"), &label)?;
             if mounts.iter().any(|o| o.label == label) {
                 return Err(self.invalid(
                     &format!("{key}.label"),
