@@ -13,9 +13,9 @@ use serde_json::Value;
 use super::common::{LedgerArgs, Outcome};
 use magproof::check::CheckKind;
 use magproof::ledger::export::{write_changes_csv, write_values_csv};
-use magproof::ledger::{changes, group_by_build, Change, ChangeRules, Ledger, Run, RunFilter};
+use magproof::ledger::{changes, Change, ChangeRules, Ledger, Run, RunFilter};
 use magproof::report::model::now_utc_iso;
-use magproof::report::terminal::{render as render_text, Style};
+use magproof::report::terminal::{printable, render as render_text, Style};
 use magproof::report::RunReport;
 
 /// Flags of `magproof history`.
@@ -83,7 +83,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let rules = ChangeRules::with_significance_sigma(args.significance_sigma)
         .map_err(|e| magproof::Error::Usage(format!("--significance-sigma: {e}")))?;
     let path = args.ledger.path();
-    let ledger = Ledger::open_existing(&path)
+    let ledger = Ledger::open_for_reading(&path)
         .map_err(magproof::Error::from)
         .with_context(|| {
             "reading the ledger (runs are recorded by `magproof closeout` or a check given \
@@ -95,10 +95,12 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     };
     let runs = ledger.runs(&filter).map_err(magproof::Error::from)?;
     if runs.is_empty() {
-        let all = ledger
-            .runs(&RunFilter::default())
-            .map_err(magproof::Error::from)?;
-        let serials: Vec<&str> = group_by_build(&all).iter().map(|s| s.serial).collect();
+        let serials: Vec<String> = ledger
+            .serials()
+            .map_err(magproof::Error::from)?
+            .iter()
+            .map(|s| printable(s))
+            .collect();
         eprintln!(
             "magproof: {}: no run matches; serials in the ledger: {}",
             path.display(),

@@ -124,3 +124,45 @@ fn a_rerun_with_other_options_is_recorded_and_the_same_one_is_not() {
     );
     assert_code(&edited, first.status.code().unwrap());
 }
+
+/// Common practice: a reader needs no write access. The ledger and its folder are made
+/// read-only, and when the tests run as root (who may write anything) `history` runs as
+/// the unprivileged user 65534, so the read-only path is the one taken.
+#[test]
+fn history_reads_a_ledger_the_user_may_only_read() {
+    use std::os::unix::fs::PermissionsExt;
+    use std::os::unix::process::CommandExt;
+    let d = TestDir::new();
+    let plan = sample(&d, "b2");
+    let out = d.run(&["closeout", plan, "--ledger", "l.db"]);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+    let db = d.join("l.db");
+    let bytes = std::fs::read(&db).unwrap();
+    let before = crate::battery_outputs::names(d.path());
+    let mode =
+        |p: &Path, m: u32| std::fs::set_permissions(p, std::fs::Permissions::from_mode(m)).unwrap();
+    mode(&db, 0o444);
+    mode(d.path(), 0o555);
+    let mut cmd = std::process::Command::new(env!("CARGO_BIN_EXE_magproof"));
+    cmd.current_dir(d.path())
+        .env_remove("MAGPROOF_LEDGER")
+        .args(["history", "--ledger", "l.db"]);
+    // SAFETY: the child only drops its privileges between fork and exec.
+    if unsafe { libc::geteuid() } == 0 {
+        unsafe {
+            cmd.pre_exec(|| {
+                if libc::setgid(65534) != 0 || libc::setuid(65534) != 0 {
+                    return Err(std::io::Error::last_os_error());
+                }
+                Ok(())
+            });
+        }
+    }
+    let out = cmd.output().unwrap();
+    mode(d.path(), 0o755);
+    assert_code(&out, 0);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("TMR-0207") && text.contains("B2"), "{text}");
+    assert_eq!(std::fs::read(&db).unwrap(), bytes, "the ledger changed");
+    assert_eq!(crate::battery_outputs::names(d.path()), before);
+}
