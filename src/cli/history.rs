@@ -121,6 +121,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         }
         .context("writing CSV")?;
         match &args.out {
+            Some(file) if same_file(file, &path) => {
+                return Err(magproof::Error::Usage(format!(
+                    "--out {} is the ledger being read; choose another file",
+                    file.display()
+                ))
+                .into())
+            }
             Some(file) => write_atomically(file, &buf, args.force)?,
             None => std::io::stdout().write_all(&buf)?,
         }
@@ -138,6 +145,14 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     }
     out!("{}", render(&path, &runs, &changes)?)?;
     Ok(Outcome::Passed)
+}
+
+/// Whether `a` and `b` name one existing file (or the same path).
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => a == b,
+    }
 }
 
 /// Write a file through a temporary file in the same folder and a rename, so a reader

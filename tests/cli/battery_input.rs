@@ -205,3 +205,62 @@ fn two_rods_with_one_c_name_are_refused_before_recording() {
     assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
     assert!(d.join("rods.json").is_file());
 }
+
+#[test]
+fn smaller_faults_get_the_right_diagnosis() {
+    use std::os::unix::fs::PermissionsExt;
+    use std::os::unix::process::CommandExt;
+    let d = TestDir::new();
+    let plan = sample(&d, "b2");
+    let text = std::fs::read_to_string(d.join(plan)).unwrap();
+    d.write(
+        "far.toml",
+        text.replacen(
+            "position_m = [0, 0.035, 0.03]",
+            "position_m = [1e300, 0, 0]",
+            1,
+        ),
+    );
+    let out = d.run(&["polarity", "--plan", "far.toml", "rod-pulses.csv"]);
+    assert_code(&out, 2);
+    assert!(
+        stderr(&out).contains("positions are in metres"),
+        "{}",
+        stderr(&out)
+    );
+    let out = d.run(&["calibrate", "tumble.csv", "--reference-nt", "1e308"]);
+    assert_code(&out, 2);
+    assert!(stderr(&out).contains("at most"), "{}", stderr(&out));
+    // A cause is printed once.
+    let out = d.run(&["inspect", "no-such.csv"]);
+    assert_code(&out, 2);
+    let err = stderr(&out);
+    assert_eq!(err.matches("No such file").count(), 1, "{err}");
+    // history --out onto the ledger it reads.
+    let out = d.run(&["closeout", plan, "--ledger", "l.db"]);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+    let bytes = std::fs::read(d.join("l.db")).unwrap();
+    let out = d.run(&[
+        "history", "--ledger", "l.db", "--export", "csv", "--out", "l.db", "--force",
+    ]);
+    assert_code(&out, 2);
+    assert_eq!(std::fs::read(d.join("l.db")).unwrap(), bytes);
+    // Outputs get the umask's permissions, not 0600.
+    let mut cmd = std::process::Command::new(env!("CARGO_BIN_EXE_magproof"));
+    cmd.current_dir(d.path())
+        .args(["polarity", "--plan", plan, "rod-pulses.csv"])
+        .args(["--params-out", "p.json", "--report", "rep"]);
+    // SAFETY: umask only sets the child's file-mode mask between fork and exec.
+    unsafe {
+        cmd.pre_exec(|| {
+            libc::umask(0o022);
+            Ok(())
+        });
+    }
+    let out = cmd.output().unwrap();
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", stderr(&out));
+    let mode = |p: &str| std::fs::metadata(d.join(p)).unwrap().permissions().mode() & 0o777;
+    assert_eq!(mode("p.json"), 0o644);
+    assert_eq!(mode("rep"), 0o755);
+    assert_eq!(mode("rep/report.html"), 0o644);
+}

@@ -67,6 +67,9 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
     })
 }
 
+/// Largest |coordinate| of a position in a plan, m.
+pub const MAX_POSITION_M: f64 = 100.0;
+
 /// Checks of single values, with errors naming the key and the plan file.
 struct Validator<'a> {
     path: &'a Path,
@@ -79,6 +82,22 @@ impl Validator<'_> {
             key: key.to_string(),
             problem,
         }
+    }
+
+    /// A position, m: finite and within [`MAX_POSITION_M`] of the origin on each axis
+    /// (a bench test is metres across; a value beyond that is a wrong unit or a typo,
+    /// and would make every geometry it enters degenerate).
+    fn position(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
+        let p = self.vec3(key, v)?;
+        if p.iter().any(|x| x.abs() > MAX_POSITION_M) {
+            return Err(self.invalid(
+                key,
+                format!(
+                    "{v:?} m is beyond {MAX_POSITION_M} m from the origin; positions are in metres"
+                ),
+            ));
+        }
+        Ok(p)
     }
 
     /// A vector whose every element is finite.
@@ -144,7 +163,7 @@ impl Validator<'_> {
                 .rotation("magnetometer.sensor_to_body", m.sensor_to_body.as_ref())?,
             position_m: m
                 .position_m
-                .map(|p| self.vec3("magnetometer.position_m", p))
+                .map(|p| self.position("magnetometer.position_m", p))
                 .transpose()?,
             unit: m
                 .unit
@@ -157,7 +176,7 @@ impl Validator<'_> {
 
     fn probe(&self, p: RawProbe) -> Result<Probe, PlanError> {
         Ok(Probe {
-            position_m: self.vec3("probe.position_m", p.position_m)?,
+            position_m: self.position("probe.position_m", p.position_m)?,
             sensor_to_body: self.rotation("probe.sensor_to_body", p.sensor_to_body.as_ref())?,
         })
     }
@@ -224,7 +243,7 @@ impl Validator<'_> {
             rods.push(Rod {
                 name,
                 axis_body: axis / n,
-                position_m: self.vec3(&key("position_m"), r.position_m)?,
+                position_m: self.position(&key("position_m"), r.position_m)?,
                 dipole_per_command_am2: self
                     .positive(&key("dipole_per_command_am2"), r.dipole_per_command_am2)?,
                 length_m: self.positive(&key("length_m"), r.length_m)?,
@@ -261,7 +280,7 @@ impl Validator<'_> {
         Ok(DipoleTest {
             probe_position_m: d
                 .probe_position_m
-                .map(|p| self.vec3("dipole_test.probe_position_m", p))
+                .map(|p| self.position("dipole_test.probe_position_m", p))
                 .transpose()?,
             mounts,
         })

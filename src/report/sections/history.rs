@@ -113,15 +113,16 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
                 "{} run(s), {} serial(s) ({}), {} build(s)",
                 runs.len(),
                 serials,
-                rows.iter()
-                    .map(|r| r.serial)
-                    .fold(Vec::<&str>::new(), |mut v, s| {
-                        if !v.contains(&s) {
-                            v.push(s);
-                        }
-                        v
-                    })
-                    .join(", "),
+                {
+                    // Each serial once, in order of first appearance (a set, not a scan
+                    // of the list per row: linear in the builds).
+                    let mut seen = std::collections::HashSet::new();
+                    rows.iter()
+                        .map(|r| r.serial)
+                        .filter(|s| seen.insert(*s))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                },
                 rows.len()
             ),
         ),
@@ -249,21 +250,22 @@ fn limit_steps(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
 }
 
 fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
-    let mut serials: Vec<&str> = rows.iter().map(|r| r.serial).collect();
-    serials.dedup();
+    // Rows come grouped by serial (see `build_rows`): each group is walked once, so the
+    // figures cost time linear in the builds.
+    let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
     let mut figs = Vec::new();
     let n_builds = rows.iter().map(|r| r.ordinal).fold(1.0, f64::max);
     let x_range = Some((0.5, n_builds + 0.5));
 
     let mut dip = XyPlot::new("Residual dipole across builds", "build", "|m| [A·m²]");
     let mut limits = Vec::new();
-    for (k, s) in serials.iter().enumerate() {
-        let pts: Vec<(f64, f64)> = rows
+    for (k, g) in groups.iter().enumerate() {
+        let s = g[0].serial;
+        let pts: Vec<(f64, f64)> = g
             .iter()
-            .filter(|r| r.serial == *s)
             .filter_map(|r| Some((r.ordinal, num(&r.of("dipole")?.result, "magnitude_am2")?)))
             .collect();
-        for r in rows.iter().filter(|r| r.serial == *s) {
+        for r in g.iter() {
             if let Some(l) = r
                 .of("dipole")
                 .and_then(|d| num(&d.result, "residual_dipole_max_am2"))
@@ -293,11 +295,11 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
     }
 
     let mut hi = XyPlot::new("Hard iron across builds", "build", "hard iron [nT]");
-    for s in &serials {
+    for g in &groups {
+        let s = g[0].serial;
         for a in 0..3 {
-            let pts: Vec<(f64, f64)> = rows
+            let pts: Vec<(f64, f64)> = g
                 .iter()
-                .filter(|r| r.serial == *s)
                 .filter_map(|r| {
                     Some((
                         r.ordinal,
@@ -307,7 +309,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
                 .collect();
             if !pts.is_empty() {
                 hi = hi.with(Series::points("", pts.clone(), a));
-                let name = if serials.len() > 1 {
+                let name = if groups.len() > 1 {
                     format!("{s} {}", ["x", "y", "z"][a])
                 } else {
                     ["x", "y", "z"][a].to_string()
@@ -329,10 +331,10 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
 
     let mut res = XyPlot::new("Calibration residual across builds", "build", "RMS [nT]");
     let mut limits = Vec::new();
-    for (k, s) in serials.iter().enumerate() {
-        let pts: Vec<(f64, f64)> = rows
+    for (k, g) in groups.iter().enumerate() {
+        let s = g[0].serial;
+        let pts: Vec<(f64, f64)> = g
             .iter()
-            .filter(|r| r.serial == *s)
             .filter_map(|r| {
                 Some((
                     r.ordinal,
@@ -340,7 +342,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
                 ))
             })
             .collect();
-        for r in rows.iter().filter(|r| r.serial == *s) {
+        for r in g.iter() {
             if let Some(l) = r
                 .of("calibrate")
                 .and_then(|c| num(&c.result, "residual_limit_nt"))
