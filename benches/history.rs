@@ -1,6 +1,6 @@
 //! `history` at scale: the time to open a ledger of 10³, 10⁴ and 10⁵ runs and read it
-//! into runs, changes and the history section (what `magproof history` does before it
-//! lays the text out). Input: ledgers written here, 30 runs per serial (ten builds of
+//! into runs, changes and the history section as the terminal shows it (what `magproof
+//! history` does before it lays the text out). Input: ledgers written here, 30 runs per serial (ten builds of
 //! the three kinds), each with a small result and its quantities.
 //!
 //! `MAGPROOF_BENCH_KEEP=DIR` keeps the ledgers as DIR/history-N.db, for measuring the
@@ -71,7 +71,7 @@ fn history(c: &mut Criterion) {
                 let ledger = Ledger::open_for_reading(p).expect("open");
                 let runs = ledger.runs(&RunFilter::default()).expect("runs");
                 let ch = changes(&runs, &ChangeRules::default());
-                magproof::report::sections::history_section(&runs, &ch).expect("section")
+                magproof::report::sections::history_text_section(&runs, &ch).expect("section")
             })
         });
     }

@@ -166,7 +166,7 @@ fn write_atomically(file: &Path, bytes: &[u8], force: bool) -> anyhow::Result<()
 /// The terminal view: the history section (builds, verdicts per kind, the changes with
 /// their flags), rendered by the terminal writer.
 pub(crate) fn render(path: &Path, runs: &[Run], changes: &[Change]) -> anyhow::Result<String> {
-    let section = magproof::report::sections::history_section(runs, changes)?;
+    let section = magproof::report::sections::history_text_section(runs, changes)?;
     let report = RunReport {
         title: format!("History in {}", path.display()),
         article: None,

@@ -94,8 +94,20 @@ fn flag_tone(f: Flag) -> Tone {
     }
 }
 
-/// Build the history section from ledger runs and the changes between builds.
+/// Build the history section from ledger runs and the changes between builds, with its
+/// plots and its JSON (for a report folder).
 pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
+    build_section(runs, changes, true)
+}
+
+/// The history section as the terminal shows it: the same figures of merit, tables,
+/// warnings and notes, without the plots and the JSON the terminal never shows (they
+/// cost most of the time and memory of a large ledger).
+pub fn history_text_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
+    build_section(runs, changes, false)
+}
+
+fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section, Error> {
     let kinds = kinds_of(runs);
     let rows = build_rows(runs, &kinds);
     let verdict = Verdict::combine(
@@ -234,10 +246,18 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
         verdict,
         figures_of_merit: fom,
         tables: vec![build_table, change_table],
-        figures: history_figures(&rows)?,
+        figures: if full {
+            history_figures(&rows)?
+        } else {
+            Vec::new()
+        },
         warnings,
         notes,
-        result: serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? }),
+        result: if full {
+            serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? })
+        } else {
+            serde_json::Value::Null
+        },
     })
 }
 
