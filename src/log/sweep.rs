@@ -267,6 +267,12 @@ fn read_header(
         pos.line_no += 1;
         pos.bytes_read = consumed;
         let mut text: &[u8] = trim_line_end(buf);
+        if memchr::memchr(b'\r', text).is_some() {
+            return Err(LogError::BareCarriageReturns {
+                path: shown(),
+                line: pos.line_no,
+            });
+        }
         if pos.line_no == 1 {
             text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
         }

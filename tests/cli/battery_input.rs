@@ -231,6 +231,16 @@ fn smaller_faults_get_the_right_diagnosis() {
     let out = d.run(&["calibrate", "tumble.csv", "--reference-nt", "1e308"]);
     assert_code(&out, 2);
     assert!(stderr(&out).contains("at most"), "{}", stderr(&out));
+    // Lines ended by a bare CR: said so, not "no header line".
+    let log = std::fs::read_to_string(d.join("tumble.csv")).unwrap();
+    d.write("cr.csv", log.replace('\n', "\r"));
+    let out = d.run(&["calibrate", "cr.csv"]);
+    assert_code(&out, 2);
+    assert!(
+        stderr(&out).contains("bare carriage return"),
+        "{}",
+        stderr(&out)
+    );
     // A cause is printed once.
     let out = d.run(&["inspect", "no-such.csv"]);
     assert_code(&out, 2);
