@@ -240,6 +240,7 @@ fn a_new_ledger_is_not_created_over_a_crashed_ledgers_side_files() {
     );
 }
 
+/// Common practice, as above: removing an SQLite database means removing its side files.
 #[test]
 fn demo_force_starts_its_ledger_afresh_with_no_stale_side_files() {
     let dir = tempfile::tempdir().unwrap();

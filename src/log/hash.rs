@@ -76,6 +76,7 @@ mod tests {
         );
     }
 
+    // FIPS 180-2, appendix B.1, as above: the reader's digest of "abc" is the same.
     #[test]
     fn hashing_reader_hashes_what_it_hands_out() {
         let mut r = HashingReader::new(&b"abc"[..]);

@@ -81,6 +81,7 @@ mod tests {
         assert!(check_stuck_axes(&log(|i| -41000.0 + 1e-3 * i as f64), &[]).is_ok());
     }
 
+    // Common practice: rows already flagged as saturated are out of every judgement.
     #[test]
     fn flagged_rows_are_not_looked_at() {
         let mut flagged = vec![false; 50];
