@@ -37,7 +37,7 @@ pub struct Args {
     #[arg(long, value_enum, default_value_t = SensorArg::Auto)]
     sensor: SensorArg,
     /// SNR below which a rod is called no-response.
-    #[arg(long, default_value_t = DEFAULT_SNR_MIN)]
+    #[arg(long, default_value_t = DEFAULT_SNR_MIN, value_parser = parse_snr)]
     snr_min: f64,
     /// Drift terms: auto, knots:SECONDS (piecewise-linear baseline) or poly:DEGREE.
     #[arg(long, default_value = "auto", value_parser = parse_drift)]
@@ -52,6 +52,10 @@ enum SensorArg {
     Auto,
     Magnetometer,
     Probe,
+}
+
+fn parse_snr(s: &str) -> Result<f64, String> {
+    super::common::finite_in(s, 0.0, 1e6)
 }
 
 fn parse_drift(s: &str) -> Result<DriftModel, String> {

@@ -274,3 +274,44 @@ fn smaller_faults_get_the_right_diagnosis() {
     assert_eq!(mode("rep"), 0o755);
     assert_eq!(mode("rep/report.html"), 0o644);
 }
+
+#[test]
+fn infinite_or_nan_options_are_refused_before_any_check() {
+    let d = TestDir::new();
+    let plan = sample(&d, "b2");
+    for args in [
+        [
+            "polarity",
+            "--plan",
+            plan,
+            "rod-pulses.csv",
+            "--snr-min",
+            "inf",
+        ],
+        [
+            "dipole",
+            "--plan",
+            plan,
+            "turntable.csv",
+            "--altitude-km",
+            "inf",
+        ],
+        [
+            "dipole",
+            "--plan",
+            plan,
+            "turntable.csv",
+            "--inclination-deg",
+            "NaN",
+        ],
+    ] {
+        let out = d.run(&args);
+        assert_code(&out, 2);
+        assert!(stdout(&out).is_empty(), "{args:?}: {}", stdout(&out));
+        assert!(
+            stderr(&out).contains("expected a number"),
+            "{args:?}: {}",
+            stderr(&out)
+        );
+    }
+}
