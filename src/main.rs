@@ -11,10 +11,27 @@ fn main() -> ExitCode {
     match cli::run() {
         Ok(outcome) => ExitCode::from(outcome.exit_code()),
         Err(err) => {
-            eprintln!("magproof: error: {err:#}");
+            eprintln!("magproof: error: {}", message(&err));
             ExitCode::from(cli::exit_code_for(&err))
         }
     }
+}
+
+/// The error and its causes on one line, each cause once: a cause whose text the
+/// message already holds (an I/O error a library error quotes) is not repeated.
+fn message(err: &anyhow::Error) -> String {
+    let mut out = String::new();
+    for cause in err.chain() {
+        let text = cause.to_string();
+        if out.contains(&text) {
+            continue;
+        }
+        if !out.is_empty() {
+            out.push_str(": ");
+        }
+        out.push_str(&text);
+    }
+    out
 }
 
 /// Let a closed pipe end the program quietly (`magproof calibrate … | head`), as command-line

@@ -4,6 +4,12 @@
 #[path = "cli/util.rs"]
 mod util;
 
+#[path = "cli/battery_input.rs"]
+mod battery_input;
+#[path = "cli/battery_ledger.rs"]
+mod battery_ledger;
+#[path = "cli/battery_outputs.rs"]
+mod battery_outputs;
 #[path = "cli/calibrate.rs"]
 mod calibrate;
 #[path = "cli/closeout.rs"]

@@ -39,6 +39,7 @@ fn record_set(tag: &str, i: usize, payload: &str) -> Vec<NewRun> {
                 }],
                 quantities: vec![],
                 result: json!({"pass": true, "note": payload}),
+                options: json!({}),
             }
         })
         .collect()
@@ -170,4 +171,90 @@ fn a_writer_killed_mid_write_loses_nothing_it_had_committed() {
     assert!(runs
         .iter()
         .all(|r| r.result["note"].as_str().map(str::len) == Some(256 * 1024)));
+}
+
+/// Start the endless writer on `db`, let it commit a few record sets, SIGKILL it and
+/// return with its side files left beside `db` (as after a crash).
+fn crash_writer_on(db: &Path) {
+    let mut child = spawn("endless", db, "K", &db.with_extension("unused"));
+    let stdout = child.stdout.take().unwrap();
+    let mut commits = 0;
+    for line in BufReader::new(stdout).lines() {
+        if line.unwrap().starts_with("committed ") {
+            commits += 1;
+            if commits == 3 {
+                child.kill().unwrap();
+                break;
+            }
+        }
+    }
+    child.wait().unwrap();
+    let wal = PathBuf::from(format!("{}-wal", db.display()));
+    assert!(
+        std::fs::metadata(&wal)
+            .map(|m| m.len() > 0)
+            .unwrap_or(false),
+        "the killed writer left no write-ahead log"
+    );
+}
+
+/// The magproof binary, run in `dir`.
+fn magproof(dir: &Path, args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_magproof"))
+        .current_dir(dir)
+        .env_remove("MAGPROOF_LEDGER")
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+/// Common practice: SQLite replays a `-wal` file it finds beside a database it opens, so
+/// a new ledger must never be created beside a stale one.
+#[test]
+fn a_new_ledger_is_not_created_over_a_crashed_ledgers_side_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let db = dir.path().join("magproof.db");
+    crash_writer_on(&db);
+    std::fs::remove_file(&db).unwrap();
+    let wal = PathBuf::from(format!("{}-wal", db.display()));
+    let wal_bytes = std::fs::read(&wal).unwrap();
+    let samples = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-logs/tmr-0207-b2");
+    let plan = samples.join("plan.toml");
+    let out = magproof(
+        dir.path(),
+        &[
+            "closeout",
+            plan.to_str().unwrap(),
+            "--ledger",
+            "magproof.db",
+        ],
+    );
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("magproof.db-wal"), "{err}");
+    assert!(!db.exists(), "a ledger was created");
+    assert_eq!(
+        std::fs::read(&wal).unwrap(),
+        wal_bytes,
+        "the side file changed"
+    );
+}
+
+/// Common practice, as above: removing an SQLite database means removing its side files.
+#[test]
+fn demo_force_starts_its_ledger_afresh_with_no_stale_side_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = magproof(dir.path(), &["demo", "--out", "d"]);
+    assert_eq!(out.status.code(), Some(0));
+    let db = dir.path().join("d/ledger.db");
+    // A writer killed on the demo's ledger leaves its side files behind.
+    crash_writer_on(&db);
+    let out = magproof(dir.path(), &["demo", "--out", "d", "--force"]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(0), "{err}");
+    let ledger = Ledger::open_existing(&db).unwrap();
+    ledger.check_integrity().unwrap();
+    let runs = ledger.runs(&RunFilter::default()).unwrap();
+    assert_eq!(runs.len(), 9, "three builds of three steps");
+    assert!(runs.iter().all(|r| r.serial == "TMR-0207"));
 }

@@ -33,6 +33,8 @@ pub struct StepOutcome {
     pub index: usize,
     /// The log it read.
     pub log: PathBuf,
+    /// SHA-256 (lower-case hex) of the log's bytes, hashed as they were read.
+    pub log_sha256: String,
     /// Its result.
     pub result: Box<dyn CheckResult>,
 }
@@ -109,7 +111,7 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
     let kinds = step_kinds(&plan)?;
     let mut steps = Vec::with_capacity(plan.steps.len());
     for (k, (step, kind)) in plan.steps.iter().zip(kinds).enumerate() {
-        let result =
+        let (result, log_sha256) =
             run_step(&plan, kind, &step.log, req.skip_bad_rows).map_err(|e| Error::Step {
                 index: k + 1,
                 kind: kind.as_str(),
@@ -119,6 +121,7 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
         steps.push(StepOutcome {
             index: k + 1,
             log: step.log.clone(),
+            log_sha256,
             result,
         });
     }
@@ -148,13 +151,13 @@ fn step_kinds(plan: &Plan) -> Result<Vec<CheckKind>, Error> {
 }
 
 /// Run one check of a plan on one log: read and screen the log as the check needs,
-/// then run it.
+/// then run it. Returns the result and the SHA-256 of the log's bytes as read.
 pub fn run_step(
     plan: &Plan,
     kind: CheckKind,
     log: &Path,
     skip_bad_rows: bool,
-) -> Result<Box<dyn CheckResult>, Error> {
+) -> Result<(Box<dyn CheckResult>, String), Error> {
     let spec = kind.spec()?;
     let options = InputOptions {
         unit: None,
@@ -163,5 +166,5 @@ pub fn run_step(
         plan_range_applies: (spec.plan_range_applies)(plan),
     };
     let input = CheckInput::read(log, Some(plan), &options)?;
-    (spec.run_step)(&input, plan)
+    Ok(((spec.run_step)(&input, plan)?, input.log.sha256.clone()))
 }

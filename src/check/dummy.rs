@@ -139,7 +139,15 @@ mod tests {
         let runs: Vec<NewRun> = result
             .steps
             .iter()
-            .map(|s| NewRun::from_result(&result.plan, s.result.as_ref(), &s.log).unwrap())
+            .map(|s| {
+                NewRun::from_result(
+                    &result.plan,
+                    s.result.as_ref(),
+                    (&s.log, &s.log_sha256),
+                    serde_json::json!({}),
+                )
+                .unwrap()
+            })
             .collect();
         ledger.record_runs(&runs).unwrap();
     }

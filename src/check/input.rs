@@ -9,6 +9,7 @@ use std::path::Path;
 use crate::log::{read_sweep_with_progress, FieldUnit, Plan, ReadOptions, SweepLog};
 use crate::screen::plausible::check_field_scale;
 use crate::screen::saturation::{screen_log, SaturationCause, SaturationReport};
+use crate::screen::stuck::check_stuck_axes;
 use crate::Error;
 
 /// How to read a log, as the user asked (each `None` falls back to the plan, then to
@@ -141,6 +142,7 @@ impl CheckInput {
     pub fn screen(log: SweepLog, unit: FieldUnit, range_nt: Option<f64>) -> Result<Self, Error> {
         check_field_scale(&log)?;
         let saturation = screen_log(&log, range_nt)?;
+        check_stuck_axes(&log, &saturation.flagged)?;
         let mut warnings: Vec<InputWarning> = saturation
             .axes
             .iter()

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
-use super::present::{present_check, read_input};
+use super::present::{present_check, read_input, Analysed};
 use magproof::check::calibrate::{run_calibrate, CalibrateOptions};
 use magproof::check::CheckRequest;
 use magproof::fit::tumble::Robust;
@@ -32,7 +32,7 @@ pub struct Args {
     #[arg(long)]
     plan: Option<PathBuf>,
     /// Reference field magnitude for a tumble, nT (beats the plan's [site]).
-    #[arg(long, value_name = "NT")]
+    #[arg(long, value_name = "NT", value_parser = parse_reference)]
     reference_nt: Option<f64>,
     /// Write flight-software parameters: FILE.json or FILE.h.
     #[arg(long, value_name = "FILE")]
@@ -64,8 +64,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         // Only the report's plots use the per-sample data.
         keep_samples: args.output.report.is_some(),
     };
+    let key = serde_json::json!({
+        "reference_nt": options.reference_nt,
+        "robust": format!("{:?}", options.robust),
+    });
     let result = run_calibrate(&CheckRequest::new(&input, plan.as_ref(), options))
         .map_err(|e| flag_hint(e, "--reference-nt"))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
     drop(input);
     let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
     if let Some(p) = &args.params_out {
@@ -77,12 +82,23 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     }
     present_check(
         &result,
-        &args.log,
-        (plan.as_ref(), args.plan.as_deref()),
+        analysed,
+        plan.as_ref(),
         &args.output,
         &args.record,
         extra,
     )
+}
+
+/// A reference field: positive, finite and within what the input screens accept.
+fn parse_reference(s: &str) -> Result<f64, String> {
+    let max = magproof::screen::plausible::MAX_FIELD_NT;
+    match s.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 && v <= max => Ok(v),
+        _ => Err(format!(
+            "expected a field magnitude in nT above 0 and at most {max:e}, found \"{s}\""
+        )),
+    }
 }
 
 /// A usage error of the library, with the flag that sets the value named.

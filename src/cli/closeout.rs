@@ -4,11 +4,10 @@
 
 use std::path::PathBuf;
 
-use anyhow::Context;
 use clap::Args as ClapArgs;
 
 use super::common::{LedgerArgs, Outcome, OutputArgs};
-use super::present::{emit, outcome, run_report, writers};
+use super::present::{emit, outcome, prepare_all, run_report, writers};
 use magproof::check::closeout::{run_closeout, CloseoutRequest, CloseoutResult};
 use magproof::ledger::{Ledger, NewRun, Recorded};
 use magproof::report::RunReport;
@@ -61,8 +60,14 @@ pub fn run_and_record(
         .iter()
         .map(|s| {
             // Step log paths are already resolved against the plan's folder.
-            NewRun::from_result(&result.plan, s.result.as_ref(), &s.log)
-                .map_err(magproof::Error::from)
+            let options = serde_json::json!({ "skip_bad_rows": skip_bad_rows });
+            NewRun::from_result(
+                &result.plan,
+                s.result.as_ref(),
+                (&s.log, &s.log_sha256),
+                options,
+            )
+            .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
     let recorded = Ledger::open(path)
@@ -120,8 +125,13 @@ pub fn closeout_report(result: &CloseoutResult) -> anyhow::Result<RunReport> {
             sections.push(section);
         }
     }
-    let mut inputs: Vec<&std::path::Path> = vec![&result.plan.path];
-    inputs.extend(result.steps.iter().map(|s| s.log.as_path()));
+    let mut inputs: Vec<(&std::path::Path, &str)> = vec![(&result.plan.path, &result.plan.sha256)];
+    inputs.extend(
+        result
+            .steps
+            .iter()
+            .map(|s| (s.log.as_path(), s.log_sha256.as_str())),
+    );
     let title = match &result.plan.article {
         Some(a) => format!("Closeout of {} build {}", a.serial, a.build),
         None => "Closeout".to_string(),
@@ -142,17 +152,12 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     // Every output is checked before any step is recorded.
     let (result, recorded) =
         run_and_record(&args.plan, ledger.as_deref(), args.skip_bad_rows, |_| {
-            for w in &writers {
-                w.prepare()
-                    .map_err(anyhow::Error::from)
-                    .with_context(|| format!("{} (add --force to replace)", w.name()))?;
-            }
-            Ok(())
+            prepare_all(&writers, args.output.force)
         })?;
     let report = closeout_report(&result)?;
-    emit(&writers, &report, || Ok(()))?;
+    emit(&writers, &report, args.output.force, || Ok(()))?;
     if !args.output.json {
-        print!("{}", verdict_lines(&result, recorded.as_ref()));
+        out!("{}", verdict_lines(&result, recorded.as_ref()))?;
     }
     Ok(outcome(result.verdict()))
 }

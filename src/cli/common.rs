@@ -58,6 +58,16 @@ fn parse_range(s: &str) -> Result<f64, String> {
     }
 }
 
+/// A finite number in `lo..=hi` (no `inf` or `NaN` reaches a check or the terminal).
+pub fn finite_in(s: &str, lo: f64, hi: f64) -> Result<f64, String> {
+    match s.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() && (lo..=hi).contains(&v) => Ok(v),
+        _ => Err(format!(
+            "expected a number from {lo} to {hi}, found \"{s}\""
+        )),
+    }
+}
+
 fn parse_unit(s: &str) -> Result<FieldUnit, String> {
     s.parse::<FieldUnit>().map_err(|e| e.to_string())
 }

@@ -103,18 +103,18 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let samples = out.join("sample-logs");
     write_samples(&samples)?;
     let ledger_path = out.join("ledger.db");
-    if ledger_path.exists() {
-        // --force: the demo's ledger starts fresh every time.
-        std::fs::remove_file(&ledger_path).map_err(|e| Error::io(&ledger_path, e))?;
-    }
+    // --force: the demo's ledger starts fresh every time, its side files with it (a
+    // write-ahead log left from a killed run would be replayed into the new ledger).
+    magproof::ledger::remove_with_side_files(&ledger_path)
+        .map_err(|e| Error::io(&ledger_path, e))?;
 
-    println!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three");
-    println!("builds closed out in order into a fresh ledger. All data are simulated.\n");
+    outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
+    outln!("builds closed out in order into a fresh ledger. All data are simulated.\n")?;
     let mut reports = Vec::new();
     for folder in BUILDS {
         let plan = samples.join(folder).join("plan.toml");
         let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false, |_| Ok(()))?;
-        print!("{}", build_summary(&result));
+        out!("{}", build_summary(&result))?;
         let dir = out.join("reports").join(folder);
         std::fs::create_dir_all(out.join("reports")).map_err(|e| Error::io(&dir, e))?;
         // report.html, result.json and plots; then the terminal text beside them.
@@ -131,36 +131,38 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let runs = ledger.runs(&RunFilter::default()).map_err(Error::from)?;
     let rules = ChangeRules::default();
     let changes = changes(&runs, &rules);
-    println!();
-    print!("{}", super::history::render(&ledger_path, &runs, &changes)?);
+    outln!()?;
+    out!("{}", super::history::render(&ledger_path, &runs, &changes)?)?;
 
-    println!("\nWhere things are (under {}):", out.display());
-    println!("  sample logs and plans   {}", samples.display());
-    println!("  ledger                  {}", ledger_path.display());
+    outln!("\nWhere things are (under {}):", out.display())?;
+    outln!("  sample logs and plans   {}", samples.display())?;
+    outln!("  ledger                  {}", ledger_path.display())?;
     for r in &reports {
-        println!(
+        outln!(
             "  closeout report         {}",
             r.join("report.html").display()
-        );
+        )?;
     }
     let history_dir = out.join("reports").join("history");
     let section = magproof::report::sections::history_section(&runs, &changes)?;
     let json = section.result.clone();
+    let ledger_sha256 =
+        magproof::log::hash::sha256_file(&ledger_path).map_err(|e| Error::io(&ledger_path, e))?;
     let report = super::present::run_report(
         "History of TMR-0207",
         None,
-        &[ledger_path.as_path()],
+        &[(ledger_path.as_path(), ledger_sha256.as_str())],
         vec![section],
         json,
     )?;
     let path = magproof::report::write_report_dir(&history_dir, true, &report)?;
-    println!(
+    outln!(
         "  history report          {}",
         path.join("report.html").display()
-    );
-    println!(
+    )?;
+    outln!(
         "Look again with: magproof history --ledger {}",
         ledger_path.display()
-    );
+    )?;
     Ok(Outcome::Passed)
 }

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use clap::Args as ClapArgs;
 
 use super::common::{InputArgs, Outcome, OutputArgs};
-use super::present::{present_check, read_input};
+use super::present::{present_check, read_input, Analysed};
 use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition, DEFAULT_ALTITUDE_KM};
 use magproof::check::CheckRequest;
 use magproof::log::read_plan;
@@ -22,10 +22,10 @@ pub struct Args {
     #[arg(long)]
     plan: PathBuf,
     /// Orbit altitude for the disturbance torque, km.
-    #[arg(long, default_value_t = DEFAULT_ALTITUDE_KM, value_name = "KM")]
+    #[arg(long, default_value_t = DEFAULT_ALTITUDE_KM, value_name = "KM", value_parser = parse_altitude)]
     altitude_km: f64,
     /// Orbit inclination, deg [default: 97.4, sun-synchronous; the result says so].
-    #[arg(long, value_name = "DEG")]
+    #[arg(long, value_name = "DEG", value_parser = parse_inclination)]
     inclination_deg: Option<f64>,
     /// Fit the dipole's position as well (three more unknowns) instead of placing it at
     /// the table origin.
@@ -37,6 +37,16 @@ pub struct Args {
     output: OutputArgs,
     #[command(flatten)]
     record: super::record::RecordArgs,
+}
+
+/// An orbit altitude, km: above the ground, below the Moon.
+fn parse_altitude(s: &str) -> Result<f64, String> {
+    super::common::finite_in(s, 1.0, 400_000.0)
+}
+
+/// An orbit inclination, deg.
+fn parse_inclination(s: &str) -> Result<f64, String> {
+    super::common::finite_in(s, 0.0, 180.0)
 }
 
 /// Run `dipole`.
@@ -53,12 +63,18 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             DipolePosition::AtTableOrigin
         },
     };
+    let key = serde_json::json!({
+        "altitude_km": options.altitude_km,
+        "inclination_deg": options.inclination_deg,
+        "fit_offset": args.fit_offset,
+    });
     let result = run_dipole(&CheckRequest::new(&input, Some(&plan), options))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
     drop(input);
     present_check(
         &result,
-        &args.log,
-        (Some(&plan), Some(&args.plan)),
+        analysed,
+        Some(&plan),
         &args.output,
         &args.record,
         Vec::new(),

@@ -64,26 +64,31 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         decimal_year: decimal_year(date),
     };
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&result)?);
+        outln!("{}", serde_json::to_string_pretty(&result)?)?;
         return Ok(Outcome::Passed);
     }
     let f = &result.field;
-    println!(
+    outln!(
         "{} at lat {:.4} deg, lon {:.4} deg, alt {:.1} m, {} ({:.3})",
-        f.model, result.lat_deg, result.lon_deg, result.alt_m, result.date, result.decimal_year
-    );
-    println!("  north        {:>10.1} nT", f.north_nt);
-    println!("  east         {:>10.1} nT", f.east_nt);
-    println!("  down         {:>10.1} nT", f.down_nt);
-    println!("  horizontal   {:>10.1} nT", f.horizontal_nt);
-    println!("  total        {:>10.1} nT", f.total_nt);
-    println!(
+        f.model,
+        result.lat_deg,
+        result.lon_deg,
+        result.alt_m,
+        result.date,
+        result.decimal_year
+    )?;
+    outln!("  north        {:>10.1} nT", f.north_nt)?;
+    outln!("  east         {:>10.1} nT", f.east_nt)?;
+    outln!("  down         {:>10.1} nT", f.down_nt)?;
+    outln!("  horizontal   {:>10.1} nT", f.horizontal_nt)?;
+    outln!("  total        {:>10.1} nT", f.total_nt)?;
+    outln!(
         "  declination  {:>10.2} deg (east of north)",
         f.declination_deg
-    );
-    println!(
+    )?;
+    outln!(
         "  inclination  {:>10.2} deg (down positive)",
         f.inclination_deg
-    );
+    )?;
     Ok(Outcome::Passed)
 }

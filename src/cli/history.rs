@@ -13,9 +13,9 @@ use serde_json::Value;
 use super::common::{LedgerArgs, Outcome};
 use magproof::check::CheckKind;
 use magproof::ledger::export::{write_changes_csv, write_values_csv};
-use magproof::ledger::{changes, group_by_build, Change, ChangeRules, Ledger, Run, RunFilter};
+use magproof::ledger::{changes, Change, ChangeRules, Ledger, Run, RunFilter};
 use magproof::report::model::now_utc_iso;
-use magproof::report::terminal::{render as render_text, Style};
+use magproof::report::terminal::{printable, render as render_text, Style};
 use magproof::report::RunReport;
 
 /// Flags of `magproof history`.
@@ -83,7 +83,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let rules = ChangeRules::with_significance_sigma(args.significance_sigma)
         .map_err(|e| magproof::Error::Usage(format!("--significance-sigma: {e}")))?;
     let path = args.ledger.path();
-    let ledger = Ledger::open_existing(&path)
+    let ledger = Ledger::open_for_reading(&path)
         .map_err(magproof::Error::from)
         .with_context(|| {
             "reading the ledger (runs are recorded by `magproof closeout` or a check given \
@@ -95,10 +95,12 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     };
     let runs = ledger.runs(&filter).map_err(magproof::Error::from)?;
     if runs.is_empty() {
-        let all = ledger
-            .runs(&RunFilter::default())
-            .map_err(magproof::Error::from)?;
-        let serials: Vec<&str> = group_by_build(&all).iter().map(|s| s.serial).collect();
+        let serials: Vec<String> = ledger
+            .serials()
+            .map_err(magproof::Error::from)?
+            .iter()
+            .map(|s| printable(s))
+            .collect();
         eprintln!(
             "magproof: {}: no run matches; serials in the ledger: {}",
             path.display(),
@@ -119,6 +121,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         }
         .context("writing CSV")?;
         match &args.out {
+            Some(file) if same_file(file, &path) => {
+                return Err(magproof::Error::Usage(format!(
+                    "--out {} is the ledger being read; choose another file",
+                    file.display()
+                ))
+                .into())
+            }
             Some(file) => write_atomically(file, &buf, args.force)?,
             None => std::io::stdout().write_all(&buf)?,
         }
@@ -131,11 +140,19 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             runs: &runs,
             changes: &changes,
         };
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        outln!("{}", serde_json::to_string_pretty(&doc)?)?;
         return Ok(Outcome::Passed);
     }
-    print!("{}", render(&path, &runs, &changes)?);
+    out!("{}", render(&path, &runs, &changes)?)?;
     Ok(Outcome::Passed)
+}
+
+/// Whether `a` and `b` name one existing file (or the same path).
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => a == b,
+    }
 }
 
 /// Write a file through a temporary file in the same folder and a rename, so a reader
@@ -149,7 +166,7 @@ fn write_atomically(file: &Path, bytes: &[u8], force: bool) -> anyhow::Result<()
 /// The terminal view: the history section (builds, verdicts per kind, the changes with
 /// their flags), rendered by the terminal writer.
 pub(crate) fn render(path: &Path, runs: &[Run], changes: &[Change]) -> anyhow::Result<String> {
-    let section = magproof::report::sections::history_section(runs, changes)?;
+    let section = magproof::report::sections::history_text_section(runs, changes)?;
     let report = RunReport {
         title: format!("History in {}", path.display()),
         article: None,

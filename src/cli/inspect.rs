@@ -121,37 +121,39 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         plan_ok: plan.as_ref().map(|_| true),
     };
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        outln!("{}", serde_json::to_string_pretty(&report)?)?;
         return Ok(Outcome::Passed);
     }
-    println!(
+    outln!(
         "{}: {} rows (header on line {})",
-        report.file, report.rows, report.header_line
-    );
-    println!("  columns used : {}", report.columns.join(", "));
+        report.file,
+        report.rows,
+        report.header_line
+    )?;
+    outln!("  columns used : {}", report.columns.join(", "))?;
     if !report.ignored_columns.is_empty() {
-        println!("  ignored      : {}", report.ignored_columns.join(", "));
+        outln!("  ignored      : {}", report.ignored_columns.join(", "))?;
     }
     if let Some(span) = report.time_span_s {
-        println!("  time span    : {span:.3} s");
+        outln!("  time span    : {span:.3} s")?;
     }
     if let Some([min, mean, max]) = report.field_magnitude_nt {
-        println!("  |B|          : min {min:.1} nT, mean {mean:.1} nT, max {max:.1} nT");
+        outln!("  |B|          : min {min:.1} nT, mean {mean:.1} nT, max {max:.1} nT")?;
     }
     if !report.mounts.is_empty() {
-        println!("  mounts       : {}", report.mounts.join(", "));
+        outln!("  mounts       : {}", report.mounts.join(", "))?;
     }
     if report.rows_skipped > 0 {
-        println!("  skipped rows : {}", report.rows_skipped);
+        outln!("  skipped rows : {}", report.rows_skipped)?;
         for s in report.skipped.iter().take(10) {
-            println!("    {}", s.reason);
+            outln!("    {}", s.reason)?;
         }
         if report.rows_skipped > 10 {
-            println!("    … and {} more", report.rows_skipped - 10);
+            outln!("    … and {} more", report.rows_skipped - 10)?;
         }
     }
     if let Some(p) = &args.plan {
-        println!("  plan         : {} is valid", p.display());
+        outln!("  plan         : {} is valid", p.display())?;
     }
     Ok(Outcome::Passed)
 }

@@ -1,6 +1,28 @@
 //! Command-line front end: clap definitions (one file per subcommand), turning flags into
 //! validated library requests, and terminal output. The library never sees clap types.
 
+/// `print!` that returns an error (exit 2, "standard output: …") instead of panicking when
+/// standard output cannot be written (a full disk, a closed file).
+macro_rules! out {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        write!(std::io::stdout().lock(), $($arg)*)
+            .and_then(|()| std::io::stdout().lock().flush())
+            .map_err(|e| magproof::Error::io("standard output", e))
+    }};
+}
+
+/// `println!` that returns an error instead of panicking, as `out!`.
+macro_rules! outln {
+    () => { out!("\n") };
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        writeln!(std::io::stdout().lock(), $($arg)*)
+            .and_then(|()| std::io::stdout().lock().flush())
+            .map_err(|e| magproof::Error::io("standard output", e))
+    }};
+}
+
 mod calibrate;
 mod closeout;
 mod common;

@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
-use super::present::{present_check, read_input};
+use super::present::{present_check, read_input, Analysed};
 use magproof::check::polarity::{
     magnetometer_recorded, run_polarity, DriftModel, PolarityOptions, SensorChoice, DEFAULT_SNR_MIN,
 };
@@ -37,7 +37,7 @@ pub struct Args {
     #[arg(long, value_enum, default_value_t = SensorArg::Auto)]
     sensor: SensorArg,
     /// SNR below which a rod is called no-response.
-    #[arg(long, default_value_t = DEFAULT_SNR_MIN)]
+    #[arg(long, default_value_t = DEFAULT_SNR_MIN, value_parser = parse_snr)]
     snr_min: f64,
     /// Drift terms: auto, knots:SECONDS (piecewise-linear baseline) or poly:DEGREE.
     #[arg(long, default_value = "auto", value_parser = parse_drift)]
@@ -52,6 +52,10 @@ enum SensorArg {
     Auto,
     Magnetometer,
     Probe,
+}
+
+fn parse_snr(s: &str) -> Result<f64, String> {
+    super::common::finite_in(s, 0.0, 1e6)
 }
 
 fn parse_drift(s: &str) -> Result<DriftModel, String> {
@@ -109,7 +113,14 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         drift: args.drift,
         max_lag_s: args.max_lag_s,
     };
+    let key = serde_json::json!({
+        "sensor": format!("{:?}", options.sensor),
+        "snr_min": options.snr_min,
+        "drift": format!("{:?}", options.drift),
+        "max_lag_s": options.max_lag_s,
+    });
     let result = run_polarity(&CheckRequest::new(&input, Some(&plan), options))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
     drop(input);
     let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
     if let Some(p) = &args.params_out {
@@ -121,8 +132,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     }
     present_check(
         &result,
-        &args.log,
-        (Some(&plan), Some(&args.plan)),
+        analysed,
+        Some(&plan),
         &args.output,
         &args.record,
         extra,

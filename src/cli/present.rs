@@ -5,9 +5,7 @@
 
 use std::path::Path;
 
-use anyhow::Context;
 use magproof::check::{CheckInput, CheckResult, InputOptions, Verdict};
-use magproof::log::hash::sha256_file;
 use magproof::log::Plan;
 use magproof::report::model::now_utc_iso;
 use magproof::report::terminal::Style;
@@ -64,22 +62,22 @@ pub fn writers<'a>(output: &OutputArgs) -> Vec<Box<dyn ReportWriter + 'a>> {
     out
 }
 
-/// A report of sections with the input files hashed.
+/// A report of sections with its input files: each path with the SHA-256 of the bytes
+/// that were analysed (hashed as they were read, never read again).
 pub fn run_report(
     title: &str,
     plan: Option<&Plan>,
-    inputs: &[&Path],
+    inputs: &[(&Path, &str)],
     sections: Vec<magproof::report::Section>,
     result: serde_json::Value,
 ) -> anyhow::Result<RunReport> {
-    let mut files = Vec::with_capacity(inputs.len());
-    for p in inputs {
-        let sha256 = sha256_file(p).with_context(|| format!("hashing {}", p.display()))?;
-        files.push(InputFile {
+    let files = inputs
+        .iter()
+        .map(|(p, sha256)| InputFile {
             path: p.display().to_string(),
-            sha256,
-        });
-    }
+            sha256: sha256.to_string(),
+        })
+        .collect();
     Ok(RunReport {
         title: title.to_string(),
         article: plan
@@ -93,17 +91,31 @@ pub fn run_report(
     })
 }
 
+/// Ask every writer whether it can write, before anything is recorded; a refusal of an
+/// existing destination names `--force` when it was not given.
+pub fn prepare_all(writers: &[Box<dyn ReportWriter + '_>], force: bool) -> anyhow::Result<()> {
+    for w in writers {
+        if let Err(e) = w.prepare() {
+            let hint = !force && e.to_string().contains("must be asked for");
+            let what = if hint {
+                format!("{} (add --force to replace)", w.name())
+            } else {
+                w.name().to_string()
+            };
+            return Err(anyhow::Error::from(e).context(what));
+        }
+    }
+    Ok(())
+}
+
 /// Check every writer, record when asked, then write; say on stderr where files went.
 pub fn emit(
     writers: &[Box<dyn ReportWriter + '_>],
     report: &RunReport,
+    force: bool,
     record: impl FnOnce() -> anyhow::Result<()>,
 ) -> anyhow::Result<()> {
-    for w in writers {
-        w.prepare()
-            .map_err(anyhow::Error::from)
-            .with_context(|| format!("{} (add --force to replace)", w.name()))?;
-    }
+    prepare_all(writers, force)?;
     record()?;
     let mut stdout = std::io::stdout().lock();
     for (name, written) in magproof::report::writer::write_all(writers, report, &mut stdout)? {
@@ -114,23 +126,61 @@ pub fn emit(
     Ok(())
 }
 
-/// The single-check path: present `result` of the check run on `log` under `plan`.
+/// What a check analysed: the log (its path and the SHA-256 of the bytes read) and the
+/// analysis options that change the result (for the ledger's dedupe key).
+pub struct Analysed<'a> {
+    /// The log as given.
+    pub log: &'a Path,
+    /// SHA-256 of the log's bytes, hashed as they were read.
+    pub log_sha256: String,
+    /// The options, a JSON object.
+    pub options: serde_json::Value,
+}
+
+impl<'a> Analysed<'a> {
+    /// From the input read; `options` are the check's own options that change its result
+    /// (the input flags are added here).
+    pub fn new(
+        log: &'a Path,
+        input: &CheckInput,
+        flags: &InputArgs,
+        options: serde_json::Value,
+    ) -> Self {
+        let mut all = serde_json::json!({
+            "unit": flags.unit.map(|u| format!("{u:?}")),
+            "range_nt": flags.range,
+            "skip_bad_rows": flags.skip_bad_rows,
+        });
+        if let (Some(all), serde_json::Value::Object(own)) = (all.as_object_mut(), options) {
+            all.extend(own);
+        }
+        Analysed {
+            log,
+            log_sha256: input.log.sha256.clone(),
+            options: all,
+        }
+    }
+}
+
+/// The single-check path: present `result` of the check run on `analysed` under `plan`.
 pub fn present_check(
     result: &dyn CheckResult,
-    log: &Path,
-    plan: (Option<&Plan>, Option<&Path>),
+    analysed: Analysed<'_>,
+    plan: Option<&Plan>,
     output: &OutputArgs,
     record: &RecordArgs,
     extra: Vec<Box<dyn ReportWriter + '_>>,
 ) -> anyhow::Result<Outcome> {
-    let (plan, plan_path) = plan;
+    let log = (analysed.log, analysed.log_sha256.as_str());
     let mut inputs = vec![log];
-    inputs.extend(plan_path);
+    inputs.extend(plan.map(|p| (p.path.as_path(), p.sha256.as_str())));
     let title = result.kind().spec()?.title;
     let report = run_report(title, plan, &inputs, result.sections()?, result.json()?)?;
     let mut all = writers(output);
     all.extend(extra);
-    emit(&all, &report, || record_if_asked(record, plan, result, log))?;
+    emit(&all, &report, output.force, || {
+        record_if_asked(record, plan, result, log, analysed.options)
+    })?;
     Ok(outcome(result.verdict()))
 }
 

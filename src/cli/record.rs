@@ -19,14 +19,15 @@ pub struct RecordArgs {
     pub ledger: LedgerArgs,
 }
 
-/// If `--record` was given, record `result` (the check's result) with the log and
-/// the plan as inputs, and say on stderr what happened. Without a plan, or with a plan
+/// If `--record` was given, record `result` (the check's result) with the log (path and
+/// the hash of the bytes analysed), the plan and the analysis `options` as its key, and say on stderr what happened. Without a plan, or with a plan
 /// lacking `[article]`, refuse with a usage error (exit 2) naming what is missing.
 pub fn record_if_asked(
     args: &RecordArgs,
     plan: Option<&Plan>,
     result: &dyn CheckResult,
-    log: &Path,
+    log: (&Path, &str),
+    options: serde_json::Value,
 ) -> anyhow::Result<()> {
     if !args.record {
         return Ok(());
@@ -38,7 +39,8 @@ pub fn record_if_asked(
         .into());
     };
     let path = args.ledger.path();
-    let recorded = record_check(&path, plan, result, log).map_err(magproof::Error::from)?;
+    let recorded =
+        record_check(&path, plan, result, log, options).map_err(magproof::Error::from)?;
     match recorded {
         Recorded::New(id) => eprintln!("magproof: recorded as run {id} in {}", path.display()),
         Recorded::AlreadyThere(id) => eprintln!(

@@ -341,7 +341,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     for (name, text) in &files {
         let path = args.out.join(name);
         write_atomic(&path, text.as_bytes(), true)?;
-        println!("{}", path.display());
+        outln!("{}", path.display())?;
     }
     Ok(Outcome::Passed)
 }

@@ -20,6 +20,15 @@ pub enum LedgerError {
         /// What was found instead.
         reason: String,
     },
+    /// No ledger file is here but SQLite side files (`-wal`, `-shm`) of an earlier one
+    /// are: a new ledger would replay them and be corrupt from its first write.
+    #[error("{path}: no ledger here, but {files} left beside it (by a crash, or by a ledger deleted without them); a new ledger would take them in and be corrupt. Restore the ledger they belong to, or move them away, then run again")]
+    StaleSideFiles {
+        /// The ledger path.
+        path: Shown,
+        /// The side files found, as paths joined by " and ".
+        files: String,
+    },
     /// The ledger was written by a newer magproof whose schema this one does not know.
     #[error("{path}: ledger schema version {found} is newer than this magproof {} understands (up to {supported}); use a newer magproof", crate::VERSION)]
     NewerSchema {

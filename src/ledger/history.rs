@@ -13,6 +13,8 @@
 //! - a verdict that goes pass → fail is `limit-crossed`: the check's limit (plan
 //!   `[limits]`) is no longer met.
 
+use std::collections::HashMap;
+
 use serde::Serialize;
 use serde_json::Value;
 
@@ -155,26 +157,31 @@ pub fn group_by_build(runs: &[Run]) -> Vec<SerialRuns<'_>> {
     let mut sorted: Vec<&Run> = runs.iter().collect();
     sorted.sort_by_key(|r| r.id);
     let mut out: Vec<SerialRuns<'_>> = Vec::new();
+    // Where each serial, and each (serial, build), sits in `out`: one hash look-up per
+    // run, so grouping is linear in the runs however many serials and builds there are.
+    let mut serial_at: HashMap<&str, usize> = HashMap::new();
+    let mut build_at: HashMap<(&str, &str), usize> = HashMap::new();
     for run in sorted {
-        let serial_idx = match out.iter().position(|s| s.serial == run.serial) {
-            Some(i) => i,
-            None => {
-                out.push(SerialRuns {
-                    serial: &run.serial,
-                    builds: Vec::new(),
-                });
-                out.len() - 1
-            }
-        };
+        let serial_idx = *serial_at.entry(&run.serial).or_insert_with(|| {
+            out.push(SerialRuns {
+                serial: &run.serial,
+                builds: Vec::new(),
+            });
+            out.len() - 1
+        });
         let Some(serial) = out.get_mut(serial_idx) else {
             continue;
         };
-        match serial.builds.iter_mut().find(|b| b.build == run.build) {
-            Some(b) => b.runs.push(run),
-            None => serial.builds.push(BuildRuns {
-                build: &run.build,
-                runs: vec![run],
-            }),
+        let key = (run.serial.as_str(), run.build.as_str());
+        match build_at.get(&key) {
+            Some(&b) => serial.builds[b].runs.push(run),
+            None => {
+                build_at.insert(key, serial.builds.len());
+                serial.builds.push(BuildRuns {
+                    build: &run.build,
+                    runs: vec![run],
+                });
+            }
         }
     }
     out
@@ -184,11 +191,12 @@ pub fn group_by_build(runs: &[Run]) -> Vec<SerialRuns<'_>> {
 /// builds having that kind, one [`Change`] per quantity (see the module rules).
 pub fn changes(runs: &[Run], rules: &ChangeRules) -> Vec<Change> {
     let mut out = Vec::new();
+    let kinds = kinds_of(runs);
     for serial in group_by_build(runs) {
-        for kind in kinds_of(runs) {
+        for kind in &kinds {
             let mut previous: Option<&Run> = None;
             for build in &serial.builds {
-                let Some(latest) = build.runs.iter().rev().find(|r| r.kind == kind) else {
+                let Some(latest) = build.runs.iter().rev().find(|r| r.kind == *kind) else {
                     continue;
                 };
                 if let Some(prev) = previous {

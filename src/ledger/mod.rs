@@ -10,12 +10,14 @@
 //!   both succeed (the second waits for the first's commit);
 //! - `synchronous = FULL`: a committed run survives the process being killed (and power
 //!   loss on a disk that honours flushes);
-//! - the same inputs recorded twice for the same serial, build and kind are one run
+//! - the same inputs, analysed with the same options by the same magproof version,
+//!   recorded twice for the same serial, build and kind are one run
 //!   ([`Recorded::AlreadyThere`]);
 //! - the schema carries a version and migrates forward on open; a newer one is refused.
 
 mod error;
 pub mod export;
+mod files;
 pub mod history;
 mod quantity;
 mod record;
@@ -30,6 +32,8 @@ use crate::check::{CheckKind, CheckResult};
 use crate::log::{Plan, Shown};
 
 pub use error::LedgerError;
+use files::{refuse_stale_side_files, uri_path};
+pub use files::{remove_with_side_files, side_files};
 pub use history::{changes, group_by_build, BuildRuns, Change, ChangeRules, Flag, SerialRuns};
 pub use quantity::{legacy_quantities, Quantity, QuantityValue};
 pub use record::{InputFile, InputRole, NewRun, Recorded, Run, RunFilter, RunId};
@@ -84,6 +88,7 @@ impl Ledger {
             | OpenFlags::SQLITE_OPEN_CREATE
             | OpenFlags::SQLITE_OPEN_NO_MUTEX;
         if !path.exists() {
+            refuse_stale_side_files(path)?;
             // Failing here is not final: opening below reports the cause by name.
             let _ = Self::create_whole(path, flags);
         }
@@ -101,6 +106,8 @@ impl Ledger {
             name.unwrap_or_else(|| "ledger".into()),
             std::process::id()
         ));
+        // The private name is this process's; anything under it is a dead process's.
+        let _ = remove_with_side_files(&tmp);
         let made = Self::open_once(&tmp, flags, schema::OnEmpty::Create).map(drop);
         let linked = made.and_then(|()| match std::fs::hard_link(&tmp, path) {
             Ok(()) => Ok(()),
@@ -110,11 +117,7 @@ impl Ledger {
                 reason: format!("cannot link the new ledger into place: {e}"),
             }),
         });
-        for suffix in ["", "-wal", "-shm"] {
-            let mut p = tmp.clone().into_os_string();
-            p.push(suffix);
-            let _ = std::fs::remove_file(p);
-        }
+        let _ = remove_with_side_files(&tmp);
         linked
     }
 
@@ -129,6 +132,47 @@ impl Ledger {
         }
         let flags = OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX;
         Self::open_with(path, flags, schema::OnEmpty::Refuse)
+    }
+
+    /// Open an existing ledger to read it, also when the file (or its folder) may only
+    /// be read: as [`Ledger::open_existing`] when the file can be written, else through
+    /// a read-only connection that changes nothing in the file or beside it. When both
+    /// fail, the first error stands.
+    pub fn open_for_reading(path: &Path) -> Result<Ledger, LedgerError> {
+        match Self::open_existing(path) {
+            Ok(l) => Ok(l),
+            Err(first) if path.exists() => Self::open_read_only(path).map_err(|_| first),
+            Err(first) => Err(first),
+        }
+    }
+
+    /// Open a current ledger through a read-only connection. When SQLite cannot make
+    /// the shared-memory index beside it (a folder the user may not write), the file is
+    /// opened as immutable: read as it is on disk, committed runs only.
+    pub fn open_read_only(path: &Path) -> Result<Ledger, LedgerError> {
+        let flags = OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+        let attempt = |conn: Connection| -> Result<Ledger, LedgerError> {
+            schema::check_readable(&conn, path)?;
+            Ok(Ledger {
+                conn,
+                path: path.to_path_buf(),
+            })
+        };
+        let cannot_open = |source| LedgerError::CannotOpen {
+            path: Shown(path.to_path_buf()),
+            source,
+        };
+        let plain = Connection::open_with_flags(path, flags).map_err(cannot_open);
+        match plain.and_then(attempt) {
+            Ok(l) => Ok(l),
+            Err(first) => {
+                let abs = path.canonicalize().map_err(|_| first)?;
+                let uri = format!("file:{}?immutable=1", uri_path(&abs));
+                let conn = Connection::open_with_flags(uri, flags | OpenFlags::SQLITE_OPEN_URI)
+                    .map_err(cannot_open)?;
+                attempt(conn)
+            }
+        }
     }
 
     fn open_with(
@@ -195,8 +239,8 @@ impl Ledger {
     /// Record a set of runs (e.g. every step of a closeout) in ONE transaction, all
     /// stamped with the same `recorded_at` (now, UTC) and [`crate::VERSION`].
     ///
-    /// Dedupe: a run whose serial, build, kind and input hashes (SHA-256 of every input
-    /// file, paths ignored) equal a run already in the ledger — or earlier in the same
+    /// Dedupe: a run whose serial, build, kind, input hashes (SHA-256 of every input
+    /// file, paths ignored), analysis options and tool version equal a run already in the ledger — or earlier in the same
     /// slice — is not written again; its entry in the answer is
     /// [`Recorded::AlreadyThere`] with the existing id (the first recording's result,
     /// time and version are kept). The answer has one entry per given run, in order.
@@ -285,9 +329,17 @@ impl Ledger {
         Ok(out)
     }
 
-    /// Runs matching the filter, in the order they were recorded (by id).
+    /// Runs matching the filter, in the order they were recorded (by id). Three queries
+    /// whatever the number of runs (runs, their inputs, their quantities), so time and
+    /// memory grow linearly with the runs read.
     pub fn runs(&self, filter: &RunFilter) -> Result<Vec<Run>, LedgerError> {
         let db = self.db();
+        let (serial, kind) = (filter.serial.as_deref(), filter.kind.map(CheckKind::as_str));
+        let bad = |id: i64, problem: String| LedgerError::BadRow {
+            path: Shown(self.path.clone()),
+            id,
+            problem,
+        };
         let mut stmt = self
             .conn
             .prepare(
@@ -297,77 +349,75 @@ impl Ledger {
                  ORDER BY id",
             )
             .map_err(&db)?;
-        type Row = (
-            i64,
-            String,
-            String,
-            String,
-            String,
-            Option<String>,
-            Option<bool>,
-            String,
-        );
-        let rows: Vec<Row> = stmt
-            .query_map(
-                params![filter.serial, filter.kind.map(CheckKind::as_str)],
-                |r| {
-                    Ok((
-                        r.get(0)?,
-                        r.get(1)?,
-                        r.get(2)?,
-                        r.get(3)?,
-                        r.get(4)?,
-                        r.get(5)?,
-                        r.get(6)?,
-                        r.get(7)?,
-                    ))
-                },
-            )
-            .map_err(&db)?
-            .collect::<Result<_, _>>()
-            .map_err(&db)?;
-        let mut inputs_stmt = self
-            .conn
-            .prepare("SELECT role, path, sha256 FROM inputs WHERE run_id = ?1 ORDER BY position")
-            .map_err(&db)?;
-        let bad = |id: i64, problem: String| LedgerError::BadRow {
-            path: Shown(self.path.clone()),
-            id,
-            problem,
-        };
-        let mut runs = Vec::with_capacity(rows.len());
-        for (id, serial, build, kind, recorded_at, tool_version, pass, result) in rows {
-            let result = serde_json::from_str(&result)
+        let mut runs: Vec<Run> = Vec::new();
+        let mut rows = stmt.query(params![serial, kind]).map_err(&db)?;
+        while let Some(r) = rows.next().map_err(&db)? {
+            let id: i64 = r.get(0).map_err(&db)?;
+            let text: String = r.get(7).map_err(&db)?;
+            let result = serde_json::from_str(&text)
                 .map_err(|e| bad(id, format!("stored result is not JSON: {e}")))?;
-            let raw: Vec<(String, String, String)> = inputs_stmt
-                .query_map([id], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))
-                .map_err(&db)?
-                .collect::<Result<_, _>>()
-                .map_err(&db)?;
-            let mut inputs = Vec::with_capacity(raw.len());
-            for (role, path, sha256) in raw {
-                let role = InputRole::parse(&role)
-                    .ok_or_else(|| bad(id, format!("unknown input role {role:?}")))?;
-                inputs.push(InputFile {
-                    role,
-                    path: path.into(),
-                    sha256,
-                });
-            }
             runs.push(Run {
                 id: RunId(id),
-                serial,
-                build,
-                kind,
-                recorded_at,
-                tool_version,
-                pass,
+                serial: r.get(1).map_err(&db)?,
+                build: r.get(2).map_err(&db)?,
+                kind: r.get(3).map_err(&db)?,
+                recorded_at: r.get(4).map_err(&db)?,
+                tool_version: r.get(5).map_err(&db)?,
+                pass: r.get(6).map_err(&db)?,
                 result,
-                inputs,
-                quantities: quantity::read(&self.conn, id).map_err(&db)?,
+                inputs: Vec::new(),
+                quantities: Vec::new(),
             });
         }
+        // Runs are sorted by id, and so are the inputs and quantities below: each is
+        // placed by a binary search.
+        let index = |runs: &[Run], id: i64| runs.binary_search_by_key(&RunId(id), |r| r.id).ok();
+        let mut inputs = self
+            .conn
+            .prepare(
+                "SELECT i.run_id, i.role, i.path, i.sha256
+                 FROM inputs i JOIN runs r ON r.id = i.run_id
+                 WHERE (?1 IS NULL OR r.serial = ?1) AND (?2 IS NULL OR r.kind = ?2)
+                 ORDER BY i.run_id, i.position",
+            )
+            .map_err(&db)?;
+        let mut rows = inputs.query(params![serial, kind]).map_err(&db)?;
+        while let Some(r) = rows.next().map_err(&db)? {
+            let id: i64 = r.get(0).map_err(&db)?;
+            let role: String = r.get(1).map_err(&db)?;
+            let role = InputRole::parse(&role)
+                .ok_or_else(|| bad(id, format!("unknown input role {role:?}")))?;
+            let path: String = r.get(2).map_err(&db)?;
+            let input = InputFile {
+                role,
+                path: path.into(),
+                sha256: r.get(3).map_err(&db)?,
+            };
+            if let Some(k) = index(&runs, id) {
+                runs[k].inputs.push(input);
+            }
+        }
+        for (id, q) in quantity::read_all(&self.conn, serial, kind).map_err(&db)? {
+            if let Some(k) = index(&runs, id) {
+                runs[k].quantities.push(q);
+            }
+        }
         Ok(runs)
+    }
+
+    /// The serial numbers in the ledger, in order of their first run (one query; no
+    /// run is read).
+    pub fn serials(&self) -> Result<Vec<String>, LedgerError> {
+        let mut stmt = self
+            .conn
+            .prepare("SELECT serial FROM runs GROUP BY serial ORDER BY min(id)")
+            .map_err(self.db())?;
+        let rows = stmt
+            .query_map([], |r| r.get(0))
+            .map_err(self.db())?
+            .collect::<Result<Vec<String>, _>>()
+            .map_err(self.db())?;
+        Ok(rows)
     }
 
     /// Run SQLite's own consistency check; `Ok(())` when it answers "ok".
@@ -389,7 +439,8 @@ impl Ledger {
 
 /// Record one check's result for `--record`: open (or create) the ledger at
 /// `ledger_path`, file the run under the plan's `[article]` serial and build with the log
-/// and the plan as inputs, in one transaction.
+/// and the plan as inputs, in one transaction. `log` is the log's path and the hash of
+/// the bytes analysed; `options` the analysis options that changed the result.
 ///
 /// Fails with [`LedgerError::NoArticle`] (before touching the ledger) when the plan has
 /// no `[article]`.
@@ -397,9 +448,10 @@ pub fn record_check(
     ledger_path: &Path,
     plan: &Plan,
     result: &dyn CheckResult,
-    log: &Path,
+    log: (&Path, &str),
+    options: serde_json::Value,
 ) -> Result<Recorded, LedgerError> {
-    let run = NewRun::from_result(plan, result, log)?;
+    let run = NewRun::from_result(plan, result, log, options)?;
     let mut ledger = Ledger::open(ledger_path)?;
     let recorded = ledger.record_runs(std::slice::from_ref(&run))?;
     recorded

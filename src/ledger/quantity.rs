@@ -243,28 +243,43 @@ pub(crate) fn insert(
 }
 
 /// The quantities stored for run `run_id`, in the order they were stored.
-pub(crate) fn read(conn: &rusqlite::Connection, run_id: i64) -> rusqlite::Result<Vec<Quantity>> {
+/// Every quantity of the runs matching `serial` and `kind` (`None` matches all), as
+/// (run id, quantity), by run id and then in recorded order: one query for any number
+/// of runs.
+pub(crate) fn read_all(
+    conn: &rusqlite::Connection,
+    serial: Option<&str>,
+    kind: Option<&str>,
+) -> rusqlite::Result<Vec<(i64, Quantity)>> {
     let mut stmt = conn.prepare_cached(
-        "SELECT name, unit, value, sigma, word FROM quantities WHERE run_id = ?1 ORDER BY rowid",
+        "SELECT q.name, q.unit, q.value, q.sigma, q.word, q.run_id
+         FROM quantities q JOIN runs r ON r.id = q.run_id
+         WHERE (?1 IS NULL OR r.serial = ?1) AND (?2 IS NULL OR r.kind = ?2)
+         ORDER BY q.run_id, q.rowid",
     )?;
-    let rows = stmt.query_map([run_id], |r| {
-        let name: String = r.get(0)?;
-        let unit: String = r.get(1)?;
-        let value: Option<f64> = r.get(2)?;
-        let sigma: Option<f64> = r.get(3)?;
-        let word: Option<String> = r.get(4)?;
-        let value = match (value, word) {
-            (Some(v), Some(w)) if w == "pass" => QuantityValue::Pass(v > 0.5),
-            (_, Some(w)) => QuantityValue::Verdict(w),
-            (v, None) => QuantityValue::Number {
-                // A NaN is stored by SQLite as NULL.
-                value: v.unwrap_or(f64::NAN),
-                sigma,
-            },
-        };
-        Ok(Quantity { name, unit, value })
+    let rows = stmt.query_map(rusqlite::params![serial, kind], |r| {
+        Ok((r.get(5)?, from_row(r, 0)?))
     })?;
     rows.collect()
+}
+
+/// A quantity from the columns name, unit, value, sigma, word starting at `at`.
+fn from_row(r: &rusqlite::Row<'_>, at: usize) -> rusqlite::Result<Quantity> {
+    let name: String = r.get(at)?;
+    let unit: String = r.get(at + 1)?;
+    let value: Option<f64> = r.get(at + 2)?;
+    let sigma: Option<f64> = r.get(at + 3)?;
+    let word: Option<String> = r.get(at + 4)?;
+    let value = match (value, word) {
+        (Some(v), Some(w)) if w == "pass" => QuantityValue::Pass(v > 0.5),
+        (_, Some(w)) => QuantityValue::Verdict(w),
+        (v, None) => QuantityValue::Number {
+            // A NaN is stored by SQLite as NULL.
+            value: v.unwrap_or(f64::NAN),
+            sigma,
+        },
+    };
+    Ok(Quantity { name, unit, value })
 }
 
 #[cfg(test)]

@@ -84,6 +84,16 @@ pub struct InputFile {
 }
 
 impl InputFile {
+    /// An input whose bytes were hashed as they were read (the log by the reader, the
+    /// plan from the text parsed).
+    pub fn hashed(role: InputRole, path: &Path, sha256: &str) -> Self {
+        InputFile {
+            role,
+            path: path.to_path_buf(),
+            sha256: sha256.to_string(),
+        }
+    }
+
     /// Hash a file on disk (read in 64 KiB blocks, so a large log costs no memory).
     pub fn hash(role: InputRole, path: &Path) -> Result<Self, LedgerError> {
         let input = |source| LedgerError::Input {
@@ -133,19 +143,23 @@ pub struct NewRun {
     /// The numbers and verdicts history compares (the result's own list; the ledger
     /// adds `<kind>_pass`).
     pub quantities: Vec<Quantity>,
+    /// The analysis options that change the result (a JSON object; `{}` when there are
+    /// none). Part of the dedupe key, with the tool version.
+    pub options: serde_json::Value,
 }
 
 impl NewRun {
     /// A run for a check's result under a plan: serial and build from the plan's
-    /// `[article]`, inputs the log and the plan file (both hashed now), the result's
-    /// JSON and quantities.
+    /// `[article]`, inputs the log (with `log_sha256`, the hash of the bytes the reader
+    /// analysed) and the plan (with the hash of the text parsed), the result's JSON and
+    /// quantities, and the analysis `options` that changed the result.
     ///
-    /// Fails with [`LedgerError::NoArticle`] when the plan has no `[article]`, and with
-    /// [`LedgerError::Input`] when a file cannot be read.
+    /// Fails with [`LedgerError::NoArticle`] when the plan has no `[article]`.
     pub fn from_result(
         plan: &Plan,
         result: &dyn CheckResult,
-        log: &Path,
+        log: (&Path, &str),
+        options: serde_json::Value,
     ) -> Result<Self, LedgerError> {
         let article = plan
             .article
@@ -161,11 +175,12 @@ impl NewRun {
             build: article.build.clone(),
             kind: result.kind(),
             inputs: vec![
-                InputFile::hash(InputRole::Log, log)?,
-                InputFile::hash(InputRole::Plan, &plan.path)?,
+                InputFile::hashed(InputRole::Log, log.0, log.1),
+                InputFile::hashed(InputRole::Plan, &plan.path, &plan.sha256),
             ],
             result: json,
             quantities: result.quantities(),
+            options,
         })
     }
 
@@ -194,6 +209,7 @@ impl NewRun {
             ],
             quantities: super::legacy_quantities(kind.as_str(), &result),
             result,
+            options: serde_json::json!({}),
         })
     }
 
@@ -244,8 +260,10 @@ impl NewRun {
         Ok(())
     }
 
-    /// Dedupe key: SHA-256 over the sorted (role, hash) pairs of the inputs. Paths are
-    /// left out, so a moved or renamed copy of the same files is the same run.
+    /// Dedupe key: SHA-256 over the sorted (role, hash) pairs of the inputs, the
+    /// analysis options (as canonical JSON: object keys sorted) and the tool version.
+    /// Paths are left out, so a moved or renamed copy of the same files is the same run;
+    /// a re-run with other options or by another version of magproof is a new run.
     pub(crate) fn input_key(&self) -> String {
         let mut pairs: Vec<(InputRole, &str)> = self
             .inputs
@@ -260,6 +278,10 @@ impl NewRun {
             hasher.update(sha.as_bytes());
             hasher.update(b"\n");
         }
+        hasher.update(b"options\0");
+        hasher.update(self.options.to_string().as_bytes());
+        hasher.update(b"\nversion\0");
+        hasher.update(crate::VERSION.as_bytes());
         hex(&hasher.finalize())
     }
 }
@@ -330,6 +352,7 @@ mod tests {
             inputs,
             result: serde_json::json!({}),
             quantities: vec![],
+            options: serde_json::json!({}),
         };
         let a = run(vec![
             f(InputRole::Log, "a.csv", 'a'),
@@ -350,6 +373,10 @@ mod tests {
         assert_eq!(a.input_key(), b.input_key());
         assert_ne!(a.input_key(), c.input_key());
         assert_ne!(a.input_key(), d.input_key());
+        // Options that change the result are part of the key.
+        let mut e = a.clone();
+        e.options = serde_json::json!({"reference_nt": 48000.0});
+        assert_ne!(a.input_key(), e.input_key());
     }
 
     #[test]
@@ -361,6 +388,7 @@ mod tests {
             inputs: vec![],
             result: serde_json::json!({"pass": true}),
             quantities: vec![],
+            options: serde_json::json!({}),
         };
         assert!(r.validate().is_err());
         r.inputs.push(InputFile {

@@ -250,6 +250,23 @@ fn judge(h: &Header, path: &Path, on_empty: OnEmpty) -> Result<Verdict, LedgerEr
     }
 }
 
+/// Refuse, without changing anything, a file that is not a current ledger: for a
+/// connection that may only read (an older schema is upgraded only by a writer).
+pub(crate) fn check_readable(conn: &Connection, path: &Path) -> Result<(), LedgerError> {
+    let header = read_header(conn, path)?;
+    match judge(&header, path, OnEmpty::Refuse)? {
+        Verdict::Current => Ok(()),
+        Verdict::NeedsMigration => Err(LedgerError::NotALedger {
+            path: Shown(path.to_path_buf()),
+            reason: format!(
+                "its schema (version {}) is older than this magproof's ({CURRENT_VERSION}) \
+                 and the file cannot be written to upgrade it; open it once with write access",
+                header.version
+            ),
+        }),
+    }
+}
+
 /// Schema version stored in an open database (for tests).
 #[cfg(test)]
 pub(crate) fn stored_version(conn: &Connection) -> rusqlite::Result<i64> {

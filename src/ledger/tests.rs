@@ -18,6 +18,7 @@ fn new_run(build: &str, kind: CheckKind, log_hash: char, result: serde_json::Val
         }],
         quantities: legacy_quantities(kind.as_str(), &result),
         result,
+        options: serde_json::json!({}),
     }
 }
 
@@ -105,6 +106,8 @@ fn recording_a_check_needs_the_plans_article_and_hashes_log_and_plan() {
     let dir = tempfile::tempdir().unwrap();
     let log = dir.path().join("dipole.csv");
     std::fs::write(&log, "t,bx,by,bz\n0,1,2,3\n").unwrap();
+    // The reader hashes the log as it reads it; here its bytes are hashed directly.
+    let log_sha = crate::log::hash::sha256_bytes(b"t,bx,by,bz\n0,1,2,3\n");
     let bare = dir.path().join("bare.toml");
     std::fs::write(&bare, "[limits]\nresidual_dipole_max_am2 = 0.005\n").unwrap();
     let plan = crate::log::read_plan(&bare).unwrap();
@@ -113,7 +116,8 @@ fn recording_a_check_needs_the_plans_article_and_hashes_log_and_plan() {
         &db,
         &plan,
         &crate::check::dummy::DummyResult::new(1.0),
-        &log,
+        (&log, &log_sha),
+        serde_json::json!({}),
     )
     .unwrap_err();
     assert!(matches!(e, LedgerError::NoArticle { .. }));
@@ -127,7 +131,8 @@ fn recording_a_check_needs_the_plans_article_and_hashes_log_and_plan() {
         &db,
         &plan,
         &crate::check::dummy::DummyResult::new(1.0),
-        &log,
+        (&log, &log_sha),
+        serde_json::json!({}),
     )
     .unwrap();
     assert!(matches!(id, Recorded::New(_)));
@@ -135,7 +140,8 @@ fn recording_a_check_needs_the_plans_article_and_hashes_log_and_plan() {
         &db,
         &plan,
         &crate::check::dummy::DummyResult::new(1.0),
-        &log,
+        (&log, &log_sha),
+        serde_json::json!({}),
     )
     .unwrap();
     assert_eq!(again, Recorded::AlreadyThere(id.id()));

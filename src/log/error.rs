@@ -26,6 +26,15 @@ pub enum LogError {
         /// The operating system's error.
         source: std::io::Error,
     },
+    /// Lines end with a bare carriage return (no line feed): the whole file reads as one
+    /// line, and any other diagnosis would be wrong.
+    #[error("{path}:{line}: lines end with a bare carriage return (CR, as old Mac files do); save the log with line feeds (LF or CRLF)")]
+    BareCarriageReturns {
+        /// The file.
+        path: Shown,
+        /// The line holding the carriage returns.
+        line: u64,
+    },
     /// The file has no header line: it is empty or holds only comments and blank lines.
     #[error("{path}: no header line: the file is empty or holds only comments and blank lines")]
     NoHeader {

@@ -12,6 +12,11 @@ use std::io::{self, Read};
 /// Bytes read from the file at a time.
 pub(crate) const BLOCK_BYTES: usize = 1 << 22;
 
+/// Longest line read, bytes (16 MiB: thousands of times a log row). A longer line is
+/// refused rather than held, so a file with no line ends (`/dev/zero`, a binary file)
+/// cannot take all memory.
+pub const MAX_LINE_BYTES: usize = 1 << 24;
+
 /// Hands out the lines of a reader, without their `\n`.
 pub(crate) struct LineReader<R> {
     inner: R,
@@ -44,6 +49,11 @@ impl<R: Read> LineReader<R> {
             eof: false,
             consumed: 0,
         }
+    }
+
+    /// The reader wrapped (every byte of it has been read once the lines are done).
+    pub fn inner(&self) -> &R {
+        &self.inner
     }
 
     /// The next line without its `\n` (a `\r` before it is kept), with the bytes
@@ -151,7 +161,17 @@ impl<R: Read> LineReader<R> {
     fn refill(&mut self) -> io::Result<()> {
         self.compact();
         if self.end == self.buf.len() {
-            let grown = self.buf.len() * 2;
+            if self.end >= MAX_LINE_BYTES {
+                return Err(io::Error::new(
+                    io::ErrorKind::InvalidData,
+                    format!(
+                        "a line is longer than {} MiB, the longest line read; this is not a \
+                         sweep log (or its lines do not end with a line feed)",
+                        MAX_LINE_BYTES >> 20
+                    ),
+                ));
+            }
+            let grown = (self.buf.len() * 2).min(MAX_LINE_BYTES.max(self.buf.len()));
             self.buf.resize(grown, 0);
         }
         self.read_more()

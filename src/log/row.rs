@@ -76,6 +76,9 @@ impl RowParser {
                     let s = std::str::from_utf8(cell)
                         .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
                     let s = s.trim();
+                    if s.chars().any(char::is_control) {
+                        return Err(cell_err("a mount label without control characters"));
+                    }
                     self.has_label = !(s.is_empty() || s.eq_ignore_ascii_case("none"));
                     if self.has_label {
                         self.mount_label.clear();

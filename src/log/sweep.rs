@@ -17,6 +17,7 @@ use super::bytes::{is_blank_or_comment, trim_line_end};
 use super::columns::ColumnsBuilder;
 use super::error::{LogError, Shown};
 use super::fast_row::FastRow;
+use super::hash::HashingReader;
 use super::header::{parse_header, Header};
 use super::lines::LineReader;
 use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
@@ -196,7 +197,7 @@ pub(crate) fn read_sweep_impl(
     row_path: RowPath,
     size_hint_bytes: Option<u64>,
 ) -> Result<SweepLog, LogError> {
-    let mut lines = LineReader::new(reader);
+    let mut lines = LineReader::new(HashingReader::new(reader));
     let mut pos = ReadPos {
         line_no: 0,
         bytes_read: 0,
@@ -239,6 +240,7 @@ pub(crate) fn read_sweep_impl(
         read_blocks(&mut lines, &mut sink, &mut pos, threads, min_bytes)?;
     }
     read_lines(&mut lines, &mut sink, &mut pos)?;
+    sink.log.sha256 = lines.inner().hex_digest();
     finish(sink, &mut pos)
 }
 
@@ -265,6 +267,12 @@ fn read_header(
         pos.line_no += 1;
         pos.bytes_read = consumed;
         let mut text: &[u8] = trim_line_end(buf);
+        if memchr::memchr(b'\r', text).is_some() {
+            return Err(LogError::BareCarriageReturns {
+                path: shown(),
+                line: pos.line_no,
+            });
+        }
         if pos.line_no == 1 {
             text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
         }

@@ -62,6 +62,9 @@ pub struct SweepLog {
     pub skipped_rows: Vec<SkippedRow>,
     /// Line of the header.
     pub header_line: u64,
+    /// SHA-256 (lower-case hex) of the bytes read, hashed in the same pass that parsed
+    /// them: the identity of exactly what was analysed.
+    pub sha256: String,
 }
 
 impl SweepLog {

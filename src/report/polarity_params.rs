@@ -92,8 +92,26 @@ impl PolarityParams {
             ParamsFormat::Json => serde_json::to_string_pretty(self)
                 .map(|s| s + "\n")
                 .map_err(|e| Error::Internal(format!("parameters JSON: {e}"))),
-            ParamsFormat::CHeader => Ok(self.c_header()),
+            ParamsFormat::CHeader => {
+                self.check_c_names()?;
+                Ok(self.c_header())
+            }
         }
+    }
+
+    /// Refuse two rods whose names become one C macro name (`x-1` and `x_1` both give
+    /// `MAGPROOF_ROD_INDEX_X_1`): the header would define a macro twice.
+    fn check_c_names(&self) -> Result<(), Error> {
+        for (i, a) in self.rods.iter().enumerate() {
+            if let Some(b) = self.rods[..i].iter().find(|b| c_ident(b) == c_ident(a)) {
+                return Err(Error::Usage(format!(
+                    "rods \"{b}\" and \"{a}\" both become the C name MAGPROOF_ROD_INDEX_{}; \
+                     rename one in the plan to write a C header",
+                    c_ident(a)
+                )));
+            }
+        }
+        Ok(())
     }
 
     fn c_header(&self) -> String {

@@ -104,6 +104,7 @@ pub fn wrap(text: &str, indent: &str, width: usize) -> String {
 
 /// Render one section.
 pub fn render_section(s: &Section, style: &Style) -> String {
+    let s = &printable_section(s);
     let mut out = String::new();
     let head = format!("{} ", s.title);
     let verdict = style.verdict(s.verdict);
@@ -215,6 +216,7 @@ fn wrap_cell(text: &str, width: usize) -> Vec<String> {
 
 /// Render a whole report for the terminal.
 pub fn render(report: &RunReport, style: &Style) -> String {
+    let report = &printable_report(report);
     let mut out = String::new();
     if let Some((serial, build)) = &report.article {
         let _ = writeln!(out, "{} · serial {serial} · build {build}", report.title);
@@ -229,6 +231,78 @@ pub fn render(report: &RunReport, style: &Style) -> String {
         let _ = writeln!(out, "\nOverall {}", style.verdict(report.verdict()));
     }
     out
+}
+
+/// `text` safe to print on a terminal: every control character (escape sequences that
+/// would set the title or colours, a line break that would forge a line) is shown as
+/// its escape (`\u{1b}`, `\n`) instead of acting. Text of a ledger written before plans
+/// refused control characters may still hold them.
+pub fn printable(text: &str) -> String {
+    if !text.chars().any(char::is_control) {
+        return text.to_string();
+    }
+    text.chars()
+        .map(|c| {
+            if c.is_control() {
+                c.escape_default().to_string()
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+fn printable_section(s: &Section) -> Section {
+    let p = |v: &[String]| v.iter().map(|x| printable(x)).collect::<Vec<_>>();
+    Section {
+        kind: printable(&s.kind),
+        title: printable(&s.title),
+        verdict: s.verdict,
+        figures_of_merit: s
+            .figures_of_merit
+            .iter()
+            .map(|(k, v)| (printable(k), printable(v)))
+            .collect(),
+        tables: s
+            .tables
+            .iter()
+            .map(|t| super::model::Table {
+                caption: printable(&t.caption),
+                header: p(&t.header),
+                rows: t
+                    .rows
+                    .iter()
+                    .map(|r| {
+                        r.iter()
+                            .map(|c| super::model::Cell {
+                                text: printable(&c.text),
+                                tone: c.tone,
+                            })
+                            .collect()
+                    })
+                    .collect(),
+            })
+            .collect(),
+        figures: Vec::new(),
+        warnings: p(&s.warnings),
+        notes: p(&s.notes),
+        result: serde_json::Value::Null,
+    }
+}
+
+fn printable_report(r: &RunReport) -> RunReport {
+    RunReport {
+        title: printable(&r.title),
+        article: r
+            .article
+            .as_ref()
+            .map(|(s, b)| (printable(s), printable(b))),
+        generated_at: r.generated_at.clone(),
+        tool_version: r.tool_version.clone(),
+        inputs: Vec::new(),
+        result: serde_json::Value::Null,
+        sections: r.sections.iter().map(printable_section).collect(),
+    }
 }
 
 #[cfg(test)]

@@ -8,7 +8,9 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use super::flight_params::{write_flight_params, ParamsFormat};
-use super::polarity_params::write_polarity_params;
+use super::polarity_params::{
+    write_polarity_params, ParamsFormat as PolarityFormat, PolarityParams,
+};
 use super::{terminal, write_report_dir, RunReport};
 use crate::check::calibrate::CalibrationResult;
 use crate::check::polarity::PolarityResult;
@@ -87,14 +89,7 @@ impl ReportWriter for HtmlWriter {
         "report"
     }
     fn prepare(&self) -> Result<(), Error> {
-        check_destination(&self.dir, self.force, "report folder")?;
-        if self.dir.exists() && !self.dir.is_dir() {
-            return Err(Error::Usage(format!(
-                "{} exists and is not a folder",
-                self.dir.display()
-            )));
-        }
-        Ok(())
+        super::atomic::check_report_dest(&self.dir, self.force)
     }
     fn write(&self, run: &RunReport, _stdout: &mut dyn Write) -> Result<Written, Error> {
         Ok(Written::Path(write_report_dir(&self.dir, self.force, run)?))
@@ -131,7 +126,11 @@ impl ReportWriter for FlightParamsWriter<'_> {
                 ParamsFormat::for_path(&self.path)?;
                 r.verdict
             }
-            ParamsSource::Polarity(r) => r.verdict,
+            ParamsSource::Polarity(r) => {
+                // Render once now: what rendering refuses is refused before recording.
+                PolarityParams::from_result(r).render(PolarityFormat::from_path(&self.path))?;
+                r.verdict
+            }
         };
         if verdict != crate::check::Verdict::Pass && !self.force {
             return Err(Error::Usage(format!(
@@ -152,25 +151,22 @@ impl ReportWriter for FlightParamsWriter<'_> {
     }
 }
 
-/// Refuse an existing destination unless replacing it was asked for, and one whose
-/// parent exists but is not a folder.
-fn check_destination(path: &Path, force: bool, what: &str) -> Result<(), Error> {
+/// Refuse an existing destination unless replacing it was asked for, a destination that
+/// is a folder, and one whose nearest existing ancestor is not a folder.
+pub fn check_destination(path: &Path, force: bool, what: &str) -> Result<(), Error> {
     if path.exists() && !force {
         return Err(Error::Usage(format!(
             "{what} {} exists; replacing it must be asked for",
             path.display()
         )));
     }
-    if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
-        if parent.exists() && !parent.is_dir() {
-            return Err(Error::Usage(format!(
-                "{}: {} is not a folder",
-                path.display(),
-                parent.display()
-            )));
-        }
+    if path.is_dir() {
+        return Err(Error::Usage(format!(
+            "{what} {} is a folder, not a file",
+            path.display()
+        )));
     }
-    Ok(())
+    super::atomic::check_parent(path)
 }
 
 /// Check every writer, then write with each in turn; returns where each wrote.
@@ -202,6 +198,13 @@ mod tests {
             dir: dir.path().to_path_buf(),
             force: true,
         };
+        // Empty: may be replaced.
+        assert!(forced.prepare().is_ok());
+        // Holding a file magproof did not write: never replaced, even with force.
+        std::fs::write(dir.path().join("log.csv"), "t,bx\n").unwrap();
+        let err = forced.prepare().unwrap_err().to_string();
+        assert!(err.contains("not written by magproof"), "{err}");
+        std::fs::write(dir.path().join(super::super::atomic::REPORT_MARKER), "").unwrap();
         assert!(forced.prepare().is_ok());
     }
 }

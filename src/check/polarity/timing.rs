@@ -323,7 +323,9 @@ pub fn drift_basis(model: DriftModel, t0_s: f64, span_s: f64, longest_pulse_s: f
                 DriftModel::Knots { spacing_s } => spacing_s,
                 _ => (4.0 * longest_pulse_s).max(span / MAX_AUTO_KNOTS as f64),
             };
-            let segments = ((span / spacing).ceil() as usize).max(1);
+            // At most 1e9 segments: far beyond the limit the check refuses by name, and
+            // no overflow for a spacing near zero.
+            let segments = ((span / spacing).ceil().min(1e9) as usize).max(1);
             DriftBasis::Knots {
                 t0_s,
                 spacing_s: span / segments as f64,

@@ -30,6 +30,7 @@ pub fn read_plan(path: &Path) -> Result<Plan, PlanError> {
 
 /// Parse and validate plan text; `path` is used for messages and relative log paths.
 pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
+    let sha256 = crate::log::hash::sha256_bytes(text.as_bytes());
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let raw: RawPlan = toml::from_str(text).map_err(|e| PlanError::Syntax {
         path: Shown(path.to_path_buf()),
@@ -63,8 +64,12 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         dipole_test,
         steps,
         limits,
+        sha256,
     })
 }
+
+/// Largest |coordinate| of a position in a plan, m.
+pub const MAX_POSITION_M: f64 = 100.0;
 
 /// Checks of single values, with errors naming the key and the plan file.
 struct Validator<'a> {
@@ -78,6 +83,22 @@ impl Validator<'_> {
             key: key.to_string(),
             problem,
         }
+    }
+
+    /// A position, m: finite and within [`MAX_POSITION_M`] of the origin on each axis
+    /// (a bench test is metres across; a value beyond that is a wrong unit or a typo,
+    /// and would make every geometry it enters degenerate).
+    fn position(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
+        let p = self.vec3(key, v)?;
+        if p.iter().any(|x| x.abs() > MAX_POSITION_M) {
+            return Err(self.invalid(
+                key,
+                format!(
+                    "{v:?} m is beyond {MAX_POSITION_M} m from the origin; positions are in metres"
+                ),
+            ));
+        }
+        Ok(p)
     }
 
     /// A vector whose every element is finite.
@@ -107,6 +128,21 @@ impl Validator<'_> {
         }
     }
 
+    /// Refuse a control character (escape sequences, line breaks) in text that is shown
+    /// on the terminal, in reports and in file names.
+    fn plain_text(&self, key: &str, value: &str) -> Result<(), PlanError> {
+        match value.chars().find(|c| c.is_control()) {
+            None => Ok(()),
+            Some(c) => Err(self.invalid(
+                key,
+                format!(
+                    "{value:?} holds the control character U+{:04X}; use printable text",
+                    c as u32
+                ),
+            )),
+        }
+    }
+
     fn article(&self, a: RawArticle) -> Result<Article, PlanError> {
         if a.serial.trim().is_empty() {
             return Err(self.invalid("article.serial", "must not be empty".into()));
@@ -114,6 +150,8 @@ impl Validator<'_> {
         if a.build.trim().is_empty() {
             return Err(self.invalid("article.build", "must not be empty".into()));
         }
+        self.plain_text("article.serial", &a.serial)?;
+        self.plain_text("article.build", &a.build)?;
         Ok(Article {
             serial: a.serial.trim().to_string(),
             build: a.build.trim().to_string(),
@@ -126,7 +164,7 @@ impl Validator<'_> {
                 .rotation("magnetometer.sensor_to_body", m.sensor_to_body.as_ref())?,
             position_m: m
                 .position_m
-                .map(|p| self.vec3("magnetometer.position_m", p))
+                .map(|p| self.position("magnetometer.position_m", p))
                 .transpose()?,
             unit: m
                 .unit
@@ -139,7 +177,7 @@ impl Validator<'_> {
 
     fn probe(&self, p: RawProbe) -> Result<Probe, PlanError> {
         Ok(Probe {
-            position_m: self.vec3("probe.position_m", p.position_m)?,
+            position_m: self.position("probe.position_m", p.position_m)?,
             sensor_to_body: self.rotation("probe.sensor_to_body", p.sensor_to_body.as_ref())?,
         })
     }
@@ -206,7 +244,7 @@ impl Validator<'_> {
             rods.push(Rod {
                 name,
                 axis_body: axis / n,
-                position_m: self.vec3(&key("position_m"), r.position_m)?,
+                position_m: self.position(&key("position_m"), r.position_m)?,
                 dipole_per_command_am2: self
                     .positive(&key("dipole_per_command_am2"), r.dipole_per_command_am2)?,
                 length_m: self.positive(&key("length_m"), r.length_m)?,
@@ -228,6 +266,7 @@ impl Validator<'_> {
                         .into(),
                 ));
             }
+            self.plain_text(&format!("{key}.label"), &label)?;
             if mounts.iter().any(|o| o.label == label) {
                 return Err(self.invalid(
                     &format!("{key}.label"),
@@ -243,7 +282,7 @@ impl Validator<'_> {
         Ok(DipoleTest {
             probe_position_m: d
                 .probe_position_m
-                .map(|p| self.vec3("dipole_test.probe_position_m", p))
+                .map(|p| self.position("dipole_test.probe_position_m", p))
                 .transpose()?,
             mounts,
         })

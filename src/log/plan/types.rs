@@ -34,6 +34,8 @@ pub struct Plan {
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.
     pub limits: Limits,
+    /// SHA-256 (lower-case hex) of the plan's bytes, hashed from the text parsed.
+    pub sha256: String,
 }
 
 /// `[article]`.

@@ -94,8 +94,20 @@ fn flag_tone(f: Flag) -> Tone {
     }
 }
 
-/// Build the history section from ledger runs and the changes between builds.
+/// Build the history section from ledger runs and the changes between builds, with its
+/// plots and its JSON (for a report folder).
 pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
+    build_section(runs, changes, true)
+}
+
+/// The history section as the terminal shows it: the same figures of merit, tables,
+/// warnings and notes, without the plots and the JSON the terminal never shows (they
+/// cost most of the time and memory of a large ledger).
+pub fn history_text_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
+    build_section(runs, changes, false)
+}
+
+fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section, Error> {
     let kinds = kinds_of(runs);
     let rows = build_rows(runs, &kinds);
     let verdict = Verdict::combine(
@@ -113,15 +125,16 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
                 "{} run(s), {} serial(s) ({}), {} build(s)",
                 runs.len(),
                 serials,
-                rows.iter()
-                    .map(|r| r.serial)
-                    .fold(Vec::<&str>::new(), |mut v, s| {
-                        if !v.contains(&s) {
-                            v.push(s);
-                        }
-                        v
-                    })
-                    .join(", "),
+                {
+                    // Each serial once, in order of first appearance (a set, not a scan
+                    // of the list per row: linear in the builds).
+                    let mut seen = std::collections::HashSet::new();
+                    rows.iter()
+                        .map(|r| r.serial)
+                        .filter(|s| seen.insert(*s))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                },
                 rows.len()
             ),
         ),
@@ -233,10 +246,18 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
         verdict,
         figures_of_merit: fom,
         tables: vec![build_table, change_table],
-        figures: history_figures(&rows)?,
+        figures: if full {
+            history_figures(&rows)?
+        } else {
+            Vec::new()
+        },
         warnings,
         notes,
-        result: serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? }),
+        result: if full {
+            serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? })
+        } else {
+            serde_json::Value::Null
+        },
     })
 }
 
@@ -249,21 +270,22 @@ fn limit_steps(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
 }
 
 fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
-    let mut serials: Vec<&str> = rows.iter().map(|r| r.serial).collect();
-    serials.dedup();
+    // Rows come grouped by serial (see `build_rows`): each group is walked once, so the
+    // figures cost time linear in the builds.
+    let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
     let mut figs = Vec::new();
     let n_builds = rows.iter().map(|r| r.ordinal).fold(1.0, f64::max);
     let x_range = Some((0.5, n_builds + 0.5));
 
     let mut dip = XyPlot::new("Residual dipole across builds", "build", "|m| [A·m²]");
     let mut limits = Vec::new();
-    for (k, s) in serials.iter().enumerate() {
-        let pts: Vec<(f64, f64)> = rows
+    for (k, g) in groups.iter().enumerate() {
+        let s = g[0].serial;
+        let pts: Vec<(f64, f64)> = g
             .iter()
-            .filter(|r| r.serial == *s)
             .filter_map(|r| Some((r.ordinal, num(&r.of("dipole")?.result, "magnitude_am2")?)))
             .collect();
-        for r in rows.iter().filter(|r| r.serial == *s) {
+        for r in g.iter() {
             if let Some(l) = r
                 .of("dipole")
                 .and_then(|d| num(&d.result, "residual_dipole_max_am2"))
@@ -293,11 +315,11 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
     }
 
     let mut hi = XyPlot::new("Hard iron across builds", "build", "hard iron [nT]");
-    for s in &serials {
+    for g in &groups {
+        let s = g[0].serial;
         for a in 0..3 {
-            let pts: Vec<(f64, f64)> = rows
+            let pts: Vec<(f64, f64)> = g
                 .iter()
-                .filter(|r| r.serial == *s)
                 .filter_map(|r| {
                     Some((
                         r.ordinal,
@@ -307,7 +329,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
                 .collect();
             if !pts.is_empty() {
                 hi = hi.with(Series::points("", pts.clone(), a));
-                let name = if serials.len() > 1 {
+                let name = if groups.len() > 1 {
                     format!("{s} {}", ["x", "y", "z"][a])
                 } else {
                     ["x", "y", "z"][a].to_string()
@@ -329,10 +351,10 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
 
     let mut res = XyPlot::new("Calibration residual across builds", "build", "RMS [nT]");
     let mut limits = Vec::new();
-    for (k, s) in serials.iter().enumerate() {
-        let pts: Vec<(f64, f64)> = rows
+    for (k, g) in groups.iter().enumerate() {
+        let s = g[0].serial;
+        let pts: Vec<(f64, f64)> = g
             .iter()
-            .filter(|r| r.serial == *s)
             .filter_map(|r| {
                 Some((
                     r.ordinal,
@@ -340,7 +362,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
                 ))
             })
             .collect();
-        for r in rows.iter().filter(|r| r.serial == *s) {
+        for r in g.iter() {
             if let Some(l) = r
                 .of("calibrate")
                 .and_then(|c| num(&c.result, "residual_limit_nt"))

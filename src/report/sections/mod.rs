@@ -11,7 +11,7 @@ mod polarity;
 
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
-pub use history::history_section;
+pub use history::{history_section, history_text_section};
 pub use polarity::polarity_section;
 
 use super::model::{Figure, Tone};
