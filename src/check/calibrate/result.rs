@@ -91,10 +91,10 @@ pub struct CageDetails {
 #[derive(Debug, Clone, Default)]
 pub struct CalibrationData {
     /// Readings used by the fit, sensor frame, nT (may be empty without
-    /// [`CalibrateOptions::keep_samples`]).
+    /// [`super::CalibrateOptions::keep_samples`]).
     pub samples_nt: Vec<Vector3<f64>>,
     /// Corrected field `W (b − hard_iron)` per sample, `soft_iron_frame`, nT (empty
-    /// for a tumble fit asked without [`CalibrateOptions::keep_samples`]).
+    /// for a tumble fit asked without [`super::CalibrateOptions::keep_samples`]).
     pub corrected_nt: Vec<Vector3<f64>>,
     /// Residual per sample, nT (tumble: magnitude residual; cage: residual length).
     pub residuals_nt: Vec<f64>,
