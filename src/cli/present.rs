@@ -124,12 +124,21 @@ pub fn present_check(
     extra: Vec<Box<dyn ReportWriter + '_>>,
 ) -> anyhow::Result<Outcome> {
     let (plan, plan_path) = plan;
-    let mut inputs = vec![log];
-    inputs.extend(plan_path);
-    let title = result.kind().spec()?.title;
-    let report = run_report(title, plan, &inputs, result.sections()?, result.json()?)?;
     let mut all = writers(output);
     all.extend(extra);
+    // Hash the inputs and draw the sections only for a writer that reads them.
+    let mut inputs = Vec::new();
+    if all.iter().any(|w| w.reads_inputs()) {
+        inputs.push(log);
+        inputs.extend(plan_path);
+    }
+    let sections = if all.iter().any(|w| w.reads_sections()) {
+        result.sections()?
+    } else {
+        Vec::new()
+    };
+    let title = result.kind().spec()?.title;
+    let report = run_report(title, plan, &inputs, sections, result.json()?)?;
     emit(&all, &report, || record_if_asked(record, plan, result, log))?;
     Ok(outcome(result.verdict()))
 }
