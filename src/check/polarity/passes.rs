@@ -121,27 +121,18 @@ impl FitContext<'_> {
             }
         }
         let mut x = vec![0.0; nc + nr + nd];
-        let mut idx: Vec<usize> = Vec::with_capacity(nc + nr + nd);
-        let mut vals: Vec<f64> = Vec::with_capacity(nc + nr + nd);
         for i in 0..n {
             if weight[i] <= 0.0 || !drive.head(self, i, &mut x[..nc + nr]) {
                 continue;
             }
-            idx.clear();
-            vals.clear();
-            idx.extend(0..nc + nr);
-            vals.extend_from_slice(&x[..nc + nr]);
-            let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
-            for k in range {
-                idx.push(nc + nr + k);
-                vals.push(x[nc + nr + k]);
-            }
+            let (head, tail) = x.split_at_mut(nc + nr);
+            let range = self.basis.fill(self.t[i], tail);
             let y = [
                 self.b[0][i] - self.centre[0],
                 self.b[1][i] - self.centre[1],
                 self.b[2][i] - self.centre[2],
             ];
-            ls.add_sparse_row(&idx, &vals, &y, weight[i])?;
+            ls.add_dense_head_row(head, range.start, &tail[range], &y, weight[i])?;
         }
         ls.solve()
     }
