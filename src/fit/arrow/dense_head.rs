@@ -163,10 +163,10 @@ impl HeadSums<'_> {
         let x: &[f64; M] = x.try_into().expect("head of M regressors");
         // w·xᵣ once per row: the same first product as `w * x[r] * x[b]`.
         let wx: [f64; M] = std::array::from_fn(|r| w * x[r]);
-        for b in 0..M {
+        for (b, &xb) in x.iter().enumerate() {
             let col: &mut [f64; M] = (&mut self.a[b * M..][..M]).try_into().expect("column");
             for r in 0..=b {
-                col[r] += wx[r] * x[b];
+                col[r] += wx[r] * xb;
             }
         }
         for (t, &xb) in xt.iter().enumerate() {
