@@ -174,10 +174,16 @@ pub fn present_check(
     let log = (analysed.log, analysed.log_sha256.as_str());
     let mut inputs = vec![log];
     inputs.extend(plan.map(|p| (p.path.as_path(), p.sha256.as_str())));
-    let title = result.kind().spec()?.title;
-    let report = run_report(title, plan, &inputs, result.sections()?, result.json()?)?;
     let mut all = writers(output);
     all.extend(extra);
+    // Draw the sections (with their plots) only for a writer that reads them.
+    let sections = if all.iter().any(|w| w.reads_sections()) {
+        result.sections()?
+    } else {
+        Vec::new()
+    };
+    let title = result.kind().spec()?.title;
+    let report = run_report(title, plan, &inputs, sections, result.json()?)?;
     emit(&all, &report, output.force, || {
         record_if_asked(record, plan, result, log, analysed.options)
     })?;

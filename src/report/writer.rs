@@ -36,6 +36,18 @@ pub trait ReportWriter {
     }
     /// Write the report.
     fn write(&self, run: &RunReport, stdout: &mut dyn Write) -> Result<Written, Error>;
+    /// Whether `write` reads the report's sections (text, tables, figures). A command
+    /// whose writers all say no may hand them a report without sections, so that a
+    /// `--json` run does not draw plots nobody sees.
+    fn reads_sections(&self) -> bool {
+        true
+    }
+    /// Whether `write` reads the report's inputs (paths and SHA-256 of the files read).
+    /// A command whose writers all say no may leave them out instead of hashing every
+    /// log (a 38 MB log costs about 2·10⁹ instructions to hash).
+    fn reads_inputs(&self) -> bool {
+        true
+    }
 }
 
 /// The terminal summary (80 columns; colour only on a terminal without `NO_COLOR`).
@@ -56,6 +68,9 @@ impl ReportWriter for TerminalWriter {
             .map_err(|e| Error::io("standard output", e))?;
         Ok(Written::Stdout)
     }
+    fn reads_inputs(&self) -> bool {
+        false
+    }
 }
 
 /// Exactly one JSON object (the result) on standard output.
@@ -71,6 +86,12 @@ impl ReportWriter for JsonWriter {
             .map_err(|e| Error::Internal(format!("result JSON: {e}")))?;
         writeln!(stdout, "{text}").map_err(|e| Error::io("standard output", e))?;
         Ok(Written::Stdout)
+    }
+    fn reads_sections(&self) -> bool {
+        false
+    }
+    fn reads_inputs(&self) -> bool {
+        false
     }
 }
 
@@ -148,6 +169,12 @@ impl ReportWriter for FlightParamsWriter<'_> {
             ParamsSource::Polarity(r) => write_polarity_params(r, &self.path, self.force)?,
         }
         Ok(Written::Path(self.path.clone()))
+    }
+    fn reads_sections(&self) -> bool {
+        false
+    }
+    fn reads_inputs(&self) -> bool {
+        false
     }
 }
 

@@ -297,7 +297,8 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     );
     let lag_s = rise.lag_s;
     ctx.lag_s = lag_s;
-    let rows = timing::shifted_rows(t, lag_s);
+    // The held-command rows of the first passes are not read again (16 bytes a row).
+    drop(rows);
     let response = rise::Response::new(&ctx, lag_s, &rise.tau_s);
     let mut fit = ctx.fit(&response, &pulses, &no_guard, None)?;
     let reject = ctx.transients(
@@ -391,6 +392,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let coupling_matrix_nt_per_command = (0..3)
         .map(|a| rods.iter().map(|r| r.coupling_nt_per_command[a]).collect())
         .collect();
+    let rows = timing::shifted_rows(t, lag_s);
     let series = ctx.series(&fit, &response, &rows, &dminus);
     Ok(PolarityResult {
         rods,

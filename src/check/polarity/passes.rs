@@ -121,27 +121,18 @@ impl FitContext<'_> {
             }
         }
         let mut x = vec![0.0; nc + nr + nd];
-        let mut idx: Vec<usize> = Vec::with_capacity(nc + nr + nd);
-        let mut vals: Vec<f64> = Vec::with_capacity(nc + nr + nd);
         for i in 0..n {
             if weight[i] <= 0.0 || !drive.head(self, i, &mut x[..nc + nr]) {
                 continue;
             }
-            idx.clear();
-            vals.clear();
-            idx.extend(0..nc + nr);
-            vals.extend_from_slice(&x[..nc + nr]);
-            let range = self.basis.fill(self.t[i], &mut x[nc + nr..]);
-            for k in range {
-                idx.push(nc + nr + k);
-                vals.push(x[nc + nr + k]);
-            }
+            let (head, tail) = x.split_at_mut(nc + nr);
+            let range = self.basis.fill(self.t[i], tail);
             let y = [
                 self.b[0][i] - self.centre[0],
                 self.b[1][i] - self.centre[1],
                 self.b[2][i] - self.centre[2],
             ];
-            ls.add_sparse_row(&idx, &vals, &y, weight[i])?;
+            ls.add_dense_head_row(head, range.start, &tail[range], &y, weight[i])?;
         }
         ls.solve()
     }
@@ -208,6 +199,10 @@ impl FitContext<'_> {
         let p = fit.names.len();
         let mut x = vec![0.0; p];
         let head = self.columns.len() + self.rem.len();
+        // Column a of the p×3 coefficient matrix (column-major) is contiguous.
+        let rows = fit.coefficients.nrows();
+        let coef: [&[f64]; 3] =
+            std::array::from_fn(|a| &fit.coefficients.as_slice()[a * rows..][..rows]);
         let mut out: [Vec<f64>; 3] = std::array::from_fn(|_| Vec::with_capacity(self.t.len()));
         for i in 0..self.t.len() {
             if !drive.head(self, i, &mut x[..head]) {
@@ -215,9 +210,18 @@ impl FitContext<'_> {
                 continue;
             }
             let range = self.basis.fill(self.t[i], &mut x[head..]);
-            let used = (0..head).chain(range.start + head..range.end + head);
+            let tail = range.start + head..range.end + head;
             for (a, o) in out.iter_mut().enumerate() {
-                let model: f64 = used.clone().map(|q| x[q] * fit.coefficients[(q, a)]).sum();
+                // Head terms, then the drift terms in order, from −0 as `Iterator::sum`
+                // adds: the same value bit for bit as summing the chained terms.
+                let c = coef[a];
+                let mut model = -0.0;
+                for (xq, cq) in x[..head].iter().zip(&c[..head]) {
+                    model += xq * cq;
+                }
+                for (xq, cq) in x[tail.clone()].iter().zip(&c[tail.clone()]) {
+                    model += xq * cq;
+                }
                 o.push(self.b[a][i] - self.centre[a] - model);
             }
         }

@@ -25,6 +25,8 @@ use nalgebra::{DMatrix, DVector};
 use crate::fit::linear::{fit_from_inverse, LinearFit, MIN_RECIPROCAL_CONDITION};
 use crate::Error;
 
+mod dense_head;
+
 /// Normal-equation accumulator for a weighted linear least-squares fit with `k` outputs,
 /// `m` dense head parameters and `d` banded tail parameters.
 #[derive(Debug, Clone)]
@@ -342,7 +344,7 @@ mod tests {
     use rand::{Rng, SeedableRng};
 
     /// ‖a − b‖ / ‖b‖ (Frobenius).
-    fn rel(a: &DMatrix<f64>, b: &DMatrix<f64>) -> f64 {
+    pub(super) fn rel(a: &DMatrix<f64>, b: &DMatrix<f64>) -> f64 {
         (a - b).norm() / b.norm()
     }
 
@@ -351,7 +353,7 @@ mod tests {
     /// on `d` knots (hat functions: each row touches two adjacent knots), three outputs
     /// and weights of which some are zero.
     #[allow(clippy::type_complexity)]
-    fn hat_rows(
+    pub(super) fn hat_rows(
         n: usize,
         m: usize,
         d: usize,
