@@ -161,16 +161,13 @@ fn line_angle(a: &Vector3<f64>, b: &Vector3<f64>) -> Option<f64> {
     Some(x.min(std::f64::consts::PI - x))
 }
 
-/// Give every plan rod its verdict.
-pub fn judge(
+/// Each plan rod's expected field direction at the sensor per A·m², sensor frame
+/// (point dipole, Jackson eq. 5.56, through `dipole_matrix`).
+fn expected_directions(
     plan: &Plan,
     sensor_position_m: &Vector3<f64>,
     sensor_to_body: &Matrix3<f64>,
-    measured: &[Measured],
-    angle_max_rad: f64,
-    snr_min: f64,
-    warnings: &mut Vec<PolarityWarning>,
-) -> Result<Vec<RodResult>, Error> {
+) -> Result<Vec<Vector3<f64>>, Error> {
     let body_to_sensor = sensor_to_body.transpose();
     let mut expected = Vec::with_capacity(plan.rods.len());
     for (i, rod) in plan.rods.iter().enumerate() {
@@ -183,7 +180,18 @@ pub fn judge(
         })?;
         expected.push(body_to_sensor * g * rod.axis_body);
     }
-    // Pairs whose expected directions at the sensor cannot be told apart.
+    Ok(expected)
+}
+
+/// Per rod, the other rods whose expected directions at the sensor lie along nearly the
+/// same line (within the angle limit): a swap between them cannot be seen. Each pair is
+/// also a warning.
+fn ambiguous_pairs(
+    plan: &Plan,
+    expected: &[Vector3<f64>],
+    angle_max_rad: f64,
+    warnings: &mut Vec<PolarityWarning>,
+) -> Vec<Vec<usize>> {
     let mut ambiguous: Vec<Vec<usize>> = vec![Vec::new(); expected.len()];
     for i in 0..expected.len() {
         for j in i + 1..expected.len() {
@@ -201,27 +209,49 @@ pub fn judge(
             }
         }
     }
+    ambiguous
+}
+
+/// The SNR of a measured coupling (|c| over its σ along itself) and the 1σ of its
+/// direction, deg (from the σ across it), given its covariance, sensor frame.
+fn snr_and_angle_sigma(c: &Vector3<f64>, cov: &Matrix3<f64>) -> (f64, Option<f64>) {
+    let norm = c.norm();
+    match c.try_normalize(0.0) {
+        Some(u) => {
+            let along = (u.transpose() * cov * u)[0].max(0.0).sqrt();
+            let perp = ((cov.trace() - along * along).max(0.0) / 2.0).sqrt();
+            (
+                if along > 0.0 {
+                    norm / along
+                } else {
+                    f64::INFINITY
+                },
+                Some((perp / norm).atan().to_degrees()),
+            )
+        }
+        None => (0.0, None),
+    }
+}
+
+/// Give every plan rod its verdict.
+pub fn judge(
+    plan: &Plan,
+    sensor_position_m: &Vector3<f64>,
+    sensor_to_body: &Matrix3<f64>,
+    measured: &[Measured],
+    angle_max_rad: f64,
+    snr_min: f64,
+    warnings: &mut Vec<PolarityWarning>,
+) -> Result<Vec<RodResult>, Error> {
+    let expected = expected_directions(plan, sensor_position_m, sensor_to_body)?;
+    let ambiguous = ambiguous_pairs(plan, &expected, angle_max_rad, warnings);
     let mut out = Vec::with_capacity(plan.rods.len());
     for (i, (rod, m)) in plan.rods.iter().zip(measured).enumerate() {
         let c = m.coupling;
         let e = expected[i];
         let norm = c.norm();
         let sigma_c = Vector3::from_fn(|a, _| m.cov[(a, a)].max(0.0).sqrt());
-        let (snr, angle_sigma) = match c.try_normalize(0.0) {
-            Some(u) => {
-                let along = (u.transpose() * m.cov * u)[0].max(0.0).sqrt();
-                let perp = ((m.cov.trace() - along * along).max(0.0) / 2.0).sqrt();
-                (
-                    if along > 0.0 {
-                        norm / along
-                    } else {
-                        f64::INFINITY
-                    },
-                    Some((perp / norm).atan().to_degrees()),
-                )
-            }
-            None => (0.0, None),
-        };
+        let (snr, angle_sigma) = snr_and_angle_sigma(&c, &m.cov);
         let angle = angle_between(&c, &e);
         let e_norm = e.norm();
         let dipole = norm / e_norm;
