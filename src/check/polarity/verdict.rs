@@ -233,6 +233,122 @@ fn snr_and_angle_sigma(c: &Vector3<f64>, cov: &Matrix3<f64>) -> (f64, Option<f64
     }
 }
 
+/// What `classify` needs about one rod.
+struct Candidate<'a> {
+    plan: &'a Plan,
+    index: usize,
+    coupling: &'a Vector3<f64>,
+    expected: &'a [Vector3<f64>],
+    ambiguous: &'a [usize],
+    snr: f64,
+    snr_min: f64,
+    angle: Option<f64>,
+    angle_sigma: Option<f64>,
+    angle_max_rad: f64,
+}
+
+/// A rod's verdict, the note that explains it and, for `wrong-axis`, the rod it
+/// responds like.
+struct Classified {
+    verdict: Verdict,
+    note: String,
+    matches_rod: Option<String>,
+    matches_reversed: Option<bool>,
+}
+
+/// The verdict of one rod from its SNR, its angle to the expected direction (and to the
+/// other rods' directions) and its angle's σ.
+fn classify(k: &Candidate) -> Classified {
+    let deg = |x: f64| x.to_degrees();
+    let (plan, i, c, expected) = (k.plan, k.index, k.coupling, k.expected);
+    let (snr, snr_min, angle, angle_sigma, angle_max_rad) =
+        (k.snr, k.snr_min, k.angle, k.angle_sigma, k.angle_max_rad);
+    let mut matches_rod = None;
+    let mut matches_reversed = None;
+    let (verdict, note) = if snr < snr_min {
+        (
+            Verdict::NoResponse,
+            format!("SNR {snr:.1} is below {snr_min}: no measurable response (check wiring, driver and that the rod was powered)"),
+        )
+    } else if !k.ambiguous.is_empty() {
+        let others: Vec<&str> = k
+            .ambiguous
+            .iter()
+            .map(|&j| plan.rods[j].name.as_str())
+            .collect();
+        (
+            Verdict::Inconclusive,
+            format!(
+                "expected direction too close to that of rod {} to tell a swap",
+                others.join(", ")
+            ),
+        )
+    } else if let Some(a) = angle.filter(|a| *a <= angle_max_rad) {
+        let consistent = consistency_limit_deg(angle_sigma);
+        if deg(a) <= consistent {
+            (Verdict::Ok, format!("{:.1}° from expected", deg(a)))
+        } else {
+            (
+                Verdict::OffAxis,
+                format!(
+                    "{:.1}° from expected, beyond the model's {MODEL_ERROR_DEG}° plus 3σ \
+                     ({consistent:.2}°): check the sensor axes, the mounting and the \
+                     rod's axis",
+                    deg(a)
+                ),
+            )
+        }
+    } else if let Some(a) = angle.filter(|a| std::f64::consts::PI - a <= angle_max_rad) {
+        (
+            Verdict::Reversed,
+            format!(
+                "{:.1}° from the reverse of expected: the rod pushes backwards",
+                deg(std::f64::consts::PI - a)
+            ),
+        )
+    } else {
+        let best = (0..expected.len())
+            .filter(|&j| j != i)
+            .filter_map(|j| Some((j, angle_between(c, &expected[j])?)))
+            .map(|(j, a)| {
+                (
+                    j,
+                    a.min(std::f64::consts::PI - a),
+                    a > std::f64::consts::FRAC_PI_2,
+                )
+            })
+            .min_by(|x, y| x.1.total_cmp(&y.1));
+        match best {
+            Some((j, a, rev)) if a <= angle_max_rad => {
+                matches_rod = Some(plan.rods[j].name.clone());
+                matches_reversed = Some(rev);
+                (
+                    Verdict::WrongAxis,
+                    format!(
+                        "responds like rod \"{}\"{} ({:.1}° from it): commands or wiring swapped?",
+                        plan.rods[j].name,
+                        if rev { " reversed" } else { "" },
+                        deg(a)
+                    ),
+                )
+            }
+            _ => (
+                Verdict::Inconclusive,
+                format!(
+                    "{:.1}° from expected, and matches no other rod: check sensor_to_body, positions and axes in the plan",
+                    angle.map_or(f64::NAN, deg)
+                ),
+            ),
+        }
+    };
+    Classified {
+        verdict,
+        note,
+        matches_rod,
+        matches_reversed,
+    }
+}
+
 /// Give every plan rod its verdict.
 pub fn judge(
     plan: &Plan,
@@ -271,84 +387,24 @@ pub fn judge(
                 needed_m: DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0),
             });
         }
-        let mut matches_rod = None;
-        let mut matches_reversed = None;
         let deg = |x: f64| x.to_degrees();
-        let (verdict, note) = if snr < snr_min {
-            (
-                Verdict::NoResponse,
-                format!("SNR {snr:.1} is below {snr_min}: no measurable response (check wiring, driver and that the rod was powered)"),
-            )
-        } else if !ambiguous[i].is_empty() {
-            let others: Vec<&str> = ambiguous[i]
-                .iter()
-                .map(|&j| plan.rods[j].name.as_str())
-                .collect();
-            (
-                Verdict::Inconclusive,
-                format!(
-                    "expected direction too close to that of rod {} to tell a swap",
-                    others.join(", ")
-                ),
-            )
-        } else if let Some(a) = angle.filter(|a| *a <= angle_max_rad) {
-            let consistent = consistency_limit_deg(angle_sigma);
-            if deg(a) <= consistent {
-                (Verdict::Ok, format!("{:.1}° from expected", deg(a)))
-            } else {
-                (
-                    Verdict::OffAxis,
-                    format!(
-                        "{:.1}° from expected, beyond the model's {MODEL_ERROR_DEG}° plus 3σ \
-                         ({consistent:.2}°): check the sensor axes, the mounting and the \
-                         rod's axis",
-                        deg(a)
-                    ),
-                )
-            }
-        } else if let Some(a) = angle.filter(|a| std::f64::consts::PI - a <= angle_max_rad) {
-            (
-                Verdict::Reversed,
-                format!(
-                    "{:.1}° from the reverse of expected: the rod pushes backwards",
-                    deg(std::f64::consts::PI - a)
-                ),
-            )
-        } else {
-            let best = (0..expected.len())
-                .filter(|&j| j != i)
-                .filter_map(|j| Some((j, angle_between(&c, &expected[j])?)))
-                .map(|(j, a)| {
-                    (
-                        j,
-                        a.min(std::f64::consts::PI - a),
-                        a > std::f64::consts::FRAC_PI_2,
-                    )
-                })
-                .min_by(|x, y| x.1.total_cmp(&y.1));
-            match best {
-                Some((j, a, rev)) if a <= angle_max_rad => {
-                    matches_rod = Some(plan.rods[j].name.clone());
-                    matches_reversed = Some(rev);
-                    (
-                        Verdict::WrongAxis,
-                        format!(
-                            "responds like rod \"{}\"{} ({:.1}° from it): commands or wiring swapped?",
-                            plan.rods[j].name,
-                            if rev { " reversed" } else { "" },
-                            deg(a)
-                        ),
-                    )
-                }
-                _ => (
-                    Verdict::Inconclusive,
-                    format!(
-                        "{:.1}° from expected, and matches no other rod: check sensor_to_body, positions and axes in the plan",
-                        angle.map_or(f64::NAN, deg)
-                    ),
-                ),
-            }
-        };
+        let Classified {
+            verdict,
+            note,
+            matches_rod,
+            matches_reversed,
+        } = classify(&Candidate {
+            plan,
+            index: i,
+            coupling: &c,
+            expected: &expected,
+            ambiguous: &ambiguous[i],
+            snr,
+            snr_min,
+            angle,
+            angle_sigma,
+            angle_max_rad,
+        });
         out.push(RodResult {
             name: rod.name.clone(),
             verdict,
