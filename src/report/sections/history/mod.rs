@@ -1,34 +1,19 @@
 //! History section: per serial and build, the residual dipole, the hard iron and the
 //! calibration residual with their limits, the verdicts, and what changed between builds.
+//! The trend plots live in `figures`.
 
-use serde_json::Value;
+mod figures;
 
 use super::change_text::{change_amount, change_label, flag_text};
-use super::{figure, pm, to_json, verdict_tone};
+use super::{pm, to_json, verdict_tone};
 use crate::ledger::history::kinds_of;
 use crate::ledger::{group_by_build, Change, Flag, Run};
-use crate::report::model::{Cell, Figure, Section, Table, Tone, Verdict};
-use crate::report::plot::{draw_xy, Series, XyPlot};
+use crate::report::model::{Cell, Section, Table, Tone, Verdict};
 use crate::Error;
+use figures::history_figures;
 
 /// Most change rows shown in the table (all are in the JSON).
 const MAX_CHANGE_ROWS: usize = 80;
-
-fn num(v: &Value, key: &str) -> Option<f64> {
-    v.get(key)?.as_f64().filter(|x| x.is_finite())
-}
-
-fn vec3(v: &Value, key: &str) -> Option<[f64; 3]> {
-    let a = v.get(key)?.as_array()?;
-    if a.len() != 3 {
-        return None;
-    }
-    let mut out = [0.0; 3];
-    for (o, x) in out.iter_mut().zip(a) {
-        *o = x.as_f64().filter(|f| f.is_finite())?;
-    }
-    Some(out)
-}
 
 /// One build's latest run of each kind.
 struct BuildRow<'a> {
@@ -98,30 +83,54 @@ fn flag_tone(f: Flag) -> Tone {
 pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Error> {
     let kinds = kinds_of(runs);
     let rows = build_rows(runs, &kinds);
-    let verdict = Verdict::combine(
+    let serials = group_by_build(runs).len();
+    let mut build_table = build_table(&rows, &kinds);
+    let mut change_table = change_table(changes);
+    // One serial: its name is in the figures of merit; the tables keep their width for
+    // the numbers.
+    if serials == 1 {
+        drop_serial_column(&mut build_table);
+        drop_serial_column(&mut change_table);
+    }
+    Ok(Section {
+        kind: "history".into(),
+        title: "History across builds".into(),
+        verdict: latest_build_verdict(&rows),
+        figures_of_merit: history_figures_of_merit(runs, &rows, serials, changes),
+        tables: vec![build_table, change_table],
+        figures: history_figures(&rows)?,
+        warnings: limit_crossed_warnings(changes),
+        notes: history_notes(changes),
+        result: serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? }),
+    })
+}
+
+/// The verdict of every check in the latest build of each serial, combined.
+fn latest_build_verdict(rows: &[BuildRow<'_>]) -> Verdict {
+    Verdict::combine(
         rows.iter()
             .enumerate()
             .filter(|(i, r)| rows.get(i + 1).map_or(true, |n| n.serial != r.serial))
             .flat_map(|(_, r)| r.latest.iter().map(|run| Verdict::from_pass(run.pass))),
-    );
-    let serials = group_by_build(runs).len();
+    )
+}
+
+/// The ledger's size (runs, serials, builds) and how many changes need attention.
+fn history_figures_of_merit(
+    runs: &[Run],
+    rows: &[BuildRow<'_>],
+    serials: usize,
+    changes: &[Change],
+) -> Vec<(String, String)> {
     let alerts = changes.iter().filter(|c| c.flag.is_alert()).count();
-    let fom = vec![
+    vec![
         (
             "ledger".to_string(),
             format!(
                 "{} run(s), {} serial(s) ({}), {} build(s)",
                 runs.len(),
                 serials,
-                rows.iter()
-                    .map(|r| r.serial)
-                    .fold(Vec::<&str>::new(), |mut v, s| {
-                        if !v.contains(&s) {
-                            v.push(s);
-                        }
-                        v
-                    })
-                    .join(", "),
+                serial_names(rows),
                 rows.len()
             ),
         ),
@@ -132,48 +141,61 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
                 changes.len()
             ),
         ),
-    ];
-    let mut build_table = Table {
+    ]
+}
+
+/// The serials in first-seen order, each once, comma-separated.
+fn serial_names(rows: &[BuildRow<'_>]) -> String {
+    rows.iter()
+        .map(|r| r.serial)
+        .fold(Vec::<&str>::new(), |mut v, s| {
+            if !v.contains(&s) {
+                v.push(s);
+            }
+            v
+        })
+        .join(", ")
+}
+
+/// One row per build: |m| (A·m²), hard iron (nT) and the verdict of each kind of check.
+fn build_table(rows: &[BuildRow<'_>], kinds: &[String]) -> Table {
+    Table {
         caption: "Latest run of each check per build (verdict of the latest build decides)".into(),
         header: ["serial", "build", "|m| [A·m²]", "hard iron x/y/z [nT]"]
             .into_iter()
             .map(String::from)
             .chain(kinds.iter().cloned())
             .collect(),
-        rows: rows
-            .iter()
-            .map(|b| {
-                let m = b.latest.iter().find_map(|r| {
-                    let (v, s) = quantity(r, "dipole_magnitude_am2")?;
-                    Some(pm(v, s, ""))
-                });
-                let h = b.latest.iter().find_map(|r| {
-                    let h = ["x", "y", "z"]
-                        .map(|a| quantity(r, &format!("hard_iron_{a}_nt")).map(|q| q.0));
-                    Some(format!("{:.0} / {:.0} / {:.0}", h[0]?, h[1]?, h[2]?))
-                });
-                let mut cells = vec![
-                    Cell::plain(b.serial),
-                    Cell::plain(b.build),
-                    Cell::plain(m.unwrap_or_else(|| "-".into()).trim_end().to_string()),
-                    Cell::plain(h.unwrap_or_else(|| "-".into())),
-                ];
-                cells.extend(kinds.iter().map(|k| verdict_cell(b.of(k))));
-                cells
-            })
-            .collect(),
-    };
-    // Most severe first (bad, then amber, then good news, then the rest); stable within.
-    let rank = |c: &&Change| match flag_tone(c.flag) {
-        Tone::Bad => 0,
-        Tone::Warn => 1,
-        Tone::Good => 2,
-        Tone::Plain => 3,
-    };
+        rows: rows.iter().map(|b| build_table_row(b, kinds)).collect(),
+    }
+}
+
+/// The cells of one build: serial, build, |m| (A·m²), hard iron (nT), then verdicts.
+fn build_table_row(b: &BuildRow<'_>, kinds: &[String]) -> Vec<Cell> {
+    let m = b.latest.iter().find_map(|r| {
+        let (v, s) = quantity(r, "dipole_magnitude_am2")?;
+        Some(pm(v, s, ""))
+    });
+    let h = b.latest.iter().find_map(|r| {
+        let h = ["x", "y", "z"].map(|a| quantity(r, &format!("hard_iron_{a}_nt")).map(|q| q.0));
+        Some(format!("{:.0} / {:.0} / {:.0}", h[0]?, h[1]?, h[2]?))
+    });
+    let mut cells = vec![
+        Cell::plain(b.serial),
+        Cell::plain(b.build),
+        Cell::plain(m.unwrap_or_else(|| "-".into()).trim_end().to_string()),
+        Cell::plain(h.unwrap_or_else(|| "-".into())),
+    ];
+    cells.extend(kinds.iter().map(|k| verdict_cell(b.of(k))));
+    cells
+}
+
+/// The changes between builds, most severe first, at most [`MAX_CHANGE_ROWS`] of them.
+fn change_table(changes: &[Change]) -> Table {
     let mut shown: Vec<&Change> = changes.iter().collect();
-    shown.sort_by_key(rank);
+    shown.sort_by_key(|c| attention_rank(c));
     shown.truncate(MAX_CHANGE_ROWS);
-    let mut change_table = Table {
+    Table {
         caption: "Changes between consecutive builds (attention first)".into(),
         header: vec![
             "serial".into(),
@@ -194,17 +216,29 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
                 ]
             })
             .collect(),
-    };
-    // One serial: its name is in the figures of merit; the tables keep their width for
-    // the numbers.
-    if serials == 1 {
-        for t in [&mut build_table, &mut change_table] {
-            t.header.remove(0);
-            for row in &mut t.rows {
-                row.remove(0);
-            }
-        }
     }
+}
+
+/// Sort key, most severe first: bad, then amber, then good news, then the rest.
+fn attention_rank(c: &Change) -> u8 {
+    match flag_tone(c.flag) {
+        Tone::Bad => 0,
+        Tone::Warn => 1,
+        Tone::Good => 2,
+        Tone::Plain => 3,
+    }
+}
+
+/// Remove the first (serial) column from a table's header and rows.
+fn drop_serial_column(t: &mut Table) {
+    t.header.remove(0);
+    for row in &mut t.rows {
+        row.remove(0);
+    }
+}
+
+/// How builds are numbered on the plots, and how many changes the table left out.
+fn history_notes(changes: &[Change]) -> Vec<String> {
     let mut notes = vec![
         "Builds are numbered 1, 2, … per serial in the order they were first recorded; the \
          plots use these numbers (see the table for the labels)."
@@ -216,7 +250,12 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
             changes.len() - MAX_CHANGE_ROWS
         ));
     }
-    let warnings = changes
+    notes
+}
+
+/// One warning per quantity that went from pass to fail between two builds.
+fn limit_crossed_warnings(changes: &[Change]) -> Vec<String> {
+    changes
         .iter()
         .filter(|c| c.flag == Flag::LimitCrossed)
         .map(|c| {
@@ -226,155 +265,14 @@ pub fn history_section(runs: &[Run], changes: &[Change]) -> Result<Section, Erro
                 c.serial, c.kind, c.quantity, c.from_build, c.to_build
             )
         })
-        .collect();
-    Ok(Section {
-        kind: "history".into(),
-        title: "History across builds".into(),
-        verdict,
-        figures_of_merit: fom,
-        tables: vec![build_table, change_table],
-        figures: history_figures(&rows)?,
-        warnings,
-        notes,
-        result: serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? }),
-    })
-}
-
-/// A limit drawn as a step across each build (±0.4 around its ordinal).
-fn limit_steps(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
-    points
-        .iter()
-        .flat_map(|&(x, l)| [(x - 0.4, l), (x + 0.4, l)])
         .collect()
-}
-
-fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
-    let mut serials: Vec<&str> = rows.iter().map(|r| r.serial).collect();
-    serials.dedup();
-    let mut figs = Vec::new();
-    let n_builds = rows.iter().map(|r| r.ordinal).fold(1.0, f64::max);
-    let x_range = Some((0.5, n_builds + 0.5));
-
-    let mut dip = XyPlot::new("Residual dipole across builds", "build", "|m| [A·m²]");
-    let mut limits = Vec::new();
-    for (k, s) in serials.iter().enumerate() {
-        let pts: Vec<(f64, f64)> = rows
-            .iter()
-            .filter(|r| r.serial == *s)
-            .filter_map(|r| Some((r.ordinal, num(&r.of("dipole")?.result, "magnitude_am2")?)))
-            .collect();
-        for r in rows.iter().filter(|r| r.serial == *s) {
-            if let Some(l) = r
-                .of("dipole")
-                .and_then(|d| num(&d.result, "residual_dipole_max_am2"))
-            {
-                limits.push((r.ordinal, l));
-            }
-        }
-        if !pts.is_empty() {
-            dip = dip
-                .with(Series::points("", pts.clone(), k % 3))
-                .with(Series::line(s, pts, k % 3));
-        }
-    }
-    let has_dipole = !dip.series.is_empty();
-    if !limits.is_empty() {
-        dip = dip.with(Series::dashed("limit", limit_steps(&limits), 3));
-    }
-    dip.x_range = x_range;
-    dip.size = (540, 340);
-    if has_dipole {
-        figs.push(figure(
-            "history-dipole.svg",
-            "Residual dipole magnitude of the latest dipole run per build (line per serial) \
-             and the plan's limit (dashed).",
-            draw_xy(&dip)?,
-        ));
-    }
-
-    let mut hi = XyPlot::new("Hard iron across builds", "build", "hard iron [nT]");
-    for s in &serials {
-        for a in 0..3 {
-            let pts: Vec<(f64, f64)> = rows
-                .iter()
-                .filter(|r| r.serial == *s)
-                .filter_map(|r| {
-                    Some((
-                        r.ordinal,
-                        vec3(&r.of("calibrate")?.result, "hard_iron_nt")?[a],
-                    ))
-                })
-                .collect();
-            if !pts.is_empty() {
-                hi = hi.with(Series::points("", pts.clone(), a));
-                let name = if serials.len() > 1 {
-                    format!("{s} {}", ["x", "y", "z"][a])
-                } else {
-                    ["x", "y", "z"][a].to_string()
-                };
-                hi = hi.with(Series::line(&name, pts, a));
-            }
-        }
-    }
-    hi.x_range = x_range;
-    hi.size = (540, 340);
-    if !hi.series.is_empty() {
-        figs.push(figure(
-            "history-hard-iron.svg",
-            "Hard iron per sensor axis from the latest calibration per build. A jump between \
-             builds means magnetic material was added near the magnetometer.",
-            draw_xy(&hi)?,
-        ));
-    }
-
-    let mut res = XyPlot::new("Calibration residual across builds", "build", "RMS [nT]");
-    let mut limits = Vec::new();
-    for (k, s) in serials.iter().enumerate() {
-        let pts: Vec<(f64, f64)> = rows
-            .iter()
-            .filter(|r| r.serial == *s)
-            .filter_map(|r| {
-                Some((
-                    r.ordinal,
-                    num(&r.of("calibrate")?.result, "residual_rms_nt")?,
-                ))
-            })
-            .collect();
-        for r in rows.iter().filter(|r| r.serial == *s) {
-            if let Some(l) = r
-                .of("calibrate")
-                .and_then(|c| num(&c.result, "residual_limit_nt"))
-            {
-                limits.push((r.ordinal, l));
-            }
-        }
-        if !pts.is_empty() {
-            res = res
-                .with(Series::points("", pts.clone(), k % 3))
-                .with(Series::line(s, pts, k % 3));
-        }
-    }
-    let has_res = !res.series.is_empty();
-    if !limits.is_empty() {
-        res = res.with(Series::dashed("limit", limit_steps(&limits), 3));
-    }
-    res.x_range = x_range;
-    res.size = (540, 340);
-    if has_res {
-        figs.push(figure(
-            "history-calibration-residual.svg",
-            "Calibration residual RMS per build and the plan's limit (dashed).",
-            draw_xy(&res)?,
-        ));
-    }
-    Ok(figs)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::ledger::{changes, ChangeRules, RunId};
-    use serde_json::json;
+    use serde_json::{json, Value};
 
     fn run(id: i64, build: &str, kind: &str, pass: bool, result: Value) -> Run {
         Run {
