@@ -159,148 +159,187 @@ struct TruthFile<'a, T: Serialize> {
     truth: T,
 }
 
+/// A simulated file: (file name, text).
+type SimFile = (String, String);
+
 /// The simulated files: (file name, text); the truth last.
-fn simulate(args: &Args) -> Result<Vec<(String, String)>, Error> {
-    let csv = |f: &dyn Fn(&mut Vec<u8>) -> std::io::Result<()>| -> Result<String, Error> {
-        let mut buf = Vec::new();
-        f(&mut buf).map_err(|e| Error::Internal(format!("CSV: {e}")))?;
-        String::from_utf8(buf).map_err(|e| Error::Internal(format!("CSV: {e}")))
-    };
-    let truth_json = |kind: &str, log: &str, truth: &dyn erased::Truth| -> Result<String, Error> {
-        truth.to_json(kind, log)
-    };
-    let plan_head = |kind: &str| {
-        format!(
-            "# synthetic {kind} plan (magproof simulate, seed {})\n[article]\nserial = \"SIM-{}\"\nbuild = \"S1\"\n\n",
-            args.seed,
-            kind.to_uppercase()
-        )
-    };
-    Ok(match args.kind {
-        Kind::Tumble => {
-            let mut cfg = TumbleConfig {
-                samples: 2000,
-                noise_nt: 20.0,
-                ..TumbleConfig::default()
-            };
-            set(&mut cfg.noise_nt, args.noise_nt);
-            set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
-            set(&mut cfg.soft_iron, args.soft_iron());
-            set(&mut cfg.outlier_rate, args.outlier_rate);
-            set(&mut cfg.samples, args.samples);
-            set(&mut cfg.reference_nt, args.reference_nt);
-            if let Some(c) = args.coverage {
-                cfg.coverage = match c {
-                    CoverageArg::Full => SimCoverage::FullSphere,
-                    CoverageArg::Hemisphere => SimCoverage::Hemisphere,
-                    CoverageArg::Plane => SimCoverage::Plane,
-                };
-            }
-            let sim = simulate_tumble(&cfg, args.seed)?;
-            let plan = format!(
-                "{}[site]\nlat_deg = 0.0\nlon_deg = 0.0\nreference_nt = {}\n\n\
-                 [[step]]\nkind = \"calibrate\"\nlog = \"tumble.csv\"\n",
-                plan_head("tumble"),
-                cfg.reference_nt
-            );
-            vec![
-                ("tumble.csv".into(), csv(&|b| write_tumble_csv(&sim, b))?),
-                ("plan.toml".into(), plan),
-                (
-                    "truth.json".into(),
-                    truth_json("tumble", "tumble.csv", &sim.truth)?,
-                ),
-            ]
-        }
-        Kind::Cage => {
-            let mut cfg = CageConfig::default();
-            set(&mut cfg.noise_nt, args.noise_nt);
-            set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
-            if let Some(w) = args.soft_iron() {
-                cfg.response = w
-                    .try_inverse()
-                    .ok_or_else(|| Error::Usage("--soft-iron: the matrix is singular".into()))?;
-            }
-            let sim = simulate_cage(&cfg, args.seed)?;
-            let plan = format!(
-                "{}[[step]]\nkind = \"calibrate\"\nlog = \"cage.csv\"\n",
-                plan_head("cage")
-            );
-            vec![
-                ("cage.csv".into(), csv(&|b| write_cage_csv(&sim, b))?),
-                ("plan.toml".into(), plan),
-                (
-                    "truth.json".into(),
-                    truth_json("cage", "cage.csv", &sim.truth)?,
-                ),
-            ]
-        }
-        Kind::Polarity => {
-            let mut cfg = PolarityConfig::default();
-            set(&mut cfg.noise_nt, args.noise_nt);
-            set(&mut cfg.lag_s, args.lag_s);
-            set(&mut cfg.drift_nt_per_s, args.drift_nt_per_s);
-            let names: Vec<String> = cfg.rods.iter().map(|r| r.name.clone()).collect();
-            let index = |name: &str| {
-                names.iter().position(|r| r == name.trim()).ok_or_else(|| {
-                    Error::Usage(format!("no rod named {name:?}; the rods are x, y, z"))
-                })
-            };
-            for r in &args.reverse {
-                let i = index(r)?;
-                cfg.rods[i].reversed = true;
-            }
-            if let Some(s) = &args.swap {
-                let (a, b) = s
-                    .split_once(',')
-                    .ok_or_else(|| Error::Usage(format!("--swap {s:?}: give two rods A,B")))?;
-                cfg.swapped = Some((index(a)?, index(b)?));
-            }
-            let sim = simulate_polarity(&cfg, args.seed)?;
-            let plan = format!(
-                "{}\n[[step]]\nkind = \"polarity\"\nlog = \"pulses.csv\"\n",
-                sim.plan_toml
-            );
-            vec![
-                ("pulses.csv".into(), sim.csv),
-                ("plan.toml".into(), plan),
-                (
-                    "truth.json".into(),
-                    truth_json("polarity", "pulses.csv", &sim.truth)?,
-                ),
-            ]
-        }
-        Kind::Dipole => {
-            let sim = match args.method {
-                DipoleMethodArg::Turntable => {
-                    let mut cfg = TurntableConfig::default();
-                    set(&mut cfg.article.noise_nt, args.noise_nt);
-                    set(&mut cfg.article.moment_body_am2, args.moment_am2);
-                    set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
-                    if let Some(n) = args.mounts {
-                        cfg.mounts.truncate(usize::from(n));
-                    }
-                    simulate_turntable(&cfg, args.seed)?
-                }
-                DipoleMethodArg::Static => {
-                    let mut cfg = StaticConfig::default();
-                    set(&mut cfg.article.noise_nt, args.noise_nt);
-                    set(&mut cfg.article.moment_body_am2, args.moment_am2);
-                    set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
-                    simulate_static(&cfg, args.seed)?
-                }
-            };
-            // The simulator's plan names its log `<stem>.csv` with the method in the stem.
-            let log = format!("dipole-{}.csv", sim.truth.method);
-            vec![
-                (log.clone(), sim.log_csv.clone()),
-                ("plan.toml".into(), sim.plan_toml.clone()),
-                ("truth.json".into(), truth_json("dipole", &log, &sim.truth)?),
-            ]
-        }
-    })
+fn simulate(args: &Args) -> Result<Vec<SimFile>, Error> {
+    match args.kind {
+        Kind::Tumble => tumble_files(args),
+        Kind::Cage => cage_files(args),
+        Kind::Polarity => polarity_files(args),
+        Kind::Dipole => dipole_files(args),
+    }
 }
 
+/// The text a CSV writer produces.
+fn csv_text(f: &dyn Fn(&mut Vec<u8>) -> std::io::Result<()>) -> Result<String, Error> {
+    let mut buf = Vec::new();
+    f(&mut buf).map_err(|e| Error::Internal(format!("CSV: {e}")))?;
+    String::from_utf8(buf).map_err(|e| Error::Internal(format!("CSV: {e}")))
+}
+
+/// The truth file for a log of `kind`, pretty JSON.
+fn truth_json(kind: &str, log: &str, truth: &dyn erased::Truth) -> Result<String, Error> {
+    truth.to_json(kind, log)
+}
+
+/// The head of a synthetic plan: a comment with the seed and the [article] table.
+fn plan_head(args: &Args, kind: &str) -> String {
+    format!(
+        "# synthetic {kind} plan (magproof simulate, seed {})\n[article]\nserial = \"SIM-{}\"\nbuild = \"S1\"\n\n",
+        args.seed,
+        kind.to_uppercase()
+    )
+}
+
+/// A tumble log, its plan (with the reference |B| in nT as the site) and the truth.
+fn tumble_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    let cfg = tumble_config(args);
+    let sim = simulate_tumble(&cfg, args.seed)?;
+    let plan = format!(
+        "{}[site]\nlat_deg = 0.0\nlon_deg = 0.0\nreference_nt = {}\n\n\
+         [[step]]\nkind = \"calibrate\"\nlog = \"tumble.csv\"\n",
+        plan_head(args, "tumble"),
+        cfg.reference_nt
+    );
+    Ok(vec![
+        (
+            "tumble.csv".into(),
+            csv_text(&|b| write_tumble_csv(&sim, b))?,
+        ),
+        ("plan.toml".into(), plan),
+        (
+            "truth.json".into(),
+            truth_json("tumble", "tumble.csv", &sim.truth)?,
+        ),
+    ])
+}
+
+/// The tumble configuration: 2000 samples with 20 nT noise unless the flags say otherwise.
+fn tumble_config(args: &Args) -> TumbleConfig {
+    let mut cfg = TumbleConfig {
+        samples: 2000,
+        noise_nt: 20.0,
+        ..TumbleConfig::default()
+    };
+    set(&mut cfg.noise_nt, args.noise_nt);
+    set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
+    set(&mut cfg.soft_iron, args.soft_iron());
+    set(&mut cfg.outlier_rate, args.outlier_rate);
+    set(&mut cfg.samples, args.samples);
+    set(&mut cfg.reference_nt, args.reference_nt);
+    if let Some(c) = args.coverage {
+        cfg.coverage = match c {
+            CoverageArg::Full => SimCoverage::FullSphere,
+            CoverageArg::Hemisphere => SimCoverage::Hemisphere,
+            CoverageArg::Plane => SimCoverage::Plane,
+        };
+    }
+    cfg
+}
+
+/// A coil-cage log, its plan and the truth; `--soft-iron` sets the inverse response.
+fn cage_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    let mut cfg = CageConfig::default();
+    set(&mut cfg.noise_nt, args.noise_nt);
+    set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
+    if let Some(w) = args.soft_iron() {
+        cfg.response = w
+            .try_inverse()
+            .ok_or_else(|| Error::Usage("--soft-iron: the matrix is singular".into()))?;
+    }
+    let sim = simulate_cage(&cfg, args.seed)?;
+    let plan = format!(
+        "{}[[step]]\nkind = \"calibrate\"\nlog = \"cage.csv\"\n",
+        plan_head(args, "cage")
+    );
+    Ok(vec![
+        ("cage.csv".into(), csv_text(&|b| write_cage_csv(&sim, b))?),
+        ("plan.toml".into(), plan),
+        (
+            "truth.json".into(),
+            truth_json("cage", "cage.csv", &sim.truth)?,
+        ),
+    ])
+}
+
+/// A torque-rod pulse log, its plan and the truth.
+fn polarity_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    let cfg = polarity_config(args)?;
+    let sim = simulate_polarity(&cfg, args.seed)?;
+    let plan = format!(
+        "{}\n[[step]]\nkind = \"polarity\"\nlog = \"pulses.csv\"\n",
+        sim.plan_toml
+    );
+    Ok(vec![
+        ("pulses.csv".into(), sim.csv),
+        ("plan.toml".into(), plan),
+        (
+            "truth.json".into(),
+            truth_json("polarity", "pulses.csv", &sim.truth)?,
+        ),
+    ])
+}
+
+/// The pulse configuration from the flags: noise (nT), lag (s), drift (nT/s), and rods
+/// reversed or swapped by name.
+fn polarity_config(args: &Args) -> Result<PolarityConfig, Error> {
+    let mut cfg = PolarityConfig::default();
+    set(&mut cfg.noise_nt, args.noise_nt);
+    set(&mut cfg.lag_s, args.lag_s);
+    set(&mut cfg.drift_nt_per_s, args.drift_nt_per_s);
+    let names: Vec<String> = cfg.rods.iter().map(|r| r.name.clone()).collect();
+    let index = |name: &str| {
+        names
+            .iter()
+            .position(|r| r == name.trim())
+            .ok_or_else(|| Error::Usage(format!("no rod named {name:?}; the rods are x, y, z")))
+    };
+    for r in &args.reverse {
+        let i = index(r)?;
+        cfg.rods[i].reversed = true;
+    }
+    if let Some(s) = &args.swap {
+        let (a, b) = s
+            .split_once(',')
+            .ok_or_else(|| Error::Usage(format!("--swap {s:?}: give two rods A,B")))?;
+        cfg.swapped = Some((index(a)?, index(b)?));
+    }
+    Ok(cfg)
+}
+
+/// A residual-dipole log (turntable or static map), its plan and the truth.
+fn dipole_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    let sim = match args.method {
+        DipoleMethodArg::Turntable => {
+            let mut cfg = TurntableConfig::default();
+            set(&mut cfg.article.noise_nt, args.noise_nt);
+            set(&mut cfg.article.moment_body_am2, args.moment_am2);
+            set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
+            if let Some(n) = args.mounts {
+                cfg.mounts.truncate(usize::from(n));
+            }
+            simulate_turntable(&cfg, args.seed)?
+        }
+        DipoleMethodArg::Static => {
+            let mut cfg = StaticConfig::default();
+            set(&mut cfg.article.noise_nt, args.noise_nt);
+            set(&mut cfg.article.moment_body_am2, args.moment_am2);
+            set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
+            simulate_static(&cfg, args.seed)?
+        }
+    };
+    // The simulator's plan names its log `<stem>.csv` with the method in the stem.
+    let log = format!("dipole-{}.csv", sim.truth.method);
+    Ok(vec![
+        (log.clone(), sim.log_csv.clone()),
+        ("plan.toml".into(), sim.plan_toml.clone()),
+        ("truth.json".into(), truth_json("dipole", &log, &sim.truth)?),
+    ])
+}
+
+/// Overwrite `slot` with `value` when a flag gave one.
 fn set<T>(slot: &mut T, value: Option<T>) {
     if let Some(v) = value {
         *slot = v;

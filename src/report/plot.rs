@@ -5,6 +5,7 @@
 //! (projections with fitted ellipses, residual against time, field against table angle,
 //! command and response over time, trends across builds) and a histogram.
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
 use crate::Error;
@@ -174,34 +175,13 @@ fn tick(v: f64, span: f64) -> String {
     }
 }
 
+/// The chart an x–y plot is drawn on: SVG, linear axes in data units.
+type XyChart<'a, 'b> =
+    ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
 /// Draw an x–y plot as an SVG document.
 pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
-    let xs = plot
-        .series
-        .iter()
-        .flat_map(|s| s.points.iter().map(|p| p.0));
-    let ys = plot
-        .series
-        .iter()
-        .flat_map(|s| s.points.iter().map(|p| p.1));
-    let (mut x0, mut x1) = plot
-        .x_range
-        .or_else(|| finite_range(xs))
-        .unwrap_or((0.0, 1.0));
-    let (mut y0, mut y1) = plot
-        .y_range
-        .or_else(|| finite_range(ys))
-        .unwrap_or((0.0, 1.0));
-    if plot.equal_aspect {
-        // Widen the narrower range so one unit has the same length on both axes.
-        let (w, h) = (f64::from(plot.size.0 - 90), f64::from(plot.size.1 - 80));
-        let per_px = ((x1 - x0) / w).max((y1 - y0) / h);
-        let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
-        x0 = cx - 0.5 * per_px * w;
-        x1 = cx + 0.5 * per_px * w;
-        y0 = cy - 0.5 * per_px * h;
-        y1 = cy + 0.5 * per_px * h;
-    }
+    let ((x0, x1), (y0, y1)) = xy_ranges(plot);
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, plot.size).into_drawing_area();
@@ -227,45 +207,96 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
             .draw()
             .map_err(plot_err)?;
         for s in &plot.series {
-            let color = PALETTE[s.color % PALETTE.len()];
-            let legend_color = color;
-            let anno = match s.mark {
-                Mark::Points => chart
-                    .draw_series(
-                        thin(&s.points).map(|p| Circle::new(p, 2, color.mix(0.55).filled())),
-                    )
-                    .map_err(plot_err)?,
-                Mark::Line => chart
-                    .draw_series(LineSeries::new(thin(&s.points), color.stroke_width(2)))
-                    .map_err(plot_err)?,
-                Mark::Dashed => chart
-                    .draw_series(DashedLineSeries::new(
-                        thin(&s.points).collect::<Vec<_>>(),
-                        6,
-                        4,
-                        color.stroke_width(2),
-                    ))
-                    .map_err(plot_err)?,
-            };
-            if !s.name.is_empty() {
-                anno.label(s.name.as_str()).legend(move |(x, y)| {
-                    Rectangle::new([(x, y - 4), (x + 14, y + 4)], legend_color.filled())
-                });
-            }
+            draw_one_series(&mut chart, s)?;
         }
         if plot.series.iter().any(|s| !s.name.is_empty()) {
-            chart
-                .configure_series_labels()
-                .background_style(WHITE.mix(0.85))
-                .border_style(RGBColor(0xbb, 0xbb, 0xbb))
-                .label_font(("sans-serif", 12))
-                .position(SeriesLabelPosition::UpperRight)
-                .draw()
-                .map_err(plot_err)?;
+            draw_legend(&mut chart)?;
         }
         root.present().map_err(plot_err)?;
     }
     Ok(svg)
+}
+
+/// The x and y ranges in data units: fixed, else the data's, else 0–1; widened for an
+/// equal aspect.
+fn xy_ranges(plot: &XyPlot) -> ((f64, f64), (f64, f64)) {
+    let xs = plot
+        .series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p.0));
+    let ys = plot
+        .series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p.1));
+    let x = plot
+        .x_range
+        .or_else(|| finite_range(xs))
+        .unwrap_or((0.0, 1.0));
+    let y = plot
+        .y_range
+        .or_else(|| finite_range(ys))
+        .unwrap_or((0.0, 1.0));
+    if plot.equal_aspect {
+        equal_aspect_ranges(plot.size, x, y)
+    } else {
+        (x, y)
+    }
+}
+
+/// Widen the narrower range so one unit has the same length in pixels on both axes of
+/// a plot of `size` pixels (less the label areas).
+fn equal_aspect_ranges(
+    size: (u32, u32),
+    (x0, x1): (f64, f64),
+    (y0, y1): (f64, f64),
+) -> ((f64, f64), (f64, f64)) {
+    let (w, h) = (f64::from(size.0 - 90), f64::from(size.1 - 80));
+    let per_px = ((x1 - x0) / w).max((y1 - y0) / h);
+    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+    (
+        (cx - 0.5 * per_px * w, cx + 0.5 * per_px * w),
+        (cy - 0.5 * per_px * h, cy + 0.5 * per_px * h),
+    )
+}
+
+/// Draw one series as points, a line or a dashed line, with its legend entry if named.
+fn draw_one_series<'a, 'b: 'a>(chart: &mut XyChart<'a, 'b>, s: &Series) -> Result<(), Error> {
+    let color = PALETTE[s.color % PALETTE.len()];
+    let legend_color = color;
+    let anno = match s.mark {
+        Mark::Points => chart
+            .draw_series(thin(&s.points).map(|p| Circle::new(p, 2, color.mix(0.55).filled())))
+            .map_err(plot_err)?,
+        Mark::Line => chart
+            .draw_series(LineSeries::new(thin(&s.points), color.stroke_width(2)))
+            .map_err(plot_err)?,
+        Mark::Dashed => chart
+            .draw_series(DashedLineSeries::new(
+                thin(&s.points).collect::<Vec<_>>(),
+                6,
+                4,
+                color.stroke_width(2),
+            ))
+            .map_err(plot_err)?,
+    };
+    if !s.name.is_empty() {
+        anno.label(s.name.as_str()).legend(move |(x, y)| {
+            Rectangle::new([(x, y - 4), (x + 14, y + 4)], legend_color.filled())
+        });
+    }
+    Ok(())
+}
+
+/// Draw the legend box in the upper right corner.
+fn draw_legend<'a, 'b: 'a>(chart: &mut XyChart<'a, 'b>) -> Result<(), Error> {
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(RGBColor(0xbb, 0xbb, 0xbb))
+        .label_font(("sans-serif", 12))
+        .position(SeriesLabelPosition::UpperRight)
+        .draw()
+        .map_err(plot_err)
 }
 
 /// Draw a histogram of `values` with `bins` equal bins as an SVG document.

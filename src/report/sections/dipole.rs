@@ -13,12 +13,24 @@ const AXES: [&str; 3] = ["x", "y", "z"];
 
 /// Build the dipole section of a report.
 pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
-    let method = match r.method {
-        DipoleMethod::Turntable => "turntable, fixed probe",
-        DipoleMethod::Static => "static map, probe moved",
-    };
+    Ok(Section {
+        kind: "dipole".into(),
+        title: "Residual magnetic dipole".into(),
+        verdict: r.verdict,
+        figures_of_merit: dipole_figures_of_merit(r),
+        tables: vec![verdict_table(r), super::gates_table(&r.gates)],
+        figures: dipole_figures(r)?,
+        warnings: crate::check::outcome::tally(&r.warnings),
+        notes: dipole_notes(r),
+        result: to_json(r)?,
+    })
+}
+
+/// Every figure of merit, in display order: method and samples, the moment (A·m²) and
+/// position (m), the residual (nT), then the orbit and its torques (N·m).
+fn dipole_figures_of_merit(r: &DipoleResult) -> Vec<(String, String)> {
     let mut fom = vec![
-        ("method".to_string(), method.to_string()),
+        ("method".to_string(), method_text(r.method).to_string()),
         (
             "samples".into(),
             format!(
@@ -30,52 +42,80 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
             ),
         ),
     ];
+    fom.extend(moment_and_position_rows(r));
+    fom.push((
+        "residual RMS".into(),
+        format!("{} nT", short(r.residual_rms_nt)),
+    ));
+    fom.extend(orbit_torque_rows(r));
+    fom
+}
+
+/// How the field was mapped, in words.
+fn method_text(method: DipoleMethod) -> &'static str {
+    match method {
+        DipoleMethod::Turntable => "turntable, fixed probe",
+        DipoleMethod::Static => "static map, probe moved",
+    }
+}
+
+/// The body-frame moment (A·m²) per axis and its magnitude, then the fitted position
+/// (m) per axis when the fit had one.
+fn moment_and_position_rows(r: &DipoleResult) -> Vec<(String, String)> {
+    let mut rows = Vec::new();
     for a in 0..3 {
-        fom.push((
+        rows.push((
             format!("moment {} (body)", AXES[a]),
             pm(r.moment_body_am2[a], Some(r.moment_sigma_am2[a]), "A·m²"),
         ));
     }
-    fom.push((
+    rows.push((
         "|m|".into(),
         pm(r.magnitude_am2, Some(r.magnitude_sigma_am2), "A·m²"),
     ));
     if let (Some(o), Some(so)) = (r.offset_m, r.offset_sigma_m) {
         for a in 0..3 {
-            fom.push((
+            rows.push((
                 format!("position {} (body)", AXES[a]),
                 pm(o[a], Some(so[a]), "m"),
             ));
         }
     }
-    fom.push((
-        "residual RMS".into(),
-        format!("{} nT", short(r.residual_rms_nt)),
-    ));
-    fom.push((
-        "orbit".into(),
-        format!(
-            "{:.0} km, {:.1}° inclination; |B| max {:.0} nT, mean {:.0} nT",
-            r.altitude_km, r.inclination_deg, r.orbit_field_max_nt, r.orbit_field_mean_nt
-        ),
-    ));
-    fom.push((
-        "torque, worst case".into(),
-        pm(
-            r.orbit_torque_max_n_m,
-            Some(r.orbit_torque_max_sigma_n_m),
-            "N·m",
-        ),
-    ));
-    fom.push((
-        "torque, orbit mean (m ⊥ B)".into(),
-        pm(
-            r.orbit_torque_mean_n_m,
-            Some(r.orbit_torque_mean_sigma_n_m),
-            "N·m",
-        ),
-    ));
+    rows
+}
 
+/// The orbit (km, °, nT) and the worst-case and mean torques (N·m) it gives.
+fn orbit_torque_rows(r: &DipoleResult) -> Vec<(String, String)> {
+    vec![
+        (
+            "orbit".into(),
+            format!(
+                "{:.0} km, {:.1}° inclination; |B| max {:.0} nT, mean {:.0} nT",
+                r.altitude_km, r.inclination_deg, r.orbit_field_max_nt, r.orbit_field_mean_nt
+            ),
+        ),
+        (
+            "torque, worst case".into(),
+            pm(
+                r.orbit_torque_max_n_m,
+                Some(r.orbit_torque_max_sigma_n_m),
+                "N·m",
+            ),
+        ),
+        (
+            "torque, orbit mean (m ⊥ B)".into(),
+            pm(
+                r.orbit_torque_mean_n_m,
+                Some(r.orbit_torque_mean_sigma_n_m),
+                "N·m",
+            ),
+        ),
+    ]
+}
+
+/// The verdict table: |m| (A·m²) against the plan's limit, then |m| as a share (%) of
+/// each rod's nominal dipole.
+fn verdict_table(r: &DipoleResult) -> Table {
     let mut rows = vec![vec![
         Cell::plain("|m|"),
         Cell::plain(pm(r.magnitude_am2, Some(r.magnitude_sigma_am2), "A·m²")),
@@ -97,7 +137,7 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
             Cell::plain("-"),
         ]);
     }
-    let table = Table {
+    Table {
         caption: "Verdict".into(),
         header: vec![
             "quantity".into(),
@@ -106,7 +146,12 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
             "verdict".into(),
         ],
         rows,
-    };
+    }
+}
+
+/// Notes: the orbit field model, body directions the mounts leave unresolved, and how
+/// the torque is reckoned.
+fn dipole_notes(r: &DipoleResult) -> Vec<String> {
     let mut notes = vec![format!("orbit field model: {}", r.orbit_field_model)];
     if !r.hidden_components.is_empty() {
         notes.push(format!(
@@ -118,17 +163,7 @@ pub fn dipole_section(r: &DipoleResult) -> Result<Section, Error> {
     notes.push(
         "Torque τ = m × B; the worst case |m|·|B|max assumes m ⊥ B at the field maximum.".into(),
     );
-    Ok(Section {
-        kind: "dipole".into(),
-        title: "Residual magnetic dipole".into(),
-        verdict: r.verdict,
-        figures_of_merit: fom,
-        tables: vec![table, super::gates_table(&r.gates)],
-        figures: dipole_figures(r)?,
-        warnings: crate::check::outcome::tally(&r.warnings),
-        notes,
-        result: to_json(r)?,
-    })
+    notes
 }
 
 /// One figure per mount: the three table-frame components of measured − background

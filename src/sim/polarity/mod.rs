@@ -13,189 +13,44 @@
 //! field, a drift (linear plus a slow sinusoid) and white noise.
 //!
 //! [`simulate_polarity`] returns the CSV log, a matching plan (TOML) and the truth (JSON),
-//! for tests, rehearsal and the demo.
+//! for tests, rehearsal and the demo. The settings live in `config`, the returned log,
+//! plan and truth in `output`.
+
+mod config;
+mod output;
 
 use std::fmt::Write as _;
-use std::path::{Path, PathBuf};
 
-use nalgebra::{Matrix3, Vector3};
+use nalgebra::Vector3;
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
-use serde::Serialize;
 
 use crate::physics::dipole::dipole_matrix;
 use crate::Error;
-
-/// One simulated rod: what the plan says about it and how it is really built and wired.
-#[derive(Debug, Clone)]
-pub struct SimRod {
-    /// Name (log column `cmd_<name>`).
-    pub name: String,
-    /// Positive dipole direction for a positive command, body frame (B), unit vector.
-    pub axis_body: Vector3<f64>,
-    /// Rod centre, body frame (B), m.
-    pub position_m: Vector3<f64>,
-    /// Nominal dipole per command unit, A·m² (written to the plan).
-    pub dipole_per_command_am2: f64,
-    /// Rod length, m (written to the plan).
-    pub length_m: f64,
-    /// True dipole over nominal (1 = as designed, 0 = dead rod).
-    pub gain: f64,
-    /// Wired backwards: a positive command gives a negative dipole.
-    pub reversed: bool,
-    /// Remanent dipole once the rod is off after a pulse, A·m² (along the axis, sign of
-    /// the last pulse); while the rod is driven its dipole is set by the command alone.
-    pub remanent_am2: f64,
-}
-
-/// Settings of a simulated polarity test.
-#[derive(Debug, Clone)]
-pub struct PolarityConfig {
-    /// The rods, in plan order.
-    pub rods: Vec<SimRod>,
-    /// Two rods (indices) whose command lines drive each other's coils.
-    pub swapped: Option<(usize, usize)>,
-    /// Sensor position, body frame (B), m.
-    pub sensor_position_m: Vector3<f64>,
-    /// Sensor mounting: `v_b = sensor_to_body · v_s`.
-    pub sensor_to_body: Matrix3<f64>,
-    /// Write the sensor as a `[probe]` instead of `[magnetometer]` in the plan.
-    pub as_probe: bool,
-    /// Sample rate, Hz.
-    pub sample_rate_hz: f64,
-    /// Pulse length, s.
-    pub pulse_s: f64,
-    /// Quiet gap before each pulse, s.
-    pub gap_s: f64,
-    /// Number of (+, −) pulse pairs per rod.
-    pub cycles: usize,
-    /// Command amplitude, command units.
-    pub command: f64,
-    /// Command-to-dipole pure delay, s.
-    pub lag_s: f64,
-    /// First-order rise/fall time constant of the rod's dipole, s (0 = instant).
-    pub rise_time_s: f64,
-    /// Ambient field, sensor frame (S), nT.
-    pub ambient_nt: Vector3<f64>,
-    /// Linear drift, sensor frame, nT/s.
-    pub drift_nt_per_s: Vector3<f64>,
-    /// Amplitude of a slow sinusoidal wander on every axis, nT.
-    pub wander_nt: f64,
-    /// Period of the wander, s.
-    pub wander_period_s: f64,
-    /// White noise σ per axis, nT.
-    pub noise_nt: f64,
-    /// Angle limit written to the plan, deg (`None`: no `[limits]`).
-    pub angle_max_deg: Option<f64>,
-}
-
-impl Default for PolarityConfig {
-    /// Three rods in the lower bay of an invented 3U-class vehicle, sensor on the top deck.
-    fn default() -> Self {
-        let rod = |name: &str, axis: [f64; 3], pos: [f64; 3]| SimRod {
-            name: name.into(),
-            axis_body: Vector3::from(axis),
-            position_m: Vector3::from(pos),
-            dipole_per_command_am2: 0.2,
-            length_m: 0.06,
-            gain: 1.0,
-            reversed: false,
-            remanent_am2: 0.002,
-        };
-        Self {
-            rods: vec![
-                rod("x", [1.0, 0.0, 0.0], [0.0, 0.04, 0.0]),
-                rod("y", [0.0, 1.0, 0.0], [0.04, 0.0, 0.0]),
-                rod("z", [0.0, 0.0, 1.0], [-0.03, -0.03, 0.02]),
-            ],
-            swapped: None,
-            sensor_position_m: Vector3::new(0.02, 0.015, 0.21),
-            sensor_to_body: Matrix3::identity(),
-            as_probe: false,
-            sample_rate_hz: 50.0,
-            pulse_s: 1.0,
-            gap_s: 1.5,
-            cycles: 2,
-            command: 1.0,
-            lag_s: 0.03,
-            rise_time_s: 0.02,
-            ambient_nt: Vector3::new(18_500.0, -4_200.0, -41_000.0),
-            drift_nt_per_s: Vector3::new(0.8, -0.5, 0.3),
-            wander_nt: 15.0,
-            wander_period_s: 40.0,
-            noise_nt: 3.0,
-            angle_max_deg: Some(30.0),
-        }
-    }
-}
-
-/// The truth behind a simulated log.
-#[derive(Debug, Clone, Serialize)]
-pub struct PolarityTruth {
-    /// Seed of the noise.
-    pub seed: u64,
-    /// Command-to-dipole pure delay, s.
-    pub lag_s: f64,
-    /// Rise time constant, s.
-    pub rise_time_s: f64,
-    /// White noise σ, nT.
-    pub noise_nt: f64,
-    /// Per rod, in plan order.
-    pub rods: Vec<RodTruth>,
-}
-
-/// Truth for one rod (one command column).
-#[derive(Debug, Clone, Serialize)]
-pub struct RodTruth {
-    /// Rod name.
-    pub name: String,
-    /// True response per unit command, sensor frame (S), nT.
-    pub coupling_nt_per_command: [f64; 3],
-    /// The verdict a correct check should give.
-    pub verdict: String,
-    /// For a swapped rod: the rod whose coil this command really drives.
-    pub drives_rod: String,
-    /// True dipole per command over nominal (magnitude).
-    pub gain_ratio: f64,
-    /// Remanent field after a positive pulse relative to the never-pulsed state,
-    /// sensor frame, nT.
-    pub remanent_offset_nt: [f64; 3],
-}
-
-/// A simulated log with its plan and truth.
-#[derive(Debug, Clone)]
-pub struct PolaritySim {
-    /// The log, CSV text.
-    pub csv: String,
-    /// The plan, TOML text.
-    pub plan_toml: String,
-    /// The truth.
-    pub truth: PolarityTruth,
-}
-
-impl PolaritySim {
-    /// Write `<stem>.csv`, `<stem>.plan.toml` and `<stem>.truth.json` into `dir`;
-    /// returns the three paths.
-    pub fn write(&self, dir: &Path, stem: &str) -> Result<[PathBuf; 3], Error> {
-        let paths = [
-            dir.join(format!("{stem}.csv")),
-            dir.join(format!("{stem}.plan.toml")),
-            dir.join(format!("{stem}.truth.json")),
-        ];
-        let truth = serde_json::to_string_pretty(&self.truth)
-            .map_err(|e| Error::Internal(format!("truth JSON: {e}")))?;
-        for (p, text) in paths.iter().zip([&self.csv, &self.plan_toml, &truth]) {
-            std::fs::write(p, text).map_err(|e| Error::io(p, e))?;
-        }
-        Ok(paths)
-    }
-}
+pub use config::{PolarityConfig, SimRod};
+pub use output::{PolaritySim, PolarityTruth, RodTruth};
 
 /// Simulate a polarity test (see the module doc).
-#[allow(clippy::needless_range_loop)] // command columns and physical rods are indexed together
 pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim, Error> {
-    let nr = cfg.rods.len();
-    if nr == 0 || cfg.cycles == 0 {
+    check_config(cfg)?;
+    let drives = command_drives(cfg)?;
+    let per_am2 = field_per_am2_nt(cfg)?;
+    let dt = 1.0 / cfg.sample_rate_hz;
+    let commands = pulse_commands(cfg, dt);
+    let moments = rod_moments(cfg, &drives, &commands, dt);
+    let csv = log_csv(cfg, seed, dt, &per_am2, &moments, &commands)?;
+    let truth = truth(cfg, seed, &drives, &per_am2);
+    Ok(PolaritySim {
+        csv,
+        plan_toml: plan_toml(cfg),
+        truth,
+    })
+}
+
+/// Refuse a configuration that cannot be simulated: no rod or cycle, a rate, pulse or
+/// gap that is not positive, negative noise or rise time, a lag that is not finite.
+fn check_config(cfg: &PolarityConfig) -> Result<(), Error> {
+    if cfg.rods.is_empty() || cfg.cycles == 0 {
         return Err(Error::Usage(
             "simulation needs at least one rod and one cycle".into(),
         ));
@@ -211,7 +66,12 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
             "noise and rise time must be ≥ 0, lag finite".into(),
         ));
     }
-    // Which physical rod each command column drives.
+    Ok(())
+}
+
+/// Which physical rod each command column drives: itself, unless two are swapped.
+fn command_drives(cfg: &PolarityConfig) -> Result<Vec<usize>, Error> {
+    let nr = cfg.rods.len();
     let mut drives: Vec<usize> = (0..nr).collect();
     if let Some((a, b)) = cfg.swapped {
         if a >= nr || b >= nr || a == b {
@@ -221,17 +81,26 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
         }
         drives.swap(a, b);
     }
+    Ok(drives)
+}
+
+/// Field at the sensor per A·m² of each physical rod's axis, sensor frame, nT.
+fn field_per_am2_nt(cfg: &PolarityConfig) -> Result<Vec<Vector3<f64>>, Error> {
     let body_to_sensor = cfg.sensor_to_body.transpose();
-    // Field per A·m² of each physical rod's axis, sensor frame.
-    let mut per_am2 = Vec::with_capacity(nr);
+    let mut per_am2 = Vec::with_capacity(cfg.rods.len());
     for r in &cfg.rods {
         let g = dipole_matrix(&(cfg.sensor_position_m - r.position_m))
             .ok_or_else(|| Error::Usage(format!("rod {} sits at the sensor", r.name)))?;
         per_am2.push(body_to_sensor * g * r.axis_body.normalize());
     }
-    // Schedule: per cycle, per rod: gap, +pulse, gap, −pulse; then a final gap. Edges
-    // are rounded to the sample grid (rows `on..off` carry the command).
-    let dt = 1.0 / cfg.sample_rate_hz;
+    Ok(per_am2)
+}
+
+/// The command of every column at every sample (step `dt` s). Schedule: per cycle, per
+/// rod: gap, +pulse, gap, −pulse; then a final gap. Edges are rounded to the sample grid
+/// (rows `on..off` carry the command).
+fn pulse_commands(cfg: &PolarityConfig, dt: f64) -> Vec<Vec<f64>> {
+    let nr = cfg.rods.len();
     let row = |time: f64| (time / dt).round() as usize;
     let period = cfg.gap_s + cfg.pulse_s;
     let mut pulses: Vec<(usize, usize, usize, f64)> = Vec::new(); // column, on, off, command
@@ -251,8 +120,20 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
     for &(c, on, off, cmd) in &pulses {
         commands[c][on.min(n)..off.min(n)].fill(cmd);
     }
-    let moments = rod_moments(cfg, &drives, &commands, dt);
+    commands
+}
 
+/// The log as CSV text: time (s), the field (nT) of ambient, drift, wander, every rod's
+/// dipole and white noise seeded by `seed`, then the command columns.
+fn log_csv(
+    cfg: &PolarityConfig,
+    seed: u64,
+    dt: f64,
+    per_am2: &[Vector3<f64>],
+    moments: &[Vec<f64>],
+    commands: &[Vec<f64>],
+) -> Result<String, Error> {
+    let n = commands.first().map_or(0, Vec::len);
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
     let noise =
         Normal::new(0.0, cfg.noise_nt.max(0.0)).map_err(|e| Error::Usage(format!("noise: {e}")))?;
@@ -280,18 +161,12 @@ pub fn simulate_polarity(cfg: &PolarityConfig, seed: u64) -> Result<PolaritySim,
             b.y + noise.sample(&mut rng),
             b.z + noise.sample(&mut rng)
         );
-        for col in &commands {
+        for col in commands {
             let _ = write!(csv, ",{}", col[i]);
         }
         csv.push('\n');
     }
-
-    let truth = truth(cfg, seed, &drives, &per_am2);
-    Ok(PolaritySim {
-        csv,
-        plan_toml: plan_toml(cfg),
-        truth,
-    })
+    Ok(csv)
 }
 
 /// Dipole of every physical rod at every sample time, A·m² along its axis: the target
@@ -449,6 +324,7 @@ fn plan_toml(cfg: &PolarityConfig) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::path::Path;
 
     #[test]
     fn log_and_plan_are_readable() {
