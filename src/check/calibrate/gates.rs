@@ -22,7 +22,7 @@ pub const SAMPLES_USED_MIN: f64 = 0.9;
 /// Largest share of a tumble's rows with a rod on or settling.
 pub const RODS_ON_SHARE_MAX: f64 = 0.5;
 /// Largest singular-value ratio of a cage's applied fields.
-pub const DESIGN_CONDITION_MAX: f64 = 100.0;
+pub const APPLIED_FIELD_CONDITION_MAX: f64 = 100.0;
 /// Largest cage misalignment against the plan's mounting, deg.
 pub const ALIGNMENT_MAX_DEG: f64 = 3.0;
 /// |hard iron| limit when there is no reference magnitude, nT: the strongest
@@ -142,7 +142,9 @@ fn cage_gates(r: &CalibrationResult, facts: &GateFacts, limits: &GateLimits) -> 
         gates.push(Gate::at_most(
             "design_condition",
             cond,
-            limits.design_condition_max.unwrap_or(DESIGN_CONDITION_MAX),
+            limits
+                .design_condition_max
+                .unwrap_or(APPLIED_FIELD_CONDITION_MAX),
             GateRole::Data,
         ));
     }
