@@ -105,19 +105,7 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     // rows with a rod on or settling.
     let saturated = req.input.saturated_rows();
     let rods = rods::rod_blanking(log, req.plan);
-    let idx = if rods.rows > 0 {
-        let flagged: Vec<bool> = (0..log.len())
-            .map(|i| rods.blanked[i] || req.input.saturation.flagged.get(i) == Some(&true))
-            .collect();
-        warnings.push(CalibrationWarning::RodsOn {
-            rows: rods.rows,
-            total: log.len(),
-            columns: rods.columns,
-        });
-        UsedRows::new(log.len(), &flagged)
-    } else {
-        UsedRows::new(log.len(), &req.input.saturation.flagged)
-    };
+    let idx = used_rows(req, &rods, &mut warnings);
     // Every row used: the fit reads the field columns in place. Else the used rows are
     // collected in parallel straight into a new vector (no serial zero-fill first).
     let samples = match &idx {
@@ -156,21 +144,13 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
             tumble::calibrate_tumble(&ctx, v.as_slice(), &mut warnings, &mut notes)?
         }
     };
-    let limit = req.plan.and_then(|p| p.limits.calibration_residual_max_nt);
-    res.residual_limit_nt = limit;
     res.samples_rod_on = rods.rows;
-    let facts = gates::GateFacts {
-        samples_offered: ctx.samples.len(),
-        rods_on_share: rods.rows as f64 / log.len().max(1) as f64,
-        design_condition: res.cage.as_ref().map(|c| c.design_condition),
-        alignment_known: req
-            .plan
-            .is_some_and(|p| p.cage.is_some() && p.magnetometer.is_some()),
-    };
-    let limits = req.plan.map(|p| p.limits.gates).unwrap_or_default();
-    res.gates = gates::calibration_gates(&res, &facts, &limits, limit);
-    res.verdict = Verdict::from_gates(&res.gates);
-    res.pass = res.verdict.pass();
+    judge(
+        &mut res,
+        req,
+        ctx.samples.len(),
+        rods.rows as f64 / log.len().max(1) as f64,
+    );
     res.residual_rms_sigma_nt = rms_sigma(res.residual_rms_nt, res.samples_used);
     res.warnings = warnings;
     res.notes = notes;
@@ -178,6 +158,52 @@ pub fn run_calibrate(req: &CalibrateRequest) -> Result<CalibrationResult, Error>
     res.samples_saturated = saturated;
     keep_per_sample_data(&mut res, ctx, req.options.keep_samples);
     Ok(res)
+}
+
+/// The rows the fit uses: every row but the saturated ones and, when the log has
+/// command columns, those with a rod on or settling (said in a warning).
+fn used_rows(
+    req: &CalibrateRequest,
+    rods: &rods::RodBlanking,
+    warnings: &mut Vec<CalibrationWarning>,
+) -> UsedRows {
+    let n = req.input.log.len();
+    if rods.rows == 0 {
+        return UsedRows::new(n, &req.input.saturation.flagged);
+    }
+    let flagged: Vec<bool> = (0..n)
+        .map(|i| rods.blanked[i] || req.input.saturation.flagged.get(i) == Some(&true))
+        .collect();
+    warnings.push(CalibrationWarning::RodsOn {
+        rows: rods.rows,
+        total: n,
+        columns: rods.columns,
+    });
+    UsedRows::new(n, &flagged)
+}
+
+/// Evaluate every gate and set the verdict, given the samples offered to the fit and
+/// the share of rows with a rod on.
+fn judge(
+    res: &mut CalibrationResult,
+    req: &CalibrateRequest,
+    samples_offered: usize,
+    rods_on_share: f64,
+) {
+    let limit = req.plan.and_then(|p| p.limits.calibration_residual_max_nt);
+    res.residual_limit_nt = limit;
+    let facts = gates::GateFacts {
+        samples_offered,
+        rods_on_share,
+        design_condition: res.cage.as_ref().map(|c| c.design_condition),
+        alignment_known: req
+            .plan
+            .is_some_and(|p| p.cage.is_some() && p.magnetometer.is_some()),
+    };
+    let limits = req.plan.map(|p| p.limits.gates).unwrap_or_default();
+    res.gates = gates::calibration_gates(res, &facts, &limits, limit);
+    res.verdict = Verdict::from_gates(&res.gates);
+    res.pass = res.verdict.pass();
 }
 
 /// The field the log should show: the applied fields of a cage, the reference of a
