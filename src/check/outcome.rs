@@ -200,6 +200,34 @@ pub trait CheckResult: fmt::Debug + Send + Sync {
     fn json(&self) -> Result<serde_json::Value, Error>;
 }
 
+/// The five methods of [`CheckResult`] that every result with `verdict`, `gates` and
+/// `warnings` fields implements the same way; used inside `impl CheckResult for …`
+/// with the check's kind: `result_basics!(KIND);`.
+#[macro_export]
+macro_rules! result_basics {
+    ($kind:expr) => {
+        fn kind(&self) -> $crate::check::CheckKind {
+            $kind
+        }
+
+        fn verdict(&self) -> $crate::check::Verdict {
+            self.verdict
+        }
+
+        fn gates(&self) -> &[$crate::check::Gate] {
+            &self.gates
+        }
+
+        fn warnings(&self) -> Vec<String> {
+            $crate::check::outcome::tally(&self.warnings)
+        }
+
+        fn json(&self) -> Result<serde_json::Value, $crate::Error> {
+            $crate::check::outcome::to_json(self)
+        }
+    };
+}
+
 /// A result as a JSON value.
 pub fn to_json(value: &impl Serialize) -> Result<serde_json::Value, Error> {
     serde_json::to_value(value).map_err(|e| Error::Internal(format!("result to JSON: {e}")))

@@ -3,7 +3,7 @@
 
 use super::{run_calibrate, CalibrateOptions, CalibrationResult};
 use crate::check::kind::{CheckKind, CheckSpec};
-use crate::check::outcome::{self, CheckResult, Gate, Verdict};
+use crate::check::outcome::CheckResult;
 use crate::check::{CheckInput, CheckRequest};
 use crate::ledger::Quantity;
 use crate::log::Plan;
@@ -27,21 +27,7 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 }
 
 impl CheckResult for CalibrationResult {
-    fn kind(&self) -> CheckKind {
-        KIND
-    }
-
-    fn verdict(&self) -> Verdict {
-        self.verdict
-    }
-
-    fn gates(&self) -> &[Gate] {
-        &self.gates
-    }
-
-    fn warnings(&self) -> Vec<String> {
-        outcome::tally(&self.warnings)
-    }
+    crate::result_basics!(KIND);
 
     /// `hard_iron_{x,y,z}_nt`, `hard_iron_magnitude_nt`, `soft_iron_{r}{c}`,
     /// `calibration_residual_rms_nt`, each with its 1σ.
@@ -83,9 +69,5 @@ impl CheckResult for CalibrationResult {
 
     fn sections(&self) -> Result<Vec<Section>, Error> {
         Ok(vec![crate::report::sections::calibration_section(self)?])
-    }
-
-    fn json(&self) -> Result<serde_json::Value, Error> {
-        outcome::to_json(self)
     }
 }

@@ -3,7 +3,7 @@
 
 use super::{run_dipole, DipoleOptions, DipoleResult};
 use crate::check::kind::{CheckKind, CheckSpec};
-use crate::check::outcome::{self, CheckResult, Gate, Verdict};
+use crate::check::outcome::CheckResult;
 use crate::check::{CheckInput, CheckRequest};
 use crate::ledger::Quantity;
 use crate::log::Plan;
@@ -28,21 +28,7 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 }
 
 impl CheckResult for DipoleResult {
-    fn kind(&self) -> CheckKind {
-        KIND
-    }
-
-    fn verdict(&self) -> Verdict {
-        self.verdict
-    }
-
-    fn gates(&self) -> &[Gate] {
-        &self.gates
-    }
-
-    fn warnings(&self) -> Vec<String> {
-        outcome::tally(&self.warnings)
-    }
+    crate::result_basics!(KIND);
 
     /// `dipole_{x,y,z}_am2` and `dipole_magnitude_am2`, each with its 1σ.
     fn quantities(&self) -> Vec<Quantity> {
@@ -74,9 +60,5 @@ impl CheckResult for DipoleResult {
 
     fn sections(&self) -> Result<Vec<Section>, Error> {
         Ok(vec![crate::report::sections::dipole_section(self)?])
-    }
-
-    fn json(&self) -> Result<serde_json::Value, Error> {
-        outcome::to_json(self)
     }
 }

@@ -3,7 +3,7 @@
 
 use super::{magnetometer_recorded, run_polarity, PolarityOptions, PolarityResult};
 use crate::check::kind::{CheckKind, CheckSpec};
-use crate::check::outcome::{self, CheckResult, Gate, Verdict};
+use crate::check::outcome::CheckResult;
 use crate::check::{CheckInput, CheckRequest};
 use crate::ledger::Quantity;
 use crate::log::Plan;
@@ -27,21 +27,7 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 }
 
 impl CheckResult for PolarityResult {
-    fn kind(&self) -> CheckKind {
-        KIND
-    }
-
-    fn verdict(&self) -> Verdict {
-        self.verdict
-    }
-
-    fn gates(&self) -> &[Gate] {
-        &self.gates
-    }
-
-    fn warnings(&self) -> Vec<String> {
-        outcome::tally(&self.warnings)
-    }
+    crate::result_basics!(KIND);
 
     /// `rod_<name>_verdict` per rod.
     fn quantities(&self) -> Vec<Quantity> {
@@ -65,9 +51,5 @@ impl CheckResult for PolarityResult {
 
     fn sections(&self) -> Result<Vec<Section>, Error> {
         Ok(vec![crate::report::sections::polarity_section(self)?])
-    }
-
-    fn json(&self) -> Result<serde_json::Value, Error> {
-        outcome::to_json(self)
     }
 }
