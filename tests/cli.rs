@@ -20,6 +20,8 @@ mod demo;
 mod dipole;
 #[path = "cli/field.rs"]
 mod field;
+#[path = "cli/flight_params.rs"]
+mod flight_params;
 #[path = "cli/history.rs"]
 mod history;
 #[path = "cli/input.rs"]

@@ -12,12 +12,14 @@ pub mod closeout;
 pub mod dipole;
 #[cfg(test)]
 pub(crate) mod dummy;
+pub mod flight_part;
 pub mod input;
 pub mod kind;
 pub mod outcome;
 pub mod polarity;
 pub mod units_sense;
 
+pub use flight_part::FlightPart;
 pub use input::{CheckInput, InputOptions, InputWarning};
 pub use kind::{CheckKind, CheckSpec};
 pub use outcome::{Bound, CheckResult, Gate, GateRole, Verdict};

@@ -119,8 +119,13 @@ pub fn emit(
     record()?;
     let mut stdout = std::io::stdout().lock();
     for (name, written) in magproof::report::writer::write_all(writers, report, &mut stdout)? {
-        if let Written::Path(p) = written {
-            eprintln!("{name} written to {}", p.display());
+        match written {
+            Written::Path(p) => eprintln!("{name} written to {}", p.display()),
+            Written::Paths(ps) => {
+                let shown: Vec<String> = ps.iter().map(|p| p.display().to_string()).collect();
+                eprintln!("{name} written to {}", shown.join(" and "));
+            }
+            Written::Stdout => {}
         }
     }
     Ok(())

@@ -16,6 +16,6 @@ mod types;
 
 pub use parse::{parse_plan, read_plan};
 pub use types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
-    Step,
+    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, Magnetometer, Mount, Plan, Probe, Rod,
+    Site, Step,
 };

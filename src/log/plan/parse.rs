@@ -12,8 +12,8 @@ use super::raw::{
     RawStep,
 };
 use super::types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
-    Step,
+    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, Magnetometer, Mount, Plan, Probe, Rod,
+    Site, Step,
 };
 use crate::log::error::{PlanError, Shown};
 use crate::log::units::FieldUnit;
@@ -47,6 +47,14 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         }),
         None => None,
     };
+    let gyro = raw
+        .gyro
+        .map(|g| {
+            Ok::<_, PlanError>(Gyro {
+                serial: v.label("gyro.serial", g.serial)?,
+            })
+        })
+        .transpose()?;
     let rods = v.rods(raw.rod)?;
     let dipole_test = raw.dipole_test.map(|d| v.dipole_test(d)).transpose()?;
     let dir = plan_dir(path);
@@ -60,6 +68,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         probe,
         site,
         cage,
+        gyro,
         rods,
         dipole_test,
         steps,
@@ -143,6 +152,17 @@ impl Validator<'_> {
         }
     }
 
+    /// Optional one-line text (a serial, a name): trimmed, printable, empty as absent.
+    fn label(&self, key: &str, v: Option<String>) -> Result<Option<String>, PlanError> {
+        match v {
+            Some(t) => {
+                self.plain_text(key, &t)?;
+                Ok(Some(t.trim().to_string()).filter(|t| !t.is_empty()))
+            }
+            None => Ok(None),
+        }
+    }
+
     fn article(&self, a: RawArticle) -> Result<Article, PlanError> {
         if a.serial.trim().is_empty() {
             return Err(self.invalid("article.serial", "must not be empty".into()));
@@ -152,9 +172,20 @@ impl Validator<'_> {
         }
         self.plain_text("article.serial", &a.serial)?;
         self.plain_text("article.build", &a.build)?;
+        let notes = match a.notes {
+            Some(n) => {
+                // Line breaks are kept in notes; other control characters are refused.
+                self.plain_text("article.notes", &n.replace(['\n', '\r', '\t'], " "))?;
+                Some(n.trim().to_string()).filter(|n| !n.is_empty())
+            }
+            None => None,
+        };
         Ok(Article {
             serial: a.serial.trim().to_string(),
             build: a.build.trim().to_string(),
+            operator: self.label("article.operator", a.operator)?,
+            facility: self.label("article.facility", a.facility)?,
+            notes,
         })
     }
 
@@ -172,6 +203,7 @@ impl Validator<'_> {
                 .transpose()
                 .map_err(|e| self.invalid("magnetometer.unit", e.to_string()))?,
             range_nt: self.positive("magnetometer.range_nt", m.range_nt)?,
+            serial: self.label("magnetometer.serial", m.serial)?,
         })
     }
 
@@ -249,6 +281,7 @@ impl Validator<'_> {
                     .positive(&key("dipole_per_command_am2"), r.dipole_per_command_am2)?,
                 length_m: self.positive(&key("length_m"), r.length_m)?,
                 settle_s: self.positive(&key("settle_s"), r.settle_s)?,
+                serial: self.label(&key("serial"), r.serial)?,
             });
         }
         Ok(rods)

@@ -13,6 +13,7 @@ pub(super) struct RawPlan {
     pub(super) probe: Option<RawProbe>,
     pub(super) site: Option<RawSite>,
     pub(super) cage: Option<RawCage>,
+    pub(super) gyro: Option<RawGyro>,
     #[serde(default)]
     pub(super) rod: Vec<RawRod>,
     pub(super) dipole_test: Option<RawDipoleTest>,
@@ -27,6 +28,9 @@ pub(super) struct RawPlan {
 pub(super) struct RawArticle {
     pub(super) serial: String,
     pub(super) build: String,
+    pub(super) operator: Option<String>,
+    pub(super) facility: Option<String>,
+    pub(super) notes: Option<String>,
 }
 
 #[derive(Deserialize)]
@@ -36,6 +40,13 @@ pub(super) struct RawMagnetometer {
     pub(super) position_m: Option<[f64; 3]>,
     pub(super) unit: Option<String>,
     pub(super) range_nt: Option<f64>,
+    pub(super) serial: Option<String>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawGyro {
+    pub(super) serial: Option<String>,
 }
 
 #[derive(Deserialize)]
@@ -71,6 +82,7 @@ pub(super) struct RawRod {
     pub(super) dipole_per_command_am2: Option<f64>,
     pub(super) length_m: Option<f64>,
     pub(super) settle_s: Option<f64>,
+    pub(super) serial: Option<String>,
 }
 
 #[derive(Deserialize)]

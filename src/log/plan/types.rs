@@ -26,6 +26,8 @@ pub struct Plan {
     pub site: Option<Site>,
     /// `[cage]`: how the article sits in the cage.
     pub cage: Option<Cage>,
+    /// `[gyro]`: the gyro's identity (its part serial).
+    pub gyro: Option<Gyro>,
     /// `[[rod]]`: torque rods.
     pub rods: Vec<Rod>,
     /// `[dipole_test]`: turntable geometry.
@@ -45,6 +47,19 @@ pub struct Article {
     pub serial: String,
     /// Build label.
     pub build: String,
+    /// Who ran the tests (shown in reports and flight parameters).
+    pub operator: Option<String>,
+    /// Where the tests were run.
+    pub facility: Option<String>,
+    /// Free text shown in reports (one paragraph; line breaks kept).
+    pub notes: Option<String>,
+}
+
+/// `[gyro]`.
+#[derive(Debug, Clone, Default)]
+pub struct Gyro {
+    /// Part serial number.
+    pub serial: Option<String>,
 }
 
 /// `[magnetometer]`.
@@ -58,6 +73,8 @@ pub struct Magnetometer {
     pub unit: Option<FieldUnit>,
     /// Full-scale range per axis, nT: readings at or beyond it are flagged as saturated.
     pub range_nt: Option<f64>,
+    /// Part serial number.
+    pub serial: Option<String>,
 }
 
 /// `[probe]`: an external magnetometer placed near the article.
@@ -120,6 +137,8 @@ pub struct Rod {
     /// Time the rod's field takes to settle after a command change, s (the blanking
     /// window of a calibration with rods in the log; default 0.2 s).
     pub settle_s: Option<f64>,
+    /// Part serial number.
+    pub serial: Option<String>,
 }
 
 /// `[dipole_test]`.
