@@ -32,6 +32,8 @@ mod polarity;
 mod reliability;
 #[path = "cli/report.rs"]
 mod report;
+#[path = "cli/report_units.rs"]
+mod report_units;
 #[path = "cli/simulate.rs"]
 mod simulate;
 #[path = "cli/verdicts.rs"]

@@ -78,6 +78,16 @@ pub fn run_report(
             sha256: sha256.to_string(),
         })
         .collect();
+    let mut sections = sections;
+    if let (Some(plan), false) = (plan, sections.is_empty()) {
+        // A closeout's JSON holds each step's result; a single check's is the result.
+        let results: Vec<&serde_json::Value> = match result["steps"].as_array() {
+            Some(steps) => steps.iter().map(|s| &s["result"]).collect(),
+            None => vec![&result],
+        };
+        let echoed = magproof::report::sections::assumptions_section(plan, &results);
+        sections.insert(0, echoed);
+    }
     Ok(RunReport {
         title: title.to_string(),
         article: plan

@@ -214,7 +214,27 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
         }
         root.present().map_err(plot_err)?;
     }
-    Ok(svg)
+    Ok(with_axis_labels(svg, &plot.x_label, &plot.y_label))
+}
+
+/// The SVG with its axis labels also as attributes of the root element
+/// (`data-x-label`, `data-y-label`), so that a check of a report can read them.
+fn with_axis_labels(svg: String, x_label: &str, y_label: &str) -> String {
+    let attr = |s: &str| {
+        s.replace('&', "&amp;")
+            .replace('"', "&quot;")
+            .replace('<', "&lt;")
+    };
+    match svg.find("<svg") {
+        Some(i) => format!(
+            "{}<svg data-x-label=\"{}\" data-y-label=\"{}\"{}",
+            &svg[..i],
+            attr(x_label),
+            attr(y_label),
+            &svg[i + 4..]
+        ),
+        None => svg,
+    }
 }
 
 /// The x and y ranges in data units: fixed, else the data's, else 0–1; widened for an
@@ -332,7 +352,7 @@ pub fn draw_histogram(
             .x_label_formatter(&|v| tick(*v, hi - lo))
             .y_label_formatter(&|v| tick(*v, top))
             .x_desc(x_label)
-            .y_desc("samples")
+            .y_desc(HISTOGRAM_Y)
             .light_line_style(RGBColor(0xee, 0xee, 0xee))
             .label_style(("sans-serif", 12))
             .draw()
@@ -346,8 +366,11 @@ pub fn draw_histogram(
             .map_err(plot_err)?;
         root.present().map_err(plot_err)?;
     }
-    Ok(svg)
+    Ok(with_axis_labels(svg, x_label, HISTOGRAM_Y))
 }
+
+/// The y axis of a histogram.
+const HISTOGRAM_Y: &str = "samples [count per bin]";
 
 /// Points of an ellipse `centre + a·cos θ + b·sin θ` (for fitted-shape overlays).
 pub fn ellipse_points(

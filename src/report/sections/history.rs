@@ -11,6 +11,9 @@ use crate::report::model::{Cell, Figure, Section, Table, Tone, Verdict};
 use crate::report::plot::{draw_xy, Series, XyPlot};
 use crate::Error;
 
+/// The build axis of the history plots: builds numbered in ledger order.
+const BUILD_AXIS: &str = "build [number in ledger order]";
+
 /// Most change rows shown in the table (all are in the JSON).
 const MAX_CHANGE_ROWS: usize = 80;
 
@@ -236,7 +239,11 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
             format!(
                 "{} {}: {} went from pass to fail between builds {} and {}; find what was \
                  added or changed in that build",
-                c.serial, c.kind, c.quantity, c.from_build, c.to_build
+                c.serial,
+                c.kind,
+                change_label(c),
+                c.from_build,
+                c.to_build
             )
         })
         .collect();
@@ -277,7 +284,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
     let n_builds = rows.iter().map(|r| r.ordinal).fold(1.0, f64::max);
     let x_range = Some((0.5, n_builds + 0.5));
 
-    let mut dip = XyPlot::new("Residual dipole across builds", "build", "|m| [A·m²]");
+    let mut dip = XyPlot::new("Residual dipole across builds", BUILD_AXIS, "|m| [A·m²]");
     let mut limits = Vec::new();
     for (k, g) in groups.iter().enumerate() {
         let s = g[0].serial;
@@ -314,7 +321,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         ));
     }
 
-    let mut hi = XyPlot::new("Hard iron across builds", "build", "hard iron [nT]");
+    let mut hi = XyPlot::new("Hard iron across builds", BUILD_AXIS, "hard iron [nT]");
     for g in &groups {
         let s = g[0].serial;
         for a in 0..3 {
@@ -349,7 +356,7 @@ fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
         ));
     }
 
-    let mut res = XyPlot::new("Calibration residual across builds", "build", "RMS [nT]");
+    let mut res = XyPlot::new("Calibration residual across builds", BUILD_AXIS, "RMS [nT]");
     let mut limits = Vec::new();
     for (k, g) in groups.iter().enumerate() {
         let s = g[0].serial;

@@ -115,11 +115,7 @@ fn rod_row(rod: &RodResult) -> Vec<Cell> {
             (None, _) => "-".into(),
         }),
         Cell::plain(pm(c.norm(), Some(sigma), "")),
-        Cell::plain(if rod.snr.is_finite() {
-            format!("{:.0}", rod.snr)
-        } else {
-            "inf".into()
-        }),
+        Cell::plain(snr_text(rod.snr)),
         Cell::plain(match (rod.gain_ratio, rod.gain_ratio_sigma) {
             (Some(g), s) => {
                 let mark = if rod.gain_reliable == Some(false) {
@@ -276,5 +272,32 @@ mod tests {
     fn file_names_are_safe_and_unique() {
         assert_eq!(file_safe("x", 0), "x");
         assert_eq!(file_safe("a/b", 2), "2-a_b");
+    }
+}
+
+/// An SNR a reader takes in at a glance: whole numbers with thousands grouped below
+/// 10⁶ (`12 400`), "> 10⁶" above (beyond any decision the check makes).
+fn snr_text(snr: f64) -> String {
+    if !snr.is_finite() || snr >= 1e6 {
+        return "> 10⁶".into();
+    }
+    let whole = format!("{:.0}", snr.max(0.0));
+    let mut out = String::new();
+    for (k, c) in whole.chars().enumerate() {
+        if k > 0 && (whole.len() - k) % 3 == 0 {
+            out.push('\u{2009}');
+        }
+        out.push(c);
+    }
+    out
+}
+
+#[cfg(test)]
+mod snr_tests {
+    #[test]
+    fn snr_is_grouped_and_capped() {
+        assert_eq!(super::snr_text(7.4), "7");
+        assert_eq!(super::snr_text(12_400.0), "12\u{2009}400");
+        assert_eq!(super::snr_text(3.0e7), "> 10⁶");
     }
 }
