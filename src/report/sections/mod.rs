@@ -9,6 +9,7 @@ pub mod change_text;
 mod dipole;
 mod history;
 mod polarity;
+mod polarity_stack;
 
 pub use assumptions::assumptions_section;
 pub use calibration::calibration_section;

@@ -188,8 +188,10 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
         .with(Series::dashed("command×|c|", command, 1))
         .with(Series::line("model", model, 3));
         plot.size = (540, 340);
+        let stem = file_safe(&rod.name, k);
+        let stacked = super::polarity_stack::stacked_pulses(r, k, &plot.series[0].points, &stem)?;
         figs.push(figure(
-            &format!("polarity-rod-{}.svg", file_safe(&rod.name, k)),
+            &format!("polarity-rod-{stem}.svg"),
             &format!(
                 "Rod {}: field at the sensor with drift and the other rods' fitted responses \
                  removed, along the direction the plan predicts (dots); the fitted model \
@@ -199,6 +201,7 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
             ),
             draw_xy(&plot)?,
         ));
+        figs.extend(stacked);
     }
     Ok(figs)
 }
@@ -252,7 +255,20 @@ mod tests {
         assert!(row[1].text.starts_with("reversed"));
         assert_eq!(row[1].tone, Tone::Bad);
         assert_eq!(s.tables[0].rows[0][1].tone, Tone::Good);
-        assert_eq!(s.figures.len(), r.rods.len());
+        // Per rod: its time plot and its pulses stacked on their turn-off edge, with the
+        // blanking window marked.
+        assert_eq!(s.figures.len(), 2 * r.rods.len());
+        let stack = s
+            .figures
+            .iter()
+            .find(|f| f.file_name == "polarity-stack-y.svg")
+            .unwrap();
+        assert!(
+            stack.caption.contains("blanking window (dashed"),
+            "{}",
+            stack.caption
+        );
+        assert!(stack.svg.contains("time from command off [s]"));
         assert_eq!(s.result, serde_json::to_value(&r).unwrap());
         // The reversed rod's coupling points against the expected direction: the plotted
         // model (coupling along expected × command) has the opposite sign of the command.
