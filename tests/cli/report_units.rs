@@ -160,3 +160,24 @@ fn negative_zero_detection_is_itself_right() {
     assert!(has_negative_zero("Δ -0.0000 nT"));
     assert!(!has_negative_zero("-0.0001 nT, x-0, 1e-0"));
 }
+
+#[test]
+fn a_cage_report_has_captions_of_its_own_and_units_on_every_axis() {
+    let d = TestDir::new();
+    let out = d
+        .magproof()
+        .args(["calibrate", "--report", "rep"])
+        .arg(crate::util::data("calib_cage.csv"))
+        .output()
+        .unwrap();
+    assert!(
+        matches!(out.status.code(), Some(0 | 1)),
+        "{}",
+        crate::util::stderr(&out)
+    );
+    let page = d.join("rep/report.html");
+    check_page(&page);
+    let html = std::fs::read_to_string(&page).unwrap();
+    assert!(html.contains("during the cage sweep") && html.contains("the coils applied"));
+    assert!(!html.contains("tumble should spread") && !html.contains("reference circle"));
+}
