@@ -78,7 +78,7 @@ pub fn stacked_pulses(
             plot = plot.with(Series::line(name, pts, 0));
         }
     }
-    if plot.series.is_empty() || !(lo < hi) {
+    if plot.series.is_empty() || !lo.is_finite() || hi <= lo {
         return Ok(None);
     }
     plot = plot.with(Series::dashed("command off", vec![(0.0, lo), (0.0, hi)], 4));
