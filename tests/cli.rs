@@ -8,6 +8,8 @@ mod util;
 mod battery_input;
 #[path = "cli/battery_ledger.rs"]
 mod battery_ledger;
+#[path = "cli/battery_numbers.rs"]
+mod battery_numbers;
 #[path = "cli/battery_outputs.rs"]
 mod battery_outputs;
 #[path = "cli/calibrate.rs"]
