@@ -10,6 +10,8 @@ mod battery_input;
 mod battery_ledger;
 #[path = "cli/battery_numbers.rs"]
 mod battery_numbers;
+#[path = "cli/battery_old_ledger.rs"]
+mod battery_old_ledger;
 #[path = "cli/battery_outputs.rs"]
 mod battery_outputs;
 #[path = "cli/calibrate.rs"]

@@ -106,7 +106,8 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
     }
     out.push_str(&format!("  overall         {}\n", result.verdict().word()));
     if let Some(r) = recorded {
-        out.push_str(&format!("  ledger          {}\n", r.ledger.display()));
+        let shown = magproof::text::printable(&r.ledger.display().to_string());
+        out.push_str(&format!("  ledger          {shown}\n"));
     }
     out
 }

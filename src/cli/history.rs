@@ -105,7 +105,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             .collect();
         eprintln!(
             "magproof: {}: no run matches; serials in the ledger: {}",
-            path.display(),
+            printable(&path.display().to_string()),
             if serials.is_empty() {
                 "none".to_string()
             } else {
@@ -142,7 +142,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             runs: &runs,
             changes: &changes,
         };
-        outln!("{}", serde_json::to_string_pretty(&doc)?)?;
+        outln!(
+            "{}",
+            magproof::text::json_for_terminal(serde_json::to_string_pretty(&doc)?)
+        )?;
         return Ok(Outcome::Passed);
     }
     out!("{}", render(&path, &runs, &changes)?)?;
