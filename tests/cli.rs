@@ -14,6 +14,8 @@ mod battery_numbers;
 mod battery_old_ledger;
 #[path = "cli/battery_outputs.rs"]
 mod battery_outputs;
+#[path = "cli/battery_versions.rs"]
+mod battery_versions;
 #[path = "cli/calibrate.rs"]
 mod calibrate;
 #[path = "cli/closeout.rs"]
