@@ -15,6 +15,7 @@ use super::types::{
     Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
     Step,
 };
+use super::types::{MAX_CONDITION, MAX_DIPOLE_AM2, MAX_SETTLE_S, MAX_SOFT_IRON};
 use crate::log::error::{PlanError, Shown};
 use crate::log::units::FieldUnit;
 use crate::physics::frames::{check_rotation, rotation_from_axes};
@@ -72,16 +73,6 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
 
 /// Largest |coordinate| of a position in a plan, m.
 pub const MAX_POSITION_M: f64 = 100.0;
-
-/// Largest magnetic moment in a plan (a rod's per-command dipole, a dipole limit), A·m²:
-/// the largest flight torque rods give some hundreds of A·m² (common practice).
-pub const MAX_DIPOLE_AM2: f64 = 1.0e4;
-/// Longest settle time of a rod, s.
-pub const MAX_SETTLE_S: f64 = 3600.0;
-/// Largest soft-iron scale in a limit (a soft-iron matrix is near the identity).
-pub const MAX_SOFT_IRON: f64 = 100.0;
-/// Largest condition-number limit (beyond it no fit is trustworthy in f64).
-pub const MAX_CONDITION: f64 = 1.0e12;
 
 /// Checks of single values, with errors naming the key and the plan file.
 struct Validator<'a> {
