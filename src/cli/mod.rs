@@ -32,6 +32,7 @@ mod field;
 mod flight_out;
 mod history;
 mod inspect;
+mod numeric;
 mod polarity;
 mod present;
 mod record;

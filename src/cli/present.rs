@@ -129,11 +129,12 @@ pub fn emit(
     record()?;
     let mut stdout = std::io::stdout().lock();
     for (name, written) in magproof::report::writer::write_all(writers, report, &mut stdout)? {
+        let shown = |p: &std::path::Path| magproof::text::printable(&p.display().to_string());
         match written {
-            Written::Path(p) => eprintln!("{name} written to {}", p.display()),
+            Written::Path(p) => eprintln!("{name} written to {}", shown(&p)),
             Written::Paths(ps) => {
-                let shown: Vec<String> = ps.iter().map(|p| p.display().to_string()).collect();
-                eprintln!("{name} written to {}", shown.join(" and "));
+                let all: Vec<String> = ps.iter().map(|p| shown(p)).collect();
+                eprintln!("{name} written to {}", all.join(" and "));
             }
             Written::Stdout => {}
         }

@@ -245,16 +245,23 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
         }
         root.present().map_err(plot_err)?;
     }
-    Ok(with_axis_labels(svg, &plot.x_label, &plot.y_label))
+    // Labels may hold text of an old ledger: nothing XML forbids reaches the file.
+    Ok(with_axis_labels(
+        crate::text::xml_clean(svg),
+        &plot.x_label,
+        &plot.y_label,
+    ))
 }
 
 /// The SVG with its axis labels also as attributes of the root element
 /// (`data-x-label`, `data-y-label`), so that a check of a report can read them.
 fn with_axis_labels(svg: String, x_label: &str, y_label: &str) -> String {
     let attr = |s: &str| {
-        s.replace('&', "&amp;")
-            .replace('"', "&quot;")
-            .replace('<', "&lt;")
+        crate::text::xml_clean(
+            s.replace('&', "&amp;")
+                .replace('"', "&quot;")
+                .replace('<', "&lt;"),
+        )
     };
     match svg.find("<svg") {
         Some(i) => format!(
@@ -417,7 +424,12 @@ pub fn draw_histogram(
             .map_err(plot_err)?;
         root.present().map_err(plot_err)?;
     }
-    Ok(with_axis_labels(svg, x_label, HISTOGRAM_Y))
+    // Labels may hold text of an old ledger: nothing XML forbids reaches the file.
+    Ok(with_axis_labels(
+        crate::text::xml_clean(svg),
+        x_label,
+        HISTOGRAM_Y,
+    ))
 }
 
 /// The y axis of a histogram.
