@@ -99,31 +99,7 @@ impl FlightParams {
         let calibration = cal
             .map(|c| mag_calibration(c, &s2b, &mut notes))
             .transpose()?;
-        let (coupling, coupling_sigma) = match pol {
-            Some(p) if p.sensor == SensorChoice::Magnetometer => (
-                Some(
-                    p.rods
-                        .iter()
-                        .map(|r| cleaned(r.coupling_nt_per_command))
-                        .collect(),
-                ),
-                Some(
-                    p.rods
-                        .iter()
-                        .map(|r| cleaned(r.coupling_sigma_nt_per_command))
-                        .collect(),
-                ),
-            ),
-            Some(_) => {
-                notes.push(
-                    "the polarity check used the external [probe]: the rods' coupling at the \
-                     flight magnetometer was not measured and is not given"
-                        .to_string(),
-                );
-                (None, None)
-            }
-            None => (None, None),
-        };
+        let (coupling, coupling_sigma) = coupling_at_magnetometer(pol, &mut notes);
         let mag = MagnetometerParams {
             name: UNNAMED_MAGNETOMETER.to_string(),
             serial: plan_mag.and_then(|m| m.serial.clone()),
@@ -134,39 +110,16 @@ impl FlightParams {
             rod_coupling_sigma_nt_per_command: coupling_sigma,
         };
         let rods = pol.map(|p| rod_params(p, src.plan)).unwrap_or_default();
-        let blanking_window_s = if rods.is_empty() {
-            None
-        } else {
-            rods.iter()
-                .map(|r| r.blanking.as_ref().and_then(|b| b.window_s))
-                .collect::<Option<Vec<f64>>>()
-                .and_then(|w| w.into_iter().reduce(f64::max))
-        };
-        if !rods.is_empty() && blanking_window_s.is_none() {
-            notes.push(
-                "no blanking window: a rod's pulses did not settle often enough to give one \
-                 (see rods[].blanking)"
-                    .to_string(),
-            );
-        }
+        let blanking_window_s = overall_blanking(&rods, &mut notes);
         notes.push(
             "gyro bias and scale: not measured by any check of this run (the gyros list is \
              empty)"
                 .to_string(),
         );
-        let article = src.plan.and_then(|p| p.article.as_ref());
         let mut params = FlightParams {
             layout: LAYOUT,
             prefix: PREFIX,
-            identity: Identity {
-                serial: article.map(|a| a.serial.clone()),
-                build: article.map(|a| a.build.clone()),
-                operator: article.and_then(|a| a.operator.clone()),
-                facility: article.and_then(|a| a.facility.clone()),
-                generated_at: src.generated_at.clone(),
-                generated_by: format!("magproof {}", crate::VERSION),
-                inputs: src.inputs.clone(),
-            },
+            identity: identity(src),
             verdict: src.verdict,
             verdict_passed: src.verdict == Verdict::Pass,
             order_of_operations: ORDER_OF_OPERATIONS.to_vec(),
@@ -207,6 +160,71 @@ impl FlightParams {
             + Vector3::from(cal.temp_slope_nt_per_c) * (temp_c - cal.temp_ref_c);
         let b2 = matrix(&cal.soft_iron) * (b1 - c);
         Some((matrix(&mag.sensor_to_body) * b2).into())
+    }
+}
+
+/// Rows of the coupling and of its 1σ per rod, when the polarity check measured them at
+/// the flight magnetometer (not at the external probe).
+type Coupling = (Option<Vec<[f64; 3]>>, Option<Vec<[f64; 3]>>);
+
+fn coupling_at_magnetometer(pol: Option<&PolarityResult>, notes: &mut Vec<String>) -> Coupling {
+    match pol {
+        Some(p) if p.sensor == SensorChoice::Magnetometer => (
+            Some(
+                p.rods
+                    .iter()
+                    .map(|r| cleaned(r.coupling_nt_per_command))
+                    .collect(),
+            ),
+            Some(
+                p.rods
+                    .iter()
+                    .map(|r| cleaned(r.coupling_sigma_nt_per_command))
+                    .collect(),
+            ),
+        ),
+        Some(_) => {
+            notes.push(
+                "the polarity check used the external [probe]: the rods' coupling at the \
+                 flight magnetometer was not measured and is not given"
+                    .to_string(),
+            );
+            (None, None)
+        }
+        None => (None, None),
+    }
+}
+
+/// The largest of the rods' windows; `None` (with a note) when a rod has none.
+fn overall_blanking(rods: &[RodParams], notes: &mut Vec<String>) -> Option<f64> {
+    if rods.is_empty() {
+        return None;
+    }
+    let w = rods
+        .iter()
+        .map(|r| r.blanking.as_ref().and_then(|b| b.window_s))
+        .collect::<Option<Vec<f64>>>()
+        .and_then(|w| w.into_iter().reduce(f64::max));
+    if w.is_none() {
+        notes.push(
+            "no blanking window: a rod's pulses did not settle often enough to give one \
+             (see rods[].blanking)"
+                .to_string(),
+        );
+    }
+    w
+}
+
+fn identity(src: &FlightSources<'_>) -> Identity {
+    let article = src.plan.and_then(|p| p.article.as_ref());
+    Identity {
+        serial: article.map(|a| a.serial.clone()),
+        build: article.map(|a| a.build.clone()),
+        operator: article.and_then(|a| a.operator.clone()),
+        facility: article.and_then(|a| a.facility.clone()),
+        generated_at: src.generated_at.clone(),
+        generated_by: format!("magproof {}", crate::VERSION),
+        inputs: src.inputs.clone(),
     }
 }
 

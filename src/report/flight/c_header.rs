@@ -294,7 +294,6 @@ fn magnetometers(s: &mut String, p: &FlightParams) -> Result<(), Error> {
 
 fn rods(s: &mut String, p: &FlightParams) -> Result<(), Error> {
     let n = p.rods.len();
-    let m = p.magnetometers.len();
     let _ = writeln!(s, "#define {PREFIX}_ROD_COUNT {n}");
     if n == 0 {
         let _ = writeln!(
@@ -357,6 +356,12 @@ fn rods(s: &mut String, p: &FlightParams) -> Result<(), Error> {
         &format!("[{n}][3]"),
         &axes,
     )?;
+    coupling_arrays(s, p)
+}
+
+/// The coupling of every rod at every magnetometer, or a comment saying why not.
+fn coupling_arrays(s: &mut String, p: &FlightParams) -> Result<(), Error> {
+    let (m, n) = (p.magnetometers.len(), p.rods.len());
     let coupling: Option<Vec<&Vec<[f64; 3]>>> = p
         .magnetometers
         .iter()

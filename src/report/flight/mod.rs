@@ -4,7 +4,8 @@
 //! date, tool version, SHA-256 of every input). The layout is documented in
 //! `docs/flight-parameters.md`.
 //!
-//! What goes in comes from the results that measured it ([`FlightPart`]): a calibration
+//! What goes in comes from the results that measured it
+//! ([`FlightPart`](crate::check::FlightPart)): a calibration
 //! gives each magnetometer's hard iron and W, a polarity check the rods' coupling at the
 //! magnetometer, their measured dipole per command and the blanking window
 //! ([`blanking`]). Flight software applies them in one order, per magnetometer

@@ -78,6 +78,48 @@ fn article_table(plan: &Plan) -> Table {
     }
 }
 
+/// One rod's rows: axis, centre, nominal dipole, length, settle time.
+fn rod_rows(r: &crate::log::plan::Rod) -> Vec<Vec<Cell>> {
+    let mut rows = Vec::new();
+    let s = r.serial.as_deref();
+    let part = format!("rod {}", r.name);
+    rows.push(row(
+        &part,
+        s,
+        "positive dipole axis, body frame",
+        v3(&r.axis_body),
+        "unit vector",
+    ));
+    rows.push(row(&part, s, "centre, body frame", v3(&r.position_m), "m"));
+    if let Some(d) = r.dipole_per_command_am2 {
+        rows.push(row(
+            &part,
+            s,
+            "nominal dipole per command",
+            short(d),
+            "A·m² per command unit",
+        ));
+    }
+    if let Some(l) = r.length_m {
+        rows.push(row(&part, s, "length", short(l), "m"));
+    }
+    let settle = r.settle_s.map_or(
+        format!(
+            "{} (default)",
+            short(crate::check::calibrate::DEFAULT_SETTLE_S)
+        ),
+        short,
+    );
+    rows.push(row(
+        &part,
+        s,
+        "settle time blanked in a calibration",
+        settle,
+        "s",
+    ));
+    rows
+}
+
 fn geometry_rows(plan: &Plan) -> Vec<Vec<Cell>> {
     let mut rows = Vec::new();
     if let Some(m) = &plan.magnetometer {
@@ -93,44 +135,7 @@ fn geometry_rows(plan: &Plan) -> Vec<Vec<Cell>> {
             rows.push(row("magnetometer", s, "position, body frame", v3(p), "m"));
         }
     }
-    for r in &plan.rods {
-        let s = r.serial.as_deref();
-        let part = format!("rod {}", r.name);
-        rows.push(row(
-            &part,
-            s,
-            "positive dipole axis, body frame",
-            v3(&r.axis_body),
-            "unit vector",
-        ));
-        rows.push(row(&part, s, "centre, body frame", v3(&r.position_m), "m"));
-        if let Some(d) = r.dipole_per_command_am2 {
-            rows.push(row(
-                &part,
-                s,
-                "nominal dipole per command",
-                short(d),
-                "A·m² per command unit",
-            ));
-        }
-        if let Some(l) = r.length_m {
-            rows.push(row(&part, s, "length", short(l), "m"));
-        }
-        let settle = r.settle_s.map_or(
-            format!(
-                "{} (default)",
-                short(crate::check::calibrate::DEFAULT_SETTLE_S)
-            ),
-            short,
-        );
-        rows.push(row(
-            &part,
-            s,
-            "settle time blanked in a calibration",
-            settle,
-            "s",
-        ));
-    }
+    rows.extend(plan.rods.iter().flat_map(rod_rows));
     if let Some(p) = &plan.probe {
         rows.push(row(
             "probe",
