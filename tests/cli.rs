@@ -10,6 +10,8 @@ mod battery_input;
 mod battery_ledger;
 #[path = "cli/battery_outputs.rs"]
 mod battery_outputs;
+#[path = "cli/cage_amps.rs"]
+mod cage_amps;
 #[path = "cli/calibrate.rs"]
 mod calibrate;
 #[path = "cli/closeout.rs"]
@@ -24,6 +26,8 @@ mod field;
 mod history;
 #[path = "cli/input.rs"]
 mod input;
+#[path = "cli/log_forms.rs"]
+mod log_forms;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]

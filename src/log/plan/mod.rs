@@ -9,6 +9,7 @@
 //! turn one into the other (using both).
 
 mod parse;
+mod parse_logs;
 mod raw;
 #[cfg(test)]
 mod tests;
@@ -16,6 +17,6 @@ mod types;
 
 pub use parse::{parse_plan, read_plan};
 pub use types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
-    Step,
+    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, LogSettings, Magnetometer, Mount, Plan,
+    Probe, Rod, Site, Step,
 };
