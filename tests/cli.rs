@@ -34,6 +34,8 @@ mod polarity;
 mod reliability;
 #[path = "cli/report.rs"]
 mod report;
+#[path = "cli/sensors.rs"]
+mod sensors;
 #[path = "cli/simulate.rs"]
 mod simulate;
 #[path = "cli/verdicts.rs"]

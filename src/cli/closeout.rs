@@ -61,13 +61,13 @@ pub fn run_and_record(
         .map(|s| {
             // Step log paths are already resolved against the plan's folder.
             let options = serde_json::json!({ "skip_bad_rows": skip_bad_rows });
-            NewRun::from_result(
-                &result.plan,
-                s.result.as_ref(),
-                (&s.log, &s.log_sha256),
-                options,
-            )
-            .map_err(magproof::Error::from)
+            // The step's magnetometer goes with its record.
+            let mut plan = result.plan.clone();
+            if s.sensor.is_some() {
+                plan.select_sensor(s.sensor.as_deref())?;
+            }
+            NewRun::from_result(&plan, s.result.as_ref(), (&s.log, &s.log_sha256), options)
+                .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
     let recorded = Ledger::open(path)

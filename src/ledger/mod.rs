@@ -22,6 +22,7 @@ pub mod history;
 mod quantity;
 mod record;
 mod schema;
+pub mod tracks;
 
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
@@ -290,8 +291,8 @@ impl Ledger {
             })?;
             tx.execute(
                 "INSERT INTO runs (serial, build, kind, recorded_at, input_key, pass, result,
-                                   tool_version)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
+                                   tool_version, sensor)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
                 params![
                     run.serial,
                     run.build,
@@ -300,7 +301,8 @@ impl Ledger {
                     key,
                     run.pass(),
                     result_text,
-                    crate::VERSION
+                    crate::VERSION,
+                    run.sensor
                 ],
             )
             .map_err(db)?;
