@@ -116,7 +116,15 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
 pub fn closeout_report(result: &CloseoutResult) -> anyhow::Result<RunReport> {
     let mut sections = Vec::with_capacity(result.steps.len());
     for s in &result.steps {
-        for mut section in s.result.sections()? {
+        for (k, mut section) in s.result.sections()?.into_iter().enumerate() {
+            if k == 0 && !s.ignored_columns.is_empty() {
+                section
+                    .notes
+                    .push(super::present::ignored_note(&s.ignored_columns));
+            }
+            if let (0, Some(sensor)) = (k, &s.sensor) {
+                section.notes.push(format!("Magnetometer: {sensor}."));
+            }
             // Figure files must stay unique when a plan has two steps of one kind.
             for f in &mut section.figures {
                 f.file_name = format!("step{}-{}", s.index, f.file_name);

@@ -75,6 +75,15 @@ fn each_step_reads_its_sensor_and_history_compares_like_with_like() {
             serde_json::json!(["B_X [uT]", "B_Y [uT]", "B_Z [uT]"])
         );
     }
+    // The terminal summary names each step's sensor and the columns it ignored.
+    let p = d.join("b2.toml");
+    let r = d.run(&["closeout", p.to_str().unwrap(), "--no-record"]);
+    let text = crate::util::stdout(&r);
+    assert!(
+        text.contains("Magnetometer: A") && text.contains("Magnetometer: B"),
+        "{text}"
+    );
+    assert!(text.contains("(ignored): B_X [uT]"), "{text}");
     let conn = rusqlite::Connection::open(d.join("l.db")).unwrap();
     let sensors: Vec<Option<String>> = conn
         .prepare("SELECT sensor FROM runs ORDER BY id")
