@@ -11,6 +11,7 @@ use super::types::{Cage, Gyro, LogSettings, Magnetometer, Step};
 use crate::log::error::PlanError;
 use crate::log::layout::is_known_quantity;
 use crate::log::units::FieldUnit;
+use crate::screen::plausible::MAX_FIELD_NT;
 
 /// Largest |element| of a cage's coil constant, nT/A: a cage of a few metres gives
 /// around 10⁴–10⁵ nT/A (common practice); beyond 10⁹ is a unit mistake.
@@ -109,7 +110,7 @@ impl Validator<'_> {
                 .map(|p| self.position(&k("position_m"), p))
                 .transpose()?,
             unit,
-            range_nt: self.positive(&k("range_nt"), m.range_nt)?,
+            range_nt: self.positive_at_most(&k("range_nt"), m.range_nt, MAX_FIELD_NT)?,
         })
     }
 
