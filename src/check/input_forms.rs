@@ -68,7 +68,7 @@ pub(super) fn currents_to_field(
         .collect();
     let unusable = |needs: &str| LogError::Unusable {
         path: Shown(log.path.clone()),
-        column: columns.join("\", \""),
+        column: format!("columns \"{}\"", columns.join("\", \"")),
         needs: needs.to_string(),
     };
     if log.h_nt.is_some() {

@@ -123,11 +123,12 @@ pub enum LogError {
     },
     /// A column holds a quantity that needs something from the plan to be used (coil
     /// currents without `[cage] nt_per_amp`): refused, never ignored.
-    #[error("{path}: column \"{column}\": {needs}")]
+    #[error("{path}: {column}: {needs}")]
     Unusable {
         /// The log file.
         path: Shown,
-        /// The column(s) as written in the header.
+        /// The column or columns as written in the header, quoted (`columns "ix [A]",
+        /// "iy [A]", "iz [A]"`).
         column: String,
         /// What is needed, and where to give it.
         needs: String,
