@@ -16,6 +16,8 @@ mod battery_old_ledger;
 mod battery_outputs;
 #[path = "cli/battery_versions.rs"]
 mod battery_versions;
+#[path = "cli/cage_amps.rs"]
+mod cage_amps;
 #[path = "cli/calibrate.rs"]
 mod calibrate;
 #[path = "cli/closeout.rs"]
@@ -32,6 +34,8 @@ mod flight_params;
 mod history;
 #[path = "cli/input.rs"]
 mod input;
+#[path = "cli/log_forms.rs"]
+mod log_forms;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]
@@ -40,6 +44,8 @@ mod reliability;
 mod report;
 #[path = "cli/report_units.rs"]
 mod report_units;
+#[path = "cli/sensors.rs"]
+mod sensors;
 #[path = "cli/simulate.rs"]
 mod simulate;
 #[path = "cli/verdicts.rs"]

@@ -14,6 +14,7 @@ pub mod dipole;
 pub(crate) mod dummy;
 pub mod flight_part;
 pub mod input;
+mod input_forms;
 pub mod kind;
 pub mod outcome;
 pub mod polarity;

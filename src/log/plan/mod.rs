@@ -10,6 +10,7 @@
 
 mod locate;
 mod parse;
+mod parse_logs;
 mod raw;
 #[cfg(test)]
 mod tests;
@@ -17,6 +18,6 @@ mod types;
 
 pub use parse::{parse_plan, read_plan};
 pub use types::{
-    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, Magnetometer, Mount, Plan, Probe, Rod,
-    Site, Step,
+    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, LogSettings, Magnetometer, Mount, Plan,
+    Probe, Rod, Site, Step,
 };

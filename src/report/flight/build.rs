@@ -101,7 +101,10 @@ impl FlightParams {
             .transpose()?;
         let (coupling, coupling_sigma) = coupling_at_magnetometer(pol, &mut notes);
         let mag = MagnetometerParams {
-            name: UNNAMED_MAGNETOMETER.to_string(),
+            // The magnetometer in use: a named `[[magnetometer]]` entry, or the plan's one.
+            name: plan_mag
+                .and_then(|m| m.name.clone())
+                .unwrap_or_else(|| UNNAMED_MAGNETOMETER.to_string()),
             serial: plan_mag.and_then(|m| m.serial.clone()),
             calibration,
             sensor_to_body: rows(&s2b),
