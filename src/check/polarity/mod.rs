@@ -39,9 +39,9 @@ mod warning;
 
 use serde::Serialize;
 
-pub use result::{PolarityResult, PolaritySeries, PulseResult};
+pub use result::{PolarityResult, PolaritySeries, PulseResult, RodResult};
 pub use timing::DriftModel;
-pub use verdict::{consistency_limit_deg, RodResult, Verdict, MODEL_ERROR_DEG};
+pub use verdict::{consistency_limit_deg, Verdict, MODEL_ERROR_DEG};
 pub use warning::PolarityWarning;
 
 use crate::check::CheckRequest;
@@ -158,8 +158,7 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let measured = assess::measured_rods(&fitted, &pulses, &after, &rem, n_rods, columns.len());
     let mut rods = verdict::judge(
         plan,
-        &sensor.position_m,
-        &sensor.sensor_to_body,
+        &sensor,
         &measured,
         angle_max_deg.to_radians(),
         opts.snr_min,
