@@ -108,7 +108,7 @@ pub struct Change {
     pub from_build: String,
     /// Later build.
     pub to_build: String,
-    /// Quantity name (see [`Quantity::name`]; `soft_iron_max_element` for soft iron).
+    /// Quantity name (see [`Quantity::name`](super::Quantity::name); `soft_iron_max_element` for soft iron).
     pub quantity: String,
     /// Later minus earlier, in `unit`; `null` for verdicts.
     pub delta: Option<f64>,
