@@ -30,6 +30,8 @@ mod polarity;
 mod reliability;
 #[path = "cli/report.rs"]
 mod report;
+#[path = "cli/rod.rs"]
+mod rod;
 #[path = "cli/simulate.rs"]
 mod simulate;
 #[path = "cli/verdicts.rs"]

@@ -16,6 +16,7 @@ pub mod input;
 pub mod kind;
 pub mod outcome;
 pub mod polarity;
+pub mod rod;
 pub mod units_sense;
 
 pub use input::{CheckInput, InputOptions, InputWarning};

@@ -164,6 +164,7 @@ impl ColumnsBuilder {
         );
         log.probe_m = triple(take(&K::Probe(0)), take(&K::Probe(1)), take(&K::Probe(2)));
         log.temp_c = take(&K::Temperature);
+        log.current_a = take(&K::Current);
         log.angle_rad = take(&K::Angle);
         for (k, col) in header.columns.iter().enumerate() {
             if let ColumnKind::Command(rod) = &col.kind {

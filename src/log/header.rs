@@ -39,8 +39,10 @@ pub enum ColumnKind {
     Command(String),
     /// `angle`: turntable angle.
     Angle,
-    /// `mount`: mounting label.
+    /// `mount`: mounting label (also `position`: a probe station's label on a rod bench).
     Mount,
+    /// `i`: a torque rod's current on the bench, A (`mA` accepted).
+    Current,
     /// `px`, `py`, `pz`: probe position, table frame.
     Probe(usize),
     /// Anything else: listed once as ignored.
@@ -272,7 +274,15 @@ fn classify(
             };
             return Ok((ColumnKind::Angle, scale));
         }
-        "mount" => ColumnKind::Mount,
+        "mount" | "position" => ColumnKind::Mount,
+        "i" | "current" => {
+            let scale = match unit {
+                None | Some("A") => 1.0,
+                Some("mA") => 1e-3,
+                Some(u) => return Err(format!("unknown current unit \"{u}\" (expected A or mA)")),
+            };
+            return Ok((ColumnKind::Current, scale));
+        }
         _ => match name.strip_prefix("cmd_") {
             Some("") => return Err("a command column needs a rod name: cmd_<rod>".into()),
             Some(rod) => ColumnKind::Command(rod.to_string()),

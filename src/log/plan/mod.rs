@@ -10,11 +10,13 @@
 
 mod parse;
 mod raw;
+mod rod_bench;
 #[cfg(test)]
 mod tests;
 mod types;
 
 pub use parse::{parse_plan, read_plan};
+pub use rod_bench::{RodBench, RodLimits, RodPosition};
 pub use types::{
     Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
     Step,
