@@ -23,6 +23,7 @@
 //! at least one pulse, a plan with `[[rod]]` and the sensor's position (`[magnetometer]
 //! position_m`, or a `[probe]`).
 
+mod finite;
 mod gates;
 mod mapping;
 mod passes;
@@ -518,5 +519,7 @@ fn coupling(fit: &LinearFit, c: usize) -> Vector3<f64> {
     Vector3::from_fn(|a, _| fit.coefficients[(c, a)])
 }
 
+#[cfg(test)]
+mod finite_tests;
 #[cfg(test)]
 mod tests;

@@ -8,7 +8,6 @@ use super::warning::PolarityWarning;
 use super::DIPOLE_VALID_ROD_LENGTHS;
 use crate::fit::linear::LinearFit;
 use crate::log::Plan;
-use crate::physics::dipole::dipole_matrix;
 use crate::physics::frames::angle_between;
 use crate::Error;
 
@@ -81,8 +80,9 @@ pub struct RodResult {
     pub gain_ratio: Option<f64>,
     /// 1σ of `gain_ratio`.
     pub gain_ratio_sigma: Option<f64>,
-    /// False when the sensor is closer than three rod lengths (point-dipole model
-    /// doubtful; common practice); null when the plan gives no `length_m`.
+    /// True when the expected field comes from a model valid at the sensor's distance:
+    /// the point dipole from three rod lengths on (common practice), the two-pole model
+    /// closer; null when the plan gives no `length_m`.
     pub gain_reliable: Option<bool>,
     /// 1σ of the coupling per sensor axis, nT per command unit.
     pub coupling_sigma_nt_per_command: [f64; 3],
@@ -91,6 +91,9 @@ pub struct RodResult {
     /// Expected field at the sensor per A·m² of this rod's positive dipole, sensor
     /// frame (S), nT/(A·m²).
     pub expected_nt_per_am2: [f64; 3],
+    /// The model that gave `expected_nt_per_am2`: `point-dipole`, or `two-pole` within
+    /// three rod lengths of a rod whose `length_m` the plan gives.
+    pub expected_model: super::finite::RodFieldModel,
     /// Dipole inferred from the coupling: |coupling| / |expected per A·m²|, A·m² per
     /// command unit.
     pub dipole_per_command_am2: f64,
@@ -162,7 +165,8 @@ fn line_angle(a: &Vector3<f64>, b: &Vector3<f64>) -> Option<f64> {
 }
 
 /// Each plan rod's expected field direction at the sensor per A·m², sensor frame
-/// (point dipole, Jackson eq. 5.56, through `dipole_matrix`).
+/// (point dipole, Jackson eq. 5.56; the two-pole model within three rod lengths, see
+/// `finite.rs`).
 fn expected_directions(
     plan: &Plan,
     sensor_position_m: &Vector3<f64>,
@@ -172,13 +176,14 @@ fn expected_directions(
     let mut expected = Vec::with_capacity(plan.rods.len());
     for (i, rod) in plan.rods.iter().enumerate() {
         let r = sensor_position_m - rod.position_m;
-        let g = dipole_matrix(&r).ok_or_else(|| {
+        let f = super::finite::field_per_am2(rod, &r).ok_or_else(|| {
             plan.invalid(
                 &format!("rod[{i}].position_m"),
-                "the rod sits at the sensor's position: its field there is undefined",
+                "the rod (or one of its ends) sits at the sensor's position: its field there \
+                 is undefined",
             )
         })?;
-        expected.push(body_to_sensor * g * rod.axis_body);
+        expected.push(body_to_sensor * f);
     }
     Ok(expected)
 }
@@ -377,10 +382,11 @@ pub fn judge(
             None => (None, None),
         };
         let distance_m = (sensor_position_m - rod.position_m).norm();
-        let gain_reliable = rod
-            .length_m
-            .map(|l| distance_m >= DIPOLE_VALID_ROD_LENGTHS * l);
-        if gain_reliable == Some(false) {
+        // Within three rod lengths the two-pole model gives the expected field, so the
+        // gain ratio stays meaningful; the warning says which model was used.
+        let model = super::finite::model_for(rod, &(sensor_position_m - rod.position_m));
+        let gain_reliable = rod.length_m.map(|_| true);
+        if model == super::finite::RodFieldModel::TwoPole {
             warnings.push(PolarityWarning::CloseToRod {
                 rod: rod.name.clone(),
                 distance_m,
@@ -417,6 +423,7 @@ pub fn judge(
             coupling_sigma_nt_per_command: sigma_c.into(),
             angle_sigma_deg: angle_sigma,
             expected_nt_per_am2: e.into(),
+            expected_model: model,
             dipole_per_command_am2: dipole,
             matches_rod,
             matches_reversed,
