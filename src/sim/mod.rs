@@ -12,3 +12,4 @@ pub use tumble::{
 };
 pub mod rod;
 pub mod scenario;
+pub mod scenario_rods;
