@@ -203,11 +203,17 @@ fn falloff_figure(r: &RodResult) -> Result<Option<Figure>, Error> {
         "log10 distance [m]",
         "log10 |B_z| per ampere [nT/A]",
     );
+    // Stations joined by a solid line: it lies on the dashed −3 line when the rod
+    // falls off as a dipole, and is seen beside it when not.
     if !axis.is_empty() {
-        plot = plot.with(Series::points("on-axis stations", axis, 0));
+        plot = plot
+            .with(Series::line("on-axis stations", axis.clone(), 0))
+            .with(Series::points("on-axis stations", axis, 0));
     }
     if !side.is_empty() {
-        plot = plot.with(Series::points("broadside stations", side, 2));
+        plot = plot
+            .with(Series::line("broadside stations", side.clone(), 2))
+            .with(Series::points("broadside stations", side, 2));
     }
     plot = plot.with(Series::dashed("slope −3 (point dipole)", minus3, 1));
     Ok(Some(figure(
