@@ -7,6 +7,7 @@ use std::path::PathBuf;
 use clap::Args as ClapArgs;
 
 use super::common::{InputArgs, Outcome, OutputArgs};
+use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
 use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition, DEFAULT_ALTITUDE_KM};
 use magproof::check::CheckRequest;
@@ -22,10 +23,10 @@ pub struct Args {
     #[arg(long)]
     plan: PathBuf,
     /// Orbit altitude for the disturbance torque, km.
-    #[arg(long, default_value_t = DEFAULT_ALTITUDE_KM, value_name = "KM", value_parser = parse_altitude)]
+    #[arg(long, default_value_t = DEFAULT_ALTITUDE_KM, value_name = "KM", value_parser = |s: &str| number(s, ALTITUDE_KM), allow_hyphen_values = true)]
     altitude_km: f64,
     /// Orbit inclination, deg [default: 97.4, sun-synchronous; the result says so].
-    #[arg(long, value_name = "DEG", value_parser = parse_inclination)]
+    #[arg(long, value_name = "DEG", value_parser = |s: &str| number(s, INCLINATION_DEG), allow_hyphen_values = true)]
     inclination_deg: Option<f64>,
     /// Fit the dipole's position as well (three more unknowns) instead of placing it at
     /// the table origin.
@@ -40,14 +41,10 @@ pub struct Args {
 }
 
 /// An orbit altitude, km: above the ground, below the Moon.
-fn parse_altitude(s: &str) -> Result<f64, String> {
-    super::common::finite_in(s, 1.0, 400_000.0)
-}
+const ALTITUDE_KM: Domain = Domain::closed(1.0, 400_000.0, "km");
 
 /// An orbit inclination, deg.
-fn parse_inclination(s: &str) -> Result<f64, String> {
-    super::common::finite_in(s, 0.0, 180.0)
-}
+const INCLINATION_DEG: Domain = Domain::closed(0.0, 180.0, "deg");
 
 /// Run `dipole`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {

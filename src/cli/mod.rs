@@ -31,6 +31,7 @@ mod dipole;
 mod field;
 mod history;
 mod inspect;
+mod numeric;
 mod polarity;
 mod present;
 mod record;
