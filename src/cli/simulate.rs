@@ -114,8 +114,9 @@ pub struct Args {
     /// Dipole: number of turntable mounts (1 = upright only, 2 = upright and on-side).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
     mounts: Option<u8>,
-    /// Rod: half-width of the hysteresis play, A (the remanence is the moment there).
-    #[arg(long, value_name = "A")]
+    /// Rod: half-width of the hysteresis play, A (the remanence is the moment there);
+    /// 0 to 0.05 A.
+    #[arg(long, value_name = "A", value_parser = |s: &str| number(s, Domain::closed(0.0, 0.05, "A")), allow_hyphen_values = true)]
     hysteresis_a: Option<f64>,
     /// Dipole: turntable run or static map.
     #[arg(long, value_enum, default_value = "turntable")]
@@ -347,7 +348,7 @@ fn dipole_files(args: &Args) -> Result<Vec<SimFile>, Error> {
 }
 
 /// A rod bench log, its plan and the truth; `--reverse` (any name) winds it backwards,
-/// `--remanence-play-a` sets the hysteresis.
+/// `--hysteresis-a` sets the hysteresis.
 fn rod_files(args: &Args) -> Result<Vec<SimFile>, Error> {
     let mut cfg = RodBenchConfig::default();
     set(&mut cfg.noise_nt, args.noise_nt);
