@@ -130,7 +130,11 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["simulate", "rod", "--seed", "1", "--out", "sim"],
         &["-0.001", "0.06"],
     ),
-    ("--range", &["rod", "rod.csv", "--plan", "plan.toml"], &["0"]),
+    (
+        "--range",
+        &["rod", "rod.csv", "--plan", "plan.toml"],
+        &["0"],
+    ),
 ];
 
 /// Flags that take a value that is not a number (paths, names, choices, dates), per
