@@ -10,6 +10,7 @@
 
 mod locate;
 mod parse;
+mod parse_logs;
 mod raw;
 mod rod_bench;
 #[cfg(test)]
@@ -19,6 +20,6 @@ mod types;
 pub use parse::{parse_plan, read_plan};
 pub use rod_bench::{RodBench, RodLimits, RodPosition};
 pub use types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
-    Step,
+    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, LogSettings, Magnetometer, Mount, Plan,
+    Probe, Rod, Site, Step,
 };
