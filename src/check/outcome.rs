@@ -203,6 +203,10 @@ pub trait CheckResult: fmt::Debug + Send + Sync {
     fn ledger_identity(&self) -> Option<(String, String)> {
         None
     }
+    /// What the result gives the flight parameters, if anything (most checks: nothing).
+    fn flight_part(&self) -> Option<super::FlightPart<'_>> {
+        None
+    }
 }
 
 /// The five methods of [`CheckResult`] that every result with `verdict`, `gates` and

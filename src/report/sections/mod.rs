@@ -3,13 +3,16 @@
 //! words, warnings, notes, plots and the result JSON. The writers in the parent module only
 //! lay sections out; nothing here recomputes a fitted number.
 
+pub mod assumptions;
 mod calibration;
 pub mod change_text;
 mod dipole;
 mod history;
 mod polarity;
+mod polarity_stack;
 mod rod;
 
+pub use assumptions::assumptions_section;
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
 pub use history::{history_section, history_text_section};
