@@ -44,6 +44,8 @@ mod reliability;
 mod report;
 #[path = "cli/report_units.rs"]
 mod report_units;
+#[path = "cli/rod.rs"]
+mod rod;
 #[path = "cli/sensors.rs"]
 mod sensors;
 #[path = "cli/simulate.rs"]

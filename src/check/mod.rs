@@ -18,6 +18,7 @@ mod input_forms;
 pub mod kind;
 pub mod outcome;
 pub mod polarity;
+pub mod rod;
 pub mod units_sense;
 
 pub use flight_part::FlightPart;

@@ -37,6 +37,7 @@ mod polarity;
 mod present;
 mod record;
 mod report_out;
+mod rod;
 mod simulate;
 
 use clap::{Parser, Subcommand};
@@ -70,6 +71,8 @@ enum Command {
     Dipole(dipole::Args),
     /// Check every torque rod's polarity and coupling from a pulse log.
     Polarity(polarity::Args),
+    /// A torque rod on the bench: moment per ampere, linearity, remanence, polarity.
+    Rod(rod::Args),
     /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
     Calibrate(calibrate::Args),
     /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
@@ -88,6 +91,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::History(args) => history::run(args),
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
+        Command::Rod(args) => rod::run(args),
         Command::Calibrate(args) => calibrate::run(args),
         Command::Simulate(args) => simulate::run(*args),
         Command::Demo(args) => demo::run(args),

@@ -10,4 +10,6 @@ pub use cage::{simulate_cage, write_cage_csv, CageConfig, CageGrid, CageSim, Cag
 pub use tumble::{
     simulate_tumble, write_tumble_csv, SimCoverage, TumbleConfig, TumbleSim, TumbleTruth,
 };
+pub mod rod;
 pub mod scenario;
+pub mod scenario_rods;

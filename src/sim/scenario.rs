@@ -276,6 +276,7 @@ pub fn sample_files() -> Result<Vec<(String, String)>, Error> {
     for b in builds() {
         out.extend(build_files(&b)?);
     }
+    out.extend(super::scenario_rods::rod_batch_files()?);
     Ok(out)
 }
 

@@ -125,6 +125,16 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["simulate", "dipole", "--seed", "1", "--out", "sim"],
         &["0", "3"],
     ),
+    (
+        "--hysteresis-a",
+        &["simulate", "rod", "--seed", "1", "--out", "sim"],
+        &["-0.001", "0.06"],
+    ),
+    (
+        "--range",
+        &["rod", "rod.csv", "--plan", "plan.toml"],
+        &["0"],
+    ),
 ];
 
 /// Flags that take a value that is not a number (paths, names, choices, dates), per
@@ -152,6 +162,7 @@ const COMMANDS: &[&str] = &[
     "calibrate",
     "polarity",
     "dipole",
+    "rod",
     "closeout",
     "simulate",
     "field",

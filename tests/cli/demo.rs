@@ -127,3 +127,28 @@ fn demo_refuses_an_occupied_folder_without_force() {
         "mine"
     );
 }
+
+#[test]
+fn demo_benches_the_rod_batch_and_fails_the_rod_with_high_remanence() {
+    let d = TestDir::new();
+    let run = d.run(&["demo", "--out", "demo"]);
+    assert_code(&run, 0);
+    let reports = d.join("demo/reports/rods");
+    for (rod, pass) in [("tmr-tr-x", true), ("tmr-tr-y", false), ("tmr-tr-z", true)] {
+        let c = json_file(&reports.join(rod).join("closeout.json"));
+        assert_eq!(c["pass"], pass, "{rod}");
+        let r = step(&c, "rod");
+        assert_eq!(r["result"]["polarity"], "ok", "{rod}");
+        let failed: Vec<&str> = r["result"]["gates"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|g| g["ok"] == false)
+            .map(|g| g["name"].as_str().unwrap())
+            .collect();
+        let want: &[&str] = if pass { &[] } else { &["remanence_max"] };
+        assert_eq!(failed, want, "{rod}");
+    }
+    let text = stdout(&run);
+    assert!(text.contains("TMR-TR-Y R-2602: FAIL"), "{text}");
+}

@@ -40,6 +40,8 @@ pub struct Plan {
     pub rods: Vec<Rod>,
     /// `[dipole_test]`: turntable geometry.
     pub dipole_test: Option<DipoleTest>,
+    /// `[rod_bench]`: a torque rod on the bench and the probe stations around it.
+    pub rod_bench: Option<super::RodBench>,
     /// `[[step]]`: what `closeout` runs, in order.
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.
@@ -217,6 +219,8 @@ pub struct Limits {
     pub polarity_angle_max_deg: Option<f64>,
     /// Calibration gates (docs/calibration.md, "Gates"); `None` takes the default.
     pub gates: GateLimits,
+    /// Limits of a rod on the bench (docs/rods.md).
+    pub rod: super::RodLimits,
 }
 
 /// Limits of the calibration gates, each overriding its default when given

@@ -10,12 +10,14 @@ mod dipole;
 mod history;
 mod polarity;
 mod polarity_stack;
+mod rod;
 
 pub use assumptions::assumptions_section;
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
 pub use history::{history_section, history_text_section};
 pub use polarity::polarity_section;
+pub use rod::rod_section;
 
 use super::model::{Figure, Tone};
 use crate::Error;
