@@ -14,6 +14,7 @@ pub mod dipole;
 pub(crate) mod dummy;
 pub mod input;
 pub mod kind;
+pub mod orbit;
 pub mod outcome;
 pub mod polarity;
 pub mod units_sense;

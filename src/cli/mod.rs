@@ -31,6 +31,7 @@ mod dipole;
 mod field;
 mod history;
 mod inspect;
+mod orbit;
 mod polarity;
 mod present;
 mod record;
@@ -70,6 +71,8 @@ enum Command {
     Polarity(polarity::Args),
     /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
     Calibrate(calibrate::Args),
+    /// Calibrate the magnetometer from on-orbit telemetry against IGRF-14 along the orbit.
+    Orbit(orbit::Args),
     /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
     Simulate(Box<simulate::Args>),
     /// The whole closeout of the bundled, invented demo scenario (three builds), from any folder.
@@ -87,6 +90,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
         Command::Calibrate(args) => calibrate::run(args),
+        Command::Orbit(args) => orbit::run(args),
         Command::Simulate(args) => simulate::run(*args),
         Command::Demo(args) => demo::run(args),
     }

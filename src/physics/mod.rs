@@ -6,3 +6,4 @@ pub mod dipole;
 pub mod frames;
 pub mod geomag;
 pub mod igrf;
+pub mod orbit;

@@ -8,12 +8,14 @@
 //! `raw.rs` the TOML shapes as written (using `types`), and `parse.rs` the checks that
 //! turn one into the other (using both).
 
+mod orbit;
 mod parse;
 mod raw;
 #[cfg(test)]
 mod tests;
 mod types;
 
+pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
 pub use types::{
     Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,

@@ -49,6 +49,10 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
     };
     let rods = v.rods(raw.rod)?;
     let dipole_test = raw.dipole_test.map(|d| v.dipole_test(d)).transpose()?;
+    let orbit = raw
+        .orbit
+        .map(|o| super::orbit::orbit(path, o))
+        .transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
     let limits = v.limits(raw.limits)?;
@@ -62,6 +66,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         cage,
         rods,
         dipole_test,
+        orbit,
         steps,
         limits,
         sha256,

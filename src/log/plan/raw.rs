@@ -16,6 +16,7 @@ pub(super) struct RawPlan {
     #[serde(default)]
     pub(super) rod: Vec<RawRod>,
     pub(super) dipole_test: Option<RawDipoleTest>,
+    pub(super) orbit: Option<super::orbit::RawOrbit>,
     #[serde(default)]
     pub(super) step: Vec<RawStep>,
     #[serde(default)]

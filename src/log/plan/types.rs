@@ -30,6 +30,8 @@ pub struct Plan {
     pub rods: Vec<Rod>,
     /// `[dipole_test]`: turntable geometry.
     pub dipole_test: Option<DipoleTest>,
+    /// `[orbit]`: the element set and orbit of the flight (`orbit`, `dipole`).
+    pub orbit: Option<super::orbit::OrbitPlan>,
     /// `[[step]]`: what `closeout` runs, in order.
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.

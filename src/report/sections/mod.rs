@@ -7,11 +7,13 @@ mod calibration;
 pub mod change_text;
 mod dipole;
 mod history;
+mod orbit;
 mod polarity;
 
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
 pub use history::{history_section, history_text_section};
+pub use orbit::orbit_section;
 pub use polarity::polarity_section;
 
 use super::model::{Figure, Tone};
