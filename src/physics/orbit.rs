@@ -2,7 +2,8 @@
 //!
 //! - A two-line element set is propagated with SGP4 (the `sgp4` crate, an implementation
 //!   of Vallado, Crawford, Hujsak & Kelso 2006, "Revisiting Spacetrack Report #3", AIAA
-//!   2006-6753) to a position in TEME, then turned Earth-fixed by the Greenwich mean
+//!   2006-6753; WGS-72 constants and AFSPC conventions, as element sets are made) to a
+//!   position in TEME, then turned Earth-fixed by the Greenwich mean
 //!   sidereal time (IAU-82 expression, as in Vallado's `gstime`), with UT1 = UTC and no
 //!   polar motion (errors of a few tens of metres, far below what the field notices).
 //! - Geodetic latitude, longitude and height (WGS-84) to Earth-fixed Cartesian by the
@@ -65,8 +66,10 @@ impl Orbit {
     pub fn from_tle(line1: &str, line2: &str) -> Result<Self, TleError> {
         let el = sgp4::Elements::from_tle(None, line1.trim().as_bytes(), line2.trim().as_bytes())
             .map_err(|e| TleError::Parse(e.to_string()))?;
-        let constants =
-            sgp4::Constants::from_elements(&el).map_err(|e| TleError::Parse(e.to_string()))?;
+        // WGS-72 constants and the AFSPC conventions: those the element sets are fitted
+        // with, and those the published verification states were computed with.
+        let constants = sgp4::Constants::from_elements_afspc_compatibility_mode(&el)
+            .map_err(|e| TleError::Parse(e.to_string()))?;
         Ok(Orbit {
             constants,
             epoch_unix_s: J2000_UNIX_S + el.epoch() * JULIAN_YEAR_S,
@@ -78,7 +81,7 @@ impl Orbit {
     /// Position in TEME at `minutes` after the epoch, km.
     pub fn teme_km(&self, minutes: f64) -> Result<[f64; 3], TleError> {
         self.constants
-            .propagate(sgp4::MinutesSinceEpoch(minutes))
+            .propagate_afspc_compatibility_mode(sgp4::MinutesSinceEpoch(minutes))
             .map(|p| p.position)
             .map_err(|e| TleError::Propagate {
                 at: format!("{minutes:.3} min after the epoch"),
