@@ -24,6 +24,8 @@ mod field;
 mod history;
 #[path = "cli/input.rs"]
 mod input;
+#[path = "cli/orbit.rs"]
+mod orbit;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]
