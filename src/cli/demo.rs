@@ -49,6 +49,8 @@ const SAMPLE_FILES: &[(&str, &str)] = embedded![
     "tmr-0207-b3/tumble.csv",
     "tmr-0207-b3/rod-pulses.csv",
     "tmr-0207-b3/turntable.csv",
+    "tmr-0207-orbit/plan.toml",
+    "tmr-0207-orbit/telemetry.csv",
 ];
 
 /// The builds' folders, in the order they are closed out.
@@ -109,7 +111,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         .map_err(|e| Error::io(&ledger_path, e))?;
 
     outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
-    outln!("builds closed out in order into a fresh ledger. All data are simulated.\n")?;
+    outln!("builds closed out in order into a fresh ledger, then a calibration from its")?;
+    outln!("telemetry on orbit. All data are simulated.\n")?;
     let mut reports = Vec::new();
     for folder in BUILDS {
         let plan = samples.join(folder).join("plan.toml");
@@ -126,6 +129,15 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
         reports.push(dir);
     }
+    // After B3, the on-orbit pass, compared with B3's ground calibration.
+    let (summary, dir) = super::demo_orbit::orbit_pass(
+        &samples,
+        magproof::sim::scenario::ORBIT_FOLDER,
+        &ledger_path,
+        &out.join("reports"),
+    )?;
+    out!("{summary}")?;
+    reports.push(dir);
 
     let ledger = Ledger::open_existing(&ledger_path).map_err(Error::from)?;
     let runs = ledger.runs(&RunFilter::default()).map_err(Error::from)?;

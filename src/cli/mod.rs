@@ -27,6 +27,7 @@ mod calibrate;
 mod closeout;
 mod common;
 mod demo;
+mod demo_orbit;
 mod dipole;
 mod field;
 mod history;
