@@ -28,6 +28,9 @@ use super::FitError;
 /// Tukey tuning constant, in robust σ (95 % efficiency for Gaussian noise).
 pub const TUKEY_C: f64 = 4.685;
 
+/// Most reweighting rounds.
+const MAX_ROUNDS: usize = 6;
+
 /// Rows per parallel task.
 const CHUNK: usize = 16_384;
 
@@ -313,7 +316,13 @@ fn levenberg_marquardt(
                 lambda *= 10.0;
                 continue;
             };
-            let step = ch.solve(&(-g));
+            let step = ch.solve(&(-g.clone()));
+            // Predicted decrease of the cost for this step (Gauss–Newton model, halved
+            // cost convention): below rounding of the cost itself, the minimum is reached.
+            let predicted = -g.dot(&step);
+            if predicted <= 1e-12 * ne.cost.max(1e-300) {
+                return Ok((p, true, it));
+            }
             let trial: Vec<f64> = p.iter().zip(step.iter()).map(|(a, b)| a + b).collect();
             let cost = normal(d, &trial, weights, false).cost;
             if cost.is_finite() && cost <= ne.cost {
@@ -370,6 +379,7 @@ pub fn fit_orbit(d: &OrbitFitData, opt: OrbitFitOptions) -> Result<OrbitFit, Fit
     let mut sigma;
     let mut residuals = vec![0.0; n];
     let mut rounds = 0;
+    let mut last_sigma = f64::NAN;
     loop {
         let (q, conv, it) = levenberg_marquardt(d, p, &weights)?;
         p = q;
@@ -388,7 +398,7 @@ pub fn fit_orbit(d: &OrbitFitData, opt: OrbitFitOptions) -> Result<OrbitFit, Fit
             .collect();
         sigma = robust_sigma(&used);
         rounds += 1;
-        if !opt.robust || rounds > 8 || sigma <= 0.0 {
+        if !opt.robust || rounds > MAX_ROUNDS || sigma <= 0.0 {
             break;
         }
         let new: Vec<f64> = residuals
@@ -402,14 +412,14 @@ pub fn fit_orbit(d: &OrbitFitData, opt: OrbitFitOptions) -> Result<OrbitFit, Fit
                 }
             })
             .collect();
-        let settled = new
-            .iter()
-            .zip(&weights)
-            .all(|(a, b)| (*a == 0.0) == (*b == 0.0) && (a - b).abs() < 1e-3);
-        weights = new;
+        // Settled: the same samples rejected and the scale steady to 0.1 %.
+        let same_set = new.iter().zip(&weights).all(|(a, b)| (*a == 0.0) == (*b == 0.0));
+        let settled = rounds > 1 && same_set && (sigma - last_sigma).abs() <= 1e-3 * sigma;
+        last_sigma = sigma;
         if settled {
             break;
         }
+        weights = new;
     }
     finish(
         d, p, &weights, &residuals, &prior, sigma, converged, iterations,
