@@ -413,7 +413,10 @@ pub fn fit_orbit(d: &OrbitFitData, opt: OrbitFitOptions) -> Result<OrbitFit, Fit
             })
             .collect();
         // Settled: the same samples rejected and the scale steady to 0.1 %.
-        let same_set = new.iter().zip(&weights).all(|(a, b)| (*a == 0.0) == (*b == 0.0));
+        let same_set = new
+            .iter()
+            .zip(&weights)
+            .all(|(a, b)| (*a == 0.0) == (*b == 0.0));
         let settled = rounds > 1 && same_set && (sigma - last_sigma).abs() <= 1e-3 * sigma;
         last_sigma = sigma;
         if settled {

@@ -2,6 +2,8 @@
 //! slope with ±1σ, the ground comparison, and plots of the residual along the orbit,
 //! against latitude, and of each regressor's fitted bias.
 
+#![allow(clippy::needless_range_loop)] // x, y, z indexed in step with AXES
+
 use super::{figure, pm, short, to_json, verdict_tone};
 use crate::check::orbit::OrbitResult;
 use crate::report::model::{Cell, Figure, Section, Table, Tone};
