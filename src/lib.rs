@@ -24,6 +24,7 @@ pub mod physics;
 pub mod report;
 pub mod screen;
 pub mod sim;
+pub mod text;
 
 pub use error::Error;
 

@@ -11,7 +11,11 @@ fn main() -> ExitCode {
     match cli::run() {
         Ok(outcome) => ExitCode::from(outcome.exit_code()),
         Err(err) => {
-            eprintln!("magproof: error: {}", message(&err));
+            // Paths and ledger text in a message are shown, never acted on.
+            eprintln!(
+                "magproof: error: {}",
+                magproof::text::printable(&message(&err))
+            );
             ExitCode::from(cli::exit_code_for(&err))
         }
     }

@@ -8,8 +8,14 @@ mod util;
 mod battery_input;
 #[path = "cli/battery_ledger.rs"]
 mod battery_ledger;
+#[path = "cli/battery_numbers.rs"]
+mod battery_numbers;
+#[path = "cli/battery_old_ledger.rs"]
+mod battery_old_ledger;
 #[path = "cli/battery_outputs.rs"]
 mod battery_outputs;
+#[path = "cli/battery_versions.rs"]
+mod battery_versions;
 #[path = "cli/calibrate.rs"]
 mod calibrate;
 #[path = "cli/closeout.rs"]

@@ -7,6 +7,7 @@ use std::path::PathBuf;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
+use super::numeric::{number, FIELD_NT};
 use super::present::{present_check, read_input, Analysed};
 use magproof::check::calibrate::{run_calibrate, CalibrateOptions};
 use magproof::check::CheckRequest;
@@ -32,7 +33,7 @@ pub struct Args {
     #[arg(long)]
     plan: Option<PathBuf>,
     /// Reference field magnitude for a tumble, nT (beats the plan's [site]).
-    #[arg(long, value_name = "NT", value_parser = parse_reference)]
+    #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, FIELD_NT), allow_hyphen_values = true)]
     reference_nt: Option<f64>,
     /// Write flight-software parameters: FILE.json or FILE.h.
     #[arg(long, value_name = "FILE")]
@@ -88,17 +89,6 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         &args.record,
         extra,
     )
-}
-
-/// A reference field: positive, finite and within what the input screens accept.
-fn parse_reference(s: &str) -> Result<f64, String> {
-    let max = magproof::screen::plausible::MAX_FIELD_NT;
-    match s.trim().parse::<f64>() {
-        Ok(v) if v.is_finite() && v > 0.0 && v <= max => Ok(v),
-        _ => Err(format!(
-            "expected a field magnitude in nT above 0 and at most {max:e}, found \"{s}\""
-        )),
-    }
 }
 
 /// A usage error of the library, with the flag that sets the value named.

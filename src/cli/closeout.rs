@@ -9,7 +9,7 @@ use clap::Args as ClapArgs;
 use super::common::{LedgerArgs, Outcome, OutputArgs};
 use super::present::{emit, outcome, prepare_all, run_report, writers};
 use magproof::check::closeout::{run_closeout, CloseoutRequest, CloseoutResult};
-use magproof::ledger::{Ledger, NewRun, Recorded};
+use magproof::ledger::{Ledger, NewRun, OtherVersion, Recorded};
 use magproof::report::RunReport;
 
 /// Flags of `magproof closeout`.
@@ -35,6 +35,9 @@ pub struct RecordedSteps {
     pub ledger: PathBuf,
     /// Per step: the run id and whether it was new.
     pub runs: Vec<Recorded>,
+    /// Per step: runs of the same inputs and options by other magproof versions (for a
+    /// step recorded as new; see `Ledger::same_inputs_by_other_versions`).
+    pub other_versions: Vec<Vec<OtherVersion>>,
 }
 
 /// Run the plan's steps and record them; shared with `magproof demo`. `before_record`
@@ -70,14 +73,26 @@ pub fn run_and_record(
             .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
-    let recorded = Ledger::open(path)
-        .and_then(|mut l| l.record_runs(&runs))
+    let (recorded, other_versions) = Ledger::open(path)
+        .and_then(|mut l| {
+            let recorded = l.record_runs(&runs)?;
+            let others = runs
+                .iter()
+                .zip(&recorded)
+                .map(|(run, rec)| match rec {
+                    Recorded::New(_) => l.same_inputs_by_other_versions(run),
+                    Recorded::AlreadyThere(_) => Ok(Vec::new()),
+                })
+                .collect::<Result<Vec<_>, _>>()?;
+            Ok((recorded, others))
+        })
         .map_err(magproof::Error::from)?;
     Ok((
         result,
         Some(RecordedSteps {
             ledger: path.to_path_buf(),
             runs: recorded,
+            other_versions,
         }),
     ))
 }
@@ -103,10 +118,19 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
             s.result.verdict().word(),
             rec
         ));
+        let others = recorded.and_then(|r| r.other_versions.get(k));
+        for other in others.into_iter().flatten() {
+            out.push_str(&format!(
+                "         (same inputs as run {} by magproof {}: a new version's run)\n",
+                other.id,
+                magproof::text::printable(&other.version)
+            ));
+        }
     }
     out.push_str(&format!("  overall         {}\n", result.verdict().word()));
     if let Some(r) = recorded {
-        out.push_str(&format!("  ledger          {}\n", r.ledger.display()));
+        let shown = magproof::text::printable(&r.ledger.display().to_string());
+        out.push_str(&format!("  ledger          {shown}\n"));
     }
     out
 }

@@ -5,6 +5,8 @@ use std::path::PathBuf;
 use clap::Args;
 use magproof::log::FieldUnit;
 
+use super::numeric::{number, FIELD_NT};
+
 /// What a command ended with, for the exit code.
 #[allow(dead_code)]
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -47,25 +49,8 @@ pub struct InputArgs {
     pub skip_bad_rows: bool,
     /// Sensor full-scale range per axis, nT: readings at or beyond it are flagged as
     /// saturated and left out. Beats the plan's [magnetometer] range_nt.
-    #[arg(long, value_name = "NT", value_parser = parse_range)]
+    #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, FIELD_NT), allow_hyphen_values = true)]
     pub range: Option<f64>,
-}
-
-fn parse_range(s: &str) -> Result<f64, String> {
-    match s.trim().parse::<f64>() {
-        Ok(v) if v.is_finite() && v > 0.0 => Ok(v),
-        _ => Err(format!("expected a positive number of nT, found \"{s}\"")),
-    }
-}
-
-/// A finite number in `lo..=hi` (no `inf` or `NaN` reaches a check or the terminal).
-pub fn finite_in(s: &str, lo: f64, hi: f64) -> Result<f64, String> {
-    match s.trim().parse::<f64>() {
-        Ok(v) if v.is_finite() && (lo..=hi).contains(&v) => Ok(v),
-        _ => Err(format!(
-            "expected a number from {lo} to {hi}, found \"{s}\""
-        )),
-    }
 }
 
 fn parse_unit(s: &str) -> Result<FieldUnit, String> {

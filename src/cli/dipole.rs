@@ -7,6 +7,7 @@ use std::path::PathBuf;
 use clap::Args as ClapArgs;
 
 use super::common::{InputArgs, Outcome, OutputArgs};
+use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
 use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition};
 use magproof::check::CheckRequest;
@@ -23,11 +24,11 @@ pub struct Args {
     plan: PathBuf,
     /// Orbit altitude for the disturbance torque, km [default: the plan's [orbit]
     /// altitude_km, else 500].
-    #[arg(long, value_name = "KM", value_parser = parse_altitude)]
+    #[arg(long, value_name = "KM", value_parser = |s: &str| number(s, ALTITUDE_KM), allow_hyphen_values = true)]
     altitude_km: Option<f64>,
     /// Orbit inclination, deg [default: the plan's [orbit] inclination_deg, else 97.4,
     /// sun-synchronous; the result says so].
-    #[arg(long, value_name = "DEG", value_parser = parse_inclination)]
+    #[arg(long, value_name = "DEG", value_parser = |s: &str| number(s, INCLINATION_DEG), allow_hyphen_values = true)]
     inclination_deg: Option<f64>,
     /// Fit the dipole's position as well (three more unknowns) instead of placing it at
     /// the table origin.
@@ -42,14 +43,10 @@ pub struct Args {
 }
 
 /// An orbit altitude, km: above the ground, below the Moon.
-fn parse_altitude(s: &str) -> Result<f64, String> {
-    super::common::finite_in(s, 1.0, 400_000.0)
-}
+const ALTITUDE_KM: Domain = Domain::closed(1.0, 400_000.0, "km");
 
 /// An orbit inclination, deg.
-fn parse_inclination(s: &str) -> Result<f64, String> {
-    super::common::finite_in(s, 0.0, 180.0)
-}
+const INCLINATION_DEG: Domain = Domain::closed(0.0, 180.0, "deg");
 
 /// Run `dipole`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {

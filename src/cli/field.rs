@@ -7,19 +7,23 @@ use serde::Serialize;
 use time::Date;
 
 use super::common::Outcome;
-use magproof::physics::igrf::{decimal_year, igrf_field, GeoField};
+use super::numeric::{number, Domain};
+use magproof::physics::igrf::{decimal_year, igrf_field, GeoField, MAX_ALTITUDE_M, MIN_ALTITUDE_M};
 
 /// Flags of `magproof field`.
 #[derive(Debug, ClapArgs)]
 pub struct Args {
     /// Geodetic latitude, deg (-90..90, north positive).
-    #[arg(long, allow_negative_numbers = true)]
+    #[arg(long, allow_hyphen_values = true,
+          value_parser = |s: &str| number(s, Domain::closed(-90.0, 90.0, "deg")))]
     lat: f64,
-    /// Longitude, deg (east positive).
-    #[arg(long, allow_negative_numbers = true)]
+    /// Longitude, deg (-360..360, east positive).
+    #[arg(long, allow_hyphen_values = true,
+          value_parser = |s: &str| number(s, Domain::closed(-360.0, 360.0, "deg")))]
     lon: f64,
-    /// Altitude above the WGS-84 ellipsoid, m (>= -1000).
-    #[arg(long = "alt-m", default_value_t = 0.0, allow_negative_numbers = true)]
+    /// Altitude above the WGS-84 ellipsoid, m (-1000..1e8).
+    #[arg(long = "alt-m", default_value_t = 0.0, allow_hyphen_values = true,
+          value_parser = |s: &str| number(s, Domain::closed(MIN_ALTITUDE_M, MAX_ALTITUDE_M, "m")))]
     alt_m: f64,
     /// Date, YYYY-MM-DD (2015-01-01..2030-01-01), evaluated at 00:00 UTC. Default: today (UTC).
     #[arg(long)]

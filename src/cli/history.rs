@@ -11,6 +11,7 @@ use serde::Serialize;
 use serde_json::Value;
 
 use super::common::{LedgerArgs, Outcome};
+use super::numeric::{number, Domain};
 use magproof::check::CheckKind;
 use magproof::ledger::export::{write_changes_csv, write_values_csv};
 use magproof::ledger::{changes, Change, ChangeRules, Ledger, Run, RunFilter};
@@ -41,7 +42,8 @@ pub struct Args {
     #[arg(long, requires = "out")]
     force: bool,
     /// A change is "significant" beyond this many combined sigma.
-    #[arg(long, value_name = "K", default_value_t = 3.0)]
+    #[arg(long, value_name = "K", default_value_t = 3.0,
+          value_parser = |s: &str| number(s, Domain::positive(100.0, "sigma")), allow_hyphen_values = true)]
     significance_sigma: f64,
     #[command(flatten)]
     ledger: LedgerArgs,
@@ -103,7 +105,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             .collect();
         eprintln!(
             "magproof: {}: no run matches; serials in the ledger: {}",
-            path.display(),
+            printable(&path.display().to_string()),
             if serials.is_empty() {
                 "none".to_string()
             } else {
@@ -140,7 +142,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             runs: &runs,
             changes: &changes,
         };
-        outln!("{}", serde_json::to_string_pretty(&doc)?)?;
+        outln!(
+            "{}",
+            magproof::text::json_for_terminal(serde_json::to_string_pretty(&doc)?)
+        )?;
         return Ok(Outcome::Passed);
     }
     out!("{}", render(&path, &runs, &changes)?)?;

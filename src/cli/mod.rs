@@ -32,6 +32,7 @@ mod dipole;
 mod field;
 mod history;
 mod inspect;
+mod numeric;
 mod orbit;
 mod polarity;
 mod present;

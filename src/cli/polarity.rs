@@ -7,6 +7,7 @@ use std::path::PathBuf;
 use clap::{Args as ClapArgs, ValueEnum};
 
 use super::common::{InputArgs, Outcome, OutputArgs};
+use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
 use magproof::check::polarity::{
     magnetometer_recorded, run_polarity, DriftModel, PolarityOptions, SensorChoice, DEFAULT_SNR_MIN,
@@ -37,13 +38,13 @@ pub struct Args {
     #[arg(long, value_enum, default_value_t = SensorArg::Auto)]
     sensor: SensorArg,
     /// SNR below which a rod is called no-response.
-    #[arg(long, default_value_t = DEFAULT_SNR_MIN, value_parser = parse_snr)]
+    #[arg(long, default_value_t = DEFAULT_SNR_MIN, value_parser = |s: &str| number(s, SNR), allow_hyphen_values = true)]
     snr_min: f64,
     /// Drift terms: auto, knots:SECONDS (piecewise-linear baseline) or poly:DEGREE.
-    #[arg(long, default_value = "auto", value_parser = parse_drift)]
+    #[arg(long, default_value = "auto", value_parser = parse_drift, allow_hyphen_values = true)]
     drift: DriftModel,
     /// Largest lag searched, s (default: half the shortest pulse, at most 2 s).
-    #[arg(long, value_name = "SECONDS")]
+    #[arg(long, value_name = "SECONDS", value_parser = |s: &str| number(s, MAX_LAG_S), allow_hyphen_values = true)]
     max_lag_s: Option<f64>,
 }
 
@@ -54,9 +55,13 @@ enum SensorArg {
     Probe,
 }
 
-fn parse_snr(s: &str) -> Result<f64, String> {
-    super::common::finite_in(s, 0.0, 1e6)
-}
+/// `--snr-min`: a signal-to-noise ratio.
+const SNR: Domain = Domain::closed(0.0, 1e6, "");
+/// `--max-lag-s`: the command-to-response lag searched, s (a rod's current settles in
+/// milliseconds; a minute is far beyond any drive electronics — common practice).
+const MAX_LAG_S: Domain = Domain::positive(60.0, "s");
+/// `--drift knots:SECONDS`: the knot spacing, s (up to about eleven days of log).
+const KNOT_SPACING_S: Domain = Domain::positive(1e6, "s");
 
 fn parse_drift(s: &str) -> Result<DriftModel, String> {
     let s = s.trim();
@@ -64,12 +69,7 @@ fn parse_drift(s: &str) -> Result<DriftModel, String> {
         return Ok(DriftModel::Auto);
     }
     if let Some(v) = s.strip_prefix("knots:") {
-        let spacing_s: f64 = v
-            .parse()
-            .map_err(|_| format!("knots:SECONDS needs a number, found \"{v}\""))?;
-        if !(spacing_s.is_finite() && spacing_s > 0.0) {
-            return Err(format!("knot spacing must be positive, found {v}"));
-        }
+        let spacing_s = number(v, KNOT_SPACING_S).map_err(|e| format!("knots:SECONDS: {e}"))?;
         return Ok(DriftModel::Knots { spacing_s });
     }
     if let Some(v) = s.strip_prefix("poly:") {
@@ -88,13 +88,6 @@ fn parse_drift(s: &str) -> Result<DriftModel, String> {
 
 /// Run `polarity`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    if let Some(m) = args.max_lag_s {
-        if !(m.is_finite() && m > 0.0) {
-            return Err(
-                magproof::Error::Usage(format!("--max-lag-s must be positive, found {m}")).into(),
-            );
-        }
-    }
     let plan = read_plan(&args.plan).map_err(magproof::Error::from)?;
     let sensor = match args.sensor {
         SensorArg::Auto => SensorChoice::Auto,

@@ -120,7 +120,8 @@ pub fn emit(
     let mut stdout = std::io::stdout().lock();
     for (name, written) in magproof::report::writer::write_all(writers, report, &mut stdout)? {
         if let Written::Path(p) = written {
-            eprintln!("{name} written to {}", p.display());
+            let shown = magproof::text::printable(&p.display().to_string());
+            eprintln!("{name} written to {shown}");
         }
     }
     Ok(())

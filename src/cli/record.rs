@@ -6,7 +6,7 @@ use std::path::Path;
 use super::common::LedgerArgs;
 use clap::Args;
 use magproof::check::CheckResult;
-use magproof::ledger::{record_check, Recorded};
+use magproof::ledger::{record_check_noting_versions, Recorded};
 use magproof::log::Plan;
 
 /// `--record [--ledger PATH]`, to flatten into a check's flags.
@@ -39,14 +39,17 @@ pub fn record_if_asked(
         .into());
     };
     let path = args.ledger.path();
-    let recorded =
-        record_check(&path, plan, result, log, options).map_err(magproof::Error::from)?;
+    let (recorded, others) = record_check_noting_versions(&path, plan, result, log, options)
+        .map_err(magproof::Error::from)?;
+    let shown = magproof::text::printable(&path.display().to_string());
     match recorded {
-        Recorded::New(id) => eprintln!("magproof: recorded as run {id} in {}", path.display()),
+        Recorded::New(id) => eprintln!("magproof: recorded as run {id} in {shown}"),
         Recorded::AlreadyThere(id) => eprintln!(
-            "magproof: same inputs already recorded as run {id} in {} (not recorded again)",
-            path.display()
+            "magproof: same inputs already recorded as run {id} in {shown} (not recorded again)"
         ),
+    }
+    for other in others {
+        eprintln!("magproof: {other}");
     }
     Ok(())
 }

@@ -10,6 +10,7 @@ use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 use super::common::Outcome;
+use super::numeric::{count, number, numbers, vector3, Domain, FIELD_NT};
 use magproof::report::atomic::write_atomic;
 use magproof::sim::dipole::{simulate_static, simulate_turntable, StaticConfig, TurntableConfig};
 use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
@@ -72,7 +73,7 @@ pub struct Args {
     #[arg(value_enum)]
     kind: Kind,
     /// Random seed (the same seed and options give byte-identical files).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     seed: u64,
     /// Folder to write into (created; an existing non-empty one needs --force).
     #[arg(long, value_name = "DIR")]
@@ -81,28 +82,28 @@ pub struct Args {
     #[arg(long)]
     force: bool,
     /// White noise per axis, 1σ, nT (default: the simulator's).
-    #[arg(long, value_name = "NT")]
+    #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, NOISE_NT), allow_hyphen_values = true)]
     noise_nt: Option<f64>,
     /// Tumble/cage: hard iron, sensor frame, nT: X,Y,Z.
-    #[arg(long, value_name = "X,Y,Z", value_parser = parse_vec3, allow_hyphen_values = true)]
+    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, HARD_IRON_NT), allow_hyphen_values = true)]
     hard_iron_nt: Option<Vector3<f64>>,
     /// Tumble/cage: soft-iron correction W: D1,D2,D3 (diagonal) or D1,D2,D3,W12,W13,W23.
-    #[arg(long, value_name = "LIST", value_parser = parse_soft_iron, conflicts_with = "soft_iron_scale")]
+    #[arg(long, value_name = "LIST", value_parser = parse_soft_iron, allow_hyphen_values = true, conflicts_with = "soft_iron_scale")]
     soft_iron: Option<Matrix3<f64>>,
     /// Tumble/cage: soft-iron correction W = S·I (a pure scale).
-    #[arg(long, value_name = "S")]
+    #[arg(long, value_name = "S", value_parser = |s: &str| number(s, SOFT_IRON_SCALE), allow_hyphen_values = true)]
     soft_iron_scale: Option<f64>,
     /// Tumble: fraction of samples hit by a 3000 nT outlier (0..1).
-    #[arg(long, value_name = "RATE")]
+    #[arg(long, value_name = "RATE", value_parser = |s: &str| number(s, Domain::closed(0.0, 1.0, "")), allow_hyphen_values = true)]
     outlier_rate: Option<f64>,
     /// Tumble: directions visited.
     #[arg(long, value_enum)]
     coverage: Option<CoverageArg>,
     /// Tumble: number of samples.
-    #[arg(long)]
+    #[arg(long, value_parser = |s: &str| count(s, 1, MAX_SAMPLES), allow_hyphen_values = true)]
     samples: Option<usize>,
     /// Tumble: reference field magnitude, nT (written to the plan's [site]).
-    #[arg(long, value_name = "NT")]
+    #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, FIELD_NT), allow_hyphen_values = true)]
     reference_nt: Option<f64>,
     /// Polarity: a rod (x, y or z) wired backwards; repeatable.
     #[arg(long, value_name = "ROD")]
@@ -111,16 +112,16 @@ pub struct Args {
     #[arg(long, value_name = "A,B")]
     swap: Option<String>,
     /// Polarity: command-to-current lag, s.
-    #[arg(long, value_name = "SECONDS")]
+    #[arg(long, value_name = "SECONDS", value_parser = |s: &str| number(s, Domain::closed(0.0, 60.0, "s")), allow_hyphen_values = true)]
     lag_s: Option<f64>,
     /// Polarity/dipole: linear drift of the ambient field, nT/s: X,Y,Z.
-    #[arg(long, value_name = "X,Y,Z", value_parser = parse_vec3, allow_hyphen_values = true)]
+    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, DRIFT_NT_PER_S), allow_hyphen_values = true)]
     drift_nt_per_s: Option<Vector3<f64>>,
     /// Dipole: true moment, body frame, A·m²: X,Y,Z.
-    #[arg(long, value_name = "X,Y,Z", value_parser = parse_vec3, allow_hyphen_values = true)]
+    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, MOMENT_AM2), allow_hyphen_values = true)]
     moment_am2: Option<Vector3<f64>>,
     /// Dipole: number of turntable mounts (1 = upright only, 2 = upright and on-side).
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2))]
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
     mounts: Option<u8>,
     /// Dipole: turntable run or static map.
     #[arg(long, value_enum, default_value = "turntable")]
@@ -130,27 +131,25 @@ pub struct Args {
     positions: PositionsArg,
 }
 
-fn parse_list(s: &str) -> Result<Vec<f64>, String> {
-    s.split(',')
-        .map(|p| {
-            let p = p.trim();
-            p.parse::<f64>()
-                .ok()
-                .filter(|x| x.is_finite())
-                .ok_or_else(|| format!("{p:?} is not a finite number"))
-        })
-        .collect()
-}
-
-fn parse_vec3(s: &str) -> Result<Vector3<f64>, String> {
-    match parse_list(s)?.as_slice() {
-        [x, y, z] => Ok(Vector3::new(*x, *y, *z)),
-        v => Err(format!("need three numbers X,Y,Z, got {}", v.len())),
-    }
-}
+/// `--noise-nt`, 1σ per axis.
+const NOISE_NT: Domain = Domain::closed(0.0, magproof::screen::plausible::MAX_FIELD_NT, "nT");
+/// `--hard-iron-nt`, each component.
+const HARD_IRON_NT: Domain = Domain::closed(-1e12, 1e12, "nT");
+/// `--soft-iron`, each element (a soft-iron matrix is near the identity; 100 is a
+/// wrong unit or a typo).
+const SOFT_IRON: Domain = Domain::closed(-100.0, 100.0, "");
+/// `--soft-iron-scale`.
+const SOFT_IRON_SCALE: Domain = Domain::positive(100.0, "");
+/// `--drift-nt-per-s`, each component.
+const DRIFT_NT_PER_S: Domain = Domain::closed(-1e6, 1e6, "nT/s");
+/// `--moment-am2`, each component (a small spacecraft's residual dipole is well under
+/// 10 A·m² — common practice).
+const MOMENT_AM2: Domain = Domain::closed(-1e6, 1e6, "A·m²");
+/// `--samples`: at most 10⁸ rows (a log of several GB).
+const MAX_SAMPLES: usize = 100_000_000;
 
 fn parse_soft_iron(s: &str) -> Result<Matrix3<f64>, String> {
-    match parse_list(s)?.as_slice() {
+    match numbers(s, SOFT_IRON)?.as_slice() {
         [a, b, c] => Ok(Matrix3::from_diagonal(&Vector3::new(*a, *b, *c))),
         [a, b, c, xy, xz, yz] => Ok(Matrix3::new(*a, *xy, *xz, *xy, *b, *yz, *xz, *yz, *c)),
         v => Err(format!(

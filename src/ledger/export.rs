@@ -1,5 +1,7 @@
 //! CSV export of the ledger for spreadsheets: the values of every run (one row per run and
 //! quantity, "long" layout) and the build-to-build changes (one row per change).
+//! A control character in a cell (text of a ledger written before plans refused them)
+//! is written as its escape (`\u{1b}`), so the CSV shown on a terminal cannot act on it.
 
 use std::io::Write;
 
@@ -60,18 +62,21 @@ pub fn write_values_csv(runs: &[Run], out: &mut dyn Write) -> Result<(), csv::Er
                 QuantityValue::Verdict(s) => (s.clone(), String::new()),
                 QuantityValue::Pass(b) => (b.to_string(), String::new()),
             };
-            w.write_record([
-                run.serial.as_str(),
-                &run.build,
-                run.kind.as_str(),
-                &run.id.0.to_string(),
-                &run.recorded_at,
-                &q.name,
-                &value,
-                &sigma,
-                &q.unit,
-                opt_bool(run.pass),
-            ])?;
+            w.write_record(
+                [
+                    run.serial.as_str(),
+                    &run.build,
+                    run.kind.as_str(),
+                    &run.id.0.to_string(),
+                    &run.recorded_at,
+                    &q.name,
+                    &value,
+                    &sigma,
+                    &q.unit,
+                    opt_bool(run.pass),
+                ]
+                .map(crate::text::printable),
+            )?;
         }
     }
     w.flush()?;
@@ -92,19 +97,22 @@ pub fn write_changes_csv(changes: &[Change], out: &mut dyn Write) -> Result<(), 
     let mut w = csv::Writer::from_writer(out);
     w.write_record(CHANGES_HEADER)?;
     for c in changes {
-        w.write_record([
-            c.serial.as_str(),
-            &c.from_build,
-            &c.to_build,
-            c.kind.as_str(),
-            &c.quantity,
-            &value_cell(&c.from),
-            &value_cell(&c.to),
-            &cell(c.delta),
-            &cell(c.sigma),
-            &c.unit,
-            c.flag.as_str(),
-        ])?;
+        w.write_record(
+            [
+                c.serial.as_str(),
+                &c.from_build,
+                &c.to_build,
+                c.kind.as_str(),
+                &c.quantity,
+                &value_cell(&c.from),
+                &value_cell(&c.to),
+                &cell(c.delta),
+                &cell(c.sigma),
+                &c.unit,
+                c.flag.as_str(),
+            ]
+            .map(crate::text::printable),
+        )?;
     }
     w.flush()?;
     Ok(())

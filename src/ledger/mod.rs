@@ -22,6 +22,7 @@ pub mod history;
 mod quantity;
 mod record;
 mod schema;
+mod versions;
 
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
@@ -38,6 +39,7 @@ pub use history::{changes, group_by_build, BuildRuns, Change, ChangeRules, Flag,
 pub use quantity::{legacy_quantities, Quantity, QuantityValue};
 pub use record::{InputFile, InputRole, NewRun, Recorded, Run, RunFilter, RunId};
 pub use schema::{APPLICATION_ID, CURRENT_VERSION};
+pub use versions::{record_check_noting_versions, OtherVersion};
 
 /// How long a writer waits for another process's transaction before giving up.
 pub const BUSY_TIMEOUT: Duration = Duration::from_secs(30);

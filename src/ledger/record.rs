@@ -265,6 +265,11 @@ impl NewRun {
     /// Paths are left out, so a moved or renamed copy of the same files is the same run;
     /// a re-run with other options or by another version of magproof is a new run.
     pub(crate) fn input_key(&self) -> String {
+        self.input_key_for(crate::VERSION)
+    }
+
+    /// The dedupe key this run would have had if recorded by magproof `version`.
+    pub(crate) fn input_key_for(&self, version: &str) -> String {
         let mut pairs: Vec<(InputRole, &str)> = self
             .inputs
             .iter()
@@ -281,7 +286,7 @@ impl NewRun {
         hasher.update(b"options\0");
         hasher.update(self.options.to_string().as_bytes());
         hasher.update(b"\nversion\0");
-        hasher.update(crate::VERSION.as_bytes());
+        hasher.update(version.as_bytes());
         hex(&hasher.finalize())
     }
 }

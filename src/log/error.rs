@@ -166,6 +166,19 @@ pub enum PlanError {
         /// What is wrong.
         problem: String,
     },
+    /// A value written on a line of the plan is invalid (the same checks as
+    /// [`PlanError::Invalid`], with the line of the key).
+    #[error("{path}:{line}: key \"{key}\": {problem}")]
+    InvalidAt {
+        /// The plan file.
+        path: Shown,
+        /// 1-based line of the key.
+        line: usize,
+        /// Dotted key, e.g. `rod[1].position_m`.
+        key: String,
+        /// What is wrong.
+        problem: String,
+    },
     /// A section the command needs is absent.
     #[error("{path}: missing [{section}] section: {why}")]
     MissingSection {

@@ -40,6 +40,10 @@ pub const FIRST_DATE: Date = time::macros::date!(2015 - 01 - 01);
 pub const LAST_DATE: Date = time::macros::date!(2030 - 01 - 01);
 /// Lowest altitude accepted, m (below the deepest mines; anything lower is a typo).
 pub const MIN_ALTITUDE_M: f64 = -1000.0;
+/// Highest altitude accepted, m (about 16 Earth radii: beyond the magnetopause, some
+/// 10 Earth radii out on the day side, the internal field the model describes no longer
+/// dominates — common practice; any larger value is a wrong unit).
+pub const MAX_ALTITUDE_M: f64 = 1.0e8;
 
 const COEFF_TEXT: &str = include_str!("igrf14_coeffs.txt");
 const N: usize = MAX_DEGREE + 1;
@@ -65,8 +69,8 @@ pub enum GeomagError {
         /// The longitude given, deg.
         lon_deg: f64,
     },
-    /// Altitude below −1 km or not a number.
-    #[error("altitude {alt_m} m is below -1000 m or not a finite number (height above the WGS-84 ellipsoid)")]
+    /// Altitude below −1 km, above 10⁸ m or not a number.
+    #[error("altitude {alt_m} m is not a finite number from -1000 m to 1e8 m (height above the WGS-84 ellipsoid)")]
     Altitude {
         /// The altitude given, m.
         alt_m: f64,
@@ -359,7 +363,7 @@ pub fn check_site(lat_deg: f64, lon_deg: f64, alt_m: f64) -> Result<(), GeomagEr
     if !lon_deg.is_finite() {
         return Err(GeomagError::Longitude { lon_deg });
     }
-    if !(alt_m.is_finite() && alt_m >= MIN_ALTITUDE_M) {
+    if !(alt_m.is_finite() && (MIN_ALTITUDE_M..=MAX_ALTITUDE_M).contains(&alt_m)) {
         return Err(GeomagError::Altitude { alt_m });
     }
     Ok(())

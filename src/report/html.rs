@@ -6,8 +6,10 @@ use std::fmt::Write as _;
 
 use super::model::{RunReport, Section, Tone, Verdict, CAUTIONS};
 
-/// Escape text for HTML element content and attribute values.
+/// Escape text for HTML element content and attribute values; characters XML does not
+/// allow are shown as escapes ([`crate::text::xml_text`]).
 pub fn escape(s: &str) -> String {
+    let s = crate::text::xml_text(s);
     let mut out = String::with_capacity(s.len());
     for c in s.chars() {
         match c {

@@ -214,7 +214,8 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
         }
         root.present().map_err(plot_err)?;
     }
-    Ok(svg)
+    // Labels may hold text of an old ledger: nothing XML forbids reaches the file.
+    Ok(crate::text::xml_clean(svg))
 }
 
 /// The x and y ranges in data units: fixed, else the data's, else 0–1; widened for an
@@ -346,7 +347,8 @@ pub fn draw_histogram(
             .map_err(plot_err)?;
         root.present().map_err(plot_err)?;
     }
-    Ok(svg)
+    // Labels may hold text of an old ledger: nothing XML forbids reaches the file.
+    Ok(crate::text::xml_clean(svg))
 }
 
 /// Points of an ellipse `centre + a·cos θ + b·sin θ` (for fitted-shape overlays).

@@ -233,24 +233,7 @@ pub fn render(report: &RunReport, style: &Style) -> String {
     out
 }
 
-/// `text` safe to print on a terminal: every control character (escape sequences that
-/// would set the title or colours, a line break that would forge a line) is shown as
-/// its escape (`\u{1b}`, `\n`) instead of acting. Text of a ledger written before plans
-/// refused control characters may still hold them.
-pub fn printable(text: &str) -> String {
-    if !text.chars().any(char::is_control) {
-        return text.to_string();
-    }
-    text.chars()
-        .map(|c| {
-            if c.is_control() {
-                c.escape_default().to_string()
-            } else {
-                c.to_string()
-            }
-        })
-        .collect()
-}
+pub use crate::text::printable;
 
 fn printable_section(s: &Section) -> Section {
     let p = |v: &[String]| v.iter().map(|x| printable(x)).collect::<Vec<_>>();

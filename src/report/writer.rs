@@ -84,6 +84,7 @@ impl ReportWriter for JsonWriter {
     fn write(&self, run: &RunReport, stdout: &mut dyn Write) -> Result<Written, Error> {
         let text = serde_json::to_string_pretty(&run.result)
             .map_err(|e| Error::Internal(format!("result JSON: {e}")))?;
+        let text = crate::text::json_for_terminal(text);
         writeln!(stdout, "{text}").map_err(|e| Error::io("standard output", e))?;
         Ok(Written::Stdout)
     }

@@ -166,3 +166,69 @@ fn history_reads_a_ledger_the_user_may_only_read() {
     assert_eq!(std::fs::read(&db).unwrap(), bytes, "the ledger changed");
     assert_eq!(crate::battery_outputs::names(d.path()), before);
 }
+
+/// Whether process `pid` has `file_name` open (any of its descriptors links to it).
+fn has_open(pid: u32, file_name: &str) -> bool {
+    let Ok(fds) = std::fs::read_dir(format!("/proc/{pid}/fd")) else {
+        return false;
+    };
+    fds.filter_map(Result::ok).any(|fd| {
+        std::fs::read_link(fd.path()).is_ok_and(|p| p.file_name().is_some_and(|n| n == file_name))
+    })
+}
+
+#[test]
+fn a_log_that_grows_after_it_was_read_is_recorded_under_the_bytes_analysed() {
+    let d = TestDir::new();
+    let plan = sample(&d, "b2");
+    let log = d.join("rod-pulses.csv");
+    let analysed = std::fs::read(&log).unwrap();
+    // The ledger exists, and this test holds its write lock: the run cannot be recorded
+    // until the log has grown.
+    drop(Ledger::open(&d.join("l.db")).unwrap());
+    let mut lock = rusqlite::Connection::open(d.join("l.db")).unwrap();
+    let tx = lock
+        .transaction_with_behavior(rusqlite::TransactionBehavior::Immediate)
+        .unwrap();
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("magproof"))
+        .current_dir(d.path())
+        .env_remove("MAGPROOF_LEDGER")
+        .args(["polarity", "--plan", plan, "rod-pulses.csv", "--record"])
+        .args(["--ledger", "l.db"])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    // The ledger is opened only after the log was read and analysed.
+    let start = std::time::Instant::now();
+    while !has_open(child.id(), "l.db") {
+        assert!(
+            start.elapsed() < Duration::from_secs(120),
+            "magproof never opened the ledger"
+        );
+        assert!(child.try_wait().unwrap().is_none(), "magproof ended early");
+        std::thread::sleep(Duration::from_millis(5));
+    }
+    // Now the log grows (a writer still logging), then the ledger is let go.
+    let mut f = std::fs::OpenOptions::new().append(true).open(&log).unwrap();
+    let last = String::from_utf8_lossy(&analysed)
+        .lines()
+        .last()
+        .unwrap()
+        .to_string();
+    for _ in 0..100 {
+        writeln!(f, "{last}").unwrap();
+    }
+    f.sync_all().unwrap();
+    tx.rollback().unwrap();
+    drop(lock);
+    let out = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{err}");
+    assert!(err.contains("recorded as run #1"), "{err}");
+    let grown = std::fs::read(&log).unwrap();
+    assert!(grown.len() > analysed.len());
+    // Recorded under the bytes analysed, not the file as it is now.
+    assert_eq!(log_hashes(&d.join("l.db")), vec![sha256_bytes(&analysed)]);
+    assert_ne!(sha256_bytes(&analysed), sha256_bytes(&grown));
+}

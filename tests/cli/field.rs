@@ -169,11 +169,11 @@ fn refused(args: &[&str], reason: &str) {
 fn latitude_beyond_90_exits_2_with_the_reason() {
     refused(
         &["--lat", "90.5", "--lon", "0", "--date", "2020-01-01"],
-        "latitude 90.5",
+        "invalid value '90.5' for '--lat <LAT>': expected a finite number from -90 deg to 90 deg",
     );
     refused(
         &["--lat", "-91", "--lon", "0", "--date", "2020-01-01"],
-        "latitude -91",
+        "invalid value '-91' for '--lat <LAT>'",
     );
 }
 
@@ -206,7 +206,7 @@ fn altitude_below_minus_1_km_exits_2_with_the_reason() {
             "--date",
             "2020-01-01",
         ],
-        "altitude -1500 m",
+        "invalid value '-1500' for '--alt-m <ALT_M>': expected a finite number from -1000 m to 1e8 m",
     );
 }
 

@@ -8,6 +8,7 @@
 //! `raw.rs` the TOML shapes as written (using `types`), and `parse.rs` the checks that
 //! turn one into the other (using both).
 
+mod locate;
 mod orbit;
 mod parse;
 mod raw;

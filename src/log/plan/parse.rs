@@ -15,9 +15,12 @@ use super::types::{
     Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
     Step,
 };
+use super::types::{MAX_CONDITION, MAX_DIPOLE_AM2, MAX_SETTLE_S, MAX_SOFT_IRON};
 use crate::log::error::{PlanError, Shown};
 use crate::log::units::FieldUnit;
 use crate::physics::frames::{check_rotation, rotation_from_axes};
+use crate::physics::igrf::{MAX_ALTITUDE_M, MIN_ALTITUDE_M};
+use crate::screen::plausible::MAX_FIELD_NT;
 
 /// Read and validate a test plan.
 pub fn read_plan(path: &Path) -> Result<Plan, PlanError> {
@@ -36,7 +39,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         path: Shown(path.to_path_buf()),
         message: one_line(&e.to_string()),
     })?;
-    let v = Validator { path };
+    let v = Validator { path, text };
     let article = raw.article.map(|a| v.article(a)).transpose()?;
     let magnetometer = raw.magnetometer.map(|m| v.magnetometer(m)).transpose()?;
     let probe = raw.probe.map(|p| v.probe(p)).transpose()?;
@@ -79,14 +82,24 @@ pub const MAX_POSITION_M: f64 = 100.0;
 /// Checks of single values, with errors naming the key and the plan file.
 struct Validator<'a> {
     path: &'a Path,
+    /// The plan's text, to name the line of a refused key.
+    text: &'a str,
 }
 
 impl Validator<'_> {
     fn invalid(&self, key: &str, problem: String) -> PlanError {
-        PlanError::Invalid {
-            path: Shown(self.path.to_path_buf()),
-            key: key.to_string(),
-            problem,
+        match super::locate::line_of(self.text, key) {
+            Some(line) => PlanError::InvalidAt {
+                path: Shown(self.path.to_path_buf()),
+                line,
+                key: key.to_string(),
+                problem,
+            },
+            None => PlanError::Invalid {
+                path: Shown(self.path.to_path_buf()),
+                key: key.to_string(),
+                problem,
+            },
         }
     }
 
@@ -120,6 +133,24 @@ impl Validator<'_> {
         match v {
             Some(x) if !(x.is_finite() && x > 0.0) => {
                 Err(self.invalid(key, format!("must be a positive number, found {x}")))
+            }
+            _ => Ok(v),
+        }
+    }
+
+    /// An optional value that, when given, is finite, positive and at most `max` (in the
+    /// key's unit): a larger value is a wrong unit or a typo, and would overflow the
+    /// computations it enters.
+    fn positive_at_most(
+        &self,
+        key: &str,
+        v: Option<f64>,
+        max: f64,
+    ) -> Result<Option<f64>, PlanError> {
+        let v = self.positive(key, v)?;
+        match v {
+            Some(x) if x > max => {
+                Err(self.invalid(key, format!("must be at most {max:e}, found {x:e}")))
             }
             _ => Ok(v),
         }
@@ -176,7 +207,7 @@ impl Validator<'_> {
                 .map(|u| u.parse::<FieldUnit>())
                 .transpose()
                 .map_err(|e| self.invalid("magnetometer.unit", e.to_string()))?,
-            range_nt: self.positive("magnetometer.range_nt", m.range_nt)?,
+            range_nt: self.positive_at_most("magnetometer.range_nt", m.range_nt, MAX_FIELD_NT)?,
         })
     }
 
@@ -200,8 +231,11 @@ impl Validator<'_> {
                 format!("must lie in −360..360, found {}", s.lon_deg),
             ));
         }
-        if !s.alt_m.is_finite() {
-            return Err(self.invalid("site.alt_m", "must be a finite number".into()));
+        if !(s.alt_m.is_finite() && (MIN_ALTITUDE_M..=MAX_ALTITUDE_M).contains(&s.alt_m)) {
+            return Err(self.invalid(
+                "site.alt_m",
+                format!("must be a finite number from {MIN_ALTITUDE_M} m to {MAX_ALTITUDE_M:e} m, found {}", s.alt_m),
+            ));
         }
         let date = s
             .date
@@ -213,7 +247,11 @@ impl Validator<'_> {
             lon_deg: s.lon_deg,
             alt_m: s.alt_m,
             date,
-            reference_nt: self.positive("site.reference_nt", s.reference_nt)?,
+            reference_nt: self.positive_at_most(
+                "site.reference_nt",
+                s.reference_nt,
+                MAX_FIELD_NT,
+            )?,
         })
     }
 
@@ -243,6 +281,12 @@ impl Validator<'_> {
             }
             let axis = self.vec3(&key("axis_body"), r.axis_body)?;
             let n = axis.norm();
+            if !n.is_finite() {
+                return Err(self.invalid(
+                    &key("axis_body"),
+                    format!("{:?} is too long to be a direction", r.axis_body),
+                ));
+            }
             if n < 1e-9 {
                 return Err(self.invalid(&key("axis_body"), "must not be the zero vector".into()));
             }
@@ -250,10 +294,13 @@ impl Validator<'_> {
                 name,
                 axis_body: axis / n,
                 position_m: self.position(&key("position_m"), r.position_m)?,
-                dipole_per_command_am2: self
-                    .positive(&key("dipole_per_command_am2"), r.dipole_per_command_am2)?,
-                length_m: self.positive(&key("length_m"), r.length_m)?,
-                settle_s: self.positive(&key("settle_s"), r.settle_s)?,
+                dipole_per_command_am2: self.positive_at_most(
+                    &key("dipole_per_command_am2"),
+                    r.dipole_per_command_am2,
+                    MAX_DIPOLE_AM2,
+                )?,
+                length_m: self.positive_at_most(&key("length_m"), r.length_m, MAX_POSITION_M)?,
+                settle_s: self.positive_at_most(&key("settle_s"), r.settle_s, MAX_SETTLE_S)?,
             });
         }
         Ok(rods)
@@ -296,7 +343,7 @@ impl Validator<'_> {
     fn gate_limits(&self, raw: &RawLimits) -> Result<GateLimits, PlanError> {
         let share = |key: &str, v: Option<f64>| -> Result<Option<f64>, PlanError> {
             match v {
-                Some(x) if !(0.0..=1.0).contains(&x) => Err(self.invalid(
+                Some(x) if !(x.is_finite() && (0.0..=1.0).contains(&x)) => Err(self.invalid(
                     &format!("limits.{key}"),
                     format!("must be a share between 0 and 1, found {x}"),
                 )),
@@ -305,15 +352,34 @@ impl Validator<'_> {
         };
         let g = GateLimits {
             coverage_min: share("coverage_min", raw.coverage_min)?,
-            hard_iron_max_nt: self.positive("limits.hard_iron_max_nt", raw.hard_iron_max_nt)?,
-            soft_iron_min: self.positive("limits.soft_iron_min", raw.soft_iron_min)?,
-            soft_iron_max: self.positive("limits.soft_iron_max", raw.soft_iron_max)?,
+            hard_iron_max_nt: self.positive_at_most(
+                "limits.hard_iron_max_nt",
+                raw.hard_iron_max_nt,
+                MAX_FIELD_NT,
+            )?,
+            soft_iron_min: self.positive_at_most(
+                "limits.soft_iron_min",
+                raw.soft_iron_min,
+                MAX_SOFT_IRON,
+            )?,
+            soft_iron_max: self.positive_at_most(
+                "limits.soft_iron_max",
+                raw.soft_iron_max,
+                MAX_SOFT_IRON,
+            )?,
             residual_max_fraction: share("residual_max_fraction", raw.residual_max_fraction)?,
             samples_used_min: share("samples_used_min", raw.samples_used_min)?,
             rods_on_share_max: share("rods_on_share_max", raw.rods_on_share_max)?,
-            design_condition_max: self
-                .positive("limits.design_condition_max", raw.design_condition_max)?,
-            alignment_max_deg: self.positive("limits.alignment_max_deg", raw.alignment_max_deg)?,
+            design_condition_max: self.positive_at_most(
+                "limits.design_condition_max",
+                raw.design_condition_max,
+                MAX_CONDITION,
+            )?,
+            alignment_max_deg: self.positive_at_most(
+                "limits.alignment_max_deg",
+                raw.alignment_max_deg,
+                180.0,
+            )?,
         };
         if let (Some(lo), Some(hi)) = (g.soft_iron_min, g.soft_iron_max) {
             if lo >= hi {
@@ -328,13 +394,15 @@ impl Validator<'_> {
 
     fn limits(&self, raw: RawLimits) -> Result<Limits, PlanError> {
         let limits = Limits {
-            residual_dipole_max_am2: self.positive(
+            residual_dipole_max_am2: self.positive_at_most(
                 "limits.residual_dipole_max_am2",
                 raw.residual_dipole_max_am2,
+                MAX_DIPOLE_AM2,
             )?,
-            calibration_residual_max_nt: self.positive(
+            calibration_residual_max_nt: self.positive_at_most(
                 "limits.calibration_residual_max_nt",
                 raw.calibration_residual_max_nt,
+                MAX_FIELD_NT,
             )?,
             polarity_angle_max_deg: self
                 .positive("limits.polarity_angle_max_deg", raw.polarity_angle_max_deg)?,

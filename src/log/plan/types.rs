@@ -220,3 +220,13 @@ impl Plan {
         }
     }
 }
+
+/// Largest magnetic moment in a plan (a rod's per-command dipole, a dipole limit), A·m²:
+/// the largest flight torque rods give some hundreds of A·m² (common practice).
+pub const MAX_DIPOLE_AM2: f64 = 1.0e4;
+/// Longest settle time of a rod, s.
+pub const MAX_SETTLE_S: f64 = 3600.0;
+/// Largest soft-iron scale in a limit (a soft-iron matrix is near the identity).
+pub const MAX_SOFT_IRON: f64 = 100.0;
+/// Largest condition-number limit (beyond it no fit is trustworthy in f64).
+pub const MAX_CONDITION: f64 = 1.0e12;
