@@ -8,6 +8,7 @@ use std::path::PathBuf;
 use clap::Args as ClapArgs;
 
 use super::common::{InputArgs, Outcome, OutputArgs};
+use super::numeric::{number, Domain};
 use super::present::{present_check, Analysed};
 use magproof::check::orbit::ground::latest_ground;
 use magproof::check::orbit::{run_orbit, OrbitOptions, DEFAULT_GRID_S};
@@ -24,7 +25,7 @@ pub struct Args {
     #[arg(long)]
     plan: PathBuf,
     /// Spacing of the model nodes, s; 0 synthesises IGRF-14 at every sample.
-    #[arg(long, value_name = "S", default_value_t = DEFAULT_GRID_S, value_parser = parse_grid)]
+    #[arg(long, value_name = "S", default_value_t = DEFAULT_GRID_S, value_parser = |s: &str| number(s, GRID_S), allow_hyphen_values = true)]
     grid_s: f64,
     /// Plain least squares instead of Tukey reweighting.
     #[arg(long)]
@@ -40,12 +41,8 @@ pub struct Args {
     record: super::record::RecordArgs,
 }
 
-fn parse_grid(s: &str) -> Result<f64, String> {
-    match s.trim().parse::<f64>() {
-        Ok(v) if v.is_finite() && (0.0..=600.0).contains(&v) => Ok(v),
-        _ => Err(format!("expected seconds in 0..600, found \"{s}\"")),
-    }
-}
+/// Model node spacing: 0 (every sample) to 10 minutes.
+const GRID_S: Domain = Domain::closed(0.0, 600.0, "s");
 
 /// Run `orbit`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
