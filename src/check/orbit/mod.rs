@@ -2,7 +2,7 @@
 //! magnitude along the orbit (docs/orbit.md; JSON keys listed there).
 //!
 //! Steps: positions (logged Earth-fixed or geodetic, else SGP4 from the plan's
-//! `[orbit] tle`), the model magnitude per sample ([`reference`]), the attitude-independent
+//! `[orbit] tle`), the model magnitude per sample ([`mod@reference`]), the attitude-independent
 //! fit with regressor biases and robust weights ([`crate::fit::orbit`]), the gates, and the
 //! comparison with the latest ground calibration of the same serial ([`ground`]).
 //!
