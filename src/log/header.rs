@@ -229,9 +229,14 @@ fn classify(
     let kind = match name {
         "t" | "time" => {
             let u = match unit {
-                None | Some("s") => TimeUnit::Seconds,
+                // `unix`: seconds since 1970 (an orbit log's time tags).
+                None | Some("s") | Some("unix") => TimeUnit::Seconds,
                 Some("ms") => TimeUnit::Milliseconds,
-                Some(u) => return Err(format!("unknown time unit \"{u}\" (expected s or ms)")),
+                Some(u) => {
+                    return Err(format!(
+                        "unknown time unit \"{u}\" (expected s, ms or unix)"
+                    ))
+                }
             };
             return Ok((ColumnKind::Time(u), 1.0));
         }

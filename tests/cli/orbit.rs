@@ -289,3 +289,26 @@ fn dipole_takes_the_orbit_from_the_plan_and_assumes_none() {
     ]);
     assert_eq!(json_stdout(&run)["altitude_km"], 400.0);
 }
+
+#[test]
+fn closeout_reads_unix_time_tags() {
+    let d = TestDir::new();
+    simulate(&d, "s", "ecef");
+    let text = std::fs::read_to_string(d.join("s/orbit.csv")).unwrap();
+    let mut out = String::new();
+    for (k, line) in text.lines().enumerate() {
+        let (t, rest) = line.split_once(',').unwrap();
+        if k == 0 {
+            out += &format!("t [unix],{rest}\n");
+        } else {
+            let unix = magproof::log::parse_iso8601(t).unwrap();
+            out += &format!("{unix:.1},{rest}\n");
+        }
+    }
+    std::fs::write(d.join("s/orbit.csv"), out).unwrap();
+    let run = d.run(&["closeout", "s/plan.toml", "--json", "--ledger", "l.sqlite"]);
+    assert_code(&run, 0);
+    let r = json_stdout(&run);
+    assert_eq!(r["steps"][0]["result"]["reference"], "positions-ecef");
+    assert_eq!(r["steps"][0]["verdict"], "pass");
+}
