@@ -46,6 +46,7 @@ fn write_ledger(path: &Path, n: usize) {
             quantities: legacy_quantities(kind.as_str(), &result),
             result,
             options: json!({}),
+            sensor: None,
         });
         if batch.len() == 1000 || i + 1 == n {
             ledger.record_runs(&batch).expect("record bench runs");

@@ -16,6 +16,8 @@ mod battery_old_ledger;
 mod battery_outputs;
 #[path = "cli/battery_versions.rs"]
 mod battery_versions;
+#[path = "cli/cage_amps.rs"]
+mod cage_amps;
 #[path = "cli/calibrate.rs"]
 mod calibrate;
 #[path = "cli/closeout.rs"]
@@ -30,6 +32,8 @@ mod field;
 mod history;
 #[path = "cli/input.rs"]
 mod input;
+#[path = "cli/log_forms.rs"]
+mod log_forms;
 #[path = "cli/orbit.rs"]
 mod orbit;
 #[path = "cli/polarity.rs"]
@@ -38,6 +42,8 @@ mod polarity;
 mod reliability;
 #[path = "cli/report.rs"]
 mod report;
+#[path = "cli/sensors.rs"]
+mod sensors;
 #[path = "cli/simulate.rs"]
 mod simulate;
 #[path = "cli/verdicts.rs"]

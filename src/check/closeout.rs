@@ -37,6 +37,10 @@ pub struct StepOutcome {
     pub log_sha256: String,
     /// Its result.
     pub result: Box<dyn CheckResult>,
+    /// The magnetometer the step read (`sensor = "NAME"`), when named.
+    pub sensor: Option<String>,
+    /// Columns of its log that no check uses, as written in the header.
+    pub ignored_columns: Vec<String>,
 }
 
 /// Every step of a plan.
@@ -74,6 +78,8 @@ impl CloseoutResult {
                     "log": s.log.display().to_string(),
                     "pass": s.result.verdict().pass(),
                     "verdict": s.result.verdict(),
+                    "sensor": s.sensor,
+                    "ignored_columns": s.ignored_columns,
                     "result": s.result.json()?,
                 }))
             })
@@ -111,18 +117,26 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
     let kinds = step_kinds(&plan)?;
     let mut steps = Vec::with_capacity(plan.steps.len());
     for (k, (step, kind)) in plan.steps.iter().zip(kinds).enumerate() {
-        let (result, log_sha256) =
-            run_step(&plan, kind, &step.log, req.skip_bad_rows).map_err(|e| Error::Step {
-                index: k + 1,
-                kind: kind.as_str(),
-                log: step.log.clone(),
-                source: Box::new(e),
-            })?;
+        let step_error = |e: Error| Error::Step {
+            index: k + 1,
+            kind: kind.as_str(),
+            log: step.log.clone(),
+            source: Box::new(e),
+        };
+        let mut step_plan = plan.clone();
+        if step.sensor.is_some() {
+            step_plan
+                .select_sensor(step.sensor.as_deref())
+                .map_err(|e| step_error(e.into()))?;
+        }
+        let ran = run_step(&step_plan, kind, &step.log, req.skip_bad_rows).map_err(step_error)?;
         steps.push(StepOutcome {
             index: k + 1,
             log: step.log.clone(),
-            log_sha256,
-            result,
+            log_sha256: ran.log_sha256,
+            result: ran.result,
+            sensor: step_plan.sensor_name().map(String::from),
+            ignored_columns: ran.ignored_columns,
         });
     }
     Ok(CloseoutResult { plan, steps })
@@ -150,21 +164,38 @@ fn step_kinds(plan: &Plan) -> Result<Vec<CheckKind>, Error> {
         .collect()
 }
 
+/// What one step gave: its result, the SHA-256 of the log's bytes as read, and the
+/// log's ignored columns.
+#[derive(Debug)]
+pub struct StepRun {
+    /// The check's result.
+    pub result: Box<dyn CheckResult>,
+    /// SHA-256 (lower-case hex) of the log's bytes, hashed as they were read.
+    pub log_sha256: String,
+    /// Columns of the log that no check uses, as written.
+    pub ignored_columns: Vec<String>,
+}
+
 /// Run one check of a plan on one log: read and screen the log as the check needs,
-/// then run it. Returns the result and the SHA-256 of the log's bytes as read.
+/// then run it.
 pub fn run_step(
     plan: &Plan,
     kind: CheckKind,
     log: &Path,
     skip_bad_rows: bool,
-) -> Result<(Box<dyn CheckResult>, String), Error> {
+) -> Result<StepRun, Error> {
     let spec = kind.spec()?;
     let options = InputOptions {
         unit: None,
         range_nt: None,
         skip_bad_rows,
         plan_range_applies: (spec.plan_range_applies)(plan),
+        decimal_comma: false,
     };
     let input = CheckInput::read(log, Some(plan), &options)?;
-    Ok(((spec.run_step)(&input, plan)?, input.log.sha256.clone()))
+    Ok(StepRun {
+        result: (spec.run_step)(&input, plan)?,
+        log_sha256: input.log.sha256.clone(),
+        ignored_columns: input.log.ignored_columns.clone(),
+    })
 }

@@ -6,6 +6,7 @@
 use std::fmt;
 use std::path::Path;
 
+use super::input_forms::{currents_to_field, layout_for, spread_repeated_times};
 use crate::log::{read_sweep_with_progress, FieldUnit, Plan, ReadOptions, SweepLog};
 use crate::screen::plausible::check_field_scale;
 use crate::screen::saturation::{screen_log, SaturationCause, SaturationReport};
@@ -27,6 +28,9 @@ pub struct InputOptions {
     /// Whether the plan's `[magnetometer] range_nt` applies: true when the flight
     /// magnetometer recorded the log, false for an external probe.
     pub plan_range_applies: bool,
+    /// Numbers are written with a decimal comma (`--decimal-comma`; the plan's
+    /// `[log] decimal = ","` says so too).
+    pub decimal_comma: bool,
 }
 
 /// Something about the input that every check reports the same way.
@@ -43,6 +47,17 @@ pub enum InputWarning {
         /// Beyond the range, or piled up on a rail.
         cause: SaturationCause,
     },
+    /// Rows shared a timestamp with the row before (a coarse clock); they were spread
+    /// evenly up to the next time.
+    RepeatedTimes {
+        /// Rows whose time equals the row before's.
+        count: usize,
+        /// File line of the first.
+        first_line: u64,
+    },
+    /// The log gives coil currents and the plan no `[cage] ambient_nt`: the ambient field
+    /// is folded into the hard iron.
+    AmbientFolded,
     /// Rows were skipped by the reader (`skip_bad_rows`).
     SkippedRows {
         /// Rows skipped.
@@ -78,6 +93,17 @@ impl fmt::Display for InputWarning {
                  that is not it",
                 axis_name(*axis)
             ),
+            InputWarning::RepeatedTimes { count, first_line } => write!(
+                f,
+                "{count} rows repeat the timestamp of the row before (first on line \
+                 {first_line}): the clock is coarser than the sampling; they were spread \
+                 evenly up to the next time, so time steps are estimates"
+            ),
+            InputWarning::AmbientFolded => f.write_str(
+                "the applied field comes from coil currents and the plan gives no [cage] \
+                 ambient_nt: the ambient field with the coils off is folded into the hard \
+                 iron; give ambient_nt (cage frame, nT) to separate them",
+            ),
             InputWarning::SkippedRows { count, first } => write!(
                 f,
                 "{count} bad rows were skipped as asked; the first: {first}; fix or remove \
@@ -89,6 +115,21 @@ impl fmt::Display for InputWarning {
 
 fn axis_name(axis: usize) -> &'static str {
     ["x", "y", "z"].get(axis).copied().unwrap_or("?")
+}
+
+/// How the reader reads a log under `plan` as `options` ask: the field unit of columns
+/// without one (command line, else the plan's magnetometer, else nT) and the layout
+/// (`[columns]`, the magnetometer's columns and counts, `[log]`, `--decimal-comma`).
+pub fn read_options(plan: Option<&Plan>, options: &InputOptions) -> Result<ReadOptions, Error> {
+    let unit = options
+        .unit
+        .or_else(|| plan.and_then(|p| p.magnetometer.as_ref()?.unit))
+        .unwrap_or_default();
+    Ok(ReadOptions {
+        default_unit: unit,
+        skip_bad_rows: options.skip_bad_rows,
+        layout: layout_for(plan, options)?,
+    })
 }
 
 /// A log read and screened once, ready for any check.
@@ -120,26 +161,28 @@ impl CheckInput {
         progress: &mut dyn FnMut(u64),
     ) -> Result<Self, Error> {
         let magnetometer = plan.and_then(|p| p.magnetometer.as_ref());
-        let unit = options
-            .unit
-            .or_else(|| magnetometer.and_then(|m| m.unit))
-            .unwrap_or_default();
-        let read = ReadOptions {
-            default_unit: unit,
-            skip_bad_rows: options.skip_bad_rows,
-        };
-        let log = read_sweep_with_progress(path, &read, progress)?;
+        let read = read_options(plan, options)?;
+        let mut log = read_sweep_with_progress(path, &read, progress)?;
+        let mut early = Vec::new();
+        currents_to_field(&mut log, plan, &mut early)?;
         let range_nt = options.range_nt.or_else(|| {
             magnetometer
                 .and_then(|m| m.range_nt)
                 .filter(|_| options.plan_range_applies)
         });
-        Self::screen(log, unit, range_nt)
+        let mut input = Self::screen(log, read.default_unit, range_nt)?;
+        input.warnings.extend(early);
+        Ok(input)
     }
 
     /// Screen a log already read: impossible values refuse it; saturated rows are
     /// flagged (an axis saturated throughout refuses it).
-    pub fn screen(log: SweepLog, unit: FieldUnit, range_nt: Option<f64>) -> Result<Self, Error> {
+    pub fn screen(
+        mut log: SweepLog,
+        unit: FieldUnit,
+        range_nt: Option<f64>,
+    ) -> Result<Self, Error> {
+        let repeated = log.t_s.as_mut().and_then(|t| spread_repeated_times(t));
         check_field_scale(&log)?;
         let saturation = screen_log(&log, range_nt)?;
         check_stuck_axes(&log, &saturation.flagged)?;
@@ -153,6 +196,12 @@ impl CheckInput {
                 cause: a.cause,
             })
             .collect();
+        if let Some((count, first)) = repeated {
+            warnings.push(InputWarning::RepeatedTimes {
+                count,
+                first_line: log.lines.get(first).unwrap_or(0),
+            });
+        }
         if let Some(first) = log.skipped_rows.first() {
             warnings.push(InputWarning::SkippedRows {
                 count: log.skipped_rows.len(),

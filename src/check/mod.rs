@@ -13,6 +13,7 @@ pub mod dipole;
 #[cfg(test)]
 pub(crate) mod dummy;
 pub mod input;
+mod input_forms;
 pub mod kind;
 pub mod orbit;
 pub mod outcome;

@@ -6,13 +6,13 @@ use std::path::PathBuf;
 
 use clap::{Args as ClapArgs, ValueEnum};
 
+use super::common::load_plan;
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::numeric::{number, FIELD_NT};
 use super::present::{present_check, read_input, Analysed};
 use magproof::check::calibrate::{run_calibrate, CalibrateOptions};
 use magproof::check::CheckRequest;
 use magproof::fit::tumble::Robust;
-use magproof::log::read_plan;
 use magproof::report::{FlightParamsWriter, ParamsSource, ReportWriter};
 
 /// Robust reweighting of the tumble fit.
@@ -44,6 +44,8 @@ pub struct Args {
     #[command(flatten)]
     input: InputArgs,
     #[command(flatten)]
+    sensor: super::common::SensorArgs,
+    #[command(flatten)]
     output: OutputArgs,
     #[command(flatten)]
     record: super::record::RecordArgs,
@@ -52,7 +54,7 @@ pub struct Args {
 /// Run `calibrate`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let plan = match &args.plan {
-        Some(p) => Some(read_plan(p).map_err(magproof::Error::from)?),
+        Some(p) => Some(load_plan(p, args.sensor.sensor.as_deref())?),
         None => None,
     };
     let input = read_input(&args.log, plan.as_ref(), &args.input, true)?;

@@ -64,13 +64,13 @@ pub fn run_and_record(
         .map(|s| {
             // Step log paths are already resolved against the plan's folder.
             let options = serde_json::json!({ "skip_bad_rows": skip_bad_rows });
-            NewRun::from_result(
-                &result.plan,
-                s.result.as_ref(),
-                (&s.log, &s.log_sha256),
-                options,
-            )
-            .map_err(magproof::Error::from)
+            // The step's magnetometer goes with its record.
+            let mut plan = result.plan.clone();
+            if s.sensor.is_some() {
+                plan.select_sensor(s.sensor.as_deref())?;
+            }
+            NewRun::from_result(&plan, s.result.as_ref(), (&s.log, &s.log_sha256), options)
+                .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
     let (recorded, other_versions) = Ledger::open(path)
@@ -140,7 +140,15 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
 pub fn closeout_report(result: &CloseoutResult) -> anyhow::Result<RunReport> {
     let mut sections = Vec::with_capacity(result.steps.len());
     for s in &result.steps {
-        for mut section in s.result.sections()? {
+        for (k, mut section) in s.result.sections()?.into_iter().enumerate() {
+            if k == 0 && !s.ignored_columns.is_empty() {
+                section
+                    .notes
+                    .push(super::present::ignored_note(&s.ignored_columns));
+            }
+            if let (0, Some(sensor)) = (k, &s.sensor) {
+                section.notes.push(format!("Magnetometer: {sensor}."));
+            }
             // Figure files must stay unique when a plan has two steps of one kind.
             for f in &mut section.figures {
                 f.file_name = format!("step{}-{}", s.index, f.file_name);

@@ -51,6 +51,31 @@ pub struct InputArgs {
     /// saturated and left out. Beats the plan's [magnetometer] range_nt.
     #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, FIELD_NT), allow_hyphen_values = true)]
     pub range: Option<f64>,
+    /// Numbers in the log are written with a decimal comma (1,5); its delimiter is then
+    /// ";" or tab. The plan's [log] decimal = "," says the same.
+    #[arg(long)]
+    pub decimal_comma: bool,
+}
+
+/// Which of the plan's magnetometers recorded the log.
+#[derive(Debug, Clone, Args)]
+pub struct SensorArgs {
+    /// The plan's [[magnetometer]] whose columns to read, by name (needed when the plan
+    /// lists several).
+    #[arg(long, value_name = "NAME")]
+    pub sensor: Option<String>,
+}
+
+/// Read the plan at `path` and choose its magnetometer named `sensor`, if given.
+pub fn load_plan(
+    path: &std::path::Path,
+    sensor: Option<&str>,
+) -> Result<magproof::log::Plan, magproof::Error> {
+    let mut plan = magproof::log::read_plan(path)?;
+    if sensor.is_some() {
+        plan.select_sensor(sensor)?;
+    }
+    Ok(plan)
 }
 
 fn parse_unit(s: &str) -> Result<FieldUnit, String> {

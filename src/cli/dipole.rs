@@ -6,12 +6,12 @@ use std::path::PathBuf;
 
 use clap::Args as ClapArgs;
 
+use super::common::load_plan;
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
 use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition};
 use magproof::check::CheckRequest;
-use magproof::log::read_plan;
 
 /// Flags of `magproof dipole`.
 #[derive(Debug, ClapArgs)]
@@ -37,6 +37,8 @@ pub struct Args {
     #[command(flatten)]
     input: InputArgs,
     #[command(flatten)]
+    sensor: super::common::SensorArgs,
+    #[command(flatten)]
     output: OutputArgs,
     #[command(flatten)]
     record: super::record::RecordArgs,
@@ -50,7 +52,7 @@ const INCLINATION_DEG: Domain = Domain::closed(0.0, 180.0, "deg");
 
 /// Run `dipole`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    let plan = read_plan(&args.plan).map_err(magproof::Error::from)?;
+    let plan = load_plan(&args.plan, args.sensor.sensor.as_deref())?;
     // The map is taken with an external probe: the magnetometer's range does not apply.
     let input = read_input(&args.log, Some(&plan), &args.input, false)?;
     let from_plan = DipoleOptions::for_plan(&plan);

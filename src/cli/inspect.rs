@@ -1,25 +1,30 @@
 //! `magproof inspect LOG [--plan P]`: read a log (and a plan) the way every check would,
-//! and say what was found: recognised columns, rows, time span, ignored columns and
-//! skipped rows. A quick way to find a bad cell before the real run.
+//! and say what was found: the columns used with the plan's mapping applied, rows, time
+//! span, ignored columns and skipped rows. A quick way to find a bad cell before the
+//! real run. A log without usable field columns exits 2 after the listing.
 
 use std::path::PathBuf;
 
 use clap::Args as ClapArgs;
 use serde::Serialize;
 
-use super::common::{InputArgs, Outcome};
-use magproof::log::{read_plan, read_sweep, ReadOptions};
+use super::common::{load_plan, InputArgs, Outcome, SensorArgs};
+use magproof::check::input::read_options;
+use magproof::check::InputOptions;
+use magproof::log::{read_sweep, LogError, Plan, Shown, SweepLog, UsedColumn};
 
 /// Flags of `magproof inspect`.
 #[derive(Debug, ClapArgs)]
 pub struct Args {
     /// Sweep log (CSV).
     log: PathBuf,
-    /// Test plan (TOML); checked too, and its [magnetometer] unit applies.
+    /// Test plan (TOML); checked too, and its [magnetometer], [columns] and [log] apply.
     #[arg(long)]
     plan: Option<PathBuf>,
     #[command(flatten)]
     input: InputArgs,
+    #[command(flatten)]
+    sensor: SensorArgs,
     /// Print one JSON object on stdout.
     #[arg(long)]
     json: bool,
@@ -31,12 +36,14 @@ struct Inspection {
     rows: usize,
     header_line: u64,
     columns: Vec<String>,
+    mapping: Vec<UsedColumn>,
     ignored_columns: Vec<String>,
     rows_skipped: usize,
     skipped: Vec<Skipped>,
     time_span_s: Option<f64>,
     field_magnitude_nt: Option<[f64; 3]>,
     mounts: Vec<String>,
+    sensor: Option<String>,
     plan_ok: Option<bool>,
 }
 
@@ -51,36 +58,60 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let plan = args
         .plan
         .as_deref()
-        .map(read_plan)
-        .transpose()
-        .map_err(magproof::Error::from)?;
-    let unit = args
-        .input
-        .unit
-        .or_else(|| plan.as_ref().and_then(|p| p.magnetometer.as_ref()?.unit))
-        .unwrap_or_default();
-    let opts = ReadOptions {
-        default_unit: unit,
-        skip_bad_rows: args.input.skip_bad_rows,
-    };
-    let log = read_sweep(&args.log, &opts).map_err(magproof::Error::from)?;
+        .map(|p| load_plan(p, args.sensor.sensor.as_deref()))
+        .transpose()?;
+    let log = read_log(&args, plan.as_ref())?;
+    let report = gather(&args, plan.as_ref(), &log);
+    if args.json {
+        outln!("{}", serde_json::to_string_pretty(&report)?)?;
+    } else {
+        print_text(&report, &args)?;
+    }
+    if log.b_nt.is_none() {
+        return Err(magproof::Error::from(LogError::MissingColumn {
+            path: Shown(args.log.clone()),
+            column: "bx, by, bz".into(),
+            why: "the log holds no usable field columns; name them bx by bz, or map the \
+                  log's own names in the plan's [columns] (or a magnetometer's columns)"
+                .into(),
+        })
+        .into());
+    }
+    Ok(Outcome::Passed)
+}
 
+/// Read the log as every check would: the plan's unit, mapping and layout applied.
+fn read_log(args: &Args, plan: Option<&Plan>) -> anyhow::Result<SweepLog> {
+    let options = InputOptions {
+        unit: args.input.unit,
+        range_nt: args.input.range,
+        skip_bad_rows: args.input.skip_bad_rows,
+        plan_range_applies: true,
+        decimal_comma: args.input.decimal_comma,
+    };
+    let read = read_options(plan, &options)?;
+    Ok(read_sweep(&args.log, &read).map_err(magproof::Error::from)?)
+}
+
+/// Our columns found, each with its internal unit.
+fn used_columns(log: &SweepLog) -> Vec<String> {
     let mut columns = Vec::new();
-    if log.t_s.is_some() {
-        columns.push("t [s]".to_string());
-    }
-    if log.b_nt.is_some() {
-        columns.extend(["bx [nT]", "by [nT]", "bz [nT]"].map(String::from));
-    }
-    if log.h_nt.is_some() {
-        columns.extend(["hx [nT]", "hy [nT]", "hz [nT]"].map(String::from));
-    }
-    if log.temp_c.is_some() {
-        columns.push("temp [°C]".into());
-    }
-    for c in &log.commands {
-        columns.push(format!("cmd_{}", c.rod));
-    }
+    let mut push3 = |present: bool, names: [&str; 3]| {
+        if present {
+            columns.extend(names.map(String::from));
+        }
+    };
+    push3(log.t_s.is_some(), ["t [s]", "", ""]);
+    push3(log.b_nt.is_some(), ["bx [nT]", "by [nT]", "bz [nT]"]);
+    push3(log.h_nt.is_some(), ["hx [nT]", "hy [nT]", "hz [nT]"]);
+    push3(log.i_a.is_some(), ["ix [A]", "iy [A]", "iz [A]"]);
+    push3(
+        log.gyro_rad_s.is_some(),
+        ["gx [rad/s]", "gy [rad/s]", "gz [rad/s]"],
+    );
+    push3(log.temp_c.is_some(), ["temp [°C]", "", ""]);
+    columns.retain(|c| !c.is_empty());
+    columns.extend(log.commands.iter().map(|c| format!("cmd_{}", c.rod)));
     if log.angle_rad.is_some() {
         columns.push("angle [rad]".into());
     }
@@ -90,21 +121,28 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     if log.probe_m.is_some() {
         columns.extend(["px [m]", "py [m]", "pz [m]"].map(String::from));
     }
-    let time_span_s = log.t_s.as_ref().and_then(|t| Some(t.last()? - t.first()?));
-    let field_magnitude_nt = log.b_nt.as_ref().map(|b| {
-        let mags: Vec<f64> = (0..log.len())
-            .map(|i| (b[0][i].powi(2) + b[1][i].powi(2) + b[2][i].powi(2)).sqrt())
-            .collect();
-        let min = mags.iter().copied().fold(f64::INFINITY, f64::min);
-        let max = mags.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        let mean = mags.iter().sum::<f64>() / mags.len() as f64;
-        [min, mean, max]
-    });
-    let report = Inspection {
+    columns
+}
+
+/// min, mean and max of |B|, nT.
+fn field_magnitude_nt(log: &SweepLog) -> Option<[f64; 3]> {
+    let b = log.b_nt.as_ref()?;
+    let mags: Vec<f64> = (0..log.len())
+        .map(|i| (b[0][i].powi(2) + b[1][i].powi(2) + b[2][i].powi(2)).sqrt())
+        .collect();
+    let min = mags.iter().copied().fold(f64::INFINITY, f64::min);
+    let max = mags.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let mean = mags.iter().sum::<f64>() / mags.len() as f64;
+    Some([min, mean, max])
+}
+
+fn gather(args: &Args, plan: Option<&Plan>, log: &SweepLog) -> Inspection {
+    Inspection {
         file: args.log.display().to_string(),
         rows: log.len(),
         header_line: log.header_line,
-        columns,
+        columns: used_columns(log),
+        mapping: log.columns_used.clone(),
         ignored_columns: log.ignored_columns.clone(),
         rows_skipped: log.skipped_rows.len(),
         skipped: log
@@ -115,15 +153,30 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
                 reason: s.reason.clone(),
             })
             .collect(),
-        time_span_s,
-        field_magnitude_nt,
+        time_span_s: log.t_s.as_ref().and_then(|t| Some(t.last()? - t.first()?)),
+        field_magnitude_nt: field_magnitude_nt(log),
         mounts: log.mount_labels.clone(),
-        plan_ok: plan.as_ref().map(|_| true),
-    };
-    if args.json {
-        outln!("{}", serde_json::to_string_pretty(&report)?)?;
-        return Ok(Outcome::Passed);
+        sensor: plan.and_then(|p| p.sensor_name()).map(String::from),
+        plan_ok: plan.map(|_| true),
     }
+}
+
+/// `bx ← MAG_X [counts] (× 0.15)`: one entry of the mapping applied.
+fn mapping_entry(c: &UsedColumn) -> String {
+    let same = c.header.eq_ignore_ascii_case(&c.quantity);
+    let mut s = if same {
+        c.quantity.clone()
+    } else {
+        format!("{} ← {}", c.quantity, c.header)
+    };
+    // The factor to the internal unit, when it is not 1.
+    if (c.scale - 1.0).abs() > 1e-15 {
+        s.push_str(&format!(" (× {})", c.scale));
+    }
+    s
+}
+
+fn print_text(report: &Inspection, args: &Args) -> anyhow::Result<()> {
     outln!(
         "{}: {} rows (header on line {})",
         report.file,
@@ -131,8 +184,16 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         report.header_line
     )?;
     outln!("  columns used : {}", report.columns.join(", "))?;
-    if !report.ignored_columns.is_empty() {
-        outln!("  ignored      : {}", report.ignored_columns.join(", "))?;
+    let mapping: Vec<String> = report.mapping.iter().map(mapping_entry).collect();
+    outln!("  read as      : {}", mapping.join(", "))?;
+    let ignored = if report.ignored_columns.is_empty() {
+        "none".to_string()
+    } else {
+        report.ignored_columns.join(", ")
+    };
+    outln!("  ignored      : {ignored}")?;
+    if let Some(sensor) = &report.sensor {
+        outln!("  sensor       : {sensor}")?;
     }
     if let Some(span) = report.time_span_s {
         outln!("  time span    : {span:.3} s")?;
@@ -143,17 +204,23 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     if !report.mounts.is_empty() {
         outln!("  mounts       : {}", report.mounts.join(", "))?;
     }
-    if report.rows_skipped > 0 {
-        outln!("  skipped rows : {}", report.rows_skipped)?;
-        for s in report.skipped.iter().take(10) {
-            outln!("    {}", s.reason)?;
-        }
-        if report.rows_skipped > 10 {
-            outln!("    … and {} more", report.rows_skipped - 10)?;
-        }
-    }
+    print_skipped(report)?;
     if let Some(p) = &args.plan {
         outln!("  plan         : {} is valid", p.display())?;
     }
-    Ok(Outcome::Passed)
+    Ok(())
+}
+
+fn print_skipped(report: &Inspection) -> anyhow::Result<()> {
+    if report.rows_skipped == 0 {
+        return Ok(());
+    }
+    outln!("  skipped rows : {}", report.rows_skipped)?;
+    for s in report.skipped.iter().take(10) {
+        outln!("    {}", s.reason)?;
+    }
+    if report.rows_skipped > 10 {
+        outln!("    … and {} more", report.rows_skipped - 10)?;
+    }
+    Ok(())
 }

@@ -4,8 +4,9 @@
 
 use std::path::PathBuf;
 
-use clap::{Args as ClapArgs, ValueEnum};
+use clap::Args as ClapArgs;
 
+use super::common::load_plan;
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
@@ -13,7 +14,6 @@ use magproof::check::polarity::{
     magnetometer_recorded, run_polarity, DriftModel, PolarityOptions, SensorChoice, DEFAULT_SNR_MIN,
 };
 use magproof::check::CheckRequest;
-use magproof::log::read_plan;
 use magproof::report::{FlightParamsWriter, ParamsSource, ReportWriter};
 
 /// Flags of `magproof polarity`.
@@ -34,8 +34,9 @@ pub struct Args {
     /// a C header if FILE ends in .h, else JSON.
     #[arg(long, value_name = "FILE")]
     params_out: Option<PathBuf>,
-    /// Which sensor recorded the log: the plan's [probe] if it has one (auto), or say.
-    #[arg(long, value_enum, default_value_t = SensorArg::Auto)]
+    /// Which sensor recorded the log: the plan's [probe] if it has one (auto),
+    /// magnetometer, probe, or the name of one of the plan's [[magnetometer]] entries.
+    #[arg(long, default_value = "auto", value_name = "SENSOR", value_parser = parse_sensor)]
     sensor: SensorArg,
     /// SNR below which a rod is called no-response.
     #[arg(long, default_value_t = DEFAULT_SNR_MIN, value_parser = |s: &str| number(s, SNR), allow_hyphen_values = true)]
@@ -48,11 +49,23 @@ pub struct Args {
     max_lag_s: Option<f64>,
 }
 
-#[derive(Debug, Clone, Copy, ValueEnum)]
+#[derive(Debug, Clone)]
 enum SensorArg {
     Auto,
     Magnetometer,
     Probe,
+    /// A `[[magnetometer]]` of the plan, by name.
+    Named(String),
+}
+
+fn parse_sensor(s: &str) -> Result<SensorArg, String> {
+    Ok(match s.trim() {
+        "auto" => SensorArg::Auto,
+        "magnetometer" => SensorArg::Magnetometer,
+        "probe" => SensorArg::Probe,
+        "" => return Err("expected auto, magnetometer, probe or a magnetometer's name".into()),
+        name => SensorArg::Named(name.to_string()),
+    })
 }
 
 /// `--snr-min`: a signal-to-noise ratio.
@@ -88,10 +101,14 @@ fn parse_drift(s: &str) -> Result<DriftModel, String> {
 
 /// Run `polarity`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    let plan = read_plan(&args.plan).map_err(magproof::Error::from)?;
+    let named = match &args.sensor {
+        SensorArg::Named(n) => Some(n.as_str()),
+        _ => None,
+    };
+    let plan = load_plan(&args.plan, named)?;
     let sensor = match args.sensor {
         SensorArg::Auto => SensorChoice::Auto,
-        SensorArg::Magnetometer => SensorChoice::Magnetometer,
+        SensorArg::Magnetometer | SensorArg::Named(_) => SensorChoice::Magnetometer,
         SensorArg::Probe => SensorChoice::Probe,
     };
     let input = read_input(

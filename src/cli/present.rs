@@ -29,6 +29,7 @@ pub fn read_input(
         range_nt: flags.range,
         skip_bad_rows: flags.skip_bad_rows,
         plan_range_applies,
+        decimal_comma: flags.decimal_comma,
     };
     let input = match progress_bar(log) {
         None => CheckInput::read(log, plan, &options),
@@ -136,6 +137,8 @@ pub struct Analysed<'a> {
     pub log_sha256: String,
     /// The options, a JSON object.
     pub options: serde_json::Value,
+    /// Columns of the log no check uses, as written in its header.
+    pub ignored_columns: Vec<String>,
 }
 
 impl<'a> Analysed<'a> {
@@ -151,6 +154,7 @@ impl<'a> Analysed<'a> {
             "unit": flags.unit.map(|u| format!("{u:?}")),
             "range_nt": flags.range,
             "skip_bad_rows": flags.skip_bad_rows,
+            "decimal_comma": flags.decimal_comma,
         });
         if let (Some(all), serde_json::Value::Object(own)) = (all.as_object_mut(), options) {
             all.extend(own);
@@ -159,6 +163,7 @@ impl<'a> Analysed<'a> {
             log,
             log_sha256: input.log.sha256.clone(),
             options: all,
+            ignored_columns: input.log.ignored_columns.clone(),
         }
     }
 }
@@ -178,17 +183,34 @@ pub fn present_check(
     let mut all = writers(output);
     all.extend(extra);
     // Draw the sections (with their plots) only for a writer that reads them.
-    let sections = if all.iter().any(|w| w.reads_sections()) {
+    let mut sections = if all.iter().any(|w| w.reads_sections()) {
         result.sections()?
     } else {
         Vec::new()
     };
+    let ignored = &analysed.ignored_columns;
+    if let (Some(first), false) = (sections.first_mut(), ignored.is_empty()) {
+        first.notes.push(ignored_note(ignored));
+    }
+    let mut json = result.json()?;
+    if let Some(obj) = json.as_object_mut() {
+        obj.insert("ignored_columns".into(), serde_json::json!(ignored));
+    }
     let title = result.kind().spec()?.title;
-    let report = run_report(title, plan, &inputs, sections, result.json()?)?;
+    let report = run_report(title, plan, &inputs, sections, json)?;
     emit(&all, &report, output.force, || {
         record_if_asked(record, plan, result, log, analysed.options)
     })?;
     Ok(outcome(result.verdict()))
+}
+
+/// The note every report carries about the log's columns no check used.
+pub fn ignored_note(ignored: &[String]) -> String {
+    format!(
+        "Columns of the log not used (ignored): {}. Map one in the plan's [columns] if it \
+         holds a quantity of ours.",
+        ignored.join(", ")
+    )
 }
 
 /// Exit 1 for a failing or inconclusive verdict.

@@ -194,15 +194,23 @@ pub fn changes(runs: &[Run], rules: &ChangeRules) -> Vec<Change> {
     let kinds = kinds_of(runs);
     for serial in group_by_build(runs) {
         for kind in &kinds {
-            let mut previous: Option<&Run> = None;
-            for build in &serial.builds {
-                let Some(latest) = build.runs.iter().rev().find(|r| r.kind == *kind) else {
-                    continue;
-                };
-                if let Some(prev) = previous {
-                    compare(prev, latest, rules, &mut out);
+            // Like with like: each magnetometer's runs are compared with its own.
+            for sensor in super::tracks::sensors_of(runs, kind) {
+                let mut previous: Option<&Run> = None;
+                for build in &serial.builds {
+                    let Some(latest) = build
+                        .runs
+                        .iter()
+                        .rev()
+                        .find(|r| r.kind == *kind && super::tracks::sensor_of(r) == sensor)
+                    else {
+                        continue;
+                    };
+                    if let Some(prev) = previous {
+                        compare(prev, latest, rules, &mut out);
+                    }
+                    previous = Some(latest);
                 }
-                previous = Some(latest);
             }
         }
     }

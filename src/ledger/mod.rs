@@ -22,6 +22,7 @@ pub mod history;
 mod quantity;
 mod record;
 mod schema;
+pub mod tracks;
 mod versions;
 
 use std::path::{Path, PathBuf};
@@ -292,8 +293,8 @@ impl Ledger {
             })?;
             tx.execute(
                 "INSERT INTO runs (serial, build, kind, recorded_at, input_key, pass, result,
-                                   tool_version)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
+                                   tool_version, sensor)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
                 params![
                     run.serial,
                     run.build,
@@ -302,7 +303,8 @@ impl Ledger {
                     key,
                     run.pass(),
                     result_text,
-                    crate::VERSION
+                    crate::VERSION,
+                    run.sensor
                 ],
             )
             .map_err(db)?;

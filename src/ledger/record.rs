@@ -146,6 +146,9 @@ pub struct NewRun {
     /// The analysis options that change the result (a JSON object; `{}` when there are
     /// none). Part of the dedupe key, with the tool version.
     pub options: serde_json::Value,
+    /// The magnetometer the run read, by its name in the plan (`None`: the plan's one
+    /// unnamed magnetometer, or a probe).
+    pub sensor: Option<String>,
 }
 
 impl NewRun {
@@ -170,6 +173,17 @@ impl NewRun {
         let json = result
             .json()
             .map_err(|e| LedgerError::InvalidRun(format!("result is not JSON: {e}")))?;
+        let sensor = plan.sensor_name().map(String::from);
+        let mut quantities = result.quantities();
+        let mut options = options;
+        if let Some(name) = &sensor {
+            // Like with like: a named sensor's quantities compare with its own only, and
+            // the same log read for another sensor is another run.
+            super::tracks::tag_quantities(&mut quantities, name);
+            if let Some(o) = options.as_object_mut() {
+                o.insert("sensor".into(), serde_json::json!(name));
+            }
+        }
         Ok(NewRun {
             serial: article.serial.clone(),
             build: article.build.clone(),
@@ -179,8 +193,9 @@ impl NewRun {
                 InputFile::hashed(InputRole::Plan, &plan.path, &plan.sha256),
             ],
             result: json,
-            quantities: result.quantities(),
+            quantities,
             options,
+            sensor,
         })
     }
 
@@ -210,6 +225,7 @@ impl NewRun {
             quantities: super::legacy_quantities(kind.as_str(), &result),
             result,
             options: serde_json::json!({}),
+            sensor: None,
         })
     }
 
@@ -358,6 +374,7 @@ mod tests {
             result: serde_json::json!({}),
             quantities: vec![],
             options: serde_json::json!({}),
+            sensor: None,
         };
         let a = run(vec![
             f(InputRole::Log, "a.csv", 'a'),
@@ -394,6 +411,7 @@ mod tests {
             result: serde_json::json!({"pass": true}),
             quantities: vec![],
             options: serde_json::json!({}),
+            sensor: None,
         };
         assert!(r.validate().is_err());
         r.inputs.push(InputFile {

@@ -22,7 +22,7 @@ pub const CURRENT_VERSION: i64 = MIGRATIONS.len() as i64;
 /// Migration `i` takes the schema from version `i` to `i + 1`.
 ///
 /// Never edit a migration once released: add a new one.
-pub(crate) const MIGRATIONS: [&str; 3] = [
+pub(crate) const MIGRATIONS: [&str; 4] = [
     // v1: runs and the files each was computed from.
     "CREATE TABLE runs (
          id          INTEGER PRIMARY KEY,
@@ -79,6 +79,11 @@ pub(crate) const MIGRATIONS: [&str; 3] = [
          word   TEXT,
          PRIMARY KEY (run_id, name)
      );",
+    // v4: the magnetometer each run read, by its name in the plan (NULL for runs before
+    // several magnetometers, and for a plan's one unnamed magnetometer). The quantities
+    // of a run with a named sensor carry the name (`hard_iron_x_nt@MAG-A`), so history
+    // compares a sensor's calibrations with the same sensor's only.
+    "ALTER TABLE runs ADD COLUMN sensor TEXT;",
 ];
 
 /// Version whose migration adds the `quantities` table.

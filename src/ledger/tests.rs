@@ -19,6 +19,7 @@ fn new_run(build: &str, kind: CheckKind, log_hash: char, result: serde_json::Val
         quantities: legacy_quantities(kind.as_str(), &result),
         result,
         options: serde_json::json!({}),
+        sensor: None,
     }
 }
 

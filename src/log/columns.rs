@@ -3,11 +3,11 @@
 
 use std::collections::HashMap;
 
-use super::header::{ColumnKind, Header};
+use super::header::{ColumnKind, Header, TimeUnit};
 use super::parallel::Part;
 use super::row::RowParser;
 use super::row_lines::RowLines;
-use super::sweep_log::{CommandColumn, SweepLog};
+use super::sweep_log::{CommandColumn, SweepLog, UsedColumn};
 
 /// Accumulates good rows into columns.
 pub(super) struct ColumnsBuilder {
@@ -163,6 +163,12 @@ impl ColumnsBuilder {
             take(&K::Applied(2)),
         );
         log.probe_m = triple(take(&K::Probe(0)), take(&K::Probe(1)), take(&K::Probe(2)));
+        log.i_a = triple(
+            take(&K::Current(0)),
+            take(&K::Current(1)),
+            take(&K::Current(2)),
+        );
+        log.gyro_rad_s = triple(take(&K::Gyro(0)), take(&K::Gyro(1)), take(&K::Gyro(2)));
         log.temp_c = take(&K::Temperature);
         log.angle_rad = take(&K::Angle);
         for (k, col) in header.columns.iter().enumerate() {
@@ -175,11 +181,36 @@ impl ColumnsBuilder {
             }
         }
         if self.has_time {
+            if header.time_unit() == Some(TimeUnit::Unix) {
+                log.t0_iso = self.time.first().and_then(|&t0| unix_to_iso(t0));
+                let t0 = self.time.first().copied().unwrap_or(0.0);
+                self.time.iter_mut().for_each(|t| *t -= t0);
+            }
             log.t_s = Some(self.time);
         }
+        log.columns_used = header
+            .columns
+            .iter()
+            .filter(|c| c.kind != ColumnKind::Ignored)
+            .map(|c| UsedColumn {
+                quantity: c.kind.quantity(),
+                header: c.raw.clone(),
+                scale: c.scale,
+            })
+            .collect();
         if self.has_mount {
             log.mount = Some(self.mount);
         }
         log.lines = self.lines;
     }
+}
+
+/// Seconds since 1970 as an RFC 3339 timestamp (UTC), for the log's first time.
+fn unix_to_iso(t_s: f64) -> Option<String> {
+    let whole = t_s.floor();
+    let nanos = ((t_s - whole) * 1e9).round().clamp(0.0, 999_999_999.0) as i128;
+    let t = time::OffsetDateTime::from_unix_timestamp_nanos(whole as i128 * 1_000_000_000 + nanos)
+        .ok()?;
+    t.format(&time::format_description::well_known::Rfc3339)
+        .ok()
 }

@@ -101,13 +101,37 @@ pub enum LogError {
         /// The previous row's time, s from the first row.
         previous: f64,
     },
-    /// A line is not UTF-8 text.
-    #[error("{path}:{line}: the line is not UTF-8 text (is this a binary file?)")]
+    /// A line is not text: it holds control bytes (a binary file).
+    #[error(
+        "{path}:{line}: the line is not UTF-8 text but control bytes (is this a binary file?)"
+    )]
     NotUtf8 {
         /// The log file.
         path: Shown,
         /// Line number.
         line: u64,
+    },
+    /// The file is text in another encoding than UTF-8 (Latin-1, UTF-16).
+    #[error("{path}:{line}: the file is not UTF-8 text: it looks like {encoding}; save it as UTF-8 (spreadsheet programs offer \"CSV UTF-8\") and read it again")]
+    Encoding {
+        /// The log file.
+        path: Shown,
+        /// Line number.
+        line: u64,
+        /// The encoding it looks like.
+        encoding: super::encoding::Encoding,
+    },
+    /// A column holds a quantity that needs something from the plan to be used (coil
+    /// currents without `[cage] nt_per_amp`): refused, never ignored.
+    #[error("{path}: {column}: {needs}")]
+    Unusable {
+        /// The log file.
+        path: Shown,
+        /// The column or columns as written in the header, quoted (`columns "ix [A]",
+        /// "iy [A]", "iz [A]"`).
+        column: String,
+        /// What is needed, and where to give it.
+        needs: String,
     },
     /// A column the computation needs is absent.
     #[error("{path}: missing column \"{column}\": {why}")]
@@ -129,7 +153,8 @@ impl LogError {
             | LogError::Cell { line, .. }
             | LogError::RowLength { line, .. }
             | LogError::TimeBackwards { line, .. }
-            | LogError::NotUtf8 { line, .. } => Some(*line),
+            | LogError::NotUtf8 { line, .. }
+            | LogError::Encoding { line, .. } => Some(*line),
             LogError::NoRows { header_line, .. } => Some(*header_line),
             _ => None,
         }

@@ -32,8 +32,14 @@ pub(crate) struct FastRow {
 }
 
 impl FastRow {
-    /// Plan the fast path for a header; `None` when it has a mount column.
+    /// Plan the fast path for a header; `None` when it has a mount column, numbers with
+    /// a decimal comma, or command columns whose empty cells repeat the value above
+    /// (those rows are the general parser's).
     pub fn new(header: &Header) -> Option<Self> {
+        let held = |c: &super::header::Column| matches!(c.kind, ColumnKind::Command(_));
+        if header.decimal_comma || (header.hold_commands && header.columns.iter().any(held)) {
+            return None;
+        }
         let mut cells = Vec::with_capacity(header.columns.len());
         for col in &header.columns {
             cells.push(match &col.kind {
@@ -129,11 +135,19 @@ impl FastRow {
 mod tests {
     use super::*;
     use crate::log::header::parse_header;
+    use crate::log::layout::LogLayout;
     use crate::log::units::FieldUnit;
     use std::path::Path;
 
     fn fast(header: &str) -> FastRow {
-        let h = parse_header(header, Path::new("h.csv"), 1, FieldUnit::Nanotesla).unwrap();
+        let h = parse_header(
+            header,
+            Path::new("h.csv"),
+            1,
+            FieldUnit::Nanotesla,
+            &LogLayout::default(),
+        )
+        .unwrap();
         FastRow::new(&h).unwrap()
     }
 
@@ -183,6 +197,7 @@ mod tests {
             Path::new("h.csv"),
             1,
             FieldUnit::Nanotesla,
+            &LogLayout::default(),
         )
         .unwrap();
         assert!(FastRow::new(&h).is_none());

@@ -1,8 +1,11 @@
-//! Header of a sweep log: delimiter detection, column names, units in brackets.
+//! Header of a sweep log: delimiter detection, column names and units (resolved in
+//! `names.rs`, with the plan's mapping from `layout.rs`).
 
 use std::path::Path;
 
 use super::error::{LogError, Shown};
+use super::layout::LogLayout;
+use super::names::{resolve, scale_for};
 use super::units::FieldUnit;
 
 /// Unit of a time column given as numbers.
@@ -12,13 +15,16 @@ pub enum TimeUnit {
     Seconds,
     /// milliseconds
     Milliseconds,
+    /// seconds since 1970-01-01T00:00:00Z (`t [unix]`); kept as seconds after the
+    /// first row, like ISO-8601 timestamps.
+    Unix,
 }
 
 impl TimeUnit {
     /// Seconds per unit.
     pub fn to_seconds(self) -> f64 {
         match self {
-            TimeUnit::Seconds => 1.0,
+            TimeUnit::Seconds | TimeUnit::Unix => 1.0,
             TimeUnit::Milliseconds => 1e-3,
         }
     }
@@ -33,6 +39,10 @@ pub enum ColumnKind {
     Field(usize),
     /// `hx`, `hy`, `hz`: applied reference field, cage frame.
     Applied(usize),
+    /// `ix`, `iy`, `iz`: cage coil currents, A.
+    Current(usize),
+    /// `gx`, `gy`, `gz`: angular rate, gyro frame, rad/s.
+    Gyro(usize),
     /// `temp`: °C.
     Temperature,
     /// `cmd_<rod>`: a torque-rod command.
@@ -55,6 +65,37 @@ impl ColumnKind {
             ColumnKind::Time(_) | ColumnKind::Mount | ColumnKind::Ignored
         )
     }
+
+    /// True for one axis of a triple (`bx`, `hx`, `ix`, `gx`, `px`).
+    pub fn is_axis(&self) -> bool {
+        matches!(
+            self,
+            ColumnKind::Field(_)
+                | ColumnKind::Applied(_)
+                | ColumnKind::Current(_)
+                | ColumnKind::Gyro(_)
+                | ColumnKind::Probe(_)
+        )
+    }
+
+    /// Our name of the quantity (`bx`, `cmd_x`, `t`), as `[columns]` maps it; empty for
+    /// an ignored column.
+    pub fn quantity(&self) -> String {
+        let axis = |p: &str, a: &usize| format!("{p}{}", ["x", "y", "z"][(*a).min(2)]);
+        match self {
+            ColumnKind::Time(_) => "t".into(),
+            ColumnKind::Field(a) => axis("b", a),
+            ColumnKind::Applied(a) => axis("h", a),
+            ColumnKind::Current(a) => axis("i", a),
+            ColumnKind::Gyro(a) => axis("g", a),
+            ColumnKind::Probe(a) => axis("p", a),
+            ColumnKind::Temperature => "temp".into(),
+            ColumnKind::Command(rod) => format!("cmd_{rod}"),
+            ColumnKind::Angle => "angle".into(),
+            ColumnKind::Mount => "mount".into(),
+            ColumnKind::Ignored => String::new(),
+        }
+    }
 }
 
 /// One column of the header.
@@ -64,7 +105,8 @@ pub struct Column {
     pub raw: String,
     /// What it holds.
     pub kind: ColumnKind,
-    /// Factor from the file's unit to the internal unit (nT, rad, m; 1 otherwise).
+    /// Factor from the file's unit to the internal unit (nT, rad, m, A, rad/s; 1
+    /// otherwise).
     pub scale: f64,
 }
 
@@ -77,34 +119,59 @@ pub struct Header {
     pub columns: Vec<Column>,
     /// Columns no check uses, as written.
     pub ignored: Vec<String>,
+    /// Numbers are written with a decimal comma.
+    pub decimal_comma: bool,
+    /// An empty command cell repeats the value above it.
+    pub hold_commands: bool,
 }
 
-/// Parse the header line. `default_unit` applies to field columns that carry no unit.
+impl Header {
+    /// The time column's unit, when there is one.
+    pub fn time_unit(&self) -> Option<TimeUnit> {
+        self.columns.iter().find_map(|c| match c.kind {
+            ColumnKind::Time(u) => Some(u),
+            _ => None,
+        })
+    }
+}
+
+/// Parse the header line. `default_unit` applies to field columns that carry no unit;
+/// `layout` maps the log's own names and says how its numbers are written.
 pub fn parse_header(
     text: &str,
     path: &Path,
     line: u64,
     default_unit: FieldUnit,
+    layout: &LogLayout,
 ) -> Result<Header, LogError> {
     let delimiter = detect_delimiter(text);
+    let header_err = |column: &str, problem: String| LogError::Header {
+        path: Shown(path.to_path_buf()),
+        line,
+        column: column.to_string(),
+        problem,
+    };
+    if layout.decimal_comma && delimiter == b',' {
+        return Err(header_err(
+            text.split(',').next().unwrap_or("").trim(),
+            "numbers with a decimal comma need a \";\" or tab delimiter, and this header \
+             is delimited by \",\""
+                .into(),
+        ));
+    }
     let mut ranges = Vec::new();
     super::bytes::split_fields(text.as_bytes(), delimiter, &mut ranges);
     let mut columns: Vec<Column> = Vec::with_capacity(ranges.len());
     let mut ignored = Vec::new();
     for (a, b) in ranges {
         let raw = text[a..b].trim().trim_matches('"').trim().to_string();
-        let err = |problem: String| LogError::Header {
-            path: Shown(path.to_path_buf()),
-            line,
-            column: raw.clone(),
-            problem,
-        };
+        let err = |problem: String| header_err(&raw, problem);
         if raw.is_empty() {
             return Err(err("empty column name in the header".into()));
         }
-        let (name, unit) = split_unit(&raw).map_err(err)?;
-        let lname = name.to_lowercase();
-        let (kind, scale) = classify(&lname, unit, default_unit).map_err(err)?;
+        let resolved = resolve(&raw, layout).map_err(err)?;
+        let (kind, scale) =
+            scale_for(resolved.kind, resolved.unit, default_unit, layout).map_err(err)?;
         if kind != ColumnKind::Ignored {
             if let Some(first) = columns.iter().find(|c| c.kind == kind) {
                 return Err(err(format!(
@@ -117,46 +184,53 @@ pub fn parse_header(
         }
         columns.push(Column { raw, kind, scale });
     }
+    check_mapping(&columns, layout, &header_err)?;
     check_triples(&columns, path, line)?;
     Ok(Header {
         delimiter,
         columns,
         ignored,
+        decimal_comma: layout.decimal_comma,
+        hold_commands: layout.hold_commands,
     })
 }
 
-/// Refuse a header with one or two of a triple (`bx by bz`, `hx hy hz`, `px py pz`):
-/// they come as all three or none.
+/// Refuse a `[columns]` entry whose column the header does not have, by name.
+fn check_mapping(
+    columns: &[Column],
+    layout: &LogLayout,
+    err: &dyn Fn(&str, String) -> LogError,
+) -> Result<(), LogError> {
+    for (quantity, name) in &layout.columns {
+        if !columns.iter().any(|c| c.kind.quantity() == *quantity) {
+            let names: Vec<&str> = columns.iter().map(|c| c.raw.as_str()).collect();
+            return Err(err(
+                name,
+                format!(
+                    "the plan's [columns] maps {quantity} = \"{name}\", and the log has no \
+                     such column (its columns: {})",
+                    names.join(", ")
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// Refuse a header with one or two of a triple (`bx by bz`, `hx hy hz`, `ix iy iz`,
+/// `gx gy gz`, `px py pz`): they come as all three or none.
 fn check_triples(columns: &[Column], path: &Path, line: u64) -> Result<(), LogError> {
-    for (group, kinds) in [
-        (
-            "bx, by, bz",
-            [
-                ColumnKind::Field(0),
-                ColumnKind::Field(1),
-                ColumnKind::Field(2),
-            ],
-        ),
-        (
-            "hx, hy, hz",
-            [
-                ColumnKind::Applied(0),
-                ColumnKind::Applied(1),
-                ColumnKind::Applied(2),
-            ],
-        ),
-        (
-            "px, py, pz",
-            [
-                ColumnKind::Probe(0),
-                ColumnKind::Probe(1),
-                ColumnKind::Probe(2),
-            ],
-        ),
-    ] {
-        let present = kinds
-            .iter()
-            .filter(|k| columns.iter().any(|c| &c.kind == *k))
+    type Axis = fn(usize) -> ColumnKind;
+    let groups: [(&str, Axis); 5] = [
+        ("bx, by, bz", ColumnKind::Field),
+        ("hx, hy, hz", ColumnKind::Applied),
+        ("ix, iy, iz", ColumnKind::Current),
+        ("gx, gy, gz", ColumnKind::Gyro),
+        ("px, py, pz", ColumnKind::Probe),
+    ];
+    for (group, make) in groups {
+        let present = (0..3)
+            .filter(|&a| columns.iter().any(|c| c.kind == make(a)))
             .count();
         if present != 0 && present != 3 {
             return Err(LogError::Header {
@@ -183,108 +257,6 @@ fn detect_delimiter(text: &str) -> u8 {
     } else {
         b','
     }
-}
-
-/// Split `bx [uT]` into (`bx`, Some(`uT`)).
-fn split_unit(raw: &str) -> Result<(&str, Option<&str>), String> {
-    match raw.find('[') {
-        None => {
-            if raw.contains(']') {
-                return Err("a \"]\" without its \"[\"".into());
-            }
-            Ok((raw, None))
-        }
-        Some(open) => {
-            let rest = &raw[open + 1..];
-            let close = rest
-                .find(']')
-                .ok_or_else(|| "the unit's \"[\" is not closed by \"]\"".to_string())?;
-            if !rest[close + 1..].trim().is_empty() {
-                return Err("text after the unit's \"]\"".into());
-            }
-            Ok((raw[..open].trim(), Some(rest[..close].trim())))
-        }
-    }
-}
-
-fn classify(
-    name: &str,
-    unit: Option<&str>,
-    default_unit: FieldUnit,
-) -> Result<(ColumnKind, f64), String> {
-    let field_scale = |unit: Option<&str>| -> Result<f64, String> {
-        match unit {
-            None => Ok(default_unit.to_nt_factor()),
-            Some(u) => u
-                .parse::<FieldUnit>()
-                .map(|u| u.to_nt_factor())
-                .map_err(|e| e.to_string()),
-        }
-    };
-    let axis = |c: char| match c {
-        'x' => 0,
-        'y' => 1,
-        _ => 2,
-    };
-    let kind = match name {
-        "t" | "time" => {
-            let u = match unit {
-                // `unix`: seconds since 1970 (an orbit log's time tags).
-                None | Some("s") | Some("unix") => TimeUnit::Seconds,
-                Some("ms") => TimeUnit::Milliseconds,
-                Some(u) => {
-                    return Err(format!(
-                        "unknown time unit \"{u}\" (expected s, ms or unix)"
-                    ))
-                }
-            };
-            return Ok((ColumnKind::Time(u), 1.0));
-        }
-        "bx" | "by" | "bz" => {
-            let a = axis(name.chars().nth(1).unwrap_or('z'));
-            return Ok((ColumnKind::Field(a), field_scale(unit)?));
-        }
-        "hx" | "hy" | "hz" => {
-            let a = axis(name.chars().nth(1).unwrap_or('z'));
-            return Ok((ColumnKind::Applied(a), field_scale(unit)?));
-        }
-        "px" | "py" | "pz" => {
-            let scale = match unit {
-                None | Some("m") => 1.0,
-                Some("cm") => 1e-2,
-                Some("mm") => 1e-3,
-                Some(u) => {
-                    return Err(format!(
-                        "unknown length unit \"{u}\" (expected m, cm or mm)"
-                    ))
-                }
-            };
-            let a = axis(name.chars().nth(1).unwrap_or('z'));
-            return Ok((ColumnKind::Probe(a), scale));
-        }
-        "temp" => {
-            match unit {
-                None | Some("C") | Some("°C") | Some("degC") => {}
-                Some(u) => return Err(format!("unknown temperature unit \"{u}\" (expected °C)")),
-            }
-            ColumnKind::Temperature
-        }
-        "angle" => {
-            let scale = match unit {
-                None | Some("deg") | Some("°") => std::f64::consts::PI / 180.0,
-                Some("rad") => 1.0,
-                Some(u) => return Err(format!("unknown angle unit \"{u}\" (expected deg or rad)")),
-            };
-            return Ok((ColumnKind::Angle, scale));
-        }
-        "mount" => ColumnKind::Mount,
-        _ => match name.strip_prefix("cmd_") {
-            Some("") => return Err("a command column needs a rod name: cmd_<rod>".into()),
-            Some(rod) => ColumnKind::Command(rod.to_string()),
-            None => ColumnKind::Ignored,
-        },
-    };
-    Ok((kind, 1.0))
 }
 
 /// Parse an ISO-8601 / RFC 3339 timestamp to seconds since the Unix epoch. A timestamp

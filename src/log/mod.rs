@@ -4,11 +4,16 @@
 
 mod bytes;
 mod columns;
+pub mod encoding;
 mod error;
 mod fast_row;
+#[cfg(test)]
+mod forms_tests;
 pub mod hash;
 mod header;
+pub mod layout;
 mod lines;
+mod names;
 mod number;
 mod parallel;
 pub mod plan;
@@ -23,8 +28,9 @@ pub mod units;
 
 pub use error::{LogError, PlanError, Shown};
 pub use header::parse_iso8601;
+pub use layout::LogLayout;
 pub use plan::{read_plan, Plan};
 pub use row_lines::RowLines;
 pub use sweep::{read_sweep, read_sweep_from, read_sweep_with_progress, ReadOptions};
-pub use sweep_log::{CommandColumn, SkippedRow, SweepLog};
+pub use sweep_log::{CommandColumn, SkippedRow, SweepLog, UsedColumn};
 pub use units::FieldUnit;

@@ -22,6 +22,8 @@ pub(super) struct RowParser {
     pub(super) first_iso: Option<String>,
     /// Whether time cells are ISO-8601 (`Some(true)`) or seconds; `None` before the first.
     pub(super) time_is_iso: Option<bool>,
+    /// With held commands: the last value of each command column (`None` before one).
+    held: Vec<Option<f64>>,
 }
 
 impl RowParser {
@@ -36,6 +38,7 @@ impl RowParser {
             first_epoch_s: None,
             first_iso: None,
             time_is_iso: None,
+            held: vec![None; header.columns.len()],
         }
     }
 
@@ -86,7 +89,7 @@ impl RowParser {
                     }
                 }
                 ColumnKind::Time(unit) => {
-                    let t = self.parse_time(cell, *unit, &cell_err)?;
+                    let t = self.parse_time(cell, *unit, header.decimal_comma, &cell_err)?;
                     if let Some(prev) = last_time {
                         if t < prev {
                             return Err(LogError::TimeBackwards {
@@ -100,12 +103,27 @@ impl RowParser {
                     }
                     self.time_s = Some(t);
                 }
+                ColumnKind::Command(_) if cell.is_empty() && header.hold_commands => {
+                    self.numbers[k] = self.held[k].ok_or_else(|| {
+                        cell_err(
+                            "a command value: the cell is empty and no row above gave one to \
+                             carry forward ([log] hold_commands)",
+                        )
+                    })?;
+                }
                 _ => {
-                    let v = parse_number(cell, &cell_err)?;
+                    let v = parse_number(cell, header.decimal_comma, &cell_err)?;
                     self.numbers[k] = v * col.scale;
                     if !self.numbers[k].is_finite() {
                         return Err(cell_err("the value overflows once converted"));
                     }
+                }
+            }
+        }
+        if header.hold_commands {
+            for (k, col) in header.columns.iter().enumerate() {
+                if matches!(col.kind, ColumnKind::Command(_)) {
+                    self.held[k] = Some(self.numbers[k]);
                 }
             }
         }
@@ -116,6 +134,7 @@ impl RowParser {
         &mut self,
         cell: &[u8],
         unit: TimeUnit,
+        decimal_comma: bool,
         cell_err: &dyn Fn(&str) -> LogError,
     ) -> Result<f64, LogError> {
         let looks_iso = cell.len() >= 10 && cell[4] == b'-' && cell[7] == b'-';
@@ -130,7 +149,7 @@ impl RowParser {
         }
         self.time_is_iso = Some(looks_iso);
         if !looks_iso {
-            return Ok(parse_number(cell, cell_err)? * unit.to_seconds());
+            return Ok(parse_number(cell, decimal_comma, cell_err)? * unit.to_seconds());
         }
         let s =
             std::str::from_utf8(cell).map_err(|_| cell_err("expected an ISO-8601 timestamp"))?;
@@ -145,13 +164,56 @@ impl RowParser {
     }
 }
 
-fn parse_number(cell: &[u8], cell_err: &dyn Fn(&str) -> LogError) -> Result<f64, LogError> {
+fn parse_number(
+    cell: &[u8],
+    decimal_comma: bool,
+    cell_err: &dyn Fn(&str) -> LogError,
+) -> Result<f64, LogError> {
     if cell.is_empty() {
         return Err(cell_err("expected a number, the cell is empty"));
+    }
+    if decimal_comma {
+        return parse_decimal_comma(cell, cell_err);
     }
     match fast_float2::parse::<f64, _>(cell) {
         Ok(v) if v.is_finite() => Ok(v),
         Ok(_) => Err(cell_err("expected a finite number")),
+        Err(_) if with_point(cell).is_some() => Err(cell_err(
+            "expected a number; this one has a decimal comma: add [log] decimal = \",\" to \
+             the plan or --decimal-comma",
+        )),
         Err(_) => Err(cell_err("expected a number")),
     }
+}
+
+/// A number written with a decimal comma (`-1,25`, `3,5e-2`); a point in it is refused
+/// (`1.234,5` would be a thousands separator, which is ambiguous).
+fn parse_decimal_comma(cell: &[u8], cell_err: &dyn Fn(&str) -> LogError) -> Result<f64, LogError> {
+    if cell.contains(&b'.') {
+        return Err(cell_err(
+            "expected a number with a decimal comma (the plan or --decimal-comma says so), \
+             without points",
+        ));
+    }
+    let Some(v) = with_point(cell) else {
+        return Err(cell_err("expected a number with a decimal comma"));
+    };
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(cell_err("expected a finite number"))
+    }
+}
+
+/// The cell read with its one comma as a decimal point, when it then is a number.
+fn with_point(cell: &[u8]) -> Option<f64> {
+    if cell.len() > 64 || cell.iter().filter(|&&c| c == b',').count() > 1 {
+        return None;
+    }
+    let mut buf = [0u8; 64];
+    let buf = &mut buf[..cell.len()];
+    for (d, &c) in buf.iter_mut().zip(cell) {
+        *d = if c == b',' { b'.' } else { c };
+    }
+    fast_float2::parse::<f64, _>(&*buf).ok()
 }

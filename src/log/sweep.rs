@@ -15,10 +15,12 @@ use std::path::Path;
 
 use super::bytes::{is_blank_or_comment, trim_line_end};
 use super::columns::ColumnsBuilder;
+use super::encoding::{sniff, Encoding};
 use super::error::{LogError, Shown};
 use super::fast_row::FastRow;
 use super::hash::HashingReader;
 use super::header::{parse_header, Header};
+use super::layout::LogLayout;
 use super::lines::LineReader;
 use super::parallel::{parse_parts, split_block, Part, MIN_PARALLEL_BYTES};
 use super::row::RowParser;
@@ -33,6 +35,8 @@ pub struct ReadOptions {
     /// Skip rows with a bad cell, a wrong field count or backwards time, and count them,
     /// instead of refusing the file.
     pub skip_bad_rows: bool,
+    /// The log's own column names, raw counts, decimal commas, held commands.
+    pub layout: LogLayout,
 }
 
 /// Read a sweep log from a file (format: `docs/formats.md`).
@@ -266,6 +270,19 @@ fn read_header(
         };
         pos.line_no += 1;
         pos.bytes_read = consumed;
+        if let Some(encoding) = sniff(trim_line_end(buf), pos.line_no == 1) {
+            return Err(match encoding {
+                Encoding::Binary => LogError::NotUtf8 {
+                    path: shown(),
+                    line: pos.line_no,
+                },
+                encoding => LogError::Encoding {
+                    path: shown(),
+                    line: pos.line_no,
+                    encoding,
+                },
+            });
+        }
         let mut text: &[u8] = trim_line_end(buf);
         if memchr::memchr(b'\r', text).is_some() {
             return Err(LogError::BareCarriageReturns {
@@ -283,7 +300,13 @@ fn read_header(
             path: shown(),
             line: pos.line_no,
         })?;
-        return parse_header(text, path, pos.line_no, options.default_unit);
+        return parse_header(
+            text,
+            path,
+            pos.line_no,
+            options.default_unit,
+            &options.layout,
+        );
     }
 }
 
@@ -392,7 +415,9 @@ fn finish(sink: RowSink<'_>, pos: &mut ReadPos<'_>) -> Result<SweepLog, LogError
         });
     }
     builder.finish(header, &mut log);
-    log.t0_iso = row.first_iso.take();
+    if let Some(iso) = row.first_iso.take() {
+        log.t0_iso = Some(iso);
+    }
     Ok(log)
 }
 

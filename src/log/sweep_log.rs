@@ -29,6 +29,18 @@ pub struct CommandColumn {
     pub values: Vec<f64>,
 }
 
+/// A column the reader used: our quantity and the column as written in the log.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct UsedColumn {
+    /// Our name of the quantity (`bx`, `t`, `cmd_x`).
+    pub quantity: String,
+    /// The column as written in the header (`MAG_X [uT]`).
+    pub header: String,
+    /// Unit conversion applied, as a factor to the internal unit (nT, s, rad, m, A,
+    /// rad/s; 1 for commands, labels and time stamps).
+    pub scale: f64,
+}
+
 /// A sweep log read into columns. Every column has one entry per kept row.
 #[derive(Debug, Clone, Default)]
 pub struct SweepLog {
@@ -42,6 +54,11 @@ pub struct SweepLog {
     pub b_nt: Option<[Vec<f64>; 3]>,
     /// Applied reference field, cage frame, nT: `[hx, hy, hz]`.
     pub h_nt: Option<[Vec<f64>; 3]>,
+    /// Cage coil currents, A: `[ix, iy, iz]` (the input builder turns them into the
+    /// applied field with the plan's `[cage] nt_per_amp`).
+    pub i_a: Option<[Vec<f64>; 3]>,
+    /// Angular rate, gyro frame, rad/s: `[gx, gy, gz]`.
+    pub gyro_rad_s: Option<[Vec<f64>; 3]>,
     /// Temperature, °C.
     pub temp_c: Option<Vec<f64>>,
     /// Torque-rod commands, one column per rod, in header order.
@@ -56,6 +73,8 @@ pub struct SweepLog {
     pub probe_m: Option<[Vec<f64>; 3]>,
     /// 1-based file line of each kept row, for messages.
     pub lines: RowLines,
+    /// The columns used, in header order: our quantity and the column as written.
+    pub columns_used: Vec<UsedColumn>,
     /// Columns present in the file that no check uses, as written in the header.
     pub ignored_columns: Vec<String>,
     /// Rows skipped under `--skip-bad-rows`.

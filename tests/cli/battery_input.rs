@@ -152,6 +152,7 @@ fn history_shows_control_characters_of_an_old_ledger_escaped() {
         result: serde_json::json!({"pass": true}),
         quantities: vec![],
         options: serde_json::json!({}),
+        sensor: None,
     };
     ledger.record_runs(&[run]).unwrap();
     drop(ledger);

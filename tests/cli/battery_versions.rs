@@ -134,7 +134,7 @@ fn a_single_check_rerun_by_a_new_version_is_recorded_and_says_so() {
 
     // calibrate's options as recorded: the input flags and its own (docs/ledger.md).
     let options = serde_json::json!({
-        "range_nt": null, "reference_nt": null, "robust": "Tukey",
+        "decimal_comma": false, "range_nt": null, "reference_nt": null, "robust": "Tukey",
         "skip_bad_rows": false, "unit": null,
     });
     assert_eq!(rewrite_as_old(&db, &options), 1);

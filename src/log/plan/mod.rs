@@ -11,6 +11,7 @@
 mod locate;
 mod orbit;
 mod parse;
+mod parse_logs;
 mod raw;
 #[cfg(test)]
 mod tests;
@@ -19,6 +20,6 @@ mod types;
 pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
 pub use types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
-    Step,
+    Article, Cage, DipoleTest, GateLimits, Gyro, Limits, LogSettings, Magnetometer, Mount, Plan,
+    Probe, Rod, Site, Step,
 };

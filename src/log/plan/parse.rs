@@ -8,16 +8,11 @@ use std::path::{Path, PathBuf};
 use nalgebra::{Matrix3, Vector3};
 
 use super::raw::{
-    RawArticle, RawDipoleTest, RawLimits, RawMagnetometer, RawPlan, RawProbe, RawRod, RawSite,
-    RawStep,
+    RawArticle, RawDipoleTest, RawLimits, RawPlan, RawProbe, RawRod, RawSite, RawStep,
 };
-use super::types::{
-    Article, Cage, DipoleTest, GateLimits, Limits, Magnetometer, Mount, Plan, Probe, Rod, Site,
-    Step,
-};
+use super::types::{Article, DipoleTest, GateLimits, Limits, Mount, Plan, Probe, Rod, Site, Step};
 use super::types::{MAX_CONDITION, MAX_DIPOLE_AM2, MAX_SETTLE_S, MAX_SOFT_IRON};
 use crate::log::error::{PlanError, Shown};
-use crate::log::units::FieldUnit;
 use crate::physics::frames::{check_rotation, rotation_from_axes};
 use crate::physics::igrf::{MAX_ALTITUDE_M, MIN_ALTITUDE_M};
 use crate::screen::plausible::MAX_FIELD_NT;
@@ -41,15 +36,25 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
     })?;
     let v = Validator { path, text };
     let article = raw.article.map(|a| v.article(a)).transpose()?;
-    let magnetometer = raw.magnetometer.map(|m| v.magnetometer(m)).transpose()?;
+    let magnetometers = raw
+        .magnetometer
+        .map(|m| v.magnetometers(m))
+        .transpose()?
+        .unwrap_or_default();
+    let magnetometer = match magnetometers.as_slice() {
+        [one] => Some(one.clone()),
+        _ => None,
+    };
+    let columns = raw
+        .columns
+        .map(|c| v.columns(c))
+        .transpose()?
+        .unwrap_or_default();
+    let log = raw.log.map(|l| v.log(l)).transpose()?.unwrap_or_default();
+    let gyro = raw.gyro.map(|g| v.gyro(g)).transpose()?;
     let probe = raw.probe.map(|p| v.probe(p)).transpose()?;
     let site = raw.site.map(|s| v.site(s)).transpose()?;
-    let cage = match raw.cage {
-        Some(c) => Some(Cage {
-            article_to_cage: v.rotation("cage.article_to_cage", Some(&c.article_to_cage))?,
-        }),
-        None => None,
-    };
+    let cage = raw.cage.map(|c| v.cage(c)).transpose()?;
     let rods = v.rods(raw.rod)?;
     let dipole_test = raw.dipole_test.map(|d| v.dipole_test(d)).transpose()?;
     let orbit = raw
@@ -58,12 +63,17 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         .transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
+    v.step_sensors(&steps, &magnetometers)?;
     let limits = v.limits(raw.limits)?;
     Ok(Plan {
         path: path.to_path_buf(),
         dir,
         article,
         magnetometer,
+        magnetometers,
+        columns,
+        log,
+        gyro,
         probe,
         site,
         cage,
@@ -80,14 +90,14 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
 pub const MAX_POSITION_M: f64 = 100.0;
 
 /// Checks of single values, with errors naming the key and the plan file.
-struct Validator<'a> {
-    path: &'a Path,
+pub(super) struct Validator<'a> {
+    pub(super) path: &'a Path,
     /// The plan's text, to name the line of a refused key.
-    text: &'a str,
+    pub(super) text: &'a str,
 }
 
 impl Validator<'_> {
-    fn invalid(&self, key: &str, problem: String) -> PlanError {
+    pub(super) fn invalid(&self, key: &str, problem: String) -> PlanError {
         match super::locate::line_of(self.text, key) {
             Some(line) => PlanError::InvalidAt {
                 path: Shown(self.path.to_path_buf()),
@@ -106,7 +116,7 @@ impl Validator<'_> {
     /// A position, m: finite and within [`MAX_POSITION_M`] of the origin on each axis
     /// (a bench test is metres across; a value beyond that is a wrong unit or a typo,
     /// and would make every geometry it enters degenerate).
-    fn position(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
+    pub(super) fn position(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
         let p = self.vec3(key, v)?;
         if p.iter().any(|x| x.abs() > MAX_POSITION_M) {
             return Err(self.invalid(
@@ -120,7 +130,7 @@ impl Validator<'_> {
     }
 
     /// A vector whose every element is finite.
-    fn vec3(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
+    pub(super) fn vec3(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
         if v.iter().all(|x| x.is_finite()) {
             Ok(Vector3::from(v))
         } else {
@@ -129,7 +139,7 @@ impl Validator<'_> {
     }
 
     /// An optional value that, when given, is finite and positive.
-    fn positive(&self, key: &str, v: Option<f64>) -> Result<Option<f64>, PlanError> {
+    pub(super) fn positive(&self, key: &str, v: Option<f64>) -> Result<Option<f64>, PlanError> {
         match v {
             Some(x) if !(x.is_finite() && x > 0.0) => {
                 Err(self.invalid(key, format!("must be a positive number, found {x}")))
@@ -141,7 +151,7 @@ impl Validator<'_> {
     /// An optional value that, when given, is finite, positive and at most `max` (in the
     /// key's unit): a larger value is a wrong unit or a typo, and would overflow the
     /// computations it enters.
-    fn positive_at_most(
+    pub(super) fn positive_at_most(
         &self,
         key: &str,
         v: Option<f64>,
@@ -157,7 +167,11 @@ impl Validator<'_> {
     }
 
     /// A proper rotation; identity when not given.
-    fn rotation(&self, key: &str, v: Option<&toml::Value>) -> Result<Matrix3<f64>, PlanError> {
+    pub(super) fn rotation(
+        &self,
+        key: &str,
+        v: Option<&toml::Value>,
+    ) -> Result<Matrix3<f64>, PlanError> {
         match v {
             None => Ok(Matrix3::identity()),
             Some(v) => parse_rotation(v).map_err(|p| self.invalid(key, p)),
@@ -166,7 +180,7 @@ impl Validator<'_> {
 
     /// Refuse a control character (escape sequences, line breaks) in text that is shown
     /// on the terminal, in reports and in file names.
-    fn plain_text(&self, key: &str, value: &str) -> Result<(), PlanError> {
+    pub(super) fn plain_text(&self, key: &str, value: &str) -> Result<(), PlanError> {
         match value.chars().find(|c| c.is_control()) {
             None => Ok(()),
             Some(c) => Err(self.invalid(
@@ -191,23 +205,6 @@ impl Validator<'_> {
         Ok(Article {
             serial: a.serial.trim().to_string(),
             build: a.build.trim().to_string(),
-        })
-    }
-
-    fn magnetometer(&self, m: RawMagnetometer) -> Result<Magnetometer, PlanError> {
-        Ok(Magnetometer {
-            sensor_to_body: self
-                .rotation("magnetometer.sensor_to_body", m.sensor_to_body.as_ref())?,
-            position_m: m
-                .position_m
-                .map(|p| self.position("magnetometer.position_m", p))
-                .transpose()?,
-            unit: m
-                .unit
-                .map(|u| u.parse::<FieldUnit>())
-                .transpose()
-                .map_err(|e| self.invalid("magnetometer.unit", e.to_string()))?,
-            range_nt: self.positive_at_most("magnetometer.range_nt", m.range_nt, MAX_FIELD_NT)?,
         })
     }
 
@@ -451,12 +448,13 @@ fn steps(raw: Vec<RawStep>, dir: &Path, text: &str) -> Vec<Step> {
                 .count()
                 + 1,
             kind: s.kind.into_inner(),
+            sensor: s.sensor.map(|n| n.trim().to_string()),
         })
         .collect()
 }
 
 /// A rotation given as axis shorthand (`["+x","-z","+y"]`) or a 3×3 matrix row by row.
-fn parse_rotation(v: &toml::Value) -> Result<Matrix3<f64>, String> {
+pub(super) fn parse_rotation(v: &toml::Value) -> Result<Matrix3<f64>, String> {
     let arr = v.as_array().ok_or_else(|| {
         "expected three signed axes such as [\"+x\", \"+y\", \"+z\"] or a 3×3 matrix".to_string()
     })?;
@@ -495,7 +493,7 @@ fn parse_date(s: &str) -> Result<time::Date, String> {
 
 /// The TOML parser's message spans several lines with a source excerpt; keep its first
 /// line (which names line and column) and its last (what is wrong).
-fn one_line(msg: &str) -> String {
+pub(super) fn one_line(msg: &str) -> String {
     let lines: Vec<&str> = msg
         .lines()
         .map(str::trim)

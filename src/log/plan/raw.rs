@@ -9,7 +9,11 @@ use serde::Deserialize;
 #[serde(deny_unknown_fields)]
 pub(super) struct RawPlan {
     pub(super) article: Option<RawArticle>,
-    pub(super) magnetometer: Option<RawMagnetometer>,
+    /// One `[magnetometer]` table or several `[[magnetometer]]` entries.
+    pub(super) magnetometer: Option<toml::Value>,
+    pub(super) columns: Option<toml::Table>,
+    pub(super) log: Option<RawLog>,
+    pub(super) gyro: Option<RawGyro>,
     pub(super) probe: Option<RawProbe>,
     pub(super) site: Option<RawSite>,
     pub(super) cage: Option<RawCage>,
@@ -33,10 +37,28 @@ pub(super) struct RawArticle {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawMagnetometer {
+    pub(super) name: Option<String>,
+    pub(super) columns: Option<[String; 3]>,
     pub(super) sensor_to_body: Option<toml::Value>,
     pub(super) position_m: Option<[f64; 3]>,
     pub(super) unit: Option<String>,
+    pub(super) nt_per_count: Option<toml::Value>,
     pub(super) range_nt: Option<f64>,
+    pub(super) serial: Option<String>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawLog {
+    pub(super) hold_commands: Option<bool>,
+    pub(super) decimal: Option<String>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawGyro {
+    pub(super) sensor_to_body: Option<toml::Value>,
+    pub(super) serial: Option<String>,
 }
 
 #[derive(Deserialize)]
@@ -61,6 +83,8 @@ pub(super) struct RawSite {
 #[serde(deny_unknown_fields)]
 pub(super) struct RawCage {
     pub(super) article_to_cage: toml::Value,
+    pub(super) nt_per_amp: Option<toml::Value>,
+    pub(super) ambient_nt: Option<[f64; 3]>,
 }
 
 #[derive(Deserialize)]
@@ -94,6 +118,7 @@ pub(super) struct RawMount {
 pub(super) struct RawStep {
     pub(super) kind: toml::Spanned<String>,
     pub(super) log: PathBuf,
+    pub(super) sensor: Option<String>,
 }
 
 #[derive(Deserialize, Default)]

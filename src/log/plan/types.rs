@@ -18,8 +18,18 @@ pub struct Plan {
     pub dir: PathBuf,
     /// `[article]`: identity for the ledger.
     pub article: Option<Article>,
-    /// `[magnetometer]`: the flight magnetometer as installed.
+    /// The magnetometer in use: the plan's one `[magnetometer]`, or the
+    /// `[[magnetometer]]` entry chosen by [`Plan::select_sensor`] (`None` until then when
+    /// the plan lists several).
     pub magnetometer: Option<Magnetometer>,
+    /// Every magnetometer the plan lists, in order.
+    pub magnetometers: Vec<Magnetometer>,
+    /// `[columns]`: our quantity (lower case) → the log's column name.
+    pub columns: Vec<(String, String)>,
+    /// `[log]`: how the logs are written.
+    pub log: LogSettings,
+    /// `[gyro]`: the gyro whose rates a log may hold.
+    pub gyro: Option<Gyro>,
     /// `[probe]`: an external probe used instead of the flight magnetometer.
     pub probe: Option<Probe>,
     /// `[site]`: where a tumble test was done.
@@ -49,9 +59,37 @@ pub struct Article {
     pub build: String,
 }
 
-/// `[magnetometer]`.
+/// `[log]`.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct LogSettings {
+    /// Command columns hold a value only when it changes (`hold_commands = true`).
+    pub hold_commands: bool,
+    /// Numbers are written with a decimal comma (`decimal = ","`).
+    pub decimal_comma: bool,
+}
+
+/// `[gyro]`.
+#[derive(Debug, Clone)]
+pub struct Gyro {
+    /// Rotation gyro → body: `w_b = sensor_to_body * w_g`.
+    pub sensor_to_body: Matrix3<f64>,
+    /// Serial number, when given.
+    pub serial: Option<String>,
+}
+
+/// `[magnetometer]` or one `[[magnetometer]]` entry.
 #[derive(Debug, Clone)]
 pub struct Magnetometer {
+    /// Name (`--sensor NAME`, a step's `sensor`); required when the plan lists several.
+    pub name: Option<String>,
+    /// The log's three field columns of this sensor (x, y, z), when not `bx by bz`.
+    pub columns: Option<[String; 3]>,
+    /// Serial number, when given.
+    pub serial: Option<String>,
+    /// Field columns without a unit are raw counts (`unit = "counts"` or `"LSB"`).
+    pub counts: bool,
+    /// Field per count, nT, per sensor axis (x, y, z).
+    pub nt_per_count: Option<[f64; 3]>,
     /// Rotation sensor → body: `v_b = sensor_to_body * v_s`.
     pub sensor_to_body: Matrix3<f64>,
     /// Sensor position, body frame (B), m.
@@ -104,6 +142,12 @@ impl Site {
 pub struct Cage {
     /// Rotation article (body) → cage: `v_c = article_to_cage * v_b`.
     pub article_to_cage: Matrix3<f64>,
+    /// Field per coil current, cage frame, nT/A, row by row: `h_nt = nt_per_amp * i_a`
+    /// (for logs of coil currents `ix iy iz`).
+    pub nt_per_amp: Option<Matrix3<f64>>,
+    /// Ambient field at the article with the coils off, cage frame, nT; added to the
+    /// coils' field. Without it the ambient field folds into the hard iron.
+    pub ambient_nt: Option<Vector3<f64>>,
 }
 
 /// `[[rod]]`.
@@ -152,6 +196,8 @@ pub struct Step {
     pub kind_line: usize,
     /// Log path, resolved against the plan's folder.
     pub log: PathBuf,
+    /// The magnetometer whose columns the step reads (a `[[magnetometer]]` name).
+    pub sensor: Option<String>,
 }
 
 /// `[limits]`.
@@ -209,6 +255,58 @@ impl Plan {
             key: key.to_string(),
             problem: problem.into(),
         }
+    }
+
+    /// Choose the magnetometer in use: `name` among `[[magnetometer]]`, or the plan's
+    /// only one. A plan with several and no name is refused listing the names; a name
+    /// the plan does not list is refused with the names it does.
+    pub fn select_sensor(&mut self, name: Option<&str>) -> Result<(), PlanError> {
+        let names: Vec<String> = self
+            .magnetometers
+            .iter()
+            .map(|m| m.name.clone().unwrap_or_else(|| "(unnamed)".into()))
+            .collect();
+        let listed = || {
+            if names.is_empty() {
+                "the plan lists no magnetometer".to_string()
+            } else {
+                format!("the plan lists {}", names.join(", "))
+            }
+        };
+        match name {
+            None if self.magnetometers.len() > 1 => Err(self.invalid(
+                "magnetometer",
+                format!(
+                    "{}: choose one with --sensor NAME (in closeout: sensor = \"NAME\" in \
+                     the step)",
+                    listed()
+                ),
+            )),
+            None => {
+                self.magnetometer = self.magnetometers.first().cloned();
+                Ok(())
+            }
+            Some(n) => {
+                let found = self
+                    .magnetometers
+                    .iter()
+                    .find(|m| m.name.as_deref() == Some(n))
+                    .cloned()
+                    .ok_or_else(|| {
+                        self.invalid(
+                            "magnetometer",
+                            format!("no magnetometer is named \"{n}\"; {}", listed()),
+                        )
+                    })?;
+                self.magnetometer = Some(found);
+                Ok(())
+            }
+        }
+    }
+
+    /// The name of the magnetometer in use, when it has one.
+    pub fn sensor_name(&self) -> Option<&str> {
+        self.magnetometer.as_ref()?.name.as_deref()
     }
 
     /// Resolve a path written in the plan against the plan's folder.
