@@ -36,6 +36,8 @@ mod history;
 mod input;
 #[path = "cli/log_forms.rs"]
 mod log_forms;
+#[path = "cli/orbit.rs"]
+mod orbit;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]

@@ -16,6 +16,7 @@ pub mod flight_part;
 pub mod input;
 mod input_forms;
 pub mod kind;
+pub mod orbit;
 pub mod outcome;
 pub mod polarity;
 pub mod rod;

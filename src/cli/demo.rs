@@ -55,6 +55,8 @@ const SAMPLE_FILES: &[(&str, &str)] = embedded![
     "rods/tmr-tr-y/rod.csv",
     "rods/tmr-tr-z/plan.toml",
     "rods/tmr-tr-z/rod.csv",
+    "tmr-0207-orbit/plan.toml",
+    "tmr-0207-orbit/telemetry.csv",
 ];
 
 /// The builds' folders, in the order they are closed out.
@@ -158,7 +160,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         .map_err(|e| Error::io(&ledger_path, e))?;
 
     outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
-    outln!("builds closed out in order into a fresh ledger. All data are simulated.\n")?;
+    outln!("builds closed out in order into a fresh ledger, then a calibration from its")?;
+    outln!("telemetry on orbit. All data are simulated.\n")?;
     let mut reports = Vec::new();
     let mut flight = Vec::new();
     for folder in BUILDS {
@@ -178,6 +181,15 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         reports.push(dir);
     }
     reports.extend(close_out_rods(&out, &samples, &ledger_path)?);
+    // After B3, the on-orbit pass, compared with B3's ground calibration.
+    let (summary, dir) = super::demo_orbit::orbit_pass(
+        &samples,
+        magproof::sim::scenario::ORBIT_FOLDER,
+        &ledger_path,
+        &out.join("reports"),
+    )?;
+    out!("{summary}")?;
+    reports.push(dir);
 
     let ledger = Ledger::open_existing(&ledger_path).map_err(Error::from)?;
     let runs = ledger.runs(&RunFilter::default()).map_err(Error::from)?;

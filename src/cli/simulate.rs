@@ -1,4 +1,4 @@
-//! `magproof simulate tumble|cage|polarity|dipole|rod --seed N --out DIR [options]`: a
+//! `magproof simulate tumble|cage|polarity|dipole|rod|orbit --seed N --out DIR [options]`: a
 //! synthetic log, a matching plan and the truth behind them (JSON), from the simulators
 //! in `magproof::sim`, so that a check can be rehearsed and its answer compared with the
 //! truth. Files are written atomically; an existing non-empty DIR needs `--force`.
@@ -34,6 +34,19 @@ enum Kind {
     Dipole,
     /// A torque rod on the bench (finite rod with saturation and hysteresis).
     Rod,
+    /// On-orbit telemetry from a two-line element set, with regressors and a tumble.
+    Orbit,
+}
+
+/// How an orbit log gives positions.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+enum PositionsArg {
+    /// None: the plan's [orbit] tle is propagated.
+    Tle,
+    /// Earth-fixed rx ry rz, km.
+    Ecef,
+    /// Geodetic lat lon alt.
+    Geodetic,
 }
 
 /// Directions a tumble visits.
@@ -121,6 +134,9 @@ pub struct Args {
     /// Dipole: turntable run or static map.
     #[arg(long, value_enum, default_value = "turntable")]
     method: DipoleMethodArg,
+    /// Orbit: how the log gives positions.
+    #[arg(long, value_enum, default_value = "tle")]
+    positions: PositionsArg,
 }
 
 /// `--noise-nt`, 1σ per axis.
@@ -177,6 +193,7 @@ fn simulate(args: &Args) -> Result<Vec<SimFile>, Error> {
         Kind::Polarity => polarity_files(args),
         Kind::Dipole => dipole_files(args),
         Kind::Rod => rod_files(args),
+        Kind::Orbit => orbit_files(args),
     }
 }
 
@@ -364,6 +381,41 @@ fn rod_files(args: &Args) -> Result<Vec<SimFile>, Error> {
         (
             "truth.json".into(),
             truth_json("rod", "rod.csv", &sim.truth)?,
+        ),
+    ])
+}
+
+/// On-orbit telemetry (1 Hz, 6000 samples unless --samples), its plan with the element
+/// set, and the truth.
+fn orbit_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    use magproof::sim::orbit::{simulate_orbit, OrbitSimConfig, SimPositions};
+    let mut cfg = OrbitSimConfig {
+        positions: match args.positions {
+            PositionsArg::Tle => SimPositions::Tle,
+            PositionsArg::Ecef => SimPositions::Ecef,
+            PositionsArg::Geodetic => SimPositions::Geodetic,
+        },
+        ..OrbitSimConfig::default()
+    };
+    set(&mut cfg.samples, args.samples);
+    set(&mut cfg.noise_nt, args.noise_nt);
+    set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
+    set(&mut cfg.soft_iron, args.soft_iron());
+    if cfg.samples < 200 {
+        return Err(Error::Usage("orbit: --samples must be at least 200".into()));
+    }
+    let sim = simulate_orbit(&cfg, args.seed)?;
+    let plan = format!(
+        "{}{}\n[[step]]\nkind = \"orbit\"\nlog = \"orbit.csv\"\n",
+        plan_head(args, "orbit"),
+        sim.plan_orbit
+    );
+    Ok(vec![
+        ("orbit.csv".into(), sim.csv.clone()),
+        ("plan.toml".into(), plan),
+        (
+            "truth.json".into(),
+            truth_json("orbit", "orbit.csv", &sim.truth)?,
         ),
     ])
 }

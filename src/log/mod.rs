@@ -23,6 +23,7 @@ mod row_lines;
 mod row_paths_tests;
 mod sweep;
 mod sweep_log;
+pub mod telemetry;
 pub mod units;
 
 pub use error::{LogError, PlanError, Shown};

@@ -8,3 +8,4 @@ pub mod finite_rod;
 pub mod frames;
 pub mod geomag;
 pub mod igrf;
+pub mod orbit;

@@ -2,6 +2,7 @@
 
 pub mod cage;
 pub mod dipole;
+pub mod orbit;
 pub mod polarity;
 pub mod tumble;
 pub mod workload;

@@ -58,6 +58,16 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["-1", "181"],
     ),
     ("--lat", &["field", "--lon", "7"], &["90.5", "-91"]),
+    (
+        "--grid-s",
+        &["orbit", "telemetry.csv", "--plan", "plan.toml"],
+        &["-1", "601"],
+    ),
+    (
+        "--range",
+        &["orbit", "telemetry.csv", "--plan", "plan.toml"],
+        &["0"],
+    ),
     ("--lon", &["field", "--lat", "46"], &["361", "-400"]),
     (
         "--alt-m",
@@ -140,6 +150,7 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
 /// Flags that take a value that is not a number (paths, names, choices, dates), per
 /// command: with [`FLAGS`] they must cover every flag `--help` lists with a value.
 const NOT_NUMBERS: &[&str] = &[
+    "--positions",
     "--plan",
     "--params-out",
     "--robust",
@@ -169,6 +180,7 @@ const COMMANDS: &[&str] = &[
     "inspect",
     "history",
     "demo",
+    "orbit",
 ];
 
 #[test]

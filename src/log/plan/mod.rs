@@ -9,6 +9,7 @@
 //! turn one into the other (using both).
 
 mod locate;
+mod orbit;
 mod parse;
 mod parse_logs;
 mod raw;
@@ -17,6 +18,7 @@ mod rod_bench;
 mod tests;
 mod types;
 
+pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
 pub use rod_bench::{RodBench, RodLimits, RodPosition};
 pub use types::{

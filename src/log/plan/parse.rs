@@ -61,6 +61,10 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         .rod_bench
         .map(|r| super::rod_bench::rod_bench(&v, r))
         .transpose()?;
+    let orbit = raw
+        .orbit
+        .map(|o| super::orbit::orbit(path, o))
+        .transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
     v.step_sensors(&steps, &magnetometers)?;
@@ -80,6 +84,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         rods,
         dipole_test,
         rod_bench,
+        orbit,
         steps,
         limits,
         sha256,

@@ -21,6 +21,7 @@ pub(super) struct RawPlan {
     pub(super) rod: Vec<RawRod>,
     pub(super) dipole_test: Option<RawDipoleTest>,
     pub(super) rod_bench: Option<super::rod_bench::RawRodBench>,
+    pub(super) orbit: Option<super::orbit::RawOrbit>,
     #[serde(default)]
     pub(super) step: Vec<RawStep>,
     #[serde(default)]

@@ -42,6 +42,8 @@ pub struct Plan {
     pub dipole_test: Option<DipoleTest>,
     /// `[rod_bench]`: a torque rod on the bench and the probe stations around it.
     pub rod_bench: Option<super::RodBench>,
+    /// `[orbit]`: the element set and orbit of the flight (`orbit`, `dipole`).
+    pub orbit: Option<super::orbit::OrbitPlan>,
     /// `[[step]]`: what `closeout` runs, in order.
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.
