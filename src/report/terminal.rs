@@ -70,14 +70,29 @@ pub fn decimals_for(sigma: f64) -> usize {
     (1 - mag).clamp(0, 9) as usize
 }
 
-fn truncate(s: &str, width: usize) -> String {
-    if s.chars().count() <= width {
-        s.to_string()
-    } else {
-        let mut t: String = s.chars().take(width.saturating_sub(1)).collect();
-        t.push('…');
-        t
+/// One figure of merit, `label` padded to `label_w`, its value wrapped under itself
+/// when the line would pass [`WIDTH`] (nothing is cut).
+fn figure_line(label: &str, value: &str, label_w: usize) -> String {
+    let line = format!("  {label:<label_w$}  {value}");
+    if line.chars().count() <= WIDTH {
+        return line + "\n";
     }
+    let hang = " ".repeat(label_w + 4);
+    // A word longer than the value column is cut into pieces that fit, never dropped.
+    let room = WIDTH.saturating_sub(hang.len()).max(8);
+    let pieces: Vec<String> = value
+        .split_whitespace()
+        .flat_map(|w| {
+            let chars: Vec<char> = w.chars().collect();
+            chars
+                .chunks(room)
+                .map(|c| c.iter().collect::<String>())
+                .collect::<Vec<_>>()
+        })
+        .collect();
+    let wrapped = wrap(&pieces.join(" "), &hang, WIDTH);
+    let first = format!("  {label:<label_w$}  ");
+    first + wrapped.trim_start()
 }
 
 /// Wrap text to `width` columns with an indent on every line.
@@ -118,8 +133,7 @@ pub fn render_section(s: &Section, style: &Style) -> String {
         .unwrap_or(0)
         .min(30);
     for (label, value) in &s.figures_of_merit {
-        let line = format!("  {label:<label_w$}  {value}");
-        let _ = writeln!(out, "{}", truncate(&line, WIDTH));
+        out.push_str(&figure_line(label, value, label_w));
     }
     for t in &s.tables {
         out.push('\n');
@@ -296,6 +310,25 @@ fn printable_report(r: &RunReport) -> RunReport {
         inputs: Vec::new(),
         result: serde_json::Value::Null,
         sections: r.sections.iter().map(printable_section).collect(),
+    }
+}
+
+#[cfg(test)]
+mod figure_tests {
+    use super::*;
+
+    #[test]
+    fn a_long_figure_wraps_under_its_value_and_loses_nothing() {
+        let value = "47.14 (predicted 37.49 with N_d = 0.02674, an approximation of a cylinder)";
+        let text = figure_line("core gain", value, 12);
+        assert!(text.lines().all(|l| l.chars().count() <= WIDTH), "{text}");
+        assert!(text.lines().count() > 1, "{text}");
+        let words: Vec<&str> = text.split_whitespace().collect();
+        assert_eq!(words[..2], ["core", "gain"]);
+        assert_eq!(words[2..].join(" "), value);
+        for l in text.lines().skip(1) {
+            assert!(l.starts_with(&" ".repeat(16)), "{l:?}");
+        }
     }
 }
 
