@@ -12,6 +12,7 @@ pub mod lm;
 pub mod robust;
 pub mod samples;
 pub mod tumble;
+pub mod wahba;
 
 pub use error::FitError;
 mod error;
