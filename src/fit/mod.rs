@@ -2,6 +2,7 @@
 //! dipole fit, robust weights and covariance (methods: `docs/calibration.md`,
 //! `docs/dipole.md`).
 
+pub mod align;
 pub mod arrow;
 pub mod cage;
 pub mod coverage;
