@@ -8,6 +8,7 @@
 //! `raw.rs` the TOML shapes as written (using `types`), and `parse.rs` the checks that
 //! turn one into the other (using both).
 
+mod align;
 mod locate;
 mod parse;
 mod parse_logs;
@@ -16,6 +17,7 @@ mod raw;
 mod tests;
 mod types;
 
+pub use align::AlignTest;
 pub use parse::{parse_plan, read_plan};
 pub use types::{
     Article, Cage, DipoleTest, GateLimits, Gyro, Limits, LogSettings, Magnetometer, Mount, Plan,

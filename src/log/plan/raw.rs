@@ -20,6 +20,7 @@ pub(super) struct RawPlan {
     #[serde(default)]
     pub(super) rod: Vec<RawRod>,
     pub(super) dipole_test: Option<RawDipoleTest>,
+    pub(super) align_test: Option<super::align::RawAlignTest>,
     #[serde(default)]
     pub(super) step: Vec<RawStep>,
     #[serde(default)]

@@ -40,6 +40,8 @@ pub struct Plan {
     pub rods: Vec<Rod>,
     /// `[dipole_test]`: turntable geometry.
     pub dipole_test: Option<DipoleTest>,
+    /// `[align_test]`: the turntable alignment test.
+    pub align_test: Option<super::align::AlignTest>,
     /// `[[step]]`: what `closeout` runs, in order.
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.
