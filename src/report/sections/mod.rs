@@ -3,12 +3,14 @@
 //! words, warnings, notes, plots and the result JSON. The writers in the parent module only
 //! lay sections out; nothing here recomputes a fitted number.
 
+mod align;
 mod calibration;
 pub mod change_text;
 mod dipole;
 mod history;
 mod polarity;
 
+pub use align::align_section;
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
 pub use history::{history_section, history_text_section};
