@@ -23,6 +23,7 @@ macro_rules! outln {
     }};
 }
 
+mod align;
 mod calibrate;
 mod closeout;
 mod common;
@@ -37,6 +38,7 @@ mod present;
 mod record;
 mod report_out;
 mod simulate;
+mod simulate_align;
 
 use clap::{Parser, Subcommand};
 
@@ -65,6 +67,8 @@ enum Command {
     Field(field::Args),
     /// The ledger: runs per serial and build, and what changed since the previous build.
     History(history::Args),
+    /// Sensor axes and misalignment against the body frame, from a turntable test.
+    Align(align::Args),
     /// Residual magnetic dipole of the article and its in-orbit disturbance torque.
     Dipole(dipole::Args),
     /// Check every torque rod's polarity and coupling from a pulse log.
@@ -85,6 +89,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Inspect(args) => inspect::run(args),
         Command::Field(args) => field::run(args),
         Command::History(args) => history::run(args),
+        Command::Align(args) => align::run(args),
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
         Command::Calibrate(args) => calibrate::run(args),

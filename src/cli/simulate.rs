@@ -31,6 +31,8 @@ enum Kind {
     Polarity,
     /// A residual-dipole run (turntable or static map).
     Dipole,
+    /// A turntable alignment run (sensor axes against the body frame).
+    Align,
 }
 
 /// Directions a tumble visits.
@@ -107,7 +109,9 @@ pub struct Args {
     /// Dipole: true moment, body frame, A·m²: X,Y,Z.
     #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, MOMENT_AM2), allow_hyphen_values = true)]
     moment_am2: Option<Vector3<f64>>,
-    /// Dipole: number of turntable mounts (1 = upright only, 2 = upright and on-side).
+    #[command(flatten)]
+    align: super::simulate_align::AlignArgs,
+    /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
     mounts: Option<u8>,
     /// Dipole: turntable run or static map.
@@ -168,6 +172,13 @@ fn simulate(args: &Args) -> Result<Vec<SimFile>, Error> {
         Kind::Cage => cage_files(args),
         Kind::Polarity => polarity_files(args),
         Kind::Dipole => dipole_files(args),
+        Kind::Align => super::simulate_align::align_files(
+            &args.align,
+            args.seed,
+            args.noise_nt,
+            args.hard_iron_nt,
+            args.mounts,
+        ),
     }
 }
 

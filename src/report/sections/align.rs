@@ -18,7 +18,7 @@ pub fn align_section(r: &AlignResult, title: &str) -> Result<Section, Error> {
         (
             "misalignment".into(),
             format!(
-                "{:.2} ± {:.2}° (limit {:.1}°)",
+                "{:.2} ± {:.3}° (limit {:.1}°)",
                 r.misalignment_total_deg, r.misalignment_total_sigma_deg, r.alignment_max_deg
             ),
         ),
