@@ -56,6 +56,9 @@ pub struct AlignFit {
     pub unobservable: Vec<Vector3<f64>>,
 }
 
+/// (cost, A, F, h) of one alternation.
+type Solution = (f64, Matrix3<f64>, Vector3<f64>, Vector3<f64>);
+
 /// Alternation steps per start, at most.
 const MAX_ITER: usize = 400;
 
@@ -72,14 +75,14 @@ pub fn fit_alignment(samples: &[AlignSample], fit_hard_iron: bool) -> Result<Ali
             needed: (unknowns + 6) / 3,
         });
     }
-    let mut best: Option<(f64, Matrix3<f64>, Vector3<f64>, Vector3<f64>)> = None;
+    let mut best: Option<Solution> = None;
     for start in signed_permutations()
         .into_iter()
         .filter(|p| p.determinant() > 0.0)
     {
-        let (cost, a, f, h) = alternate(samples, start, fit_hard_iron);
-        if best.as_ref().is_none_or(|b| cost < b.0) {
-            best = Some((cost, a, f, h));
+        let s = alternate(samples, start, fit_hard_iron);
+        if best.as_ref().map_or(true, |b| s.0 < b.0) {
+            best = Some(s);
         }
     }
     let (cost, a, f, h) = best.ok_or(FitError::Degenerate("no start converged".into()))?;
@@ -112,11 +115,7 @@ fn cost(samples: &[AlignSample], a: &Matrix3<f64>, f: &Vector3<f64>, h: &Vector3
 }
 
 /// Alternate from `start` until the cost settles: (cost, A, F, h).
-fn alternate(
-    samples: &[AlignSample],
-    start: Matrix3<f64>,
-    fit_hard_iron: bool,
-) -> (f64, Matrix3<f64>, Vector3<f64>, Vector3<f64>) {
+fn alternate(samples: &[AlignSample], start: Matrix3<f64>, fit_hard_iron: bool) -> Solution {
     let mut a = start;
     let mut prev = f64::INFINITY;
     let (mut f, mut h) = (Vector3::zeros(), Vector3::zeros());
