@@ -30,6 +30,8 @@ mod demo;
 mod dipole;
 #[path = "cli/field.rs"]
 mod field;
+#[path = "cli/flight_params.rs"]
+mod flight_params;
 #[path = "cli/history.rs"]
 mod history;
 #[path = "cli/input.rs"]
@@ -42,6 +44,8 @@ mod polarity;
 mod reliability;
 #[path = "cli/report.rs"]
 mod report;
+#[path = "cli/report_units.rs"]
+mod report_units;
 #[path = "cli/sensors.rs"]
 mod sensors;
 #[path = "cli/simulate.rs"]

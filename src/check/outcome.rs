@@ -198,6 +198,10 @@ pub trait CheckResult: fmt::Debug + Send + Sync {
     fn sections(&self) -> Result<Vec<Section>, Error>;
     /// The result as a JSON object (the check's documented keys).
     fn json(&self) -> Result<serde_json::Value, Error>;
+    /// What the result gives the flight parameters, if anything (most checks: nothing).
+    fn flight_part(&self) -> Option<super::FlightPart<'_>> {
+        None
+    }
 }
 
 /// The five methods of [`CheckResult`] that every result with `verdict`, `gates` and

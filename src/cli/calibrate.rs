@@ -13,7 +13,7 @@ use super::present::{present_check, read_input, Analysed};
 use magproof::check::calibrate::{run_calibrate, CalibrateOptions};
 use magproof::check::CheckRequest;
 use magproof::fit::tumble::Robust;
-use magproof::report::{FlightParamsWriter, ParamsSource, ReportWriter};
+use magproof::report::ReportWriter;
 
 /// Robust reweighting of the tumble fit.
 #[derive(Debug, Clone, Copy, ValueEnum)]
@@ -35,7 +35,8 @@ pub struct Args {
     /// Reference field magnitude for a tumble, nT (beats the plan's [site]).
     #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, FIELD_NT), allow_hyphen_values = true)]
     reference_nt: Option<f64>,
-    /// Write flight-software parameters: FILE.json or FILE.h.
+    /// Write flight parameters: FILE.json and FILE.h side by side (give either name;
+    /// only for a passing verdict unless --force).
     #[arg(long, value_name = "FILE")]
     params_out: Option<PathBuf>,
     /// Robust reweighting of the tumble fit.
@@ -64,8 +65,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             RobustArg::Tukey => Robust::Tukey,
             RobustArg::None => Robust::Off,
         },
-        // Only the report's plots use the per-sample data.
-        keep_samples: args.output.report.is_some(),
+        // The report's plots and the flight parameters' worked example use them.
+        keep_samples: args.output.report.is_some() || args.params_out.is_some(),
     };
     let key = serde_json::json!({
         "reference_nt": options.reference_nt,
@@ -77,11 +78,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     drop(input);
     let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
     if let Some(p) = &args.params_out {
-        extra.push(Box::new(FlightParamsWriter {
-            source: ParamsSource::Calibration(&result),
-            path: p.clone(),
-            force: args.output.force,
-        }));
+        extra.push(Box::new(super::flight_out::for_check(
+            &result,
+            plan.as_ref(),
+            (analysed.log, &analysed.log_sha256),
+            p,
+            args.output.force,
+        )?));
     }
     present_check(
         &result,

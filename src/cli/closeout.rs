@@ -27,6 +27,10 @@ pub struct Args {
     /// Skip rows with a bad cell in every log (counted and reported) instead of refusing.
     #[arg(long)]
     skip_bad_rows: bool,
+    /// Write flight parameters into this folder: magproof-flight.json and
+    /// magproof-flight.h (only when every step passed, unless --force).
+    #[arg(long, value_name = "DIR")]
+    params_out: Option<PathBuf>,
 }
 
 /// What closeout recorded, for the summary.
@@ -179,13 +183,22 @@ pub fn closeout_report(result: &CloseoutResult) -> anyhow::Result<RunReport> {
 
 /// Run `closeout`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
-    let writers = writers(&args.output);
+    let mut writers = writers(&args.output);
     let ledger = (!args.no_record).then(|| args.ledger.path());
     // Every output is checked before any step is recorded.
-    let (result, recorded) =
-        run_and_record(&args.plan, ledger.as_deref(), args.skip_bad_rows, |_| {
+    let (result, recorded) = run_and_record(
+        &args.plan,
+        ledger.as_deref(),
+        args.skip_bad_rows,
+        |result| {
+            if let Some(dir) = &args.params_out {
+                let w = super::flight_out::for_closeout(result, dir, args.output.force)
+                    .map_err(|e| e.context("--params-out"))?;
+                writers.push(Box::new(w));
+            }
             prepare_all(&writers, args.output.force)
-        })?;
+        },
+    )?;
     let report = closeout_report(&result)?;
     emit(&writers, &report, args.output.force, || Ok(()))?;
     if !args.output.json {

@@ -91,6 +91,24 @@ fn build_summary(result: &CloseoutResult) -> String {
     s
 }
 
+/// The flight parameters of a passing build, in `OUT/flight-params/<build>/` (what
+/// `closeout --params-out` writes); `None` for a build that did not pass.
+fn demo_flight_params(
+    result: &CloseoutResult,
+    report: &magproof::report::RunReport,
+    out: &Path,
+    folder: &str,
+) -> anyhow::Result<Option<magproof::report::ParamsPaths>> {
+    if result.verdict() != magproof::check::Verdict::Pass {
+        return Ok(None);
+    }
+    let dir = out.join("flight-params").join(folder);
+    let w = super::flight_out::for_closeout(result, &dir, true)?;
+    magproof::report::ReportWriter::prepare(&w)?;
+    magproof::report::ReportWriter::write(&w, report, &mut std::io::sink())?;
+    Ok(Some(w.paths.clone()))
+}
+
 /// Run `demo`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let out = match args.out {
@@ -111,6 +129,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
     outln!("builds closed out in order into a fresh ledger. All data are simulated.\n")?;
     let mut reports = Vec::new();
+    let mut flight = Vec::new();
     for folder in BUILDS {
         let plan = samples.join(folder).join("plan.toml");
         let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false, |_| Ok(()))?;
@@ -124,6 +143,7 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
         let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
         write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
+        flight.push(demo_flight_params(&result, &report, &out, folder)?);
         reports.push(dir);
     }
 
@@ -142,6 +162,18 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             "  closeout report         {}",
             r.join("report.html").display()
         )?;
+    }
+    for (folder, written) in BUILDS.iter().zip(&flight) {
+        match written {
+            Some(p) => outln!(
+                "  flight parameters       {} and {}",
+                p.json.display(),
+                p.header.display()
+            )?,
+            None => {
+                outln!("  flight parameters       none for {folder}: its verdict did not pass")?
+            }
+        }
     }
     let history_dir = out.join("reports").join("history");
     let section = magproof::report::sections::history_section(&runs, &changes)?;

@@ -30,6 +30,7 @@ mod common;
 mod demo;
 mod dipole;
 mod field;
+mod flight_out;
 mod history;
 mod inspect;
 mod numeric;

@@ -14,7 +14,7 @@ use magproof::check::polarity::{
     magnetometer_recorded, run_polarity, DriftModel, PolarityOptions, SensorChoice, DEFAULT_SNR_MIN,
 };
 use magproof::check::CheckRequest;
-use magproof::report::{FlightParamsWriter, ParamsSource, ReportWriter};
+use magproof::report::ReportWriter;
 
 /// Flags of `magproof polarity`.
 #[derive(Debug, ClapArgs)]
@@ -30,8 +30,8 @@ pub struct Args {
     output: OutputArgs,
     #[command(flatten)]
     record: super::record::RecordArgs,
-    /// Write the coupling matrix (nT per command, sensor frame) for flight software:
-    /// a C header if FILE ends in .h, else JSON.
+    /// Write flight parameters (rod coupling, dipoles, blanking window): FILE.json and
+    /// FILE.h side by side (give either name; only for a passing verdict unless --force).
     #[arg(long, value_name = "FILE")]
     params_out: Option<PathBuf>,
     /// Which sensor recorded the log: the plan's [probe] if it has one (auto),
@@ -134,11 +134,13 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     drop(input);
     let mut extra: Vec<Box<dyn ReportWriter>> = Vec::new();
     if let Some(p) = &args.params_out {
-        extra.push(Box::new(FlightParamsWriter {
-            source: ParamsSource::Polarity(&result),
-            path: p.clone(),
-            force: args.output.force,
-        }));
+        extra.push(Box::new(super::flight_out::for_check(
+            &result,
+            Some(&plan),
+            (analysed.log, &analysed.log_sha256),
+            p,
+            args.output.force,
+        )?));
     }
     present_check(
         &result,

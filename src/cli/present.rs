@@ -79,6 +79,16 @@ pub fn run_report(
             sha256: sha256.to_string(),
         })
         .collect();
+    let mut sections = sections;
+    if let (Some(plan), false) = (plan, sections.is_empty()) {
+        // A closeout's JSON holds each step's result; a single check's is the result.
+        let results: Vec<&serde_json::Value> = match result["steps"].as_array() {
+            Some(steps) => steps.iter().map(|s| &s["result"]).collect(),
+            None => vec![&result],
+        };
+        let echoed = magproof::report::sections::assumptions_section(plan, &results);
+        sections.insert(0, echoed);
+    }
     Ok(RunReport {
         title: title.to_string(),
         article: plan
@@ -120,9 +130,14 @@ pub fn emit(
     record()?;
     let mut stdout = std::io::stdout().lock();
     for (name, written) in magproof::report::writer::write_all(writers, report, &mut stdout)? {
-        if let Written::Path(p) = written {
-            let shown = magproof::text::printable(&p.display().to_string());
-            eprintln!("{name} written to {shown}");
+        let shown = |p: &std::path::Path| magproof::text::printable(&p.display().to_string());
+        match written {
+            Written::Path(p) => eprintln!("{name} written to {}", shown(&p)),
+            Written::Paths(ps) => {
+                let all: Vec<String> = ps.iter().map(|p| shown(p)).collect();
+                eprintln!("{name} written to {}", all.join(" and "));
+            }
+            Written::Stdout => {}
         }
     }
     Ok(())

@@ -147,6 +147,8 @@ impl<O: LeastSquaresProblem> Solver<O, LmState> for LevenbergMarquardt {
         Ok((state.cost(cost), None))
     }
 
+    /// One iteration: stop at once when the Gauss–Newton step left is negligible,
+    /// else try damped steps until one lowers the cost.
     fn next_iter(
         &mut self,
         problem: &mut Problem<O>,
@@ -160,9 +162,60 @@ impl<O: LeastSquaresProblem> Solver<O, LmState> for LevenbergMarquardt {
             None => problem.problem("normal_equations", |o| o.normal_equations(&p))?,
         };
         let cost = ne.sum_sq;
-        let np = p.len();
-        // Newton decrement: the cost decrease a full Gauss–Newton step would bring,
-        // against the noise variance Σr²/(n − p).
+        if self.small_decrement(&ne, p.len()) || cost == 0.0 {
+            return Ok((converged(state, p, cost), None));
+        }
+        Ok(match self.damped_step(problem, &ne, &p)? {
+            Step::Lowered {
+                p_new,
+                cost_new,
+                converged: true,
+            } => (converged(state, p_new, cost_new), None),
+            Step::Lowered {
+                p_new, cost_new, ..
+            } => (state.param(p_new).cost(cost_new), None),
+            Step::AtMinimum => (converged(state, p, cost), None),
+            Step::DampingExhausted => {
+                self.cached = Some(ne);
+                let why = "damping reached its limit without lowering the cost";
+                let st = state.param(p).cost(cost);
+                (
+                    st.terminate_with(TerminationReason::SolverExit(why.into())),
+                    None,
+                )
+            }
+        })
+    }
+}
+
+/// What the damped steps of one iteration came to.
+enum Step {
+    /// A step lowered the cost to `cost_new` at `p_new`; `converged` when the decrease
+    /// or the step was negligible.
+    Lowered {
+        p_new: DVector<f64>,
+        cost_new: f64,
+        converged: bool,
+    },
+    /// No decrease within rounding at a negligible step: the parameters are a minimum.
+    AtMinimum,
+    /// The damping rose [`MAX_TRIES`] times without a lower cost.
+    DampingExhausted,
+}
+
+/// The state at `p` with cost `cost`, terminated as converged.
+fn converged(state: LmState, p: DVector<f64>, cost: f64) -> LmState {
+    state
+        .param(p)
+        .cost(cost)
+        .terminate_with(TerminationReason::SolverConverged)
+}
+
+impl LevenbergMarquardt {
+    /// Whether the Newton decrement (the cost decrease a full Gauss–Newton step would
+    /// bring) is below `decrement_tol` times the noise variance Σr²/(n − p), for `np`
+    /// parameters.
+    fn small_decrement(&self, ne: &NormalEquations, np: usize) -> bool {
         let dof = ne.residual_count.saturating_sub(np).max(1) as f64;
         let decrement = ne
             .jtj
@@ -170,16 +223,18 @@ impl<O: LeastSquaresProblem> Solver<O, LmState> for LevenbergMarquardt {
             .cholesky()
             .map(|ch| -ne.jtr.dot(&ch.solve(&(-&ne.jtr))))
             .map(f64::abs);
-        let small_decrement = decrement.is_some_and(|d| d <= self.decrement_tol * cost / dof);
-        if small_decrement || cost == 0.0 {
-            return Ok((
-                state
-                    .param(p)
-                    .cost(cost)
-                    .terminate_with(TerminationReason::SolverConverged),
-                None,
-            ));
-        }
+        decrement.is_some_and(|d| d <= self.decrement_tol * ne.sum_sq / dof)
+    }
+
+    /// Solve `(JᵀJ + λ·diag(JᵀJ)) δ = −Jᵀr` and try `p + δ`, raising λ tenfold until the
+    /// cost falls (then λ falls tenfold), the step becomes negligible, or the tries run out.
+    fn damped_step<O: LeastSquaresProblem>(
+        &mut self,
+        problem: &mut Problem<O>,
+        ne: &NormalEquations,
+        p: &DVector<f64>,
+    ) -> Result<Step, ArgminError> {
+        let (np, cost) = (p.len(), ne.sum_sq);
         let dmax = ne.jtj.diagonal().max();
         let step_floor = self.xtol * (p.norm() + self.xtol);
         for _ in 0..MAX_TRIES {
@@ -192,41 +247,23 @@ impl<O: LeastSquaresProblem> Solver<O, LmState> for LevenbergMarquardt {
                 continue;
             };
             let delta = -chol.solve(&ne.jtr);
-            let p_new = &p + &delta;
+            let p_new = p + &delta;
             let c_new = problem.problem("sum_sq", |o| o.sum_sq(&p_new))?;
             let small_step = delta.norm() <= step_floor;
             if c_new.is_finite() && c_new < cost {
                 self.lambda = (self.lambda / 10.0).max(1e-12);
-                let converged = (cost - c_new) <= self.ftol * cost || small_step;
-                let st = state.param(p_new).cost(c_new);
-                return Ok(if converged {
-                    (st.terminate_with(TerminationReason::SolverConverged), None)
-                } else {
-                    (st, None)
+                return Ok(Step::Lowered {
+                    p_new,
+                    cost_new: c_new,
+                    converged: (cost - c_new) <= self.ftol * cost || small_step,
                 });
             }
             if small_step {
-                // No decrease within rounding, at a step this small: a minimum.
-                return Ok((
-                    state
-                        .param(p)
-                        .cost(cost)
-                        .terminate_with(TerminationReason::SolverConverged),
-                    None,
-                ));
+                return Ok(Step::AtMinimum);
             }
             self.lambda *= 10.0;
         }
-        self.cached = Some(ne);
-        Ok((
-            state
-                .param(p)
-                .cost(cost)
-                .terminate_with(TerminationReason::SolverExit(
-                    "damping reached its limit without lowering the cost".into(),
-                )),
-            None,
-        ))
+        Ok(Step::DampingExhausted)
     }
 }
 

@@ -18,7 +18,7 @@ use std::collections::HashMap;
 use serde::Serialize;
 use serde_json::Value;
 
-use super::quantity::{Quantity, QuantityValue};
+use super::compare::compare;
 use super::{LedgerError, Run, RunId};
 use crate::check::CheckKind;
 
@@ -108,7 +108,7 @@ pub struct Change {
     pub from_build: String,
     /// Later build.
     pub to_build: String,
-    /// Quantity name (see [`Quantity::name`]; `soft_iron_max_element` for soft iron).
+    /// Quantity name (see [`Quantity::name`](super::Quantity::name); `soft_iron_max_element` for soft iron).
     pub quantity: String,
     /// Later minus earlier, in `unit`; `null` for verdicts.
     pub delta: Option<f64>,
@@ -235,136 +235,10 @@ pub fn kinds_of(runs: &[Run]) -> Vec<String> {
     out
 }
 
-fn judge(delta: f64, sigma: Option<f64>, rules: &ChangeRules) -> Flag {
-    match sigma {
-        Some(s) if delta.abs() > rules.significance_sigma * s => Flag::Significant,
-        Some(_) => Flag::WithinNoise,
-        None => Flag::NoSigma,
-    }
-}
-
-fn combine(a: Option<f64>, b: Option<f64>) -> Option<f64> {
-    Some((a? * a? + b? * b?).sqrt())
-}
-
-fn compare(a: &Run, b: &Run, rules: &ChangeRules, out: &mut Vec<Change>) {
-    let (qa, qb) = (&a.quantities, &b.quantities);
-    let change = |name: &str, unit: &str, from, to, delta, sigma, flag, detail| Change {
-        serial: b.serial.clone(),
-        from_build: a.build.clone(),
-        to_build: b.build.clone(),
-        quantity: name.to_string(),
-        delta,
-        sigma,
-        flag,
-        kind: b.kind.clone(),
-        unit: String::from(unit),
-        from,
-        to,
-        from_run: a.id,
-        to_run: b.id,
-        detail,
-    };
-    let find =
-        |q: &[Quantity], name: &str| q.iter().find(|x| x.name == name).map(|x| x.value.clone());
-    // Soft iron: the element that moved most.
-    let mut worst: Option<(String, f64, f64, Option<f64>)> = None;
-    for x in qb {
-        let (
-            QuantityValue::Number {
-                value: vb,
-                sigma: sb,
-            },
-            Some(QuantityValue::Number {
-                value: va,
-                sigma: sa,
-            }),
-        ) = (&x.value, find(qa, &x.name))
-        else {
-            continue;
-        };
-        let delta = vb - va;
-        if let Some(elem) = x.name.strip_prefix("soft_iron_") {
-            if worst
-                .as_ref()
-                .map_or(true, |w| delta.abs() > (w.2 - w.1).abs())
-            {
-                worst = Some((elem.to_string(), va, *vb, combine(sa, *sb)));
-            }
-            continue;
-        }
-        let sigma = combine(sa, *sb);
-        out.push(change(
-            &x.name,
-            &x.unit,
-            va.into(),
-            (*vb).into(),
-            Some(delta),
-            sigma,
-            judge(delta, sigma, rules),
-            None,
-        ));
-    }
-    if let Some((elem, va, vb, sigma)) = worst {
-        let delta = vb - va;
-        let detail = Some(format!("element W[{}][{}]", &elem[..1], &elem[1..]));
-        out.push(change(
-            "soft_iron_max_element",
-            "1",
-            va.into(),
-            vb.into(),
-            Some(delta),
-            sigma,
-            judge(delta, sigma, rules),
-            detail,
-        ));
-    }
-    // Rod verdicts: every rod named on either side.
-    let mut rods: Vec<&str> = Vec::new();
-    for q in qa.iter().chain(qb) {
-        if matches!(q.value, QuantityValue::Verdict(_)) && !rods.contains(&q.name.as_str()) {
-            rods.push(&q.name);
-        }
-    }
-    for name in rods {
-        let word = |v: Option<QuantityValue>| match v {
-            Some(QuantityValue::Verdict(s)) => Value::String(s),
-            _ => Value::Null,
-        };
-        let (from, to) = (word(find(qa, name)), word(find(qb, name)));
-        let flag = if from == to {
-            Flag::Unchanged
-        } else {
-            Flag::VerdictChanged
-        };
-        out.push(change(name, "", from, to, None, None, flag, None));
-    }
-    // Overall verdict.
-    let pass_name = format!("{}_pass", b.kind);
-    if let (Some(QuantityValue::Pass(pa)), Some(QuantityValue::Pass(pb))) =
-        (find(qa, &pass_name), find(qb, &pass_name))
-    {
-        let flag = match (pa, pb) {
-            (true, false) => Flag::LimitCrossed,
-            (false, true) => Flag::LimitCleared,
-            _ => Flag::Unchanged,
-        };
-        out.push(change(
-            &pass_name,
-            "",
-            pa.into(),
-            pb.into(),
-            None,
-            None,
-            flag,
-            None,
-        ));
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::ledger::quantity::Quantity;
     use approx::assert_relative_eq;
     use serde_json::json;
 

@@ -15,6 +15,7 @@
 //!   ([`Recorded::AlreadyThere`]);
 //! - the schema carries a version and migrates forward on open; a newer one is refused.
 
+mod compare;
 mod error;
 pub mod export;
 mod files;

@@ -80,12 +80,18 @@ fn section_html(s: &Section, out: &mut String) {
         "<section class=\"check\" id=\"{}\"><h2>{} {}</h2>",
         escape(&s.kind),
         escape(&s.title),
-        badge(s.verdict)
+        // What a run assumed has no verdict of its own.
+        if s.kind == super::sections::assumptions::KIND {
+            String::new()
+        } else {
+            badge(s.verdict)
+        }
     );
     if !s.figures_of_merit.is_empty() {
         out.push_str("<dl class=\"merit\">");
         for (k, v) in &s.figures_of_merit {
-            let _ = write!(out, "<dt>{}</dt><dd>{}</dd>", escape(k), escape(v));
+            let v = super::model::drop_negative_zero(v);
+            let _ = write!(out, "<dt>{}</dt><dd>{}</dd>", escape(k), escape(&v));
         }
         out.push_str("</dl>\n");
     }
@@ -108,7 +114,8 @@ fn section_html(s: &Section, out: &mut String) {
                     Tone::Warn => " class=\"warn\"",
                     Tone::Bad => " class=\"bad\"",
                 };
-                let _ = write!(out, "<td{class}>{}</td>", escape(&c.text));
+                let text = super::model::drop_negative_zero(&c.text);
+                let _ = write!(out, "<td{class}>{}</td>", escape(&text));
             }
             out.push_str("</tr>");
         }

@@ -5,21 +5,19 @@
 //! `report.html` (self-contained), `result.json` and each plot as its own SVG.
 
 pub mod atomic;
-pub mod flight_params;
+pub mod flight;
 pub mod html;
 pub mod model;
 pub mod plot;
-pub mod polarity_params;
 pub mod sections;
 pub mod terminal;
 pub mod writer;
 
 use std::path::{Path, PathBuf};
 
+pub use flight::{FlightParams, FlightParamsWriter, FlightSources, ParamsPaths};
 pub use model::{Cell, Figure, InputFile, RunReport, Section, Table, Tone, Verdict};
-pub use writer::{
-    FlightParamsWriter, HtmlWriter, JsonWriter, ParamsSource, ReportWriter, TerminalWriter, Written,
-};
+pub use writer::{HtmlWriter, JsonWriter, ReportWriter, TerminalWriter, Written};
 
 use crate::Error;
 

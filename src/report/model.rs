@@ -145,3 +145,46 @@ pub const CAUTIONS: [&str; 5] = [
     "Follow the facility's procedures and the responsible engineer's sign-off.",
     "magproof informs a decision; it does not replace the project's verification authority.",
 ];
+
+/// `text` with the minus sign dropped from every number that reads as zero (`-0.0000`,
+/// `-0.00e-5` → `0.0000`, `0.00e-5`): a value rounded to zero has no sign to show.
+/// A minus after a letter or digit (a name like `x-0`) is kept.
+pub fn drop_negative_zero(text: &str) -> String {
+    let chars: Vec<char> = text.chars().collect();
+    let mut out = String::with_capacity(text.len());
+    for (i, &c) in chars.iter().enumerate() {
+        if c == '-' && negative_zero_at(&chars, i) {
+            continue;
+        }
+        out.push(c);
+    }
+    out
+}
+
+/// Whether `chars[i]` (a `-`) starts a number whose digits are all zero.
+fn negative_zero_at(chars: &[char], i: usize) -> bool {
+    if i > 0 && (chars[i - 1].is_alphanumeric() || chars[i - 1] == '.') {
+        return false;
+    }
+    let mut j = i + 1;
+    let mut digits = 0;
+    while j < chars.len() && (chars[j] == '0' || chars[j] == '.') {
+        digits += usize::from(chars[j] == '0');
+        j += 1;
+    }
+    digits > 0 && !(j < chars.len() && chars[j].is_ascii_digit())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::drop_negative_zero as d;
+
+    #[test]
+    fn a_number_rounded_to_zero_loses_its_sign_and_nothing_else_does() {
+        assert_eq!(d("-0.0000 nT"), "0.0000 nT");
+        assert_eq!(d("(-0.00 ± 0.01)e-3"), "(0.00 ± 0.01)e-3");
+        assert_eq!(d("-0.0001 nT, -0, -0."), "-0.0001 nT, 0, 0.");
+        assert_eq!(d("x-0 and -10.0 and 1e-0"), "x-0 and -10.0 and 1e-0");
+        assert_eq!(d("Δ -0.000 A·m²"), "Δ 0.000 A·m²");
+    }
+}

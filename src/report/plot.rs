@@ -46,6 +46,8 @@ pub struct Series {
     pub mark: Mark,
     /// Index into [`PALETTE`].
     pub color: usize,
+    /// 1σ of each point's y, drawn as vertical error bars (empty: none).
+    pub sigma: Vec<f64>,
 }
 
 impl Series {
@@ -56,6 +58,7 @@ impl Series {
             points,
             mark: Mark::Points,
             color,
+            sigma: Vec::new(),
         }
     }
 
@@ -66,7 +69,14 @@ impl Series {
             points,
             mark: Mark::Line,
             color,
+            sigma: Vec::new(),
         }
+    }
+
+    /// The same series with a 1σ error bar on each point's y (same unit as y).
+    pub fn with_sigma(mut self, sigma: Vec<f64>) -> Self {
+        self.sigma = sigma;
+        self
     }
 
     /// A dashed line.
@@ -76,6 +86,7 @@ impl Series {
             points,
             mark: Mark::Dashed,
             color,
+            sigma: Vec::new(),
         }
     }
 }
@@ -99,6 +110,8 @@ pub struct XyPlot {
     pub y_range: Option<(f64, f64)>,
     /// Size in pixels.
     pub size: (u32, u32),
+    /// Names shown instead of the numbers 1, 2, … on the x axis (builds); empty: numbers.
+    pub x_names: Vec<String>,
 }
 
 impl XyPlot {
@@ -113,6 +126,7 @@ impl XyPlot {
             x_range: None,
             y_range: None,
             size: (560, 380),
+            x_names: Vec::new(),
         }
     }
 
@@ -175,6 +189,19 @@ fn tick(v: f64, span: f64) -> String {
     }
 }
 
+/// An x tick: the name of the build at a whole number 1, 2, … when names are given
+/// (nothing between them), else the number.
+fn x_tick(v: f64, span: f64, names: &[String]) -> String {
+    if names.is_empty() {
+        return tick(v, span);
+    }
+    let k = v.round();
+    if (v - k).abs() > 1e-6 || k < 1.0 {
+        return String::new();
+    }
+    names.get(k as usize - 1).cloned().unwrap_or_default()
+}
+
 /// The chart an x–y plot is drawn on: SVG, linear axes in data units.
 type XyChart<'a, 'b> =
     ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
@@ -195,9 +222,13 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
             .map_err(plot_err)?;
         chart
             .configure_mesh()
-            .x_labels(7)
+            .x_labels(if plot.x_names.is_empty() {
+                7
+            } else {
+                plot.x_names.len() + 1
+            })
             .y_labels(7)
-            .x_label_formatter(&|v| tick(*v, x1 - x0))
+            .x_label_formatter(&|v| x_tick(*v, x1 - x0, &plot.x_names))
             .y_label_formatter(&|v| tick(*v, y1 - y0))
             .x_desc(&plot.x_label)
             .y_desc(&plot.y_label)
@@ -215,20 +246,54 @@ pub fn draw_xy(plot: &XyPlot) -> Result<String, Error> {
         root.present().map_err(plot_err)?;
     }
     // Labels may hold text of an old ledger: nothing XML forbids reaches the file.
-    Ok(crate::text::xml_clean(svg))
+    Ok(with_axis_labels(
+        crate::text::xml_clean(svg),
+        &plot.x_label,
+        &plot.y_label,
+    ))
+}
+
+/// The SVG with its axis labels also as attributes of the root element
+/// (`data-x-label`, `data-y-label`), so that a check of a report can read them.
+fn with_axis_labels(svg: String, x_label: &str, y_label: &str) -> String {
+    let attr = |s: &str| {
+        crate::text::xml_clean(
+            s.replace('&', "&amp;")
+                .replace('"', "&quot;")
+                .replace('<', "&lt;"),
+        )
+    };
+    match svg.find("<svg") {
+        Some(i) => format!(
+            "{}<svg data-x-label=\"{}\" data-y-label=\"{}\"{}",
+            &svg[..i],
+            attr(x_label),
+            attr(y_label),
+            &svg[i + 4..]
+        ),
+        None => svg,
+    }
 }
 
 /// The x and y ranges in data units: fixed, else the data's, else 0–1; widened for an
 /// equal aspect.
-fn xy_ranges(plot: &XyPlot) -> ((f64, f64), (f64, f64)) {
+pub(crate) fn xy_ranges(plot: &XyPlot) -> ((f64, f64), (f64, f64)) {
     let xs = plot
         .series
         .iter()
         .flat_map(|s| s.points.iter().map(|p| p.0));
-    let ys = plot
-        .series
-        .iter()
-        .flat_map(|s| s.points.iter().map(|p| p.1));
+    // Error bars are part of the data's extent.
+    let ys = plot.series.iter().flat_map(|s| {
+        s.points.iter().enumerate().flat_map(move |(k, p)| {
+            let e = s
+                .sigma
+                .get(k)
+                .copied()
+                .filter(|e| e.is_finite())
+                .unwrap_or(0.0);
+            [p.1 - e, p.1 + e]
+        })
+    });
     let x = plot
         .x_range
         .or_else(|| finite_range(xs))
@@ -264,6 +329,18 @@ fn equal_aspect_ranges(
 fn draw_one_series<'a, 'b: 'a>(chart: &mut XyChart<'a, 'b>, s: &Series) -> Result<(), Error> {
     let color = PALETTE[s.color % PALETTE.len()];
     let legend_color = color;
+    // ±1σ bars (few points: a trend across builds, so no thinning).
+    chart
+        .draw_series(
+            s.points
+                .iter()
+                .zip(&s.sigma)
+                .filter(|((x, y), e)| x.is_finite() && y.is_finite() && e.is_finite())
+                .map(|(&(x, y), &e)| {
+                    ErrorBar::new_vertical(x, y - e, y, y + e, color.stroke_width(1), 8)
+                }),
+        )
+        .map_err(plot_err)?;
     let anno = match s.mark {
         Mark::Points => chart
             .draw_series(thin(&s.points).map(|p| Circle::new(p, 2, color.mix(0.55).filled())))
@@ -333,7 +410,7 @@ pub fn draw_histogram(
             .x_label_formatter(&|v| tick(*v, hi - lo))
             .y_label_formatter(&|v| tick(*v, top))
             .x_desc(x_label)
-            .y_desc("samples")
+            .y_desc(HISTOGRAM_Y)
             .light_line_style(RGBColor(0xee, 0xee, 0xee))
             .label_style(("sans-serif", 12))
             .draw()
@@ -348,8 +425,15 @@ pub fn draw_histogram(
         root.present().map_err(plot_err)?;
     }
     // Labels may hold text of an old ledger: nothing XML forbids reaches the file.
-    Ok(crate::text::xml_clean(svg))
+    Ok(with_axis_labels(
+        crate::text::xml_clean(svg),
+        x_label,
+        HISTOGRAM_Y,
+    ))
 }
+
+/// The y axis of a histogram.
+const HISTOGRAM_Y: &str = "samples [count per bin]";
 
 /// Points of an ellipse `centre + a·cos θ + b·sin θ` (for fitted-shape overlays).
 pub fn ellipse_points(

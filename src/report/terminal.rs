@@ -223,11 +223,17 @@ pub fn render(report: &RunReport, style: &Style) -> String {
     } else {
         let _ = writeln!(out, "{}", report.title);
     }
-    for s in &report.sections {
+    // The summary leaves the echoed assumptions to the HTML report.
+    let shown: Vec<&Section> = report
+        .sections
+        .iter()
+        .filter(|s| s.kind != super::sections::assumptions::KIND)
+        .collect();
+    for s in &shown {
         out.push('\n');
         out.push_str(&render_section(s, style));
     }
-    if report.sections.len() > 1 {
+    if shown.len() > 1 {
         let _ = writeln!(out, "\nOverall {}", style.verdict(report.verdict()));
     }
     out
@@ -244,7 +250,12 @@ fn printable_section(s: &Section) -> Section {
         figures_of_merit: s
             .figures_of_merit
             .iter()
-            .map(|(k, v)| (printable(k), printable(v)))
+            .map(|(k, v)| {
+                (
+                    printable(k),
+                    printable(&super::model::drop_negative_zero(v)),
+                )
+            })
             .collect(),
         tables: s
             .tables
@@ -258,7 +269,7 @@ fn printable_section(s: &Section) -> Section {
                     .map(|r| {
                         r.iter()
                             .map(|c| super::model::Cell {
-                                text: printable(&c.text),
+                                text: printable(&super::model::drop_negative_zero(&c.text)),
                                 tone: c.tone,
                             })
                             .collect()

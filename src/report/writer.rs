@@ -7,13 +7,7 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use super::flight_params::{write_flight_params, ParamsFormat};
-use super::polarity_params::{
-    write_polarity_params, ParamsFormat as PolarityFormat, PolarityParams,
-};
 use super::{terminal, write_report_dir, RunReport};
-use crate::check::calibrate::CalibrationResult;
-use crate::check::polarity::PolarityResult;
 use crate::Error;
 
 /// Where a writer's output went, for the command to say.
@@ -23,6 +17,8 @@ pub enum Written {
     Stdout,
     /// Into this file or folder.
     Path(PathBuf),
+    /// Into these files.
+    Paths(Vec<PathBuf>),
 }
 
 /// One output format.
@@ -115,67 +111,6 @@ impl ReportWriter for HtmlWriter {
     }
     fn write(&self, run: &RunReport, _stdout: &mut dyn Write) -> Result<Written, Error> {
         Ok(Written::Path(write_report_dir(&self.dir, self.force, run)?))
-    }
-}
-
-/// Which result flight-software parameters come from.
-#[derive(Debug, Clone, Copy)]
-pub enum ParamsSource<'a> {
-    /// A calibration: hard iron and W.
-    Calibration(&'a CalibrationResult),
-    /// A polarity check: the coupling matrix.
-    Polarity(&'a PolarityResult),
-}
-
-/// Flight-software parameters: FILE.json or FILE.h.
-#[derive(Debug, Clone)]
-pub struct FlightParamsWriter<'a> {
-    /// The result they come from.
-    pub source: ParamsSource<'a>,
-    /// FILE.json or FILE.h.
-    pub path: PathBuf,
-    /// Replace an existing file.
-    pub force: bool,
-}
-
-impl ReportWriter for FlightParamsWriter<'_> {
-    fn name(&self) -> &str {
-        "flight parameters"
-    }
-    fn prepare(&self) -> Result<(), Error> {
-        let verdict = match self.source {
-            ParamsSource::Calibration(r) => {
-                ParamsFormat::for_path(&self.path)?;
-                r.verdict
-            }
-            ParamsSource::Polarity(r) => {
-                // Render once now: what rendering refuses is refused before recording.
-                PolarityParams::from_result(r).render(PolarityFormat::from_path(&self.path))?;
-                r.verdict
-            }
-        };
-        if verdict != crate::check::Verdict::Pass && !self.force {
-            return Err(Error::Usage(format!(
-                "{}: flight parameters are written only for a passing verdict, and this \
-                 one is {verdict}; replacing that rule must be asked for (the file then \
-                 says the verdict)",
-                self.path.display()
-            )));
-        }
-        check_destination(&self.path, self.force, "parameter file")
-    }
-    fn write(&self, _run: &RunReport, _stdout: &mut dyn Write) -> Result<Written, Error> {
-        match self.source {
-            ParamsSource::Calibration(r) => write_flight_params(r, &self.path, self.force)?,
-            ParamsSource::Polarity(r) => write_polarity_params(r, &self.path, self.force)?,
-        }
-        Ok(Written::Path(self.path.clone()))
-    }
-    fn reads_sections(&self) -> bool {
-        false
-    }
-    fn reads_inputs(&self) -> bool {
-        false
     }
 }
 

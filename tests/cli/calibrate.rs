@@ -302,18 +302,18 @@ fn params_out_writes_json_and_c_header_and_refuses_other_names() {
         .assert()
         .code(0);
     let v: Value = serde_json::from_str(&std::fs::read_to_string(&js).unwrap()).unwrap();
-    assert_eq!(v["frame_in"], "sensor");
-    assert_eq!(v["soft_iron"].as_array().unwrap().len(), 3);
+    let cal = &v["magnetometers"][0]["calibration"];
+    assert_eq!(cal["soft_iron"].as_array().unwrap().len(), 3);
+    // No plan: the mounting is assumed, and the file says so.
+    assert_eq!(v["magnetometers"][0]["sensor_to_body_source"], "assumed");
+    // The header is written beside the JSON, from the same numbers.
     let h = dir.path().join("magcal.h");
-    dir.magproof()
-        .args(["calibrate", "--reference-nt", "49000", "--params-out"])
-        .arg(&h)
-        .arg(data("calib_tumble.csv"))
-        .assert()
-        .code(0);
     let text = std::fs::read_to_string(&h).unwrap();
-    assert!(text.contains("MAGCAL_HARD_IRON_NT[3]") && text.contains("nT"));
-    assert!(text.contains("MAGCAL_SOFT_IRON[3][3]"));
+    assert!(text.contains("MAGPROOF_MAG_HARD_IRON_NT[1][3]") && text.contains("nT"));
+    assert!(text.contains("MAGPROOF_MAG_SOFT_IRON[1][3][3]"));
+    assert!(text.contains("MAGPROOF_MAG_SOFT_IRON_F[1][3][3]"));
+    let hx = cal["hard_iron_nt"][0].as_f64().unwrap();
+    assert!(text.contains(&format!("{{ {{ {hx:e},")), "{text}");
     // Existing file without --force is refused.
     dir.magproof()
         .args(["calibrate", "--reference-nt", "49000", "--params-out"])

@@ -86,6 +86,15 @@ fn demo_tells_the_three_build_story_and_exits_0() {
     assert_eq!(flag("dipole_magnitude_am2", "B2", "B3"), "significant");
     assert_eq!(flag("dipole_magnitude_am2", "B1", "B2"), "within-noise");
 
+    // Flight parameters for the passing builds only, where the demo says.
+    let fp = out.join("flight-params");
+    assert!(!fp.join("tmr-0207-b1").exists());
+    for b in ["tmr-0207-b2", "tmr-0207-b3"] {
+        let j = json_file(&fp.join(b).join("magproof-flight.json"));
+        assert_eq!(j["verdict_passed"], true, "{b}");
+        assert!(fp.join(b).join("magproof-flight.h").is_file(), "{b}");
+    }
+
     // What the user sees: the summary, the flagged change and where things are.
     for part in [
         "TMR-0207 B1: FAIL",
@@ -95,6 +104,8 @@ fn demo_tells_the_three_build_story_and_exits_0() {
         "significant !",
         "closeout report",
         "ledger.db",
+        "flight parameters       none for tmr-0207-b1: its verdict did not pass",
+        "flight-params/tmr-0207-b3/magproof-flight.h",
     ] {
         assert!(
             stdout(&run).contains(part),

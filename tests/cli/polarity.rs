@@ -119,23 +119,28 @@ fn table_fits_eighty_columns_and_uses_words() {
 fn params_out_writes_json_and_c_header() {
     let dir = TestDir::new();
     let (csv, plan) = simulated(&dir, &PolarityConfig::default());
-    for name in ["coupling.json", "coupling.h"] {
-        dir.magproof()
-            .args(["polarity", "--json", "--plan"])
-            .arg(&plan)
-            .arg(&csv)
-            .arg("--params-out")
-            .arg(dir.join(name))
-            .assert()
-            .code(0);
-    }
+    dir.magproof()
+        .args(["polarity", "--json", "--plan"])
+        .arg(&plan)
+        .arg(&csv)
+        .arg("--params-out")
+        .arg(dir.join("coupling.h"))
+        .assert()
+        .code(0);
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(dir.join("coupling.json")).unwrap()).unwrap();
-    let m = json["coupling_nt_per_command"].as_array().unwrap();
+    // One row per rod, three sensor axes each; no calibration in a polarity run.
+    let mag = &json["magnetometers"][0];
+    let m = mag["rod_coupling_nt_per_command"].as_array().unwrap();
     assert_eq!(m.len(), 3);
     assert_eq!(m[0].as_array().unwrap().len(), 3);
+    assert!(mag["calibration"].is_null());
     let header = std::fs::read_to_string(dir.join("coupling.h")).unwrap();
-    assert!(header.contains("MAGPROOF_ROD_COUPLING_NT_PER_CMD[3][3]"));
+    assert!(header.contains("MAGPROOF_MAG_ROD_COUPLING_NT_PER_CMD[1][3][3]"));
+    assert!(
+        header.contains("MAGPROOF_MAG_HARD_IRON_NT are not defined")
+            || header.contains("No calibration")
+    );
     // An existing file is not replaced without --force.
     let out = dir
         .magproof()

@@ -171,7 +171,7 @@ fn flight_parameters_of_a_failing_calibration_need_force_and_say_so() {
     let out = args(true);
     assert_code(&out, 1);
     let text = std::fs::read_to_string(&h).unwrap();
-    assert!(text.contains("#define MAGCAL_VERDICT_PASSED 0"), "{text}");
+    assert!(text.contains("#define MAGPROOF_VERDICT_PASSED 0"), "{text}");
     assert!(text.contains("verdict is FAIL"), "{text}");
 }
 

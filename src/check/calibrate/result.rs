@@ -47,6 +47,27 @@ pub struct TemperatureFit {
     pub slope_sigma_nt_per_c: [f64; 3],
 }
 
+impl TemperatureFit {
+    /// From a fitted bias slope and its 1σ (sensor frame, nT/°C) and the temperature
+    /// column (°C per used sample, and its span, °C); the reference is the column's mean.
+    /// `None` unless all three are there.
+    pub(super) fn from_slope(
+        slope_nt_per_c: Option<Vector3<f64>>,
+        slope_sigma_nt_per_c: Option<Vector3<f64>>,
+        temp: Option<(&[f64], f64)>,
+    ) -> Option<Self> {
+        match (slope_nt_per_c, slope_sigma_nt_per_c, temp) {
+            (Some(k), Some(ks), Some((t, span))) => Some(TemperatureFit {
+                span_c: span,
+                reference_c: t.iter().sum::<f64>() / t.len() as f64,
+                slope_nt_per_c: k.into(),
+                slope_sigma_nt_per_c: ks.into(),
+            }),
+            _ => None,
+        }
+    }
+}
+
 /// Cage-only details.
 #[derive(Debug, Clone, Serialize)]
 pub struct CageDetails {

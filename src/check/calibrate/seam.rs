@@ -29,6 +29,10 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 impl CheckResult for CalibrationResult {
     crate::result_basics!(KIND);
 
+    fn flight_part(&self) -> Option<crate::check::FlightPart<'_>> {
+        Some(crate::check::FlightPart::Calibration(self))
+    }
+
     /// `hard_iron_{x,y,z}_nt`, `hard_iron_magnitude_nt`, `soft_iron_{r}{c}`,
     /// `calibration_residual_rms_nt`, each with its 1σ.
     fn quantities(&self) -> Vec<Quantity> {

@@ -25,21 +25,20 @@
 //! of the log listed in the plan.
 
 use crate::fit::FitError;
-use nalgebra::{Matrix3, Vector3};
+use nalgebra::Vector3;
 
 use crate::check::outcome::{Gate, GateRole, Verdict};
 use crate::check::CheckRequest;
-use crate::fit::dipole::{
-    fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit, DipoleSample,
-};
-use crate::log::{LogError, Plan, Shown, SweepLog};
-use crate::physics::frames::rotation_z;
+use crate::fit::dipole::{fit_moment, fit_moment_and_offset, model_field_nt, DipoleFit};
+use crate::log::{Plan, SweepLog};
 use crate::screen::saturation::without_rows;
 use crate::Error;
 
 mod background;
+mod layout;
 mod orbit;
 mod result;
+mod rows;
 pub mod seam;
 mod uncertainty;
 mod warning;
@@ -52,6 +51,8 @@ pub use orbit::{orbit_field, ORBIT_MODEL};
 pub use result::{DipoleMethod, DipolePoint, DipoleResult, RodFraction};
 pub use warning::DipoleWarning;
 
+use layout::Layout;
+use rows::{ArticleRows, Backgrounds};
 use uncertainty::{background_covariance, hidden_component};
 
 /// Orbit altitude used when none is given, km.
@@ -98,14 +99,6 @@ impl Default for DipoleOptions {
 /// plan (`[dipole_test]`, `[limits] residual_dipole_max_am2`) and [`DipoleOptions`].
 pub type DipoleRequest<'a> = CheckRequest<'a, DipoleOptions>;
 
-fn missing_column(log: &SweepLog, column: &str, why: &str) -> Error {
-    Error::Log(LogError::MissingColumn {
-        path: Shown(log.path.clone()),
-        column: column.into(),
-        why: why.into(),
-    })
-}
-
 /// Run the dipole check. Saturated rows are dropped first and counted in
 /// `samples_saturated`.
 pub fn run_dipole(req: &DipoleRequest) -> Result<DipoleResult, Error> {
@@ -131,211 +124,78 @@ pub fn run_dipole(req: &DipoleRequest) -> Result<DipoleResult, Error> {
     Ok(res)
 }
 
+/// The check on a log without saturated rows: the layout, the backgrounds, the
+/// article-present rows minus their background, the fit, then the result.
 fn evaluate_unsaturated(
     log: &SweepLog,
     plan: &Plan,
-    req: &DipoleOptions,
+    opts: &DipoleOptions,
 ) -> Result<DipoleResult, Error> {
-    let inclination_deg = req.inclination_deg.unwrap_or(DEFAULT_INCLINATION_DEG);
-    validate_orbit(req.altitude_km, inclination_deg)?;
-    let test = plan
-        .dipole_test
-        .as_ref()
-        .filter(|t| !t.mounts.is_empty())
-        .ok_or_else(|| {
-            plan.missing(
-                "dipole_test",
-                "the dipole check needs [[dipole_test.mount]] entries giving body_to_table",
-            )
-        })?;
-    let b = log.require_field("the dipole check fits the measured field")?;
-    let mounts = log.mount.as_deref().ok_or_else(|| {
-        missing_column(
-            log,
-            "mount",
-            "it tells article-present rows from article-absent (background) rows",
-        )
-    })?;
-    let (method, angle) = match (&log.angle_rad, &log.probe_m) {
-        (Some(a), _) => (DipoleMethod::Turntable, Some(a.as_slice())),
-        (None, Some(_)) => (DipoleMethod::Static, None),
-        (None, None) => {
-            return Err(missing_column(
-                log,
-                "angle",
-                "a turntable test needs the table angle (or, for a static test, give the probe position columns px, py, pz)",
-            ))
-        }
-    };
-    let fixed_probe =
-        match (&log.probe_m, test.probe_position_m) {
-            (Some(_), _) => None,
-            (None, Some(p)) => Some(p),
-            (None, None) => return Err(plan
-                .invalid(
-                    "dipole_test.probe_position_m",
-                    "the log has no px, py, pz columns, so the plan must give the probe position",
-                )
-                .into()),
-        };
-    // Map the log's mount labels to the plan's rotations; refuse unknown labels.
-    let mut label_rot: Vec<Matrix3<f64>> = Vec::with_capacity(log.mount_labels.len());
-    for label in &log.mount_labels {
-        let m = test.mounts.iter().find(|m| &m.label == label);
-        let Some(m) = m else {
-            let line = log
-                .lines
-                .iter()
-                .zip(mounts)
-                .find(|(_, k)| k.and_then(|k| log.mount_labels.get(k as usize)) == Some(label))
-                .map(|(l, _)| l)
-                .unwrap_or(0);
-            let known: Vec<&str> = test.mounts.iter().map(|m| m.label.as_str()).collect();
-            return Err(Error::Usage(format!(
-                "{}:{line}: column \"mount\": \"{label}\" is not a mount of the plan {} (known: {})",
-                log.path.display(),
-                plan.path.display(),
-                known.join(", ")
-            )));
-        };
-        label_rot.push(m.body_to_table);
-    }
-
+    let inclination_deg = opts.inclination_deg.unwrap_or(DEFAULT_INCLINATION_DEG);
+    validate_orbit(opts.altitude_km, inclination_deg)?;
+    let layout = Layout::read(log, plan)?;
     let mut warnings = Vec::new();
-    if req.inclination_deg.is_none() {
+    if opts.inclination_deg.is_none() {
         warnings.push(DipoleWarning::DefaultInclination);
     }
-    let row_time: Vec<f64> = match &log.t_s {
-        Some(t) => t.clone(),
-        None => {
-            warnings.push(DipoleWarning::NoTimeColumn);
-            (0..log.len()).map(|i| i as f64).collect()
-        }
-    };
-    let bg = estimate_background(&row_time, mounts, b, &log.lines).ok_or_else(|| {
-        Error::Degenerate(format!(
-            "{}: no background segment: every row has a mount label, so the ambient field \
-             cannot be told from the article's; record rows with the article away (mount \
-             empty or \"none\") before and after",
-            log.path.display()
-        ))
-    })?;
-    if bg.segments.len() == 1 {
-        warnings.push(DipoleWarning::SingleBackgroundSegment);
-    }
-
-    // Static map: each probe position's own background where it has one.
-    let local = match (method, &log.probe_m) {
-        (DipoleMethod::Static, Some(p)) => {
-            estimate_position_backgrounds(&row_time, mounts, b, p, &log.lines)
-        }
-        _ => Vec::new(),
-    };
-    let mut backgrounds: Vec<&Background> = vec![&bg];
-    backgrounds.extend(local.iter().map(|(_, g)| g));
-    let mut bg_of_sample: Vec<usize> = Vec::with_capacity(log.len());
-    let mut uniform_rows = 0;
-
-    let mut samples = Vec::with_capacity(log.len());
-    let mut points = Vec::with_capacity(log.len());
-    let (mut before, mut after) = (0, 0);
-    for i in 0..log.len() {
-        let (Some(&Some(k)), Some(&t), Some(line)) =
-            (mounts.get(i), row_time.get(i), log.lines.get(i))
-        else {
-            continue;
-        };
-        let rot0 = label_rot
-            .get(k as usize)
-            .copied()
-            .ok_or_else(|| Error::Internal(format!("mount index {k} outside the label list")))?;
-        let angle_rad = angle.and_then(|a| a.get(i).copied()).unwrap_or(0.0);
-        let probe_m = match (fixed_probe, &log.probe_m) {
-            (Some(p), _) => p,
-            (None, Some(p)) => match (p[0].get(i), p[1].get(i), p[2].get(i)) {
-                (Some(&x), Some(&y), Some(&z)) => Vector3::new(x, y, z),
-                _ => return Err(Error::Internal(format!("row {i} has no probe position"))),
-            },
-            (None, None) => return Err(Error::Internal("no probe position".into())),
-        };
-        let meas = log
-            .field_at(i)
-            .ok_or_else(|| Error::Internal(format!("row {i} has no field")))?;
-        let which = match method {
-            DipoleMethod::Static => {
-                let key = position_key_of(&probe_m);
-                match local.iter().position(|(k, _)| *k == key) {
-                    Some(j) => j + 1,
-                    None => {
-                        uniform_rows += 1;
-                        0
-                    }
-                }
-            }
-            DipoleMethod::Turntable => 0,
-        };
-        let this_bg = backgrounds.get(which).copied().unwrap_or(&bg);
-        let (t_first, t_last) = this_bg.span_s();
-        if t < t_first {
-            before += 1;
-        } else if t > t_last {
-            after += 1;
-        }
-        bg_of_sample.push(which);
-        let measured_nt = meas - this_bg.at(t);
-        samples.push(DipoleSample {
-            probe_m,
-            body_to_table: rotation_z(angle_rad) * rot0,
-            b_nt: measured_nt,
-        });
-        points.push(DipolePoint {
-            t_s: t,
-            angle_rad,
-            mount: k as usize,
-            probe_m,
-            measured_nt,
-            model_nt: Vector3::zeros(),
-            line,
-        });
-    }
-    if before + after > 0 {
-        warnings.push(DipoleWarning::OutsideBackground { before, after });
-    }
-    if uniform_rows > 0 {
-        warnings.push(DipoleWarning::UniformAmbientAssumed { rows: uniform_rows });
-    }
-
-    let fit = match req.position {
-        DipolePosition::AtTableOrigin => fit_moment(&samples, &Vector3::zeros()),
-        DipolePosition::Fitted => fit_moment_and_offset(&samples),
-    }
-    .map_err(|e| fit_error(log, e))?;
-    let mut fit = fit;
-    fit.moment_cov_am2sq += background_covariance(
-        &samples,
-        &points,
-        &backgrounds,
-        &bg_of_sample,
-        &fit.offset_body_m,
-    );
-    if let Some(w) = hidden_component(&samples, &points, &fit.offset_body_m) {
+    let row_time = row_times_s(log, &mut warnings);
+    let bgs = Backgrounds::estimate(&layout, &row_time, &mut warnings)?;
+    let mut rows = rows::article_rows(&layout, &row_time, &bgs, &mut warnings)?;
+    let fit = fit_dipole(log, opts.position, &rows, &bgs)?;
+    if let Some(w) = hidden_component(&rows.samples, &rows.points, &fit.offset_body_m) {
         warnings.push(w);
     }
-    for (p, s) in points.iter_mut().zip(&samples) {
+    for (p, s) in rows.points.iter_mut().zip(&rows.samples) {
         p.model_nt = model_field_nt(s, &fit.moment_body_am2, &fit.offset_body_m)
             .unwrap_or_else(Vector3::zeros);
     }
     assemble(
         plan,
-        req,
-        method,
-        inclination_deg,
-        fit,
-        bg,
-        points,
-        warnings,
+        opts,
+        Evaluated {
+            method: layout.method,
+            inclination_deg,
+            fit,
+            bg: bgs.overall,
+            points: rows.points,
+            warnings,
+        },
         log,
     )
+}
+
+/// Each row's time, s: the log's `t`, else the row index with a warning.
+fn row_times_s(log: &SweepLog, warnings: &mut Vec<DipoleWarning>) -> Vec<f64> {
+    match &log.t_s {
+        Some(t) => t.clone(),
+        None => {
+            warnings.push(DipoleWarning::NoTimeColumn);
+            (0..log.len()).map(|i| i as f64).collect()
+        }
+    }
+}
+
+/// The moment (at the table origin, or with its position) fitted to the article rows,
+/// its covariance widened by the backgrounds' uncertainty.
+fn fit_dipole(
+    log: &SweepLog,
+    position: DipolePosition,
+    rows: &ArticleRows,
+    bgs: &Backgrounds,
+) -> Result<DipoleFit, Error> {
+    let mut fit = match position {
+        DipolePosition::AtTableOrigin => fit_moment(&rows.samples, &Vector3::zeros()),
+        DipolePosition::Fitted => fit_moment_and_offset(&rows.samples),
+    }
+    .map_err(|e| fit_error(log, e))?;
+    fit.moment_cov_am2sq += background_covariance(
+        &rows.samples,
+        &rows.points,
+        &bgs.list(),
+        &rows.bg_of_sample,
+        &fit.offset_body_m,
+    );
+    Ok(fit)
 }
 
 fn fit_error(log: &SweepLog, e: FitError) -> Error {
@@ -362,54 +222,47 @@ fn validate_orbit(altitude_km: f64, inclination_deg: f64) -> Result<(), Error> {
     Ok(())
 }
 
-#[allow(clippy::too_many_arguments)]
+/// What the evaluation found, for [`assemble`].
+struct Evaluated {
+    method: DipoleMethod,
+    /// Orbit inclination used, deg.
+    inclination_deg: f64,
+    fit: DipoleFit,
+    /// The background of all article-absent rows.
+    bg: Background,
+    points: Vec<DipolePoint>,
+    warnings: Vec<DipoleWarning>,
+}
+
+/// The result: the moment and its σ, the gate against the plan's limit, the in-orbit
+/// field and torque (N·m), each rod's nominal dipole against the residual.
 fn assemble(
     plan: &Plan,
     req: &DipoleOptions,
-    method: DipoleMethod,
-    inclination_deg: f64,
-    fit: DipoleFit,
-    bg: Background,
-    points: Vec<DipolePoint>,
-    mut warnings: Vec<DipoleWarning>,
+    ev: Evaluated,
     log: &SweepLog,
 ) -> Result<DipoleResult, Error> {
+    let Evaluated {
+        method,
+        inclination_deg,
+        fit,
+        bg,
+        points,
+        mut warnings,
+    } = ev;
     let (mag, mag_sigma) = fit.magnitude_am2();
     let (bmax_nt, bmean_nt) = orbit_field(req.altitude_km, inclination_deg, orbit::model_date())?;
     let limit = plan.limits.residual_dipole_max_am2;
-    let gates: Vec<Gate> = limit
-        .map(|l| Gate::at_most("moment", mag, l, GateRole::Article))
-        .into_iter()
-        .collect();
+    let gates = moment_gates(limit, mag, mag_sigma, &mut warnings);
     let verdict = Verdict::from_gates(&gates);
-    let pass = verdict.pass();
-    if let Some(l) = limit {
-        if (mag - l).abs() < 2.0 * mag_sigma {
-            warnings.push(DipoleWarning::NearLimit { limit_am2: l });
-        }
-    }
-    let rods = plan
-        .rods
-        .iter()
-        .filter_map(|r| {
-            let d = r.dipole_per_command_am2?;
-            Some(RodFraction {
-                name: r.name.clone(),
-                nominal_dipole_am2: d,
-                residual_fraction: mag / d,
-                residual_fraction_sigma: mag_sigma / d,
-            })
-        })
-        .collect();
-    let sig = fit.moment_sigma_am2();
     Ok(DipoleResult {
         moment_body_am2: fit.moment_body_am2.into(),
         magnitude_am2: mag,
-        moment_sigma_am2: sig.into(),
+        moment_sigma_am2: fit.moment_sigma_am2().into(),
         residual_rms_nt: fit.residual_rms_nt,
         altitude_km: req.altitude_km,
         orbit_torque_max_n_m: mag * bmax_nt * 1e-9,
-        pass,
+        pass: verdict.pass(),
         verdict,
         gates,
         method,
@@ -423,7 +276,7 @@ fn assemble(
         orbit_torque_max_sigma_n_m: mag_sigma * bmax_nt * 1e-9,
         orbit_torque_mean_n_m: mag * bmean_nt * 1e-9,
         orbit_torque_mean_sigma_n_m: mag_sigma * bmean_nt * 1e-9,
-        rods,
+        rods: rod_fractions(plan, mag, mag_sigma),
         residual_dipole_max_am2: limit,
         samples_used: fit.samples,
         background_samples: bg.segments.iter().map(|s| s.rows).sum(),
@@ -431,18 +284,60 @@ fn assemble(
         rows_skipped: log.skipped_rows.len(),
         samples_saturated: 0,
         iterations: fit.iterations,
-        hidden_components: warnings
-            .iter()
-            .filter_map(|w| match w {
-                DipoleWarning::HiddenComponent { component, .. } => Some(component.clone()),
-                _ => None,
-            })
-            .collect(),
+        hidden_components: hidden_components(&warnings),
         warnings,
         mount_labels: log.mount_labels.clone(),
         points,
         background: bg.segments,
     })
+}
+
+/// The `moment` gate when the plan sets a limit (A·m²) on |m| = `mag` (A·m², 1σ
+/// `mag_sigma`); warns when |m| lies within 2σ of it.
+fn moment_gates(
+    limit_am2: Option<f64>,
+    mag: f64,
+    mag_sigma: f64,
+    warnings: &mut Vec<DipoleWarning>,
+) -> Vec<Gate> {
+    let gates: Vec<Gate> = limit_am2
+        .map(|l| Gate::at_most("moment", mag, l, GateRole::Article))
+        .into_iter()
+        .collect();
+    if let Some(l) = limit_am2 {
+        if (mag - l).abs() < 2.0 * mag_sigma {
+            warnings.push(DipoleWarning::NearLimit { limit_am2: l });
+        }
+    }
+    gates
+}
+
+/// The residual |m| (A·m², 1σ `mag_sigma`) as a fraction of each plan rod's nominal
+/// dipole per command, for the rods that give one.
+fn rod_fractions(plan: &Plan, mag: f64, mag_sigma: f64) -> Vec<RodFraction> {
+    plan.rods
+        .iter()
+        .filter_map(|r| {
+            let d = r.dipole_per_command_am2?;
+            Some(RodFraction {
+                name: r.name.clone(),
+                nominal_dipole_am2: d,
+                residual_fraction: mag / d,
+                residual_fraction_sigma: mag_sigma / d,
+            })
+        })
+        .collect()
+}
+
+/// The body-frame components the rotation could not see, named by the warnings.
+fn hidden_components(warnings: &[DipoleWarning]) -> Vec<String> {
+    warnings
+        .iter()
+        .filter_map(|w| match w {
+            DipoleWarning::HiddenComponent { component, .. } => Some(component.clone()),
+            _ => None,
+        })
+        .collect()
 }
 
 #[cfg(test)]

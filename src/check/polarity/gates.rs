@@ -1,6 +1,7 @@
 //! The gates behind each rod's verdict (docs/polarity.md, "Verdicts").
 
-use super::verdict::{consistency_limit_deg, RodResult, Verdict};
+use super::verdict::{consistency_limit_deg, Verdict};
+use super::RodResult;
 use crate::check::outcome::{Gate, GateRole};
 
 /// A rod's gates: `snr:<rod>` (data: the response must stand above the noise), then

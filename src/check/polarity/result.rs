@@ -3,8 +3,64 @@
 
 use serde::Serialize;
 
-use super::{PolarityWarning, RodResult, SensorChoice};
+use super::{PolarityWarning, SensorChoice, Verdict};
 use crate::check::outcome::{self, Gate};
+
+/// One rod's result; the first six keys are the stable ones of docs/polarity.md.
+#[derive(Debug, Clone, Serialize)]
+pub struct RodResult {
+    /// Rod name.
+    pub name: String,
+    /// Verdict.
+    pub verdict: Verdict,
+    /// Angle between measured and expected response, deg; null if the coupling is zero.
+    pub angle_to_expected_deg: Option<f64>,
+    /// Measured response per unit command, sensor frame (S), nT per command unit.
+    pub coupling_nt_per_command: [f64; 3],
+    /// |coupling| over its 1σ along its own direction.
+    pub snr: f64,
+    /// Dipole inferred from the coupling through the geometry over the nominal
+    /// `dipole_per_command_am2`; null without a nominal.
+    pub gain_ratio: Option<f64>,
+    /// 1σ of `gain_ratio`.
+    pub gain_ratio_sigma: Option<f64>,
+    /// False when the sensor is closer than three rod lengths (point-dipole model
+    /// doubtful; common practice); null when the plan gives no `length_m`.
+    pub gain_reliable: Option<bool>,
+    /// 1σ of the coupling per sensor axis, nT per command unit.
+    pub coupling_sigma_nt_per_command: [f64; 3],
+    /// 1σ of the angle, deg.
+    pub angle_sigma_deg: Option<f64>,
+    /// Expected field at the sensor per A·m² of this rod's positive dipole, sensor
+    /// frame (S), nT/(A·m²).
+    pub expected_nt_per_am2: [f64; 3],
+    /// Dipole inferred from the coupling: |coupling| / |expected per A·m²|, A·m² per
+    /// command unit.
+    pub dipole_per_command_am2: f64,
+    /// For `wrong-axis`: the rod whose expected direction the response matches.
+    pub matches_rod: Option<String>,
+    /// For `wrong-axis`: whether it matches that rod's direction reversed.
+    pub matches_reversed: Option<bool>,
+    /// Distance rod centre → sensor, m.
+    pub distance_m: f64,
+    /// Longest settle time over this rod's pulses, s, from command off (includes the
+    /// lag): what a magnetometer blanking window must cover. Null if none was measured.
+    pub settle_time_s: Option<f64>,
+    /// Remanent field once the rod is off after a positive pulse (the opposite after a
+    /// negative one): half the difference between the two, sensor frame, nT; fitted with
+    /// the couplings (rows before the first pulse are taken to sit at the midpoint).
+    /// Null when the rod was pulsed with one sign only.
+    pub remanent_offset_nt: Option<[f64; 3]>,
+    /// 1σ of `remanent_offset_nt` per axis, nT.
+    pub remanent_offset_sigma_nt: Option<[f64; 3]>,
+    /// Time constant of the first-order rise of the rod's field after the delay `lag_s`,
+    /// s (0: a step within one sample).
+    pub rise_time_s: Option<f64>,
+    /// 1σ of `rise_time_s`, s; null when the rise was not fitted (a step, or no response).
+    pub rise_time_sigma_s: Option<f64>,
+    /// Why this verdict, in words.
+    pub note: String,
+}
 
 /// One pulse and what it left behind.
 #[derive(Debug, Clone, Serialize)]

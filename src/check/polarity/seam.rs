@@ -29,6 +29,10 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 impl CheckResult for PolarityResult {
     crate::result_basics!(KIND);
 
+    fn flight_part(&self) -> Option<crate::check::FlightPart<'_>> {
+        Some(crate::check::FlightPart::Polarity(self))
+    }
+
     /// `rod_<name>_verdict` per rod.
     fn quantities(&self) -> Vec<Quantity> {
         let mut out = Vec::new();

@@ -3,10 +3,12 @@
 use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
+use super::sensor::SensorGeometry;
 use super::timing::{AfterPulse, Pulse};
 use super::warning::PolarityWarning;
-use super::DIPOLE_VALID_ROD_LENGTHS;
+use super::{RodResult, DIPOLE_VALID_ROD_LENGTHS};
 use crate::fit::linear::LinearFit;
+use crate::log::plan::Rod;
 use crate::log::Plan;
 use crate::physics::dipole::dipole_matrix;
 use crate::physics::frames::angle_between;
@@ -61,62 +63,6 @@ impl std::fmt::Display for Verdict {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.write_str(self.as_str())
     }
-}
-
-/// One rod's result; the first six keys are the stable ones of docs/polarity.md.
-#[derive(Debug, Clone, Serialize)]
-pub struct RodResult {
-    /// Rod name.
-    pub name: String,
-    /// Verdict.
-    pub verdict: Verdict,
-    /// Angle between measured and expected response, deg; null if the coupling is zero.
-    pub angle_to_expected_deg: Option<f64>,
-    /// Measured response per unit command, sensor frame (S), nT per command unit.
-    pub coupling_nt_per_command: [f64; 3],
-    /// |coupling| over its 1σ along its own direction.
-    pub snr: f64,
-    /// Dipole inferred from the coupling through the geometry over the nominal
-    /// `dipole_per_command_am2`; null without a nominal.
-    pub gain_ratio: Option<f64>,
-    /// 1σ of `gain_ratio`.
-    pub gain_ratio_sigma: Option<f64>,
-    /// False when the sensor is closer than three rod lengths (point-dipole model
-    /// doubtful; common practice); null when the plan gives no `length_m`.
-    pub gain_reliable: Option<bool>,
-    /// 1σ of the coupling per sensor axis, nT per command unit.
-    pub coupling_sigma_nt_per_command: [f64; 3],
-    /// 1σ of the angle, deg.
-    pub angle_sigma_deg: Option<f64>,
-    /// Expected field at the sensor per A·m² of this rod's positive dipole, sensor
-    /// frame (S), nT/(A·m²).
-    pub expected_nt_per_am2: [f64; 3],
-    /// Dipole inferred from the coupling: |coupling| / |expected per A·m²|, A·m² per
-    /// command unit.
-    pub dipole_per_command_am2: f64,
-    /// For `wrong-axis`: the rod whose expected direction the response matches.
-    pub matches_rod: Option<String>,
-    /// For `wrong-axis`: whether it matches that rod's direction reversed.
-    pub matches_reversed: Option<bool>,
-    /// Distance rod centre → sensor, m.
-    pub distance_m: f64,
-    /// Longest settle time over this rod's pulses, s, from command off (includes the
-    /// lag): what a magnetometer blanking window must cover. Null if none was measured.
-    pub settle_time_s: Option<f64>,
-    /// Remanent field once the rod is off after a positive pulse (the opposite after a
-    /// negative one): half the difference between the two, sensor frame, nT; fitted with
-    /// the couplings (rows before the first pulse are taken to sit at the midpoint).
-    /// Null when the rod was pulsed with one sign only.
-    pub remanent_offset_nt: Option<[f64; 3]>,
-    /// 1σ of `remanent_offset_nt` per axis, nT.
-    pub remanent_offset_sigma_nt: Option<[f64; 3]>,
-    /// Time constant of the first-order rise of the rod's field after the delay `lag_s`,
-    /// s (0: a step within one sample).
-    pub rise_time_s: Option<f64>,
-    /// 1σ of `rise_time_s`, s; null when the rise was not fitted (a step, or no response).
-    pub rise_time_sigma_s: Option<f64>,
-    /// Why this verdict, in words.
-    pub note: String,
 }
 
 /// What was measured for one rod.
@@ -256,178 +202,221 @@ struct Classified {
     matches_reversed: Option<bool>,
 }
 
-/// The verdict of one rod from its SNR, its angle to the expected direction (and to the
-/// other rods' directions) and its angle's σ.
-fn classify(k: &Candidate) -> Classified {
-    let deg = |x: f64| x.to_degrees();
-    let (plan, i, c, expected) = (k.plan, k.index, k.coupling, k.expected);
-    let (snr, snr_min, angle, angle_sigma, angle_max_rad) =
-        (k.snr, k.snr_min, k.angle, k.angle_sigma, k.angle_max_rad);
-    let mut matches_rod = None;
-    let mut matches_reversed = None;
-    let (verdict, note) = if snr < snr_min {
-        (
-            Verdict::NoResponse,
-            format!("SNR {snr:.1} is below {snr_min}: no measurable response (check wiring, driver and that the rod was powered)"),
-        )
-    } else if !k.ambiguous.is_empty() {
-        let others: Vec<&str> = k
-            .ambiguous
-            .iter()
-            .map(|&j| plan.rods[j].name.as_str())
-            .collect();
-        (
-            Verdict::Inconclusive,
-            format!(
-                "expected direction too close to that of rod {} to tell a swap",
-                others.join(", ")
-            ),
-        )
-    } else if let Some(a) = angle.filter(|a| *a <= angle_max_rad) {
-        let consistent = consistency_limit_deg(angle_sigma);
-        if deg(a) <= consistent {
-            (Verdict::Ok, format!("{:.1}° from expected", deg(a)))
-        } else {
-            (
-                Verdict::OffAxis,
-                format!(
-                    "{:.1}° from expected, beyond the model's {MODEL_ERROR_DEG}° plus 3σ \
-                     ({consistent:.2}°): check the sensor axes, the mounting and the \
-                     rod's axis",
-                    deg(a)
-                ),
-            )
+impl Classified {
+    /// A verdict that names no other rod.
+    fn plain(verdict: Verdict, note: String) -> Self {
+        Classified {
+            verdict,
+            note,
+            matches_rod: None,
+            matches_reversed: None,
         }
-    } else if let Some(a) = angle.filter(|a| std::f64::consts::PI - a <= angle_max_rad) {
-        (
-            Verdict::Reversed,
-            format!(
-                "{:.1}° from the reverse of expected: the rod pushes backwards",
-                deg(std::f64::consts::PI - a)
-            ),
-        )
-    } else {
-        let best = (0..expected.len())
-            .filter(|&j| j != i)
-            .filter_map(|j| Some((j, angle_between(c, &expected[j])?)))
-            .map(|(j, a)| {
-                (
-                    j,
-                    a.min(std::f64::consts::PI - a),
-                    a > std::f64::consts::FRAC_PI_2,
-                )
-            })
-            .min_by(|x, y| x.1.total_cmp(&y.1));
-        match best {
-            Some((j, a, rev)) if a <= angle_max_rad => {
-                matches_rod = Some(plan.rods[j].name.clone());
-                matches_reversed = Some(rev);
-                (
-                    Verdict::WrongAxis,
-                    format!(
-                        "responds like rod \"{}\"{} ({:.1}° from it): commands or wiring swapped?",
-                        plan.rods[j].name,
-                        if rev { " reversed" } else { "" },
-                        deg(a)
-                    ),
-                )
-            }
-            _ => (
-                Verdict::Inconclusive,
-                format!(
-                    "{:.1}° from expected, and matches no other rod: check sensor_to_body, positions and axes in the plan",
-                    angle.map_or(f64::NAN, deg)
-                ),
-            ),
-        }
-    };
-    Classified {
-        verdict,
-        note,
-        matches_rod,
-        matches_reversed,
     }
 }
 
-/// Give every plan rod its verdict.
-pub fn judge(
+/// The verdict of one rod from its SNR, its angle to the expected direction (and to the
+/// other rods' directions) and its angle's σ, in this order: no response, a swap that
+/// cannot be seen, along the expected direction (ok or off-axis), reversed, else like
+/// another rod (wrong axis) or like none (inconclusive).
+fn classify(k: &Candidate) -> Classified {
+    let pi = std::f64::consts::PI;
+    if k.snr < k.snr_min {
+        let (snr, snr_min) = (k.snr, k.snr_min);
+        return Classified::plain(
+            Verdict::NoResponse,
+            format!("SNR {snr:.1} is below {snr_min}: no measurable response (check wiring, driver and that the rod was powered)"),
+        );
+    }
+    if !k.ambiguous.is_empty() {
+        return indistinguishable(k);
+    }
+    if let Some(a) = k.angle.filter(|a| *a <= k.angle_max_rad) {
+        return along_expected(a, k.angle_sigma);
+    }
+    if let Some(a) = k.angle.filter(|a| pi - a <= k.angle_max_rad) {
+        return Classified::plain(
+            Verdict::Reversed,
+            format!(
+                "{:.1}° from the reverse of expected: the rod pushes backwards",
+                (pi - a).to_degrees()
+            ),
+        );
+    }
+    like_another_rod(k)
+}
+
+/// Inconclusive: the expected direction lies too close to another rod's to tell a swap.
+fn indistinguishable(k: &Candidate) -> Classified {
+    let others: Vec<&str> = k
+        .ambiguous
+        .iter()
+        .map(|&j| k.plan.rods[j].name.as_str())
+        .collect();
+    Classified::plain(
+        Verdict::Inconclusive,
+        format!(
+            "expected direction too close to that of rod {} to tell a swap",
+            others.join(", ")
+        ),
+    )
+}
+
+/// Ok, or off-axis when the angle `angle_rad` to the expected direction (within the
+/// limit) exceeds the model's error plus 3σ of the measured angle.
+fn along_expected(angle_rad: f64, angle_sigma_deg: Option<f64>) -> Classified {
+    let deg = angle_rad.to_degrees();
+    let consistent = consistency_limit_deg(angle_sigma_deg);
+    if deg <= consistent {
+        Classified::plain(Verdict::Ok, format!("{deg:.1}° from expected"))
+    } else {
+        Classified::plain(
+            Verdict::OffAxis,
+            format!(
+                "{deg:.1}° from expected, beyond the model's {MODEL_ERROR_DEG}° plus 3σ \
+                 ({consistent:.2}°): check the sensor axes, the mounting and the \
+                 rod's axis"
+            ),
+        )
+    }
+}
+
+/// Wrong axis when the coupling lies within the angle limit of the line of another
+/// rod's expected direction (the closest such rod, and whether reversed); else
+/// inconclusive.
+fn like_another_rod(k: &Candidate) -> Classified {
+    let pi = std::f64::consts::PI;
+    let best = (0..k.expected.len())
+        .filter(|&j| j != k.index)
+        .filter_map(|j| Some((j, angle_between(k.coupling, &k.expected[j])?)))
+        .map(|(j, a)| (j, a.min(pi - a), a > std::f64::consts::FRAC_PI_2))
+        .min_by(|x, y| x.1.total_cmp(&y.1));
+    match best {
+        Some((j, a, rev)) if a <= k.angle_max_rad => {
+            let name = &k.plan.rods[j].name;
+            Classified {
+                verdict: Verdict::WrongAxis,
+                note: format!(
+                    "responds like rod \"{}\"{} ({:.1}° from it): commands or wiring swapped?",
+                    name,
+                    if rev { " reversed" } else { "" },
+                    a.to_degrees()
+                ),
+                matches_rod: Some(name.clone()),
+                matches_reversed: Some(rev),
+            }
+        }
+        _ => Classified::plain(
+            Verdict::Inconclusive,
+            format!(
+                "{:.1}° from expected, and matches no other rod: check sensor_to_body, positions and axes in the plan",
+                k.angle.map_or(f64::NAN, f64::to_degrees)
+            ),
+        ),
+    }
+}
+
+/// Give every plan rod its verdict: the expected directions at the sensor, the pairs
+/// a swap between which cannot be seen, then each rod against them.
+pub(super) fn judge(
     plan: &Plan,
-    sensor_position_m: &Vector3<f64>,
-    sensor_to_body: &Matrix3<f64>,
+    sensor: &SensorGeometry,
     measured: &[Measured],
     angle_max_rad: f64,
     snr_min: f64,
     warnings: &mut Vec<PolarityWarning>,
 ) -> Result<Vec<RodResult>, Error> {
-    let expected = expected_directions(plan, sensor_position_m, sensor_to_body)?;
+    let expected = expected_directions(plan, &sensor.position_m, &sensor.sensor_to_body)?;
     let ambiguous = ambiguous_pairs(plan, &expected, angle_max_rad, warnings);
     let mut out = Vec::with_capacity(plan.rods.len());
-    for (i, (rod, m)) in plan.rods.iter().zip(measured).enumerate() {
-        let c = m.coupling;
-        let e = expected[i];
-        let norm = c.norm();
-        let sigma_c = Vector3::from_fn(|a, _| m.cov[(a, a)].max(0.0).sqrt());
-        let (snr, angle_sigma) = snr_and_angle_sigma(&c, &m.cov);
-        let angle = angle_between(&c, &e);
-        let e_norm = e.norm();
-        let dipole = norm / e_norm;
-        let (gain_ratio, gain_ratio_sigma) = match rod.dipole_per_command_am2 {
-            Some(m0) if snr.is_finite() => (Some(dipole / m0), Some(dipole / m0 / snr)),
-            Some(m0) => (Some(dipole / m0), Some(0.0)),
-            None => (None, None),
-        };
-        let distance_m = (sensor_position_m - rod.position_m).norm();
-        let gain_reliable = rod
-            .length_m
-            .map(|l| distance_m >= DIPOLE_VALID_ROD_LENGTHS * l);
-        if gain_reliable == Some(false) {
-            warnings.push(PolarityWarning::CloseToRod {
-                rod: rod.name.clone(),
-                distance_m,
-                needed_m: DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0),
-            });
-        }
-        let deg = |x: f64| x.to_degrees();
-        let Classified {
-            verdict,
-            note,
-            matches_rod,
-            matches_reversed,
-        } = classify(&Candidate {
+    for (i, m) in measured.iter().enumerate().take(plan.rods.len()) {
+        let candidate = Candidate {
             plan,
             index: i,
-            coupling: &c,
+            coupling: &m.coupling,
             expected: &expected,
             ambiguous: &ambiguous[i],
-            snr,
+            snr: 0.0,
             snr_min,
-            angle,
-            angle_sigma,
+            angle: angle_between(&m.coupling, &expected[i]),
+            angle_sigma: None,
             angle_max_rad,
-        });
-        out.push(RodResult {
-            name: rod.name.clone(),
-            verdict,
-            angle_to_expected_deg: angle.map(deg),
-            coupling_nt_per_command: c.into(),
-            snr,
-            gain_ratio,
-            gain_ratio_sigma,
-            gain_reliable,
-            coupling_sigma_nt_per_command: sigma_c.into(),
-            angle_sigma_deg: angle_sigma,
-            expected_nt_per_am2: e.into(),
-            dipole_per_command_am2: dipole,
-            matches_rod,
-            matches_reversed,
-            distance_m,
-            settle_time_s: m.settle_time_s,
-            remanent_offset_nt: m.remanent.map(|r| r.0.into()),
-            remanent_offset_sigma_nt: m.remanent.map(|r| r.1.into()),
-            rise_time_s: None,
-            rise_time_sigma_s: None,
-            note,
-        });
+        };
+        out.push(judge_rod(candidate, m, &sensor.position_m, warnings));
     }
     Ok(out)
+}
+
+/// One rod's result from what was measured and its expected direction
+/// (`k.expected[k.index]`); the SNR and the angle's σ are filled in here from the
+/// coupling's covariance. Warns when the sensor is too close for the point-dipole gain.
+fn judge_rod(
+    mut k: Candidate,
+    m: &Measured,
+    sensor_position_m: &Vector3<f64>,
+    warnings: &mut Vec<PolarityWarning>,
+) -> RodResult {
+    let rod = &k.plan.rods[k.index];
+    let (c, e) = (m.coupling, k.expected[k.index]);
+    (k.snr, k.angle_sigma) = snr_and_angle_sigma(&c, &m.cov);
+    let dipole = c.norm() / e.norm();
+    let (gain_ratio, gain_ratio_sigma) = gain_ratio(dipole, rod.dipole_per_command_am2, k.snr);
+    let distance_m = (sensor_position_m - rod.position_m).norm();
+    let gain_reliable = gain_reliable(rod, distance_m, warnings);
+    let Classified {
+        verdict,
+        note,
+        matches_rod,
+        matches_reversed,
+    } = classify(&k);
+    RodResult {
+        name: rod.name.clone(),
+        verdict,
+        angle_to_expected_deg: k.angle.map(f64::to_degrees),
+        coupling_nt_per_command: c.into(),
+        snr: k.snr,
+        gain_ratio,
+        gain_ratio_sigma,
+        gain_reliable,
+        coupling_sigma_nt_per_command: Vector3::from_fn(|a, _| m.cov[(a, a)].max(0.0).sqrt())
+            .into(),
+        angle_sigma_deg: k.angle_sigma,
+        expected_nt_per_am2: e.into(),
+        dipole_per_command_am2: dipole,
+        matches_rod,
+        matches_reversed,
+        distance_m,
+        settle_time_s: m.settle_time_s,
+        remanent_offset_nt: m.remanent.map(|r| r.0.into()),
+        remanent_offset_sigma_nt: m.remanent.map(|r| r.1.into()),
+        rise_time_s: None,
+        rise_time_sigma_s: None,
+        note,
+    }
+}
+
+/// The dipole inferred from the coupling (`dipole_am2`, A·m² per command unit) over the
+/// rod's nominal, and its 1σ from the SNR; both null without a nominal.
+fn gain_ratio(dipole_am2: f64, nominal_am2: Option<f64>, snr: f64) -> (Option<f64>, Option<f64>) {
+    match nominal_am2 {
+        Some(m0) if snr.is_finite() => (Some(dipole_am2 / m0), Some(dipole_am2 / m0 / snr)),
+        Some(m0) => (Some(dipole_am2 / m0), Some(0.0)),
+        None => (None, None),
+    }
+}
+
+/// Whether the sensor, `distance_m` from the rod's centre (m), is at least
+/// [`DIPOLE_VALID_ROD_LENGTHS`] rod lengths away (null without a `length_m`); warns
+/// when it is not.
+fn gain_reliable(rod: &Rod, distance_m: f64, warnings: &mut Vec<PolarityWarning>) -> Option<bool> {
+    let reliable = rod
+        .length_m
+        .map(|l| distance_m >= DIPOLE_VALID_ROD_LENGTHS * l);
+    if reliable == Some(false) {
+        warnings.push(PolarityWarning::CloseToRod {
+            rod: rod.name.clone(),
+            distance_m,
+            needed_m: DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0),
+        });
+    }
+    reliable
 }

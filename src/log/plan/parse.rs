@@ -190,6 +190,17 @@ impl Validator<'_> {
         }
     }
 
+    /// Optional one-line text (a serial, a name): trimmed, printable, empty as absent.
+    fn label(&self, key: &str, v: Option<String>) -> Result<Option<String>, PlanError> {
+        match v {
+            Some(t) => {
+                self.plain_text(key, &t)?;
+                Ok(Some(t.trim().to_string()).filter(|t| !t.is_empty()))
+            }
+            None => Ok(None),
+        }
+    }
+
     fn article(&self, a: RawArticle) -> Result<Article, PlanError> {
         if a.serial.trim().is_empty() {
             return Err(self.invalid("article.serial", "must not be empty".into()));
@@ -199,9 +210,20 @@ impl Validator<'_> {
         }
         self.plain_text("article.serial", &a.serial)?;
         self.plain_text("article.build", &a.build)?;
+        let notes = match a.notes {
+            Some(n) => {
+                // Line breaks are kept in notes; other control characters are refused.
+                self.plain_text("article.notes", &n.replace(['\n', '\r', '\t'], " "))?;
+                Some(n.trim().to_string()).filter(|n| !n.is_empty())
+            }
+            None => None,
+        };
         Ok(Article {
             serial: a.serial.trim().to_string(),
             build: a.build.trim().to_string(),
+            operator: self.label("article.operator", a.operator)?,
+            facility: self.label("article.facility", a.facility)?,
+            notes,
         })
     }
 
@@ -295,6 +317,7 @@ impl Validator<'_> {
                 )?,
                 length_m: self.positive_at_most(&key("length_m"), r.length_m, MAX_POSITION_M)?,
                 settle_s: self.positive_at_most(&key("settle_s"), r.settle_s, MAX_SETTLE_S)?,
+                serial: self.label(&key("serial"), r.serial)?,
             });
         }
         Ok(rods)

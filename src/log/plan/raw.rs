@@ -32,6 +32,9 @@ pub(super) struct RawPlan {
 pub(super) struct RawArticle {
     pub(super) serial: String,
     pub(super) build: String,
+    pub(super) operator: Option<String>,
+    pub(super) facility: Option<String>,
+    pub(super) notes: Option<String>,
 }
 
 #[derive(Deserialize)]
@@ -96,6 +99,7 @@ pub(super) struct RawRod {
     pub(super) dipole_per_command_am2: Option<f64>,
     pub(super) length_m: Option<f64>,
     pub(super) settle_s: Option<f64>,
+    pub(super) serial: Option<String>,
 }
 
 #[derive(Deserialize)]

@@ -76,3 +76,25 @@ fn syntax_error_names_line() {
     let e = parse("[article]\nserial = \"A\nbuild = \"B\"\n").unwrap_err();
     assert!(e.to_string().contains("line 2"), "{e}");
 }
+
+#[test]
+fn people_places_notes_and_part_serials_are_read_and_trimmed() {
+    let p = parse(
+        "[article]\nserial = \"QX-7\"\nbuild = \"B1\"\noperator = \" A. Rivera \"\n\
+         facility = \"Cage hall 2\"\nnotes = \"\"\"Harness v3.\nHeater off.\"\"\"\n\
+         [magnetometer]\nserial = \"MAG-0042\"\n[gyro]\nserial = \"GY-7\"\n\
+         [[rod]]\nname = \"x\"\naxis_body = [1, 0, 0]\nposition_m = [0, 0, 0]\n\
+         serial = \"ROD-11\"\n",
+    )
+    .unwrap();
+    let a = p.article.unwrap();
+    assert_eq!(a.operator.as_deref(), Some("A. Rivera"));
+    assert_eq!(a.facility.as_deref(), Some("Cage hall 2"));
+    assert_eq!(a.notes.as_deref(), Some("Harness v3.\nHeater off."));
+    assert_eq!(p.magnetometer.unwrap().serial.as_deref(), Some("MAG-0042"));
+    assert_eq!(p.gyro.unwrap().serial.as_deref(), Some("GY-7"));
+    assert_eq!(p.rods[0].serial.as_deref(), Some("ROD-11"));
+    // A control character in a serial is refused by its key.
+    let e = parse("[magnetometer]\nserial = \"M\\u001b[31m\"\n").unwrap_err();
+    assert!(e.to_string().contains("magnetometer.serial"), "{e}");
+}

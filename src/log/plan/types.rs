@@ -57,6 +57,12 @@ pub struct Article {
     pub serial: String,
     /// Build label.
     pub build: String,
+    /// Who ran the tests (shown in reports and flight parameters).
+    pub operator: Option<String>,
+    /// Where the tests were run.
+    pub facility: Option<String>,
+    /// Free text shown in reports (one paragraph; line breaks kept).
+    pub notes: Option<String>,
 }
 
 /// `[log]`.
@@ -166,6 +172,8 @@ pub struct Rod {
     /// Time the rod's field takes to settle after a command change, s (the blanking
     /// window of a calibration with rods in the log; default 0.2 s).
     pub settle_s: Option<f64>,
+    /// Part serial number.
+    pub serial: Option<String>,
 }
 
 /// `[dipole_test]`.

@@ -16,6 +16,11 @@ pub fn change_label(c: &Change) -> String {
             None => "soft iron".into(),
         };
     }
+    if let Some(rc) = q.strip_prefix("soft_iron_") {
+        if rc.len() == 2 && rc.chars().all(|c| c.is_ascii_digit()) {
+            return format!("soft iron W[{}][{}]", &rc[..1], &rc[1..]);
+        }
+    }
     if let Some(kind) = q.strip_suffix("_pass") {
         return format!("{kind} verdict");
     }
@@ -105,5 +110,28 @@ mod tests {
         );
         assert_eq!(fmt_pm(812.44, None, "nT", false), "812 nT");
         assert_eq!(fmt_pm(0.02, None, "1", true), "+0.0200");
+    }
+
+    #[test]
+    fn labels_are_words_and_a_dimensionless_change_has_no_bare_unit() {
+        let c = Change {
+            serial: "QX-7".into(),
+            kind: "calibrate".into(),
+            from_build: "B1".into(),
+            to_build: "B2".into(),
+            quantity: "soft_iron_00".into(),
+            unit: "1".into(),
+            delta: Some(0.01),
+            sigma: Some(0.001),
+            flag: Flag::Significant,
+            from: serde_json::Value::Null,
+            to: serde_json::Value::Null,
+            from_run: crate::ledger::RunId(1),
+            to_run: crate::ledger::RunId(2),
+            detail: None,
+        };
+        assert_eq!(change_label(&c), "soft iron W[0][0]");
+        // A dimensionless change is written without a bare "1".
+        assert_eq!(change_amount(&c), "+0.0100 ± 0.0010 (10.0σ)");
     }
 }

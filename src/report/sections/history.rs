@@ -11,23 +11,17 @@ use crate::report::model::{Cell, Figure, Section, Table, Tone, Verdict};
 use crate::report::plot::{draw_xy, Series, XyPlot};
 use crate::Error;
 
+/// The build axis of the history plots: builds numbered in ledger order.
+const BUILD_AXIS: &str = "build [number in ledger order]";
+
+/// The build axis with one serial: the builds by name, in ledger order.
+const NAMED_BUILD_AXIS: &str = "build [name, in ledger order]";
+
 /// Most change rows shown in the table (all are in the JSON).
 const MAX_CHANGE_ROWS: usize = 80;
 
 fn num(v: &Value, key: &str) -> Option<f64> {
     v.get(key)?.as_f64().filter(|x| x.is_finite())
-}
-
-fn vec3(v: &Value, key: &str) -> Option<[f64; 3]> {
-    let a = v.get(key)?.as_array()?;
-    if a.len() != 3 {
-        return None;
-    }
-    let mut out = [0.0; 3];
-    for (o, x) in out.iter_mut().zip(a) {
-        *o = x.as_f64().filter(|f| f.is_finite())?;
-    }
-    Some(out)
 }
 
 /// One build's latest run of each kind.
@@ -110,31 +104,80 @@ pub fn history_text_section(runs: &[Run], changes: &[Change]) -> Result<Section,
 fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section, Error> {
     let kinds = kinds_of(runs);
     let rows = build_rows(runs, &kinds);
-    let verdict = Verdict::combine(
+    let serials = group_by_build(runs).len();
+    let mut tables = vec![build_table(&rows, &kinds), change_table(changes)];
+    // One serial: its name is in the figures of merit; the tables keep their width for
+    // the numbers.
+    if serials == 1 {
+        tables.iter_mut().for_each(drop_first_column);
+    }
+    let mut notes = vec![
+        "Builds are numbered 1, 2, … per serial in the order they were first recorded; \
+         with one serial the plots name them on the axis, with several see the table."
+            .to_string(),
+        "Error bars are ±1σ as each run recorded it; each quantity has its own scale, so a \
+         jump of a few σ fills its plot."
+            .to_string(),
+    ];
+    if changes.len() > MAX_CHANGE_ROWS {
+        notes.push(format!(
+            "{} more changes are in result.json",
+            changes.len() - MAX_CHANGE_ROWS
+        ));
+    }
+    Ok(Section {
+        kind: "history".into(),
+        title: "History across builds".into(),
+        verdict: latest_verdict(&rows),
+        figures_of_merit: ledger_figures_of_merit(runs, &rows, changes, serials),
+        tables,
+        figures: if full {
+            history_figures(&rows, serials == 1)?
+        } else {
+            Vec::new()
+        },
+        warnings: limit_warnings(changes),
+        notes,
+        result: if full {
+            serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? })
+        } else {
+            serde_json::Value::Null
+        },
+    })
+}
+
+/// The worst verdict of each serial's latest build.
+fn latest_verdict(rows: &[BuildRow<'_>]) -> Verdict {
+    Verdict::combine(
         rows.iter()
             .enumerate()
             .filter(|(i, r)| rows.get(i + 1).map_or(true, |n| n.serial != r.serial))
             .flat_map(|(_, r)| r.latest.iter().map(|run| Verdict::from_pass(run.pass))),
-    );
-    let serials = group_by_build(runs).len();
+    )
+}
+
+fn ledger_figures_of_merit(
+    runs: &[Run],
+    rows: &[BuildRow<'_>],
+    changes: &[Change],
+    serials: usize,
+) -> Vec<(String, String)> {
+    // Each serial once, in order of first appearance (a set, not a scan of the list per
+    // row: linear in the builds).
+    let mut seen = std::collections::HashSet::new();
+    let names = rows
+        .iter()
+        .map(|r| r.serial)
+        .filter(|s| seen.insert(*s))
+        .collect::<Vec<_>>()
+        .join(", ");
     let alerts = changes.iter().filter(|c| c.flag.is_alert()).count();
-    let fom = vec![
+    vec![
         (
             "ledger".to_string(),
             format!(
-                "{} run(s), {} serial(s) ({}), {} build(s)",
+                "{} run(s), {serials} serial(s) ({names}), {} build(s)",
                 runs.len(),
-                serials,
-                {
-                    // Each serial once, in order of first appearance (a set, not a scan
-                    // of the list per row: linear in the builds).
-                    let mut seen = std::collections::HashSet::new();
-                    rows.iter()
-                        .map(|r| r.serial)
-                        .filter(|s| seen.insert(*s))
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                },
                 rows.len()
             ),
         ),
@@ -145,8 +188,12 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
                 changes.len()
             ),
         ),
-    ];
-    let mut build_table = Table {
+    ]
+}
+
+/// Latest run of each check per build: |m|, hard iron and the verdicts.
+fn build_table(rows: &[BuildRow<'_>], kinds: &[String]) -> Table {
+    Table {
         caption: "Latest run of each check per build (verdict of the latest build decides)".into(),
         header: ["serial", "build", "|m| [A·m²]", "hard iron x/y/z [nT]"]
             .into_iter()
@@ -175,8 +222,12 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
                 cells
             })
             .collect(),
-    };
-    // Most severe first (bad, then amber, then good news, then the rest); stable within.
+    }
+}
+
+/// Changes between consecutive builds, most severe first (bad, then amber, then good
+/// news, then the rest; stable within), at most [`MAX_CHANGE_ROWS`].
+fn change_table(changes: &[Change]) -> Table {
     let rank = |c: &&Change| match flag_tone(c.flag) {
         Tone::Bad => 0,
         Tone::Warn => 1,
@@ -186,7 +237,7 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
     let mut shown: Vec<&Change> = changes.iter().collect();
     shown.sort_by_key(rank);
     shown.truncate(MAX_CHANGE_ROWS);
-    let mut change_table = Table {
+    Table {
         caption: "Changes between consecutive builds (attention first)".into(),
         header: vec![
             "serial".into(),
@@ -207,58 +258,33 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
                 ]
             })
             .collect(),
-    };
-    // One serial: its name is in the figures of merit; the tables keep their width for
-    // the numbers.
-    if serials == 1 {
-        for t in [&mut build_table, &mut change_table] {
-            t.header.remove(0);
-            for row in &mut t.rows {
-                row.remove(0);
-            }
-        }
     }
-    let mut notes = vec![
-        "Builds are numbered 1, 2, … per serial in the order they were first recorded; the \
-         plots use these numbers (see the table for the labels)."
-            .to_string(),
-    ];
-    if changes.len() > MAX_CHANGE_ROWS {
-        notes.push(format!(
-            "{} more changes are in result.json",
-            changes.len() - MAX_CHANGE_ROWS
-        ));
+}
+
+fn drop_first_column(t: &mut Table) {
+    t.header.remove(0);
+    for row in &mut t.rows {
+        row.remove(0);
     }
-    let warnings = changes
+}
+
+/// One warning per limit crossed, naming the build where it happened.
+fn limit_warnings(changes: &[Change]) -> Vec<String> {
+    changes
         .iter()
         .filter(|c| c.flag == Flag::LimitCrossed)
         .map(|c| {
             format!(
                 "{} {}: {} went from pass to fail between builds {} and {}; find what was \
                  added or changed in that build",
-                c.serial, c.kind, c.quantity, c.from_build, c.to_build
+                c.serial,
+                c.kind,
+                change_label(c),
+                c.from_build,
+                c.to_build
             )
         })
-        .collect();
-    Ok(Section {
-        kind: "history".into(),
-        title: "History across builds".into(),
-        verdict,
-        figures_of_merit: fom,
-        tables: vec![build_table, change_table],
-        figures: if full {
-            history_figures(&rows)?
-        } else {
-            Vec::new()
-        },
-        warnings,
-        notes,
-        result: if full {
-            serde_json::json!({ "runs": to_json(&runs)?, "changes": to_json(&changes)? })
-        } else {
-            serde_json::Value::Null
-        },
-    })
+        .collect()
 }
 
 /// A limit drawn as a step across each build (±0.4 around its ordinal).
@@ -269,127 +295,125 @@ fn limit_steps(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
         .collect()
 }
 
-fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
+/// One quantity's trend across builds: which run it comes from, its ledger name, and
+/// where its limit is kept in the run's result.
+struct Trend {
+    kind: &'static str,
+    quantity: &'static str,
+    limit_key: Option<&'static str>,
+    title: &'static str,
+    y_label: &'static str,
+    file_name: &'static str,
+    caption: &'static str,
+}
+
+/// The trends plotted, each on its own scale.
+const TRENDS: [Trend; 5] = [
+    Trend {
+        kind: "dipole",
+        quantity: "dipole_magnitude_am2",
+        limit_key: Some("residual_dipole_max_am2"),
+        title: "Residual dipole across builds",
+        y_label: "|m| [A·m²]",
+        file_name: "history-dipole.svg",
+        caption: "Residual dipole magnitude ±1σ of the latest dipole run per build (line per \
+                  serial) and the plan's limit (dashed).",
+    },
+    Trend {
+        kind: "calibrate",
+        quantity: "hard_iron_x_nt",
+        limit_key: None,
+        title: "Hard iron x across builds",
+        y_label: "hard iron x, sensor frame [nT]",
+        file_name: "history-hard-iron-x.svg",
+        caption: "Hard iron along sensor x ±1σ from the latest calibration per build, on its \
+                  own scale. A jump between builds means magnetic material was added or moved \
+                  near the magnetometer.",
+    },
+    Trend {
+        kind: "calibrate",
+        quantity: "hard_iron_y_nt",
+        limit_key: None,
+        title: "Hard iron y across builds",
+        y_label: "hard iron y, sensor frame [nT]",
+        file_name: "history-hard-iron-y.svg",
+        caption: "Hard iron along sensor y ±1σ, as for x.",
+    },
+    Trend {
+        kind: "calibrate",
+        quantity: "hard_iron_z_nt",
+        limit_key: None,
+        title: "Hard iron z across builds",
+        y_label: "hard iron z, sensor frame [nT]",
+        file_name: "history-hard-iron-z.svg",
+        caption: "Hard iron along sensor z ±1σ, as for x.",
+    },
+    Trend {
+        kind: "calibrate",
+        quantity: "calibration_residual_rms_nt",
+        limit_key: Some("residual_limit_nt"),
+        title: "Calibration residual across builds",
+        y_label: "residual RMS [nT]",
+        file_name: "history-calibration-residual.svg",
+        caption: "Calibration residual RMS ±1σ per build and the plan's limit (dashed).",
+    },
+];
+
+fn history_figures(rows: &[BuildRow<'_>], one_serial: bool) -> Result<Vec<Figure>, Error> {
     // Rows come grouped by serial (see `build_rows`): each group is walked once, so the
     // figures cost time linear in the builds.
     let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
     let mut figs = Vec::new();
-    let n_builds = rows.iter().map(|r| r.ordinal).fold(1.0, f64::max);
-    let x_range = Some((0.5, n_builds + 0.5));
-
-    let mut dip = XyPlot::new("Residual dipole across builds", "build", "|m| [A·m²]");
-    let mut limits = Vec::new();
-    for (k, g) in groups.iter().enumerate() {
-        let s = g[0].serial;
-        let pts: Vec<(f64, f64)> = g
-            .iter()
-            .filter_map(|r| Some((r.ordinal, num(&r.of("dipole")?.result, "magnitude_am2")?)))
-            .collect();
-        for r in g.iter() {
-            if let Some(l) = r
-                .of("dipole")
-                .and_then(|d| num(&d.result, "residual_dipole_max_am2"))
-            {
-                limits.push((r.ordinal, l));
-            }
+    for t in &TRENDS {
+        if let Some(plot) = trend_plot(t, &groups, one_serial) {
+            figs.push(figure(t.file_name, t.caption, draw_xy(&plot)?));
         }
-        if !pts.is_empty() {
-            dip = dip
-                .with(Series::points("", pts.clone(), k % 3))
-                .with(Series::line(s, pts, k % 3));
-        }
-    }
-    let has_dipole = !dip.series.is_empty();
-    if !limits.is_empty() {
-        dip = dip.with(Series::dashed("limit", limit_steps(&limits), 3));
-    }
-    dip.x_range = x_range;
-    dip.size = (540, 340);
-    if has_dipole {
-        figs.push(figure(
-            "history-dipole.svg",
-            "Residual dipole magnitude of the latest dipole run per build (line per serial) \
-             and the plan's limit (dashed).",
-            draw_xy(&dip)?,
-        ));
-    }
-
-    let mut hi = XyPlot::new("Hard iron across builds", "build", "hard iron [nT]");
-    for g in &groups {
-        let s = g[0].serial;
-        for a in 0..3 {
-            let pts: Vec<(f64, f64)> = g
-                .iter()
-                .filter_map(|r| {
-                    Some((
-                        r.ordinal,
-                        vec3(&r.of("calibrate")?.result, "hard_iron_nt")?[a],
-                    ))
-                })
-                .collect();
-            if !pts.is_empty() {
-                hi = hi.with(Series::points("", pts.clone(), a));
-                let name = if groups.len() > 1 {
-                    format!("{s} {}", ["x", "y", "z"][a])
-                } else {
-                    ["x", "y", "z"][a].to_string()
-                };
-                hi = hi.with(Series::line(&name, pts, a));
-            }
-        }
-    }
-    hi.x_range = x_range;
-    hi.size = (540, 340);
-    if !hi.series.is_empty() {
-        figs.push(figure(
-            "history-hard-iron.svg",
-            "Hard iron per sensor axis from the latest calibration per build. A jump between \
-             builds means magnetic material was added near the magnetometer.",
-            draw_xy(&hi)?,
-        ));
-    }
-
-    let mut res = XyPlot::new("Calibration residual across builds", "build", "RMS [nT]");
-    let mut limits = Vec::new();
-    for (k, g) in groups.iter().enumerate() {
-        let s = g[0].serial;
-        let pts: Vec<(f64, f64)> = g
-            .iter()
-            .filter_map(|r| {
-                Some((
-                    r.ordinal,
-                    num(&r.of("calibrate")?.result, "residual_rms_nt")?,
-                ))
-            })
-            .collect();
-        for r in g.iter() {
-            if let Some(l) = r
-                .of("calibrate")
-                .and_then(|c| num(&c.result, "residual_limit_nt"))
-            {
-                limits.push((r.ordinal, l));
-            }
-        }
-        if !pts.is_empty() {
-            res = res
-                .with(Series::points("", pts.clone(), k % 3))
-                .with(Series::line(s, pts, k % 3));
-        }
-    }
-    let has_res = !res.series.is_empty();
-    if !limits.is_empty() {
-        res = res.with(Series::dashed("limit", limit_steps(&limits), 3));
-    }
-    res.x_range = x_range;
-    res.size = (540, 340);
-    if has_res {
-        figs.push(figure(
-            "history-calibration-residual.svg",
-            "Calibration residual RMS per build and the plan's limit (dashed).",
-            draw_xy(&res)?,
-        ));
     }
     Ok(figs)
+}
+
+/// The plot of one trend: per serial, the value ±1σ at each build, a line through them,
+/// and the limit as a dashed step; `None` when no build has the quantity.
+fn trend_plot(t: &Trend, groups: &[&[BuildRow<'_>]], one_serial: bool) -> Option<XyPlot> {
+    let x_label = if one_serial {
+        NAMED_BUILD_AXIS
+    } else {
+        BUILD_AXIS
+    };
+    let mut plot = XyPlot::new(t.title, x_label, t.y_label);
+    let mut limits = Vec::new();
+    for (k, g) in groups.iter().enumerate() {
+        let mut pts = Vec::new();
+        let mut sigma = Vec::new();
+        for r in g.iter() {
+            let Some(run) = r.of(t.kind) else { continue };
+            if let Some((v, s)) = quantity(run, t.quantity) {
+                pts.push((r.ordinal, v));
+                sigma.push(s.unwrap_or(0.0));
+            }
+            if let Some(l) = t.limit_key.and_then(|key| num(&run.result, key)) {
+                limits.push((r.ordinal, l));
+            }
+        }
+        if !pts.is_empty() {
+            plot = plot
+                .with(Series::points("", pts.clone(), k % 3).with_sigma(sigma))
+                .with(Series::line(g[0].serial, pts, k % 3));
+        }
+    }
+    if plot.series.is_empty() {
+        return None;
+    }
+    if !limits.is_empty() {
+        plot = plot.with(Series::dashed("limit", limit_steps(&limits), 3));
+    }
+    let n_builds = groups.iter().map(|g| g.len()).max().unwrap_or(1) as f64;
+    plot.x_range = Some((0.5, n_builds + 0.5));
+    if one_serial {
+        plot.x_names = groups[0].iter().map(|r| r.build.to_string()).collect();
+    }
+    plot.size = (540, 340);
+    Some(plot)
 }
 
 #[cfg(test)]
@@ -442,7 +466,9 @@ mod tests {
             names,
             [
                 "history-dipole.svg",
-                "history-hard-iron.svg",
+                "history-hard-iron-x.svg",
+                "history-hard-iron-y.svg",
+                "history-hard-iron-z.svg",
                 "history-calibration-residual.svg"
             ]
         );
@@ -467,5 +493,38 @@ mod tests {
         let s = history_section(&[], &[]).unwrap();
         assert_eq!(s.verdict, Verdict::NoLimit);
         assert!(s.figures.is_empty());
+    }
+
+    #[test]
+    fn a_flagged_15_nt_jump_fills_its_own_plot_and_builds_are_named() {
+        // Hard iron x 1200 → 1215 nT (σ 2 nT) beside y and z near −750 and 425 nT: on a
+        // shared scale the jump would be 0.8 % of the axis; on its own it must be most
+        // of it.
+        let cal = |h: f64| {
+            json!({"hard_iron_nt": [h, -750.0, 425.0], "hard_iron_sigma_nt": [2.0, 2.0, 2.0],
+                   "residual_rms_nt": 20.0, "residual_limit_nt": 150.0, "pass": true})
+        };
+        let runs = vec![
+            run(1, "B1", "calibrate", true, cal(1200.0)),
+            run(2, "B2", "calibrate", true, cal(1215.0)),
+        ];
+        let rows = build_rows(&runs, &kinds_of(&runs));
+        let groups: Vec<&[BuildRow<'_>]> = vec![&rows[..]];
+        let plot = trend_plot(&TRENDS[1], &groups, true).unwrap();
+        let (_, (y0, y1)) = crate::report::plot::xy_ranges(&plot);
+        assert!(
+            15.0 / (y1 - y0) > 0.5,
+            "jump is {} of the axis",
+            15.0 / (y1 - y0)
+        );
+        // Error bars of ±2 nT inside the range, names on the axis.
+        assert!(y0 <= 1198.0 && y1 >= 1217.0);
+        assert_eq!(plot.x_names, ["B1", "B2"]);
+        assert_eq!(plot.series[0].sigma, [2.0, 2.0]);
+        let svg = draw_xy(&plot).unwrap();
+        assert!(
+            svg.contains("B1") && svg.contains("B2"),
+            "build names on the axis: {svg}"
+        );
     }
 }

@@ -4,13 +4,16 @@
 //! lay sections out; nothing here recomputes a fitted number.
 
 mod align;
+pub mod assumptions;
 mod calibration;
 pub mod change_text;
 mod dipole;
 mod history;
 mod polarity;
+mod polarity_stack;
 
 pub use align::align_section;
+pub use assumptions::assumptions_section;
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
 pub use history::{history_section, history_text_section};

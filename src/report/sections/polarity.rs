@@ -115,11 +115,7 @@ fn rod_row(rod: &RodResult) -> Vec<Cell> {
             (None, _) => "-".into(),
         }),
         Cell::plain(pm(c.norm(), Some(sigma), "")),
-        Cell::plain(if rod.snr.is_finite() {
-            format!("{:.0}", rod.snr)
-        } else {
-            "inf".into()
-        }),
+        Cell::plain(snr_text(rod.snr)),
         Cell::plain(match (rod.gain_ratio, rod.gain_ratio_sigma) {
             (Some(g), s) => {
                 let mark = if rod.gain_reliable == Some(false) {
@@ -192,8 +188,10 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
         .with(Series::dashed("command×|c|", command, 1))
         .with(Series::line("model", model, 3));
         plot.size = (540, 340);
+        let stem = file_safe(&rod.name, k);
+        let stacked = super::polarity_stack::stacked_pulses(r, k, &plot.series[0].points, &stem)?;
         figs.push(figure(
-            &format!("polarity-rod-{}.svg", file_safe(&rod.name, k)),
+            &format!("polarity-rod-{stem}.svg"),
             &format!(
                 "Rod {}: field at the sensor with drift and the other rods' fitted responses \
                  removed, along the direction the plan predicts (dots); the fitted model \
@@ -203,6 +201,7 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
             ),
             draw_xy(&plot)?,
         ));
+        figs.extend(stacked);
     }
     Ok(figs)
 }
@@ -256,7 +255,20 @@ mod tests {
         assert!(row[1].text.starts_with("reversed"));
         assert_eq!(row[1].tone, Tone::Bad);
         assert_eq!(s.tables[0].rows[0][1].tone, Tone::Good);
-        assert_eq!(s.figures.len(), r.rods.len());
+        // Per rod: its time plot and its pulses stacked on their turn-off edge, with the
+        // blanking window marked.
+        assert_eq!(s.figures.len(), 2 * r.rods.len());
+        let stack = s
+            .figures
+            .iter()
+            .find(|f| f.file_name == "polarity-stack-y.svg")
+            .unwrap();
+        assert!(
+            stack.caption.contains("blanking window (dashed"),
+            "{}",
+            stack.caption
+        );
+        assert!(stack.svg.contains("time from command off [s]"));
         assert_eq!(s.result, serde_json::to_value(&r).unwrap());
         // The reversed rod's coupling points against the expected direction: the plotted
         // model (coupling along expected × command) has the opposite sign of the command.
@@ -276,5 +288,32 @@ mod tests {
     fn file_names_are_safe_and_unique() {
         assert_eq!(file_safe("x", 0), "x");
         assert_eq!(file_safe("a/b", 2), "2-a_b");
+    }
+}
+
+/// An SNR a reader takes in at a glance: whole numbers with thousands grouped below
+/// 10⁶ (`12 400`), "> 10⁶" above (beyond any decision the check makes).
+fn snr_text(snr: f64) -> String {
+    if !snr.is_finite() || snr >= 1e6 {
+        return "> 10⁶".into();
+    }
+    let whole = format!("{:.0}", snr.max(0.0));
+    let mut out = String::new();
+    for (k, c) in whole.chars().enumerate() {
+        if k > 0 && (whole.len() - k) % 3 == 0 {
+            out.push('\u{2009}');
+        }
+        out.push(c);
+    }
+    out
+}
+
+#[cfg(test)]
+mod snr_tests {
+    #[test]
+    fn snr_is_grouped_and_capped() {
+        assert_eq!(super::snr_text(7.4), "7");
+        assert_eq!(super::snr_text(12_400.0), "12\u{2009}400");
+        assert_eq!(super::snr_text(3.0e7), "> 10⁶");
     }
 }

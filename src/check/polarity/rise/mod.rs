@@ -12,7 +12,7 @@
 //! and τ come from the Gauss–Newton normal matrix.
 
 use super::warning::PolarityWarning;
-use nalgebra::{DMatrix, DVector, Matrix3, Vector3};
+use nalgebra::{DMatrix, Matrix3, Vector3};
 
 use super::passes::FitContext;
 use crate::fit::linear::LinearFit;
@@ -137,8 +137,11 @@ fn edge_ss(e: &Edge, lag: f64, tau: f64) -> f64 {
         .sum()
 }
 
+mod refine;
 #[cfg(test)]
 mod tests;
+
+use refine::gauss_newton;
 
 /// What [`fit_rise`] needs: the first fit (commands held from the rows `rows`, at the
 /// lag `lag0_s` of the cross-correlation) and the sampling.
@@ -247,44 +250,129 @@ fn plateau_middle(lags: &[f64], totals: &[f64]) -> f64 {
 /// otherwise the column's response is a step (τ = 0), as are those of columns below the
 /// SNR threshold or without an edge window. Warnings name limits that were reached.
 pub(super) fn fit_rise(inp: &RiseInput, warnings: &mut Vec<PolarityWarning>) -> RiseFit {
-    let nc = inp.ctx.columns.len();
-    let dt = inp.dt_s;
-    let tau_max = (0.1 * inp.shortest_pulse_s).max(2.0 * dt);
-    let (d_lo, d_hi) = (inp.lag0_s - 3.0 * dt, inp.lag0_s + 1.5 * dt);
-    let resid = inp.ctx.residuals(inp.fit, inp.rows);
-    let active: Vec<usize> = (0..nc).filter(|&c| inp.snr(c) >= inp.snr_min).collect();
-    let coarse: Vec<Edge> = active
-        .iter()
-        .flat_map(|&c| inp.windows(c, &resid, d_lo, d_hi + 4.0 * tau_max, COARSE_EDGES))
-        .collect();
-    let lags: Vec<f64> = (0..=18).map(|k| d_lo + k as f64 * dt / 4.0).collect();
-    let step_fit = |warnings: &mut Vec<PolarityWarning>| {
-        let zero = vec![0.0; nc];
-        let totals: Vec<f64> = lags.iter().map(|&d| total_ss(&coarse, d, &zero)).collect();
-        let lag = if coarse.iter().all(|e| e.rows.is_empty()) {
-            inp.lag0_s
-        } else {
-            plateau_middle(&lags, &totals)
+    let search = RiseSearch::new(inp);
+    let (lag0, mut tau) = search.coarse_grid();
+    // Gauss–Newton refinement of the lag and every τ > 0, on more edges; rises not
+    // fitted at more than 2σ are dropped and the rest refitted.
+    loop {
+        let free: Vec<usize> = search
+            .active
+            .iter()
+            .copied()
+            .filter(|&c| tau[c] > 0.0)
+            .collect();
+        if free.is_empty() {
+            return search.step_fit(warnings);
+        }
+        let fine = search.fine_windows(lag0, &tau);
+        let mut t = tau.clone();
+        let dt = inp.dt_s;
+        let bounds = (lag0 - 1.5 * dt, lag0 + 1.5 * dt);
+        let (lag, cov) = gauss_newton(&fine, &free, lag0, &mut t, bounds, dt / 100.0);
+        let Some(cov) = cov else {
+            return search.step_fit(warnings);
         };
-        warn_lag_edge(lag, &lags, warnings);
+        let weak = weak_rises(&free, &t, &cov);
+        if !weak.is_empty() {
+            weak.iter().for_each(|&c| tau[c] = 0.0);
+            continue;
+        }
+        return search.accept(lag, t, &free, &cov, warnings);
+    }
+}
+
+/// Sampling, limits and edge windows shared by the steps of [`fit_rise`].
+struct RiseSearch<'a> {
+    inp: &'a RiseInput<'a>,
+    /// Residuals of the first fit per sensor axis, nT (NaN where a row has no command).
+    resid: [Vec<f64>; 3],
+    /// Command columns at or above the SNR threshold: the ones whose rise is fitted.
+    active: Vec<usize>,
+    /// Largest τ searched, s: a tenth of the shortest pulse, at least two samples.
+    tau_max: f64,
+    /// Lags of the coarse grid, s: quarter samples from 3 before to 1.5 after the
+    /// cross-correlation's lag.
+    lags: Vec<f64>,
+    /// Edge windows of the active columns for the coarse grid.
+    coarse: Vec<Edge>,
+}
+
+impl<'a> RiseSearch<'a> {
+    /// The first fit's residuals, the active columns, the grid of lags and the coarse
+    /// edge windows.
+    fn new(inp: &'a RiseInput<'a>) -> Self {
+        let nc = inp.ctx.columns.len();
+        let dt = inp.dt_s;
+        let tau_max = (0.1 * inp.shortest_pulse_s).max(2.0 * dt);
+        let (d_lo, d_hi) = (inp.lag0_s - 3.0 * dt, inp.lag0_s + 1.5 * dt);
+        let resid = inp.ctx.residuals(inp.fit, inp.rows);
+        let active: Vec<usize> = (0..nc).filter(|&c| inp.snr(c) >= inp.snr_min).collect();
+        let coarse: Vec<Edge> = active
+            .iter()
+            .flat_map(|&c| inp.windows(c, &resid, d_lo, d_hi + 4.0 * tau_max, COARSE_EDGES))
+            .collect();
+        let lags: Vec<f64> = (0..=18).map(|k| d_lo + k as f64 * dt / 4.0).collect();
+        RiseSearch {
+            inp,
+            resid,
+            active,
+            tau_max,
+            lags,
+            coarse,
+        }
+    }
+
+    /// Every response a step (τ = 0): the lag in the middle of the coarse grid's
+    /// plateau (the cross-correlation's lag without any edge row), its 1σ one sample
+    /// interval over √12.
+    fn step_fit(&self, warnings: &mut Vec<PolarityWarning>) -> RiseFit {
+        let nc = self.inp.ctx.columns.len();
+        let zero = vec![0.0; nc];
+        let totals: Vec<f64> = self
+            .lags
+            .iter()
+            .map(|&d| total_ss(&self.coarse, d, &zero))
+            .collect();
+        let lag = if self.coarse.iter().all(|e| e.rows.is_empty()) {
+            self.inp.lag0_s
+        } else {
+            plateau_middle(&self.lags, &totals)
+        };
+        warn_lag_edge(lag, &self.lags, warnings);
         RiseFit {
             lag_s: lag,
-            lag_sigma_s: dt / 12f64.sqrt(),
+            lag_sigma_s: self.inp.dt_s / 12f64.sqrt(),
             tau_s: zero,
             tau_sigma_s: vec![None; nc],
         }
-    };
-    // Coarse grid: per lag, the best τ of each column on a log grid (and 0).
-    let taus: Vec<f64> = std::iter::once(0.0)
-        .chain((0..10).map(|k| dt / 16.0 * (16.0 * tau_max / dt).powf(k as f64 / 9.0)))
-        .collect();
-    let by_column: Vec<Vec<&Edge>> = (0..nc)
-        .map(|c| coarse.iter().filter(|e| e.column == c).collect())
-        .collect();
-    let best_taus = |lag: f64| -> (f64, Vec<f64>) {
-        let mut best = vec![0.0; nc];
+    }
+
+    /// Coarse grid: per lag, the best τ of each active column on a log grid (and 0);
+    /// returns the lag in the middle of the best plateau, s, and the τ per column
+    /// there, s.
+    fn coarse_grid(&self) -> (f64, Vec<f64>) {
+        let (nc, dt) = (self.inp.ctx.columns.len(), self.inp.dt_s);
+        let taus: Vec<f64> = std::iter::once(0.0)
+            .chain((0..10).map(|k| dt / 16.0 * (16.0 * self.tau_max / dt).powf(k as f64 / 9.0)))
+            .collect();
+        let by_column: Vec<Vec<&Edge>> = (0..nc)
+            .map(|c| self.coarse.iter().filter(|e| e.column == c).collect())
+            .collect();
+        let totals: Vec<f64> = self
+            .lags
+            .iter()
+            .map(|&d| self.best_taus(&by_column, &taus, d).0)
+            .collect();
+        let lag0 = plateau_middle(&self.lags, &totals);
+        (lag0, self.best_taus(&by_column, &taus, lag0).1)
+    }
+
+    /// At one lag (s), each active column's τ from `taus` with the smallest χ² over its
+    /// edges `by_column[c]`: (the sum of those χ², τ per column).
+    fn best_taus(&self, by_column: &[Vec<&Edge>], taus: &[f64], lag: f64) -> (f64, Vec<f64>) {
+        let mut best = vec![0.0; by_column.len()];
         let mut total = 0.0;
-        for &c in &active {
+        for &c in &self.active {
             let (ss, t) = taus
                 .iter()
                 .map(|&t| {
@@ -298,57 +386,61 @@ pub(super) fn fit_rise(inp: &RiseInput, warnings: &mut Vec<PolarityWarning>) -> 
             total += ss;
         }
         (total, best)
-    };
-    let totals: Vec<f64> = lags.iter().map(|&d| best_taus(d).0).collect();
-    let lag0 = plateau_middle(&lags, &totals);
-    let mut tau = best_taus(lag0).1;
-    // Gauss–Newton refinement of the lag and every τ > 0, on more edges; rises not
-    // fitted at more than 2σ are dropped and the rest refitted.
-    loop {
-        let free: Vec<usize> = active.iter().copied().filter(|&c| tau[c] > 0.0).collect();
-        if free.is_empty() {
-            return step_fit(warnings);
-        }
-        let fine: Vec<Edge> = active
+    }
+
+    /// Edge windows of the active columns for the refinement around the lag `lag0`
+    /// (s): from 1.5 samples before it to ten rise times (capped at `tau_max`) after.
+    fn fine_windows(&self, lag0: f64, tau: &[f64]) -> Vec<Edge> {
+        let dt = self.inp.dt_s;
+        self.active
             .iter()
             .flat_map(|&c| {
-                let hi = lag0 + 1.5 * dt + 10.0 * (2.0 * tau[c]).min(tau_max);
-                inp.windows(c, &resid, lag0 - 1.5 * dt, hi, FINE_EDGES)
+                let hi = lag0 + 1.5 * dt + 10.0 * (2.0 * tau[c]).min(self.tau_max);
+                self.inp
+                    .windows(c, &self.resid, lag0 - 1.5 * dt, hi, FINE_EDGES)
             })
-            .collect();
-        let mut t = tau.clone();
-        let bounds = (lag0 - 1.5 * dt, lag0 + 1.5 * dt);
-        let (lag, cov) = gauss_newton(&fine, &free, lag0, &mut t, bounds, dt / 100.0);
-        let Some(cov) = cov else {
-            return step_fit(warnings);
-        };
+            .collect()
+    }
+
+    /// The refined fit: the lag and its 1σ (s), every τ (s) with the 1σ of the `free`
+    /// ones from `cov` (parameter order: lag, then `free`); warns of a τ at its limit.
+    fn accept(
+        &self,
+        lag: f64,
+        tau_s: Vec<f64>,
+        free: &[usize],
+        cov: &DMatrix<f64>,
+        warnings: &mut Vec<PolarityWarning>,
+    ) -> RiseFit {
         let sigma = |k: usize| cov[(k, k)].max(0.0).sqrt();
-        let weak: Vec<usize> = (0..free.len())
-            .filter(|&k| t[free[k]] <= 2.0 * sigma(k + 1))
-            .map(|k| free[k])
-            .collect();
-        if !weak.is_empty() {
-            weak.iter().for_each(|&c| tau[c] = 0.0);
-            continue;
-        }
-        let mut tau_sigma_s = vec![None; nc];
+        let mut tau_sigma_s = vec![None; self.inp.ctx.columns.len()];
         for (k, &c) in free.iter().enumerate() {
             tau_sigma_s[c] = Some(sigma(k + 1));
-            if t[c] >= 0.99 * tau_max {
+            if tau_s[c] >= 0.99 * self.tau_max {
                 warnings.push(PolarityWarning::RiseAtLimit {
-                    column: inp.ctx.names[c].clone(),
-                    tau_max_s: tau_max,
+                    column: self.inp.ctx.names[c].clone(),
+                    tau_max_s: self.tau_max,
                 });
             }
         }
-        warn_lag_edge(lag, &lags, warnings);
-        return RiseFit {
+        warn_lag_edge(lag, &self.lags, warnings);
+        RiseFit {
             lag_s: lag,
             lag_sigma_s: sigma(0),
-            tau_s: t,
+            tau_s,
             tau_sigma_s,
-        };
+        }
     }
+}
+
+/// The `free` columns whose fitted τ (`tau`, s) is not more than twice its 1σ from
+/// `cov` (parameter order: lag, then `free`).
+fn weak_rises(free: &[usize], tau: &[f64], cov: &DMatrix<f64>) -> Vec<usize> {
+    let sigma = |k: usize| cov[(k, k)].max(0.0).sqrt();
+    (0..free.len())
+        .filter(|&k| tau[free[k]] <= 2.0 * sigma(k + 1))
+        .map(|k| free[k])
+        .collect()
 }
 
 /// Warn when the delay lies at an end of the lags searched.
@@ -361,85 +453,4 @@ fn warn_lag_edge(lag: f64, lags: &[f64], warnings: &mut Vec<PolarityWarning>) {
             hi_s: hi,
         });
     }
-}
-
-/// Levenberg–Marquardt on θ = (lag, τ of the `free` columns) within the lag bounds and
-/// τ ≥ `tau_min`; returns the lag and the covariance of θ, (JᵀWJ)⁻¹ scaled by the
-/// reduced χ² when it exceeds 1 (`None` when singular).
-fn gauss_newton(
-    edges: &[Edge],
-    free: &[usize],
-    lag0: f64,
-    tau: &mut [f64],
-    lag_bounds: (f64, f64),
-    tau_min: f64,
-) -> (f64, Option<DMatrix<f64>>) {
-    let np = 1 + free.len();
-    let slot = |c: usize| free.iter().position(|&f| f == c).map(|k| k + 1);
-    // Gradient and JᵀWJ of the χ² at (lag, tau).
-    let normal = |lag: f64, tau: &[f64]| {
-        let mut grad = DVector::zeros(np);
-        let mut jtj = DMatrix::zeros(np, np);
-        for e in edges {
-            let k = slot(e.column);
-            for &(s0, p, _) in &e.rows {
-                let (h, dl, dt) = step(s0 - lag, tau[e.column]);
-                let r = 2.0 * (h * e.g - p);
-                grad[0] += dl * r;
-                jtj[(0, 0)] += dl * dl * e.g;
-                if let Some(k) = k {
-                    grad[k] += dt * r;
-                    jtj[(0, k)] += dl * dt * e.g;
-                    jtj[(k, k)] += dt * dt * e.g;
-                }
-            }
-        }
-        for k in 1..np {
-            jtj[(k, 0)] = jtj[(0, k)];
-        }
-        (grad, jtj)
-    };
-    let mut lag = lag0;
-    let mut ss = total_ss(edges, lag, tau);
-    let mut lambda = 1e-3;
-    for _ in 0..30 {
-        let (grad, jtj) = normal(lag, tau);
-        let mut improved = false;
-        for _ in 0..12 {
-            let mut a = jtj.clone();
-            for q in 0..np {
-                a[(q, q)] *= 1.0 + lambda;
-                a[(q, q)] += 1e-300;
-            }
-            let Some(delta) = a.cholesky().map(|ch| ch.solve(&(-&grad * 0.5))) else {
-                lambda *= 10.0;
-                continue;
-            };
-            let lag_new = (lag + delta[0]).clamp(lag_bounds.0, lag_bounds.1);
-            let mut tau_new = tau.to_vec();
-            for (k, &c) in free.iter().enumerate() {
-                tau_new[c] = (tau[c] + delta[k + 1]).max(tau_min);
-            }
-            let ss_new = total_ss(edges, lag_new, &tau_new);
-            if ss_new <= ss {
-                let done = ss - ss_new <= 1e-6; // χ² units: nothing in statistical terms
-                lag = lag_new;
-                tau.copy_from_slice(&tau_new);
-                ss = ss_new;
-                lambda = (lambda / 10.0).max(1e-9);
-                improved = !done;
-                break;
-            }
-            lambda *= 10.0;
-        }
-        if !improved {
-            break;
-        }
-    }
-    let (_, jtj) = normal(lag, tau);
-    let rows: usize = edges.iter().map(|e| e.rows.len()).sum();
-    let dof = (3 * rows).saturating_sub(np).max(1);
-    let chi2_red = (ss / dof as f64).max(1.0);
-    let cov = jtj.try_inverse().map(|m| m * chi2_red);
-    (lag, cov)
 }

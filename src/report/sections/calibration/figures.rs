@@ -89,20 +89,38 @@ fn projection_figures(r: &CalibrationResult) -> Result<Vec<Figure>, Error> {
         }
         figs.push(figure(
             &format!("calibration-raw-{name}.svg"),
-            &format!(
-                "Raw readings (sensor frame) seen along {}. For a tumble the points fill the \
-                 outline of the fitted ellipsoid; offset of its centre = hard iron.",
-                AXES[3 - i - j]
-            ),
+            &if tumble {
+                format!(
+                    "Raw readings (sensor frame) seen along {}. The points fill the outline \
+                     of the fitted ellipsoid; offset of its centre = hard iron.",
+                    AXES[3 - i - j]
+                )
+            } else {
+                format!(
+                    "Raw readings (sensor frame) seen along {} during the cage sweep: one \
+                     cluster per applied field, spread as the coils drove it, shifted by the \
+                     hard iron and turned by the mounting.",
+                    AXES[3 - i - j]
+                )
+            },
             draw_xy(&raw_plot)?,
         ));
         figs.push(figure(
             &format!("calibration-{name}.svg"),
-            &format!(
-                "Corrected field W(b − hard iron) ({} frame). For a tumble the points fill \
-                 a disc centred on the origin whose edge is the reference circle.",
-                r.soft_iron_frame
-            ),
+            &if tumble {
+                format!(
+                    "Corrected field W(b − hard iron) ({} frame). The points fill a disc \
+                     centred on the origin whose edge is the reference circle.",
+                    r.soft_iron_frame
+                )
+            } else {
+                format!(
+                    "Corrected field W(b − hard iron) ({} frame) of the cage sweep: each \
+                     cluster should sit on the field the coils applied; a cluster off its \
+                     place is a coil or logging fault, not a calibration error.",
+                    r.soft_iron_frame
+                )
+            },
             draw_xy(&cor_plot)?,
         ));
     }
@@ -211,7 +229,7 @@ fn residual_abscissa(d: &CalibrationData) -> (&'static str, Vec<f64>) {
     match &d.t_s {
         Some(t) if t.len() == d.residuals_nt.len() => ("time [s]", t.clone()),
         _ => (
-            "sample index",
+            "sample [index in the log]",
             (0..d.residuals_nt.len()).map(|k| k as f64).collect(),
         ),
     }
@@ -261,8 +279,14 @@ fn coverage_figure(r: &CalibrationResult) -> Result<Figure, Error> {
     cov.size = (620, 340);
     Ok(figure(
         "calibration-coverage.svg",
-        "Direction of each corrected sample as longitude and latitude (corrected frame). \
-         Empty regions were not visited; a tumble should spread over the whole map.",
+        if r.method == Method::Tumble {
+            "Direction of each corrected sample as longitude and latitude (corrected frame). \
+             Empty regions were not visited; a tumble should spread over the whole map."
+        } else {
+            "Direction of each corrected sample as longitude and latitude (corrected frame): \
+             for a cage sweep, the directions the coils applied. They need not cover the map; \
+             the design-condition gate judges whether they span all three axes."
+        },
         draw_xy(&cov)?,
     ))
 }

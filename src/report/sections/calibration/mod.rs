@@ -55,6 +55,15 @@ fn calibration_figures_of_merit(r: &CalibrationResult) -> Vec<(String, String)> 
         "residual RMS".into(),
         pm(r.residual_rms_nt, Some(rms_sd), "nT"),
     ));
+    if let Some((deg, sd)) = direction_error_deg(r) {
+        fom.push((
+            "as a direction error".into(),
+            format!(
+                "{} (a residual across the field tilts the measured direction)",
+                pm(deg, Some(sd), "°").replace(" °", "°")
+            ),
+        ));
+    }
     if let Some(s) = r.robust_sigma_nt {
         fom.push(("robust noise σ".into(), format!("{} nT", short(s))));
     }
@@ -189,6 +198,20 @@ fn calibration_notes(r: &CalibrationResult) -> Vec<String> {
     notes
 }
 
+/// The residual RMS as the error in the field's direction it can cause, deg, with its
+/// 1σ: a residual of r nT across a field of |B| nT turns the measured direction by
+/// atan(r / |B|) (a magnetometer-based attitude or heading estimate inherits it). |B| is
+/// the reference magnitude of a tumble or the mean applied field of a cage sweep.
+fn direction_error_deg(r: &CalibrationResult) -> Option<(f64, f64)> {
+    let b = r
+        .reference_nt
+        .or_else(|| r.cage.as_ref().map(|c| c.applied_mean_nt))
+        .filter(|b| *b > 0.0)?;
+    let deg = (r.residual_rms_nt / b).atan().to_degrees();
+    let sd = (r.residual_rms_sigma_nt / b).to_degrees();
+    Some((deg, sd))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -250,5 +273,15 @@ mod tests {
         assert_eq!(s.verdict, Verdict::Pass);
         assert_eq!(s.tables[0].rows.len(), r.gates.len());
         assert!(s.tables[0].rows.iter().all(|row| row[3].text == "met"));
+    }
+
+    #[test]
+    fn the_residual_reads_as_a_direction_error() {
+        // Hand computation: atan(150 / 48 000) = 0.003 125 rad (to 3·10⁻⁸) = 0.179 05°.
+        let mut r = tumble_result();
+        r.reference_nt = Some(48_000.0);
+        r.residual_rms_nt = 150.0;
+        let (deg, _) = direction_error_deg(&r).unwrap();
+        assert!((deg - 0.179_05).abs() < 1e-4, "{deg}");
     }
 }
