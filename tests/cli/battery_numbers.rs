@@ -106,6 +106,11 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["0", "2e12"],
     ),
     (
+        "--misalign-deg",
+        &["simulate", "align", "--seed", "1", "--out", "sim"],
+        &["1,2", "1,nan,3", "0,0,90"],
+    ),
+    (
         "--lag-s",
         &["simulate", "polarity", "--seed", "1", "--out", "sim"],
         &["-0.1", "61"],
@@ -131,6 +136,8 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
 /// command: with [`FLAGS`] they must cover every flag `--help` lists with a value.
 const NOT_NUMBERS: &[&str] = &[
     "--plan",
+    "--calibration",
+    "--axis-fault",
     "--params-out",
     "--robust",
     "--unit",

@@ -56,14 +56,8 @@ pub fn run_align(req: &AlignRequest) -> Result<AlignResult, Error> {
         .map(AlignWarning::Input)
         .collect();
     let (samples, used_mounts) = samples(req, test, &mut warnings)?;
-    let calibration = req.options.calibration.as_ref();
-    if calibration.is_none() {
-        warnings.push(AlignWarning::HardIronFitted);
-    }
-    if used_mounts.len() == 1 {
-        warnings.push(AlignWarning::OneMount);
-    }
-    let fit = fit_alignment(&samples, calibration.is_none())?;
+    let fit_hard_iron = req.options.calibration.is_none();
+    let fit = fit_alignment(&samples, fit_hard_iron)?;
     let planned = plan
         .magnetometer
         .as_ref()
@@ -207,7 +201,8 @@ fn gates(
 }
 
 /// The readings as fit samples: the field (calibration applied), each row's mount
-/// rotation and heading; rows flagged saturated are left out, headings checked.
+/// rotation and heading; rows flagged saturated are left out; headings, mounts and the
+/// hard-iron choice warned about.
 fn samples(
     req: &AlignRequest,
     test: &AlignTest,
@@ -270,6 +265,12 @@ fn samples(
                 headings: n,
             });
         }
+    }
+    if req.options.calibration.is_none() {
+        warnings.push(AlignWarning::HardIronFitted);
+    }
+    if per_mount.len() == 1 {
+        warnings.push(AlignWarning::OneMount);
     }
     Ok((out, per_mount.into_iter().map(|(l, _)| l).collect()))
 }
