@@ -38,6 +38,8 @@ mod history;
 mod input;
 #[path = "cli/log_forms.rs"]
 mod log_forms;
+#[path = "cli/orbit.rs"]
+mod orbit;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]
@@ -46,6 +48,8 @@ mod reliability;
 mod report;
 #[path = "cli/report_units.rs"]
 mod report_units;
+#[path = "cli/rod.rs"]
+mod rod;
 #[path = "cli/sensors.rs"]
 mod sensors;
 #[path = "cli/simulate.rs"]

@@ -256,6 +256,18 @@ fn demo_force_starts_its_ledger_afresh_with_no_stale_side_files() {
     let ledger = Ledger::open_existing(&db).unwrap();
     ledger.check_integrity().unwrap();
     let runs = ledger.runs(&RunFilter::default()).unwrap();
-    assert_eq!(runs.len(), 9, "three builds of three steps");
-    assert!(runs.iter().all(|r| r.serial == "TMR-0207"));
+    assert_eq!(
+        runs.len(),
+        13,
+        "three builds of three steps, the on-orbit pass, three rods on the bench"
+    );
+    let vehicle = runs.iter().filter(|r| r.serial == "TMR-0207").count();
+    assert_eq!(
+        vehicle, 10,
+        "three builds of three steps, then the on-orbit pass"
+    );
+    assert!(runs
+        .iter()
+        .filter(|r| r.serial != "TMR-0207")
+        .all(|r| r.serial.starts_with("TMR-TR-") && r.build == "R-2602"));
 }

@@ -91,6 +91,8 @@ pub fn specs() -> &'static [CheckSpec] {
             super::polarity::seam::SPEC,
             super::dipole::seam::SPEC,
             super::align::seam::SPEC,
+            super::rod::seam::SPEC,
+            super::orbit::seam::SPEC,
         ];
         #[cfg(test)]
         specs.push(super::dummy::SPEC);

@@ -17,8 +17,10 @@ pub mod flight_part;
 pub mod input;
 mod input_forms;
 pub mod kind;
+pub mod orbit;
 pub mod outcome;
 pub mod polarity;
+pub mod rod;
 pub mod units_sense;
 
 pub use flight_part::FlightPart;

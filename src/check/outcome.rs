@@ -198,6 +198,11 @@ pub trait CheckResult: fmt::Debug + Send + Sync {
     fn sections(&self) -> Result<Vec<Section>, Error>;
     /// The result as a JSON object (the check's documented keys).
     fn json(&self) -> Result<serde_json::Value, Error>;
+    /// The serial and build the ledger files the run under when they are not the plan's
+    /// `[article]` (a rod on the bench: the rod's serial and batch); `None` for the plan's.
+    fn ledger_identity(&self) -> Option<(String, String)> {
+        None
+    }
     /// What the result gives the flight parameters, if anything (most checks: nothing).
     fn flight_part(&self) -> Option<super::FlightPart<'_>> {
         None

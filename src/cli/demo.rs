@@ -49,6 +49,14 @@ const SAMPLE_FILES: &[(&str, &str)] = embedded![
     "tmr-0207-b3/tumble.csv",
     "tmr-0207-b3/rod-pulses.csv",
     "tmr-0207-b3/turntable.csv",
+    "rods/tmr-tr-x/plan.toml",
+    "rods/tmr-tr-x/rod.csv",
+    "rods/tmr-tr-y/plan.toml",
+    "rods/tmr-tr-y/rod.csv",
+    "rods/tmr-tr-z/plan.toml",
+    "rods/tmr-tr-z/rod.csv",
+    "tmr-0207-orbit/plan.toml",
+    "tmr-0207-orbit/telemetry.csv",
 ];
 
 /// The builds' folders, in the order they are closed out.
@@ -91,6 +99,31 @@ fn build_summary(result: &CloseoutResult) -> String {
     s
 }
 
+/// The rod batch on the bench (sample-logs/rods/: one plan per rod, filed under the
+/// rod's serial): close each out into the same ledger and write its report; returns the
+/// report folders.
+fn close_out_rods(out: &Path, samples: &Path, ledger_path: &Path) -> anyhow::Result<Vec<PathBuf>> {
+    use magproof::sim::scenario_rods::{BATCH, ROD_FOLDERS};
+    outln!("\nThe vehicle's torque rods on the bench before integration (batch {BATCH}):")?;
+    let mut reports = Vec::new();
+    for folder in ROD_FOLDERS {
+        let plan = samples.join(folder).join("plan.toml");
+        let (result, recorded) = run_and_record(&plan, Some(ledger_path), false, |_| Ok(()))?;
+        out!("{}", build_summary(&result))?;
+        let dir = out.join("reports").join(folder);
+        std::fs::create_dir_all(out.join("reports").join("rods"))
+            .map_err(|e| Error::io(&dir, e))?;
+        let report = closeout_report(&result)?;
+        magproof::report::write_report_dir(&dir, true, &report)?;
+        let text = render(&report, &Style::plain()) + &verdict_lines(&result, recorded.as_ref());
+        write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
+        let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
+        write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
+        reports.push(dir);
+    }
+    Ok(reports)
+}
+
 /// The flight parameters of a passing build, in `OUT/flight-params/<build>/` (what
 /// `closeout --params-out` writes); `None` for a build that did not pass.
 fn demo_flight_params(
@@ -127,7 +160,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         .map_err(|e| Error::io(&ledger_path, e))?;
 
     outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
-    outln!("builds closed out in order into a fresh ledger. All data are simulated.\n")?;
+    outln!("builds closed out in order into a fresh ledger, then a calibration from its")?;
+    outln!("telemetry on orbit. All data are simulated.\n")?;
     let mut reports = Vec::new();
     let mut flight = Vec::new();
     for folder in BUILDS {
@@ -146,6 +180,16 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         flight.push(demo_flight_params(&result, &report, &out, folder)?);
         reports.push(dir);
     }
+    reports.extend(close_out_rods(&out, &samples, &ledger_path)?);
+    // After B3, the on-orbit pass, compared with B3's ground calibration.
+    let (summary, dir) = super::demo_orbit::orbit_pass(
+        &samples,
+        magproof::sim::scenario::ORBIT_FOLDER,
+        &ledger_path,
+        &out.join("reports"),
+    )?;
+    out!("{summary}")?;
+    reports.push(dir);
 
     let ledger = Ledger::open_existing(&ledger_path).map_err(Error::from)?;
     let runs = ledger.runs(&RunFilter::default()).map_err(Error::from)?;

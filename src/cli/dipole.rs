@@ -10,7 +10,7 @@ use super::common::load_plan;
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
-use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition, DEFAULT_ALTITUDE_KM};
+use magproof::check::dipole::{run_dipole, DipoleOptions, DipolePosition};
 use magproof::check::CheckRequest;
 
 /// Flags of `magproof dipole`.
@@ -22,10 +22,12 @@ pub struct Args {
     /// Test plan (TOML) with [dipole_test] mounts (and the probe position for a turntable).
     #[arg(long)]
     plan: PathBuf,
-    /// Orbit altitude for the disturbance torque, km.
-    #[arg(long, default_value_t = DEFAULT_ALTITUDE_KM, value_name = "KM", value_parser = |s: &str| number(s, ALTITUDE_KM), allow_hyphen_values = true)]
-    altitude_km: f64,
-    /// Orbit inclination, deg [default: 97.4, sun-synchronous; the result says so].
+    /// Orbit altitude for the disturbance torque, km [default: the plan's [orbit]
+    /// altitude_km, else 500].
+    #[arg(long, value_name = "KM", value_parser = |s: &str| number(s, ALTITUDE_KM), allow_hyphen_values = true)]
+    altitude_km: Option<f64>,
+    /// Orbit inclination, deg [default: the plan's [orbit] inclination_deg, else 97.4,
+    /// sun-synchronous; the result says so].
     #[arg(long, value_name = "DEG", value_parser = |s: &str| number(s, INCLINATION_DEG), allow_hyphen_values = true)]
     inclination_deg: Option<f64>,
     /// Fit the dipole's position as well (three more unknowns) instead of placing it at
@@ -53,9 +55,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let plan = load_plan(&args.plan, args.sensor.sensor.as_deref())?;
     // The map is taken with an external probe: the magnetometer's range does not apply.
     let input = read_input(&args.log, Some(&plan), &args.input, false)?;
+    let from_plan = DipoleOptions::for_plan(&plan);
     let options = DipoleOptions {
-        altitude_km: args.altitude_km,
-        inclination_deg: args.inclination_deg,
+        altitude_km: args.altitude_km.unwrap_or(from_plan.altitude_km),
+        inclination_deg: args.inclination_deg.or(from_plan.inclination_deg),
         position: if args.fit_offset {
             DipolePosition::Fitted
         } else {

@@ -28,16 +28,19 @@ mod calibrate;
 mod closeout;
 mod common;
 mod demo;
+mod demo_orbit;
 mod dipole;
 mod field;
 mod flight_out;
 mod history;
 mod inspect;
 mod numeric;
+mod orbit;
 mod polarity;
 mod present;
 mod record;
 mod report_out;
+mod rod;
 mod simulate;
 mod simulate_align;
 
@@ -74,8 +77,12 @@ enum Command {
     Dipole(dipole::Args),
     /// Check every torque rod's polarity and coupling from a pulse log.
     Polarity(polarity::Args),
+    /// A torque rod on the bench: moment per ampere, linearity, remanence, polarity.
+    Rod(rod::Args),
     /// Calibrate the magnetometer: cage fit if the log has hx hy hz, else tumble fit.
     Calibrate(calibrate::Args),
+    /// Calibrate the magnetometer from on-orbit telemetry against IGRF-14 along the orbit.
+    Orbit(orbit::Args),
     /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
     Simulate(Box<simulate::Args>),
     /// The whole closeout of the bundled, invented demo scenario (three builds), from any folder.
@@ -93,7 +100,9 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Align(args) => align::run(args),
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
+        Command::Rod(args) => rod::run(args),
         Command::Calibrate(args) => calibrate::run(args),
+        Command::Orbit(args) => orbit::run(args),
         Command::Simulate(args) => simulate::run(*args),
         Command::Demo(args) => demo::run(args),
     }

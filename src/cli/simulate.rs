@@ -1,4 +1,4 @@
-//! `magproof simulate tumble|cage|polarity|dipole --seed N --out DIR [options]`: a
+//! `magproof simulate tumble|cage|polarity|dipole|rod|orbit --seed N --out DIR [options]`: a
 //! synthetic log, a matching plan and the truth behind them (JSON), from the simulators
 //! in `magproof::sim`, so that a check can be rehearsed and its answer compared with the
 //! truth. Files are written atomically; an existing non-empty DIR needs `--force`.
@@ -14,6 +14,7 @@ use super::numeric::{count, number, numbers, vector3, Domain, FIELD_NT};
 use magproof::report::atomic::write_atomic;
 use magproof::sim::dipole::{simulate_static, simulate_turntable, StaticConfig, TurntableConfig};
 use magproof::sim::polarity::{simulate_polarity, PolarityConfig};
+use magproof::sim::rod::{simulate_rod_bench, RodBenchConfig};
 use magproof::sim::{
     simulate_cage, simulate_tumble, write_cage_csv, write_tumble_csv, CageConfig, SimCoverage,
     TumbleConfig,
@@ -33,6 +34,21 @@ enum Kind {
     Dipole,
     /// A turntable alignment run (sensor axes against the body frame).
     Align,
+    /// A torque rod on the bench (finite rod with saturation and hysteresis).
+    Rod,
+    /// On-orbit telemetry from a two-line element set, with regressors and a tumble.
+    Orbit,
+}
+
+/// How an orbit log gives positions.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+enum PositionsArg {
+    /// None: the plan's [orbit] tle is propagated.
+    Tle,
+    /// Earth-fixed rx ry rz, km.
+    Ecef,
+    /// Geodetic lat lon alt.
+    Geodetic,
 }
 
 /// Directions a tumble visits.
@@ -94,7 +110,8 @@ pub struct Args {
     /// Tumble: reference field magnitude, nT (written to the plan's [site]).
     #[arg(long, value_name = "NT", value_parser = |s: &str| number(s, FIELD_NT), allow_hyphen_values = true)]
     reference_nt: Option<f64>,
-    /// Polarity: a rod (x, y or z) wired backwards; repeatable.
+    /// Polarity: a rod (x, y or z) wired backwards; repeatable. Rod: any name winds the
+    /// bench rod backwards.
     #[arg(long, value_name = "ROD")]
     reverse: Vec<String>,
     /// Polarity: two rods whose command lines are swapped: A,B.
@@ -114,9 +131,16 @@ pub struct Args {
     /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
     mounts: Option<u8>,
+    /// Rod: half-width of the hysteresis play, A (the remanence is the moment there);
+    /// 0 to 0.05 A.
+    #[arg(long, value_name = "A", value_parser = |s: &str| number(s, Domain::closed(0.0, 0.05, "A")), allow_hyphen_values = true)]
+    hysteresis_a: Option<f64>,
     /// Dipole: turntable run or static map.
     #[arg(long, value_enum, default_value = "turntable")]
     method: DipoleMethodArg,
+    /// Orbit: how the log gives positions.
+    #[arg(long, value_enum, default_value = "tle")]
+    positions: PositionsArg,
 }
 
 /// `--noise-nt`, 1σ per axis.
@@ -179,6 +203,8 @@ fn simulate(args: &Args) -> Result<Vec<SimFile>, Error> {
             args.hard_iron_nt,
             args.mounts,
         ),
+        Kind::Rod => rod_files(args),
+        Kind::Orbit => orbit_files(args),
     }
 }
 
@@ -346,6 +372,62 @@ fn dipole_files(args: &Args) -> Result<Vec<SimFile>, Error> {
         (log.clone(), sim.log_csv.clone()),
         ("plan.toml".into(), sim.plan_toml.clone()),
         ("truth.json".into(), truth_json("dipole", &log, &sim.truth)?),
+    ])
+}
+
+/// A rod bench log, its plan and the truth; `--reverse` (any name) winds it backwards,
+/// `--hysteresis-a` sets the hysteresis.
+fn rod_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    let mut cfg = RodBenchConfig::default();
+    set(&mut cfg.noise_nt, args.noise_nt);
+    set(&mut cfg.drift_nt_per_s, args.drift_nt_per_s);
+    set(&mut cfg.play_a, args.hysteresis_a);
+    if !args.reverse.is_empty() {
+        cfg.moment_per_amp = -cfg.moment_per_amp;
+    }
+    let sim = simulate_rod_bench(&cfg, args.seed)?;
+    Ok(vec![
+        ("rod.csv".into(), sim.csv),
+        ("plan.toml".into(), sim.plan_toml),
+        (
+            "truth.json".into(),
+            truth_json("rod", "rod.csv", &sim.truth)?,
+        ),
+    ])
+}
+
+/// On-orbit telemetry (1 Hz, 6000 samples unless --samples), its plan with the element
+/// set, and the truth.
+fn orbit_files(args: &Args) -> Result<Vec<SimFile>, Error> {
+    use magproof::sim::orbit::{simulate_orbit, OrbitSimConfig, SimPositions};
+    let mut cfg = OrbitSimConfig {
+        positions: match args.positions {
+            PositionsArg::Tle => SimPositions::Tle,
+            PositionsArg::Ecef => SimPositions::Ecef,
+            PositionsArg::Geodetic => SimPositions::Geodetic,
+        },
+        ..OrbitSimConfig::default()
+    };
+    set(&mut cfg.samples, args.samples);
+    set(&mut cfg.noise_nt, args.noise_nt);
+    set(&mut cfg.hard_iron_nt, args.hard_iron_nt);
+    set(&mut cfg.soft_iron, args.soft_iron());
+    if cfg.samples < 200 {
+        return Err(Error::Usage("orbit: --samples must be at least 200".into()));
+    }
+    let sim = simulate_orbit(&cfg, args.seed)?;
+    let plan = format!(
+        "{}{}\n[[step]]\nkind = \"orbit\"\nlog = \"orbit.csv\"\n",
+        plan_head(args, "orbit"),
+        sim.plan_orbit
+    );
+    Ok(vec![
+        ("orbit.csv".into(), sim.csv.clone()),
+        ("plan.toml".into(), plan),
+        (
+            "truth.json".into(),
+            truth_json("orbit", "orbit.csv", &sim.truth)?,
+        ),
     ])
 }
 

@@ -10,6 +10,7 @@ pub mod dipole;
 pub mod ellipsoid;
 pub mod linear;
 pub mod lm;
+pub mod orbit;
 pub mod robust;
 pub mod samples;
 pub mod tumble;

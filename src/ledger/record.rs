@@ -164,12 +164,16 @@ impl NewRun {
         log: (&Path, &str),
         options: serde_json::Value,
     ) -> Result<Self, LedgerError> {
-        let article = plan
-            .article
-            .as_ref()
-            .ok_or_else(|| LedgerError::NoArticle {
-                plan: Shown(plan.path.clone()),
-            })?;
+        let (serial, build) = match result.ledger_identity() {
+            Some(id) => id,
+            None => plan
+                .article
+                .as_ref()
+                .map(|a| (a.serial.clone(), a.build.clone()))
+                .ok_or_else(|| LedgerError::NoArticle {
+                    plan: Shown(plan.path.clone()),
+                })?,
+        };
         let json = result
             .json()
             .map_err(|e| LedgerError::InvalidRun(format!("result is not JSON: {e}")))?;
@@ -185,8 +189,8 @@ impl NewRun {
             }
         }
         Ok(NewRun {
-            serial: article.serial.clone(),
-            build: article.build.clone(),
+            serial,
+            build,
             kind: result.kind(),
             inputs: vec![
                 InputFile::hashed(InputRole::Log, log.0, log.1),

@@ -170,6 +170,7 @@ impl ColumnsBuilder {
         );
         log.gyro_rad_s = triple(take(&K::Gyro(0)), take(&K::Gyro(1)), take(&K::Gyro(2)));
         log.temp_c = take(&K::Temperature);
+        log.current_a = take(&K::RodCurrent);
         log.angle_rad = take(&K::Angle);
         for (k, col) in header.columns.iter().enumerate() {
             if let ColumnKind::Command(rod) = &col.kind {

@@ -49,8 +49,10 @@ pub enum ColumnKind {
     Command(String),
     /// `angle`: turntable angle.
     Angle,
-    /// `mount`: mounting label.
+    /// `mount`: mounting label (also `position`: a probe station's label on a rod bench).
     Mount,
+    /// `i` (or `current`): a torque rod's current on the bench, A.
+    RodCurrent,
     /// `px`, `py`, `pz`: probe position, table frame.
     Probe(usize),
     /// Anything else: listed once as ignored.
@@ -93,6 +95,7 @@ impl ColumnKind {
             ColumnKind::Command(rod) => format!("cmd_{rod}"),
             ColumnKind::Angle => "angle".into(),
             ColumnKind::Mount => "mount".into(),
+            ColumnKind::RodCurrent => "i".into(),
             ColumnKind::Ignored => String::new(),
         }
     }

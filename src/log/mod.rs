@@ -23,12 +23,13 @@ mod row_lines;
 mod row_paths_tests;
 mod sweep;
 mod sweep_log;
+pub mod telemetry;
 pub mod units;
 
 pub use error::{LogError, PlanError, Shown};
 pub use header::parse_iso8601;
 pub use layout::LogLayout;
-pub use plan::{read_plan, Plan};
+pub use plan::{read_plan, Plan, RodBench};
 pub use row_lines::RowLines;
 pub use sweep::{read_sweep, read_sweep_from, read_sweep_with_progress, ReadOptions};
 pub use sweep_log::{CommandColumn, SkippedRow, SweepLog, UsedColumn};

@@ -62,7 +62,8 @@ pub(super) fn builtin_kind(name: &str) -> Option<ColumnKind> {
         "px" | "py" | "pz" => ColumnKind::Probe(axis(name)),
         "temp" => ColumnKind::Temperature,
         "angle" => ColumnKind::Angle,
-        "mount" => ColumnKind::Mount,
+        "mount" | "position" => ColumnKind::Mount,
+        "i" | "current" => ColumnKind::RodCurrent,
         _ => ColumnKind::Command(name.strip_prefix("cmd_")?.to_string()),
     })
 }
@@ -118,7 +119,7 @@ pub(super) fn scale_for(
             }
             field_scale(unit, default_unit)?
         }
-        ColumnKind::Current(_) => match unit {
+        ColumnKind::Current(_) | ColumnKind::RodCurrent => match unit {
             None | Some("A") => 1.0,
             Some("mA") => 1e-3,
             Some(_) => return Err(unknown("current", "A or mA")),

@@ -61,6 +61,8 @@ pub struct SweepLog {
     pub gyro_rad_s: Option<[Vec<f64>; 3]>,
     /// Temperature, °C.
     pub temp_c: Option<Vec<f64>>,
+    /// Rod current on the bench (`i`), A.
+    pub current_a: Option<Vec<f64>>,
     /// Torque-rod commands, one column per rod, in header order.
     pub commands: Vec<CommandColumn>,
     /// Turntable angle, rad (right-handed about the table's +z axis).

@@ -212,7 +212,13 @@ fn check_date(date: Date) -> Result<(), GeomagError> {
 /// the 2025 model plus the secular variation. Refuses dates outside 2015-01-01..2030-01-01.
 pub fn coefficients_on(date: Date) -> Result<GaussCoefficients, GeomagError> {
     check_date(date)?;
-    let t = decimal_year(date);
+    coefficients_at_year(decimal_year(date))
+}
+
+/// IGRF-14 Gauss coefficients at decimal year `t` (as [`coefficients_on`], for an
+/// instant within a day: the secular change reaches about 0.3 nT a day at orbit).
+/// The caller keeps `t` within 2015.0..=2030.0.
+pub fn coefficients_at_year(t: f64) -> Result<GaussCoefficients, GeomagError> {
     let tab = table()?;
     let mut out = GaussCoefficients {
         g: [[0.0; N]; N],

@@ -118,6 +118,7 @@ pub fn without_rows(log: &SweepLog, drop: &[bool]) -> SweepLog {
     out.b_nt = log.b_nt.as_ref().map(pick3);
     out.h_nt = log.h_nt.as_ref().map(pick3);
     out.temp_c = log.temp_c.as_ref().map(|v| pick(v, &keep));
+    out.current_a = log.current_a.as_ref().map(|v| pick(v, &keep));
     for c in &mut out.commands {
         c.values = pick(&c.values, &keep);
     }

@@ -3,6 +3,7 @@
 pub mod align;
 pub mod cage;
 pub mod dipole;
+pub mod orbit;
 pub mod polarity;
 pub mod tumble;
 pub mod workload;
@@ -11,4 +12,6 @@ pub use cage::{simulate_cage, write_cage_csv, CageConfig, CageGrid, CageSim, Cag
 pub use tumble::{
     simulate_tumble, write_tumble_csv, SimCoverage, TumbleConfig, TumbleSim, TumbleTruth,
 };
+pub mod rod;
 pub mod scenario;
+pub mod scenario_rods;

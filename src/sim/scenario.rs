@@ -276,7 +276,57 @@ pub fn sample_files() -> Result<Vec<(String, String)>, Error> {
     for b in builds() {
         out.extend(build_files(&b)?);
     }
+    out.extend(super::scenario_rods::rod_batch_files()?);
+    out.extend(orbit_files()?);
     Ok(out)
+}
+
+/// Folder of the on-orbit pass under `sample-logs/`.
+pub const ORBIT_FOLDER: &str = "tmr-0207-orbit";
+
+/// On orbit, the hard iron moved from B3's by this much (sensor frame, nT): launch loads
+/// shifted the heater bracket's steel insert. Invented, like everything here.
+pub const ORBIT_HARD_IRON_SHIFT_NT: [f64; 3] = [35.0, 310.0, -20.0];
+
+/// Bias per ampere of solar-array current on orbit (sensor frame, nT/A).
+pub const ORBIT_SOLAR_NT_PER_A: [f64; 3] = [-160.0, 240.0, 95.0];
+
+/// The on-orbit pass after B3: 50 minutes of 1 Hz telemetry (no positions: the plan's
+/// element set is propagated), with a solar-array current and the shifted hard iron.
+pub fn orbit_files() -> Result<Vec<(String, String)>, Error> {
+    use crate::sim::orbit::{simulate_orbit, OrbitSimConfig, SimPositions};
+    let b3 = &builds()[2];
+    let cfg = OrbitSimConfig {
+        samples: 3000,
+        hard_iron_nt: b3.hard_iron_nt + Vector3::from(ORBIT_HARD_IRON_SHIFT_NT),
+        soft_iron: Matrix3::new(
+            1.032, 0.012, -0.018, 0.012, 0.975, 0.009, -0.018, 0.009, 1.011,
+        ),
+        solar_nt_per_a: Vector3::from(ORBIT_SOLAR_NT_PER_A),
+        rod_nt_per_command: None,
+        temp_slope_nt_per_c: None,
+        noise_nt: 25.0,
+        positions: SimPositions::Tle,
+        ..OrbitSimConfig::default()
+    };
+    let sim = simulate_orbit(&cfg, 4401)?;
+    let plan = format!(
+        "# On-orbit pass of the invented 3U vehicle \"Tamarin\", serial {SERIAL}, after B3.\n\
+         # 50 minutes of 1 Hz telemetry with the solar-array current; positions from the\n\
+         # element set. Simulated data (magproof's simulators); see ../README.md.\n\n\
+         [article]\nserial = \"{SERIAL}\"\nbuild = \"orbit\"\n\n\
+         [magnetometer]\nsensor_to_body = {}\nposition_m = {}\nunit = \"nT\"\n\n{}\
+         altitude_km = 525.0\ninclination_deg = 97.52\n\n\
+         [[step]]\nkind = \"orbit\"\nlog = \"telemetry.csv\"\n",
+        mat3(&sensor_to_body()),
+        vec3(&sensor_position_m()),
+        sim.plan_orbit
+            .replace("reference_temperature_c = 20.0\n", "")
+    );
+    Ok(vec![
+        (format!("{ORBIT_FOLDER}/plan.toml"), plan),
+        (format!("{ORBIT_FOLDER}/telemetry.csv"), sim.csv),
+    ])
 }
 
 #[cfg(test)]

@@ -58,6 +58,16 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["-1", "181"],
     ),
     ("--lat", &["field", "--lon", "7"], &["90.5", "-91"]),
+    (
+        "--grid-s",
+        &["orbit", "telemetry.csv", "--plan", "plan.toml"],
+        &["-1", "601"],
+    ),
+    (
+        "--range",
+        &["orbit", "telemetry.csv", "--plan", "plan.toml"],
+        &["0"],
+    ),
     ("--lon", &["field", "--lat", "46"], &["361", "-400"]),
     (
         "--alt-m",
@@ -130,11 +140,22 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["simulate", "dipole", "--seed", "1", "--out", "sim"],
         &["0", "3"],
     ),
+    (
+        "--hysteresis-a",
+        &["simulate", "rod", "--seed", "1", "--out", "sim"],
+        &["-0.001", "0.06"],
+    ),
+    (
+        "--range",
+        &["rod", "rod.csv", "--plan", "plan.toml"],
+        &["0"],
+    ),
 ];
 
 /// Flags that take a value that is not a number (paths, names, choices, dates), per
 /// command: with [`FLAGS`] they must cover every flag `--help` lists with a value.
 const NOT_NUMBERS: &[&str] = &[
+    "--positions",
     "--plan",
     "--calibration",
     "--axis-fault",
@@ -159,12 +180,14 @@ const COMMANDS: &[&str] = &[
     "calibrate",
     "polarity",
     "dipole",
+    "rod",
     "closeout",
     "simulate",
     "field",
     "inspect",
     "history",
     "demo",
+    "orbit",
 ];
 
 #[test]

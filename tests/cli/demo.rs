@@ -94,6 +94,30 @@ fn demo_tells_the_three_build_story_and_exits_0() {
         assert_eq!(j["verdict_passed"], true, "{b}");
         assert!(fp.join(b).join("magproof-flight.h").is_file(), "{b}");
     }
+    // On orbit after B3: the solar-current bias and the planted hard-iron change
+    // (35, 310, −20) nT against B3's ground calibration, recovered and flagged.
+    let orbit = json_file(&reports.join("tmr-0207-orbit/result.json"));
+    assert_eq!(orbit["verdict"], "pass");
+    let g = &orbit["ground"];
+    assert_eq!(g["build"], "B3");
+    assert_eq!(g["flag"], true);
+    for (a, planted) in [35.0, 310.0, -20.0].iter().enumerate() {
+        let d = g["hard_iron_delta_nt"][a].as_f64().unwrap();
+        let s = g["sigma_nt"][a].as_f64().unwrap();
+        assert!(
+            (d - planted).abs() < 3.0 * s + 5.0,
+            "axis {a}: {d} ± {s} against {planted}"
+        );
+    }
+    let k = &orbit["regressors"][0];
+    assert_eq!(k["name"], "i_solar");
+    for (a, truth) in [-160.0, 240.0, 95.0].iter().enumerate() {
+        let v = k["bias_nt_per_unit"][a].as_f64().unwrap();
+        assert!(
+            (v - truth).abs() < 3.0 * k["sigma"][a].as_f64().unwrap(),
+            "{v} vs {truth}"
+        );
+    }
 
     // What the user sees: the summary, the flagged change and where things are.
     for part in [
@@ -101,6 +125,8 @@ fn demo_tells_the_three_build_story_and_exits_0() {
         "y reversed",
         "TMR-0207 B2: PASS",
         "TMR-0207 B3: PASS",
+        "TMR-0207 orbit: PASS",
+        "vs ground B3",
         "significant !",
         "closeout report",
         "ledger.db",
@@ -126,4 +152,29 @@ fn demo_refuses_an_occupied_folder_without_force() {
         std::fs::read_to_string(d.join("busy/keep.txt")).unwrap(),
         "mine"
     );
+}
+
+#[test]
+fn demo_benches_the_rod_batch_and_fails_the_rod_with_high_remanence() {
+    let d = TestDir::new();
+    let run = d.run(&["demo", "--out", "demo"]);
+    assert_code(&run, 0);
+    let reports = d.join("demo/reports/rods");
+    for (rod, pass) in [("tmr-tr-x", true), ("tmr-tr-y", false), ("tmr-tr-z", true)] {
+        let c = json_file(&reports.join(rod).join("closeout.json"));
+        assert_eq!(c["pass"], pass, "{rod}");
+        let r = step(&c, "rod");
+        assert_eq!(r["result"]["polarity"], "ok", "{rod}");
+        let failed: Vec<&str> = r["result"]["gates"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|g| g["ok"] == false)
+            .map(|g| g["name"].as_str().unwrap())
+            .collect();
+        let want: &[&str] = if pass { &[] } else { &["remanence_max"] };
+        assert_eq!(failed, want, "{rod}");
+    }
+    let text = stdout(&run);
+    assert!(text.contains("TMR-TR-Y R-2602: FAIL"), "{text}");
 }

@@ -76,6 +76,21 @@ pub fn orbit_field(
     Ok((f, dipole.mean_nt))
 }
 
+impl super::DipoleOptions {
+    /// The default options with the orbit of the plan's `[orbit]` table (altitude and
+    /// inclination), where it gives them: no assumed orbit then.
+    pub fn for_plan(plan: &crate::log::Plan) -> Self {
+        let mut o = Self::default();
+        if let Some(orbit) = &plan.orbit {
+            if let Some(h) = orbit.altitude_km {
+                o.altitude_km = h;
+            }
+            o.inclination_deg = orbit.inclination_deg;
+        }
+        o
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

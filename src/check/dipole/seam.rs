@@ -23,7 +23,7 @@ pub const SPEC: CheckSpec = CheckSpec {
 };
 
 fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Error> {
-    let req = CheckRequest::new(input, Some(plan), DipoleOptions::default());
+    let req = CheckRequest::new(input, Some(plan), DipoleOptions::for_plan(plan));
     Ok(Box::new(run_dipole(&req)?))
 }
 

@@ -25,6 +25,7 @@
 
 mod assess;
 mod commands;
+mod finite;
 mod fitting;
 mod gates;
 mod mapping;
@@ -257,5 +258,7 @@ fn excluded_rows(req: &PolarityRequest<'_>, n: usize) -> Vec<bool> {
     excluded
 }
 
+#[cfg(test)]
+mod finite_tests;
 #[cfg(test)]
 mod tests;

@@ -24,8 +24,9 @@ pub struct RodResult {
     pub gain_ratio: Option<f64>,
     /// 1σ of `gain_ratio`.
     pub gain_ratio_sigma: Option<f64>,
-    /// False when the sensor is closer than three rod lengths (point-dipole model
-    /// doubtful; common practice); null when the plan gives no `length_m`.
+    /// True when the expected field comes from a model valid at the sensor's distance:
+    /// the point dipole from three rod lengths on (common practice), the two-pole model
+    /// closer; null when the plan gives no `length_m`.
     pub gain_reliable: Option<bool>,
     /// 1σ of the coupling per sensor axis, nT per command unit.
     pub coupling_sigma_nt_per_command: [f64; 3],
@@ -34,6 +35,9 @@ pub struct RodResult {
     /// Expected field at the sensor per A·m² of this rod's positive dipole, sensor
     /// frame (S), nT/(A·m²).
     pub expected_nt_per_am2: [f64; 3],
+    /// The model that gave `expected_nt_per_am2`: `point-dipole`, or `two-pole` within
+    /// three rod lengths of a rod whose `length_m` the plan gives.
+    pub expected_model: super::finite::RodFieldModel,
     /// Dipole inferred from the coupling: |coupling| / |expected per A·m²|, A·m² per
     /// command unit.
     pub dipole_per_command_am2: f64,

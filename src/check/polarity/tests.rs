@@ -234,21 +234,31 @@ fn rods_with_parallel_expected_fields_are_inconclusive() {
 }
 
 #[test]
-fn close_sensor_marks_gain_unreliable_and_default_limit_is_said() {
+fn close_sensor_uses_the_two_pole_model_and_default_limit_is_said() {
     let mut cfg = PolarityConfig {
         angle_max_deg: None,
+        finite_rod_radius_m: Some(0.0),
         ..Default::default()
     };
     cfg.rods[0].length_m = 0.1;
+    cfg.rods[1].length_m = 0.04;
     let (_, r) = run(&cfg, 30);
-    assert_eq!(r.rods[0].gain_reliable, Some(false));
+    assert_eq!(
+        r.rods[0].expected_model,
+        super::finite::RodFieldModel::TwoPole
+    );
+    assert_eq!(
+        r.rods[1].expected_model,
+        super::finite::RodFieldModel::PointDipole
+    );
+    assert_eq!(r.rods[0].gain_reliable, Some(true));
     assert_eq!(r.rods[1].gain_reliable, Some(true));
     assert_eq!(r.angle_max_source, "default");
     assert!(r.warnings.iter().any(|w| w.to_string().contains("30°")));
     assert!(r
         .warnings
         .iter()
-        .any(|w| w.to_string().contains("gain ratio is unreliable")));
+        .any(|w| w.to_string().contains("two-pole model")));
 }
 
 fn request_error(csv: &str, plan: &str) -> String {

@@ -10,7 +10,6 @@ use super::{RodResult, DIPOLE_VALID_ROD_LENGTHS};
 use crate::fit::linear::LinearFit;
 use crate::log::plan::Rod;
 use crate::log::Plan;
-use crate::physics::dipole::dipole_matrix;
 use crate::physics::frames::angle_between;
 use crate::Error;
 
@@ -108,7 +107,8 @@ fn line_angle(a: &Vector3<f64>, b: &Vector3<f64>) -> Option<f64> {
 }
 
 /// Each plan rod's expected field direction at the sensor per A·m², sensor frame
-/// (point dipole, Jackson eq. 5.56, through `dipole_matrix`).
+/// (point dipole, Jackson eq. 5.56; the two-pole model within three rod lengths, see
+/// `finite.rs`).
 fn expected_directions(
     plan: &Plan,
     sensor_position_m: &Vector3<f64>,
@@ -118,13 +118,14 @@ fn expected_directions(
     let mut expected = Vec::with_capacity(plan.rods.len());
     for (i, rod) in plan.rods.iter().enumerate() {
         let r = sensor_position_m - rod.position_m;
-        let g = dipole_matrix(&r).ok_or_else(|| {
+        let f = super::finite::field_per_am2(rod, &r).ok_or_else(|| {
             plan.invalid(
                 &format!("rod[{i}].position_m"),
-                "the rod sits at the sensor's position: its field there is undefined",
+                "the rod (or one of its ends) sits at the sensor's position: its field there \
+                 is undefined",
             )
         })?;
-        expected.push(body_to_sensor * g * rod.axis_body);
+        expected.push(body_to_sensor * f);
     }
     Ok(expected)
 }
@@ -360,8 +361,9 @@ fn judge_rod(
     (k.snr, k.angle_sigma) = snr_and_angle_sigma(&c, &m.cov);
     let dipole = c.norm() / e.norm();
     let (gain_ratio, gain_ratio_sigma) = gain_ratio(dipole, rod.dipole_per_command_am2, k.snr);
-    let distance_m = (sensor_position_m - rod.position_m).norm();
-    let gain_reliable = gain_reliable(rod, distance_m, warnings);
+    let offset_m = sensor_position_m - rod.position_m;
+    let distance_m = offset_m.norm();
+    let (expected_model, gain_reliable) = field_model(rod, &offset_m, warnings);
     let Classified {
         verdict,
         note,
@@ -381,6 +383,7 @@ fn judge_rod(
             .into(),
         angle_sigma_deg: k.angle_sigma,
         expected_nt_per_am2: e.into(),
+        expected_model,
         dipole_per_command_am2: dipole,
         matches_rod,
         matches_reversed,
@@ -404,19 +407,23 @@ fn gain_ratio(dipole_am2: f64, nominal_am2: Option<f64>, snr: f64) -> (Option<f6
     }
 }
 
-/// Whether the sensor, `distance_m` from the rod's centre (m), is at least
-/// [`DIPOLE_VALID_ROD_LENGTHS`] rod lengths away (null without a `length_m`); warns
-/// when it is not.
-fn gain_reliable(rod: &Rod, distance_m: f64, warnings: &mut Vec<PolarityWarning>) -> Option<bool> {
-    let reliable = rod
-        .length_m
-        .map(|l| distance_m >= DIPOLE_VALID_ROD_LENGTHS * l);
-    if reliable == Some(false) {
+/// The model that gives the rod's expected field at the sensor (`offset_m`, rod centre
+/// → sensor, body frame, m) and whether its gain ratio is meaningful there: with a
+/// `length_m`, the point dipole from [`DIPOLE_VALID_ROD_LENGTHS`] rod lengths on
+/// (common practice) and the two-pole model closer, so the gain stays meaningful (null
+/// without a `length_m`). Warns, naming the model, when the sensor is that close.
+fn field_model(
+    rod: &Rod,
+    offset_m: &Vector3<f64>,
+    warnings: &mut Vec<PolarityWarning>,
+) -> (super::finite::RodFieldModel, Option<bool>) {
+    let model = super::finite::model_for(rod, offset_m);
+    if model == super::finite::RodFieldModel::TwoPole {
         warnings.push(PolarityWarning::CloseToRod {
             rod: rod.name.clone(),
-            distance_m,
+            distance_m: offset_m.norm(),
             needed_m: DIPOLE_VALID_ROD_LENGTHS * rod.length_m.unwrap_or(0.0),
         });
     }
-    reliable
+    (model, rod.length_m.map(|_| true))
 }

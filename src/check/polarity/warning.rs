@@ -133,9 +133,10 @@ impl fmt::Display for PolarityWarning {
             } => write!(
                 f,
                 "rod \"{rod}\": the sensor is {distance_m:.3} m away, less than \
-                 {DIPOLE_VALID_ROD_LENGTHS} rod lengths ({needed_m:.3} m): the point-dipole \
-                 model is doubtful there, so the gain ratio is unreliable (the polarity \
-                 verdict still holds)"
+                 {DIPOLE_VALID_ROD_LENGTHS} rod lengths ({needed_m:.3} m), where the point \
+                 dipole is poor: the expected direction and the gain ratio use the rod's \
+                 two-pole model (poles at its ends; a real core's poles sit somewhat \
+                 inside them, docs/polarity.md)"
             ),
             W::RiseAtLimit { column, tau_max_s } => write!(
                 f,

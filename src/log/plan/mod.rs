@@ -10,15 +10,19 @@
 
 mod align;
 mod locate;
+mod orbit;
 mod parse;
 mod parse_logs;
 mod raw;
+mod rod_bench;
 #[cfg(test)]
 mod tests;
 mod types;
 
 pub use align::AlignTest;
+pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
+pub use rod_bench::{RodBench, RodLimits, RodPosition};
 pub use types::{
     Article, Cage, DipoleTest, GateLimits, Gyro, Limits, LogSettings, Magnetometer, Mount, Plan,
     Probe, Rod, Site, Step,

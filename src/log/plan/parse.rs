@@ -58,6 +58,14 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
     let rods = v.rods(raw.rod)?;
     let dipole_test = raw.dipole_test.map(|d| v.dipole_test(d)).transpose()?;
     let align_test = raw.align_test.map(|a| v.align_test(a)).transpose()?;
+    let rod_bench = raw
+        .rod_bench
+        .map(|r| super::rod_bench::rod_bench(&v, r))
+        .transpose()?;
+    let orbit = raw
+        .orbit
+        .map(|o| super::orbit::orbit(path, o))
+        .transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
     v.step_sensors(&steps, &magnetometers)?;
@@ -77,6 +85,8 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         rods,
         dipole_test,
         align_test,
+        rod_bench,
+        orbit,
         steps,
         limits,
         sha256,
@@ -401,6 +411,15 @@ impl Validator<'_> {
             polarity_angle_max_deg: self
                 .positive("limits.polarity_angle_max_deg", raw.polarity_angle_max_deg)?,
             gates: self.gate_limits(&raw)?,
+            rod: super::RodLimits::new(
+                self.path,
+                [
+                    raw.rod_current_max_a,
+                    raw.rod_moment_min_am2,
+                    raw.rod_remanence_max_pct,
+                    raw.rod_linearity_max_pct,
+                ],
+            )?,
         };
         if let Some(a) = limits.polarity_angle_max_deg {
             if a >= 90.0 {
@@ -500,5 +519,20 @@ pub(super) fn one_line(msg: &str) -> String {
         (Some(a), Some(b)) if lines.len() > 1 => format!("{a}: {b}"),
         (Some(a), _) => a.to_string(),
         _ => msg.to_string(),
+    }
+}
+
+impl super::rod_bench::Check for Validator<'_> {
+    fn invalid(&self, key: &str, problem: String) -> PlanError {
+        Validator::invalid(self, key, problem)
+    }
+    fn position(&self, key: &str, v: [f64; 3]) -> Result<Vector3<f64>, PlanError> {
+        Validator::position(self, key, v)
+    }
+    fn rotation(&self, key: &str, v: Option<&toml::Value>) -> Result<Matrix3<f64>, PlanError> {
+        Validator::rotation(self, key, v)
+    }
+    fn plain_text(&self, key: &str, value: &str) -> Result<(), PlanError> {
+        Validator::plain_text(self, key, value)
     }
 }

@@ -21,6 +21,8 @@ pub(super) struct RawPlan {
     pub(super) rod: Vec<RawRod>,
     pub(super) dipole_test: Option<RawDipoleTest>,
     pub(super) align_test: Option<super::align::RawAlignTest>,
+    pub(super) rod_bench: Option<super::rod_bench::RawRodBench>,
+    pub(super) orbit: Option<super::orbit::RawOrbit>,
     #[serde(default)]
     pub(super) step: Vec<RawStep>,
     #[serde(default)]
@@ -140,4 +142,8 @@ pub(super) struct RawLimits {
     pub(super) rods_on_share_max: Option<f64>,
     pub(super) design_condition_max: Option<f64>,
     pub(super) alignment_max_deg: Option<f64>,
+    pub(super) rod_current_max_a: Option<f64>,
+    pub(super) rod_moment_min_am2: Option<f64>,
+    pub(super) rod_remanence_max_pct: Option<f64>,
+    pub(super) rod_linearity_max_pct: Option<f64>,
 }

@@ -42,6 +42,10 @@ pub struct Plan {
     pub dipole_test: Option<DipoleTest>,
     /// `[align_test]`: the turntable alignment test.
     pub align_test: Option<super::align::AlignTest>,
+    /// `[rod_bench]`: a torque rod on the bench and the probe stations around it.
+    pub rod_bench: Option<super::RodBench>,
+    /// `[orbit]`: the element set and orbit of the flight (`orbit`, `dipole`).
+    pub orbit: Option<super::orbit::OrbitPlan>,
     /// `[[step]]`: what `closeout` runs, in order.
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.
@@ -219,6 +223,8 @@ pub struct Limits {
     pub polarity_angle_max_deg: Option<f64>,
     /// Calibration gates (docs/calibration.md, "Gates"); `None` takes the default.
     pub gates: GateLimits,
+    /// Limits of a rod on the bench (docs/rods.md).
+    pub rod: super::RodLimits,
 }
 
 /// Limits of the calibration gates, each overriding its default when given

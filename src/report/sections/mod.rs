@@ -9,15 +9,19 @@ mod calibration;
 pub mod change_text;
 mod dipole;
 mod history;
+mod orbit;
 mod polarity;
 mod polarity_stack;
+mod rod;
 
 pub use align::align_section;
 pub use assumptions::assumptions_section;
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;
 pub use history::{history_section, history_text_section};
+pub use orbit::orbit_section;
 pub use polarity::polarity_section;
+pub use rod::rod_section;
 
 use super::model::{Figure, Tone};
 use crate::Error;

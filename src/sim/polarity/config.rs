@@ -64,6 +64,9 @@ pub struct PolarityConfig {
     pub noise_nt: f64,
     /// Angle limit written to the plan, deg (`None`: no `[limits]`).
     pub angle_max_deg: Option<f64>,
+    /// When given, every rod is a uniformly magnetised cylinder of this radius (m) and
+    /// its length at every distance (a finite-rod world); `None`: point dipoles.
+    pub finite_rod_radius_m: Option<f64>,
 }
 
 impl Default for PolarityConfig {
@@ -98,6 +101,7 @@ impl Default for PolarityConfig {
             rise_time_s: 0.02,
             ambient_nt: Vector3::new(18_500.0, -4_200.0, -41_000.0),
             drift_nt_per_s: Vector3::new(0.8, -0.5, 0.3),
+            finite_rod_radius_m: None,
             wander_nt: 15.0,
             wander_period_s: 40.0,
             noise_nt: 3.0,

@@ -89,9 +89,18 @@ fn field_per_am2_nt(cfg: &PolarityConfig) -> Result<Vec<Vector3<f64>>, Error> {
     let body_to_sensor = cfg.sensor_to_body.transpose();
     let mut per_am2 = Vec::with_capacity(cfg.rods.len());
     for r in &cfg.rods {
-        let g = dipole_matrix(&(cfg.sensor_position_m - r.position_m))
-            .ok_or_else(|| Error::Usage(format!("rod {} sits at the sensor", r.name)))?;
-        per_am2.push(body_to_sensor * g * r.axis_body.normalize());
+        let d = cfg.sensor_position_m - r.position_m;
+        let at_sensor = || Error::Usage(format!("rod {} sits at the sensor", r.name));
+        let f = match cfg.finite_rod_radius_m {
+            Some(radius_m) => crate::physics::finite_rod::FiniteRod {
+                length_m: r.length_m,
+                radius_m,
+            }
+            .field_along_nt(1.0, &r.axis_body, &d)
+            .ok_or_else(at_sensor)?,
+            None => dipole_matrix(&d).ok_or_else(at_sensor)? * r.axis_body.normalize(),
+        };
+        per_am2.push(body_to_sensor * f);
     }
     Ok(per_am2)
 }
