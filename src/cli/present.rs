@@ -86,7 +86,8 @@ pub fn run_report(
             Some(steps) => steps.iter().map(|s| &s["result"]).collect(),
             None => vec![&result],
         };
-        let echoed = magproof::report::sections::assumptions_section(plan, &results);
+        let kinds: Vec<&str> = sections.iter().map(|s| s.kind.as_str()).collect();
+        let echoed = magproof::report::sections::assumptions_section(plan, &kinds, &results);
         sections.insert(0, echoed);
     }
     Ok(RunReport {

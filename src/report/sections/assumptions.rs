@@ -67,10 +67,9 @@ fn article_table(plan: &Plan) -> Table {
     add("facility", a.and_then(|a| a.facility.as_deref()));
     add("notes", a.and_then(|a| a.notes.as_deref()));
     add("plan", Some(&plan.path.display().to_string()));
-    add(
-        "gyro serial",
-        plan.gyro.as_ref().and_then(|g| g.serial.as_deref()),
-    );
+    if let Some(gyro) = &plan.gyro {
+        add("gyro serial", gyro.serial.as_deref());
+    }
     Table {
         caption: "Article, operator and facility ([article] of the plan)".into(),
         header: vec!["item".into(), "as given".into()],
@@ -237,38 +236,66 @@ fn site_orbit_rows(plan: &Plan, results: &[&serde_json::Value]) -> Vec<Vec<Cell>
 }
 
 /// The assumptions of a run under `plan`; `results` are the JSON of its checks.
-pub fn assumptions_section(plan: &Plan, results: &[&serde_json::Value]) -> Section {
+/// The section, for the checks whose report sections are `kinds` (`calibrate`,
+/// `polarity`, …) and whose JSON results are `results`.
+pub fn assumptions_section(plan: &Plan, kinds: &[&str], results: &[&serde_json::Value]) -> Section {
     let mut rows = geometry_rows(plan);
     rows.extend(site_orbit_rows(plan, results));
-    let geometry = Table {
-        caption: "Mounting, positions, site and orbit the verdicts rest on (the plan's, \
-                  unless a check says it measured them)"
+    let mut tables = vec![article_table(plan)];
+    if !rows.is_empty() {
+        tables.push(Table {
+            caption: "Mounting, positions, site and orbit the verdicts rest on (the plan's, \
+                      unless a check says it measured them)"
+                .into(),
+            header: vec![
+                "part".into(),
+                "quantity".into(),
+                "value".into(),
+                "unit".into(),
+            ],
+            rows,
+        });
+    }
+    let mut notes = vec![calibration_note(kinds)];
+    notes.push(
+        "Compare every position and mounting above with the vehicle's drawings: a \
+         verdict is only as good as the geometry it was judged against."
             .into(),
-        header: vec![
-            "part".into(),
-            "quantity".into(),
-            "value".into(),
-            "unit".into(),
-        ],
-        rows,
-    };
+    );
     Section {
         kind: KIND.into(),
         title: "Assumptions".into(),
         verdict: Verdict::NoLimit,
         figures_of_merit: Vec::new(),
-        tables: vec![article_table(plan), geometry],
+        tables,
         figures: Vec::new(),
         warnings: Vec::new(),
-        notes: vec![
-            "Calibration applied to the readings: none. Every check reads the raw sensor \
-             readings (sensor frame); polarity measures the rods' coupling on raw \
-             readings, and the dipole test uses its own probe."
-                .into(),
-            "Compare every position and mounting above with the vehicle's drawings: a \
-             verdict is only as good as the geometry it was judged against."
-                .into(),
-        ],
+        notes,
         result: serde_json::Value::Null,
     }
+}
+
+/// What calibration each check present applied to the readings it judged.
+fn calibration_note(kinds: &[&str]) -> String {
+    let has = |k: &str| kinds.contains(&k);
+    let mut parts = Vec::new();
+    if has("calibrate") || has("polarity") {
+        parts.push("calibration and polarity read the raw magnetometer readings (sensor frame)");
+    }
+    if has("dipole") {
+        parts.push("the dipole test reads its own probe");
+    }
+    if has("rod") {
+        parts.push("the rod bench reads its probe's raw readings less the rod-off background");
+    }
+    if has("orbit") {
+        parts.push("the orbit fit reads raw telemetry and fits its own calibration");
+    }
+    if parts.is_empty() {
+        return "Calibration applied to the readings: none.".into();
+    }
+    format!(
+        "Calibration applied to the readings: none; {}.",
+        parts.join("; ")
+    )
 }
