@@ -4,6 +4,8 @@
 #[path = "cli/util.rs"]
 mod util;
 
+#[path = "cli/align.rs"]
+mod align;
 #[path = "cli/battery_input.rs"]
 mod battery_input;
 #[path = "cli/battery_ledger.rs"]

@@ -90,6 +90,7 @@ pub fn specs() -> &'static [CheckSpec] {
             super::calibrate::seam::SPEC,
             super::polarity::seam::SPEC,
             super::dipole::seam::SPEC,
+            super::align::seam::SPEC,
             super::rod::seam::SPEC,
             super::orbit::seam::SPEC,
         ];

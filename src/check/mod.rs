@@ -7,6 +7,7 @@
 //! writers see results only through that trait. `DEVELOPERS.md` lists what a new check
 //! adds.
 
+pub mod align;
 pub mod calibrate;
 pub mod closeout;
 pub mod dipole;

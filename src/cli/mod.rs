@@ -23,6 +23,7 @@ macro_rules! outln {
     }};
 }
 
+mod align;
 mod calibrate;
 mod closeout;
 mod common;
@@ -41,6 +42,7 @@ mod record;
 mod report_out;
 mod rod;
 mod simulate;
+mod simulate_align;
 
 use clap::{Parser, Subcommand};
 
@@ -69,6 +71,8 @@ enum Command {
     Field(field::Args),
     /// The ledger: runs per serial and build, and what changed since the previous build.
     History(history::Args),
+    /// Sensor axes and misalignment against the body frame, from a turntable test.
+    Align(align::Args),
     /// Residual magnetic dipole of the article and its in-orbit disturbance torque.
     Dipole(dipole::Args),
     /// Check every torque rod's polarity and coupling from a pulse log.
@@ -93,6 +97,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Inspect(args) => inspect::run(args),
         Command::Field(args) => field::run(args),
         Command::History(args) => history::run(args),
+        Command::Align(args) => align::run(args),
         Command::Dipole(args) => dipole::run(args),
         Command::Polarity(args) => polarity::run(args),
         Command::Rod(args) => rod::run(args),

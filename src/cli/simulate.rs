@@ -32,6 +32,8 @@ enum Kind {
     Polarity,
     /// A residual-dipole run (turntable or static map).
     Dipole,
+    /// A turntable alignment run (sensor axes against the body frame).
+    Align,
     /// A torque rod on the bench (finite rod with saturation and hysteresis).
     Rod,
     /// On-orbit telemetry from a two-line element set, with regressors and a tumble.
@@ -124,7 +126,9 @@ pub struct Args {
     /// Dipole: true moment, body frame, A·m²: X,Y,Z.
     #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, MOMENT_AM2), allow_hyphen_values = true)]
     moment_am2: Option<Vector3<f64>>,
-    /// Dipole: number of turntable mounts (1 = upright only, 2 = upright and on-side).
+    #[command(flatten)]
+    align: super::simulate_align::AlignArgs,
+    /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
     mounts: Option<u8>,
     /// Rod: half-width of the hysteresis play, A (the remanence is the moment there);
@@ -192,6 +196,13 @@ fn simulate(args: &Args) -> Result<Vec<SimFile>, Error> {
         Kind::Cage => cage_files(args),
         Kind::Polarity => polarity_files(args),
         Kind::Dipole => dipole_files(args),
+        Kind::Align => super::simulate_align::align_files(
+            &args.align,
+            args.seed,
+            args.noise_nt,
+            args.hard_iron_nt,
+            args.mounts,
+        ),
         Kind::Rod => rod_files(args),
         Kind::Orbit => orbit_files(args),
     }

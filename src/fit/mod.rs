@@ -2,6 +2,7 @@
 //! dipole fit, robust weights and covariance (methods: `docs/calibration.md`,
 //! `docs/dipole.md`).
 
+pub mod align;
 pub mod arrow;
 pub mod cage;
 pub mod coverage;
@@ -13,6 +14,7 @@ pub mod orbit;
 pub mod robust;
 pub mod samples;
 pub mod tumble;
+pub mod wahba;
 
 pub use error::FitError;
 mod error;

@@ -1,5 +1,6 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
 
+pub mod align;
 pub mod cage;
 pub mod dipole;
 pub mod orbit;

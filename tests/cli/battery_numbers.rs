@@ -116,6 +116,11 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["0", "2e12"],
     ),
     (
+        "--misalign-deg",
+        &["simulate", "align", "--seed", "1", "--out", "sim"],
+        &["1,2", "1,nan,3", "0,0,90"],
+    ),
+    (
         "--lag-s",
         &["simulate", "polarity", "--seed", "1", "--out", "sim"],
         &["-0.1", "61"],
@@ -152,6 +157,8 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
 const NOT_NUMBERS: &[&str] = &[
     "--positions",
     "--plan",
+    "--calibration",
+    "--axis-fault",
     "--params-out",
     "--robust",
     "--unit",

@@ -8,6 +8,7 @@
 //! `raw.rs` the TOML shapes as written (using `types`), and `parse.rs` the checks that
 //! turn one into the other (using both).
 
+mod align;
 mod locate;
 mod orbit;
 mod parse;
@@ -18,6 +19,7 @@ mod rod_bench;
 mod tests;
 mod types;
 
+pub use align::AlignTest;
 pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
 pub use rod_bench::{RodBench, RodLimits, RodPosition};

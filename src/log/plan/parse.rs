@@ -10,7 +10,7 @@ use nalgebra::{Matrix3, Vector3};
 use super::raw::{
     RawArticle, RawDipoleTest, RawLimits, RawPlan, RawProbe, RawRod, RawSite, RawStep,
 };
-use super::types::{Article, DipoleTest, GateLimits, Limits, Mount, Plan, Probe, Rod, Site, Step};
+use super::types::{Article, DipoleTest, GateLimits, Limits, Plan, Probe, Rod, Site, Step};
 use super::types::{MAX_CONDITION, MAX_DIPOLE_AM2, MAX_SETTLE_S, MAX_SOFT_IRON};
 use crate::log::error::{PlanError, Shown};
 use crate::physics::frames::{check_rotation, rotation_from_axes};
@@ -57,6 +57,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
     let cage = raw.cage.map(|c| v.cage(c)).transpose()?;
     let rods = v.rods(raw.rod)?;
     let dipole_test = raw.dipole_test.map(|d| v.dipole_test(d)).transpose()?;
+    let align_test = raw.align_test.map(|a| v.align_test(a)).transpose()?;
     let rod_bench = raw
         .rod_bench
         .map(|r| super::rod_bench::rod_bench(&v, r))
@@ -83,6 +84,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         cage,
         rods,
         dipole_test,
+        align_test,
         rod_bench,
         orbit,
         steps,
@@ -332,30 +334,7 @@ impl Validator<'_> {
     }
 
     fn dipole_test(&self, d: RawDipoleTest) -> Result<DipoleTest, PlanError> {
-        let mut mounts: Vec<Mount> = Vec::new();
-        for (i, m) in d.mount.into_iter().enumerate() {
-            let label = m.label.trim().to_string();
-            let key = format!("dipole_test.mount[{i}]");
-            if label.is_empty() || label.eq_ignore_ascii_case("none") {
-                return Err(self.invalid(
-                    &format!("{key}.label"),
-                    "must be a label other than empty or \"none\" (those mark article-absent rows)"
-                        .into(),
-                ));
-            }
-            self.plain_text(&format!("{key}.label"), &label)?;
-            if mounts.iter().any(|o| o.label == label) {
-                return Err(self.invalid(
-                    &format!("{key}.label"),
-                    format!("mount \"{label}\" is listed twice"),
-                ));
-            }
-            mounts.push(Mount {
-                label,
-                body_to_table: self
-                    .rotation(&format!("{key}.body_to_table"), Some(&m.body_to_table))?,
-            });
-        }
+        let mounts = self.mounts("dipole_test", d.mount)?;
         Ok(DipoleTest {
             probe_position_m: d
                 .probe_position_m

@@ -20,6 +20,7 @@ pub(super) struct RawPlan {
     #[serde(default)]
     pub(super) rod: Vec<RawRod>,
     pub(super) dipole_test: Option<RawDipoleTest>,
+    pub(super) align_test: Option<super::align::RawAlignTest>,
     pub(super) rod_bench: Option<super::rod_bench::RawRodBench>,
     pub(super) orbit: Option<super::orbit::RawOrbit>,
     #[serde(default)]

@@ -40,6 +40,8 @@ pub struct Plan {
     pub rods: Vec<Rod>,
     /// `[dipole_test]`: turntable geometry.
     pub dipole_test: Option<DipoleTest>,
+    /// `[align_test]`: the turntable alignment test.
+    pub align_test: Option<super::align::AlignTest>,
     /// `[rod_bench]`: a torque rod on the bench and the probe stations around it.
     pub rod_bench: Option<super::RodBench>,
     /// `[orbit]`: the element set and orbit of the flight (`orbit`, `dipole`).

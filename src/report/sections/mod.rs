@@ -3,6 +3,7 @@
 //! words, warnings, notes, plots and the result JSON. The writers in the parent module only
 //! lay sections out; nothing here recomputes a fitted number.
 
+mod align;
 pub mod assumptions;
 mod calibration;
 pub mod change_text;
@@ -13,6 +14,7 @@ mod polarity;
 mod polarity_stack;
 mod rod;
 
+pub use align::align_section;
 pub use assumptions::assumptions_section;
 pub use calibration::calibration_section;
 pub use dipole::dipole_section;

@@ -1,0 +1,62 @@
+//! `magproof align LOG --plan P [--calibration FILE.json] [--sensor NAME] [--json]
+//! [--report DIR]`: the magnetometer's axes against the body frame and its misalignment,
+//! from a turntable test in the plan's `[align_test]` mounts (docs/alignment.md).
+
+use std::path::PathBuf;
+
+use clap::Args as ClapArgs;
+
+use super::common::load_plan;
+use super::common::{InputArgs, Outcome, OutputArgs};
+use super::present::{present_check, read_input, Analysed};
+use magproof::check::align::{run_align, AlignOptions, Calibration};
+use magproof::check::CheckRequest;
+
+/// Flags of `magproof align`.
+#[derive(Debug, ClapArgs)]
+pub struct Args {
+    /// Turntable log (CSV): `t, angle, mount, bx, by, bz`.
+    log: PathBuf,
+    /// Test plan (TOML) with [align_test] and its [[align_test.mount]] entries.
+    #[arg(long)]
+    plan: PathBuf,
+    /// Calibration to apply first: the JSON `calibrate --json` prints or the flight
+    /// parameters (`hard_iron_nt`, `soft_iron`); without it the hard iron is fitted.
+    #[arg(long, value_name = "FILE.json")]
+    calibration: Option<PathBuf>,
+    #[command(flatten)]
+    input: InputArgs,
+    #[command(flatten)]
+    sensor: super::common::SensorArgs,
+    #[command(flatten)]
+    output: OutputArgs,
+    #[command(flatten)]
+    record: super::record::RecordArgs,
+}
+
+/// Run `align`.
+pub fn run(args: Args) -> anyhow::Result<Outcome> {
+    let plan = load_plan(&args.plan, args.sensor.sensor.as_deref())?;
+    let calibration = args
+        .calibration
+        .as_deref()
+        .map(Calibration::read)
+        .transpose()?;
+    // The flight magnetometer records the log: its range applies.
+    let input = read_input(&args.log, Some(&plan), &args.input, true)?;
+    let key = serde_json::json!({
+        "calibration": args.calibration.as_ref().map(|p| p.display().to_string()),
+    });
+    let options = AlignOptions { calibration };
+    let result = run_align(&CheckRequest::new(&input, Some(&plan), options))?;
+    let analysed = Analysed::new(&args.log, &input, &args.input, key);
+    drop(input);
+    present_check(
+        &result,
+        analysed,
+        Some(&plan),
+        &args.output,
+        &args.record,
+        Vec::new(),
+    )
+}
