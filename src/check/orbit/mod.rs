@@ -9,6 +9,7 @@
 //! Frames: readings and every bias are in the sensor frame (S); the correction is
 //! `b_true ≈ W (b − c − Σ k_j x_j)`.
 
+mod estimate;
 pub mod ground;
 pub mod reference;
 pub mod seam;
@@ -23,9 +24,9 @@ pub use ground::{GroundCalibration, GroundComparison};
 pub use reference::{Route, DEFAULT_GRID_S};
 pub use warning::OrbitWarning;
 
-use super::outcome::{serialize_tally, Gate, GateRole, Verdict};
+use super::outcome::{serialize_tally, Gate, Verdict};
 use super::CheckRequest;
-use crate::fit::orbit::{fit_orbit, OrbitFitData, OrbitFitOptions, SYM};
+use crate::fit::orbit::{fit_orbit, OrbitFitData, OrbitFitOptions};
 use crate::log::telemetry::OrbitColumns;
 use crate::physics::orbit::Orbit;
 use crate::Error;
@@ -249,27 +250,10 @@ pub fn run_orbit(req: &OrbitRequest) -> Result<OrbitResult, Error> {
             "orbit columns and log differ in length".into(),
         ));
     }
-    let mut warnings: Vec<OrbitWarning> = req
-        .input
-        .warnings
-        .iter()
-        .cloned()
-        .map(OrbitWarning::Input)
-        .collect();
-    let orbit = plan_orbit(req)?;
-    let route = route(req, orbit.as_ref())?;
-    let orbit_used = if route == Route::TleSgp4 {
-        orbit.as_ref()
-    } else {
-        None
-    };
-    let tle_age_days = orbit_used.map(|o| (cols.t_unix_s[0] - o.epoch_unix_s) / 86_400.0);
-    if let Some(age) = tle_age_days {
-        if age.abs() > TLE_AGE_WARN_DAYS {
-            warnings.push(OrbitWarning::OldTle { age_days: age });
-        }
-    }
-    let model = reference::reference_field(cols, orbit_used, req.options.grid_s)?;
+    let mut warnings = input_warnings(req);
+    let (route, orbit_used) = route_and_orbit(req)?;
+    let tle_age_days = estimate::tle_age_days(cols.t_unix_s[0], orbit_used.as_ref(), &mut warnings);
+    let model = reference::reference_field(cols, orbit_used.as_ref(), req.options.grid_s)?;
     let regs = regressors(req, &mut warnings);
     let reg_slices: Vec<&[f64]> = regs.columns.iter().map(|c| c.as_slice()).collect();
     let excluded = &req.input.saturation.flagged;
@@ -285,88 +269,20 @@ pub fn run_orbit(req: &OrbitRequest) -> Result<OrbitResult, Error> {
             robust: req.options.robust,
         },
     )?;
-    let sd = |k: usize| fit.covariance[(k, k)].max(0.0).sqrt();
-    let hard_iron_sigma_nt = [sd(0), sd(1), sd(2)];
-    let mut soft_iron_sigma = [[0.0; 3]; 3];
-    for (k, &(i, j)) in SYM.iter().enumerate() {
-        soft_iron_sigma[i][j] = sd(3 + k);
-        soft_iron_sigma[j][i] = sd(3 + k);
-    }
-    let vec3 = |q: usize| -> ([f64; 3], [f64; 3]) {
-        let v = fit.regressors[q];
-        (
-            [v[0], v[1], v[2]],
-            [sd(9 + 3 * q), sd(10 + 3 * q), sd(11 + 3 * q)],
-        )
-    };
-    let regressors: Vec<RegressorBias> = regs
-        .names
-        .iter()
-        .enumerate()
-        .map(|(q, (name, unit))| {
-            let (v, s) = vec3(q);
-            RegressorBias {
-                name: name.clone(),
-                unit: unit.clone(),
-                bias_nt_per_unit: v,
-                sigma: s,
-            }
-        })
-        .collect();
-    let slope = regs.has_slope.then(|| vec3(regs.names.len()));
+    let (hard_iron_sigma_nt, soft_iron_sigma) = estimate::iron_sigmas(&fit);
+    let (regressors, slope) = estimate::regressor_biases(&fit, &regs);
     let hard_iron_nt = [
         fit.hard_iron_nt[0],
         fit.hard_iron_nt[1],
         fit.hard_iron_nt[2],
     ];
-    let ground = req
-        .options
-        .ground
-        .as_ref()
-        .map(|g| ground::compare(g, hard_iron_nt, hard_iron_sigma_nt));
-    if let Some(g) = &ground {
-        ground_warning(g, &mut warnings);
-    }
+    let ground = ground_check(req, hard_iron_nt, hard_iron_sigma_nt, &mut warnings);
     let offered = log.len() - req.input.saturated_rows();
-    if fit.samples_rejected * 20 > offered {
-        warnings.push(OrbitWarning::ManyRejected {
-            rejected: fit.samples_rejected,
-            of: offered,
-        });
-    }
+    rejected_warning(&fit, offered, &mut warnings);
     let mean_model_nt = model.magnitude_nt.iter().sum::<f64>() / model.magnitude_nt.len() as f64;
-    let gates = vec![
-        Gate::at_least(
-            "converged",
-            f64::from(u8::from(fit.converged)),
-            1.0,
-            GateRole::Data,
-        ),
-        Gate::at_most(
-            "residual_max",
-            fit.residual_rms_nt,
-            RESIDUAL_MAX_FRACTION * mean_model_nt,
-            GateRole::Article,
-        ),
-        Gate::at_least(
-            "samples_used",
-            fit.samples_used as f64 / offered.max(1) as f64,
-            SAMPLES_USED_MIN,
-            GateRole::Data,
-        ),
-    ];
+    let gates = estimate::gates(&fit, offered, mean_model_nt);
     let verdict = Verdict::from_gates(&gates);
-    let samples = if req.options.keep_samples {
-        samples(
-            &data,
-            &fit,
-            &model,
-            &regs,
-            log.t_s.as_deref().unwrap_or(&[]),
-        )
-    } else {
-        OrbitSamples::default()
-    };
+    let samples = report_samples(req, &data, &fit, &model, &regs);
     let w = fit.soft_iron;
     Ok(OrbitResult {
         hard_iron_nt,
@@ -397,6 +313,82 @@ pub fn run_orbit(req: &OrbitRequest) -> Result<OrbitResult, Error> {
         warnings,
         samples,
     })
+}
+
+/// The input's warnings, carried into the orbit check's own list.
+fn input_warnings(req: &OrbitRequest) -> Vec<OrbitWarning> {
+    req.input
+        .warnings
+        .iter()
+        .cloned()
+        .map(OrbitWarning::Input)
+        .collect()
+}
+
+/// The route to positions and, only when that route is SGP4 from the plan's
+/// element set, the orbit it propagates (TEME → Earth-fixed in [`mod@reference`]).
+fn route_and_orbit(req: &OrbitRequest) -> Result<(Route, Option<Orbit>), Error> {
+    let orbit = plan_orbit(req)?;
+    let route = route(req, orbit.as_ref())?;
+    let orbit_used = if route == Route::TleSgp4 { orbit } else { None };
+    Ok((route, orbit_used))
+}
+
+/// Compare the fitted hard iron (sensor frame, nT, with its 1σ) with the
+/// latest ground calibration of the same serial, when the ledger holds one,
+/// warning on a significant shift.
+fn ground_check(
+    req: &OrbitRequest,
+    hard_iron_nt: [f64; 3],
+    hard_iron_sigma_nt: [f64; 3],
+    warnings: &mut Vec<OrbitWarning>,
+) -> Option<GroundComparison> {
+    let ground = req
+        .options
+        .ground
+        .as_ref()
+        .map(|g| ground::compare(g, hard_iron_nt, hard_iron_sigma_nt));
+    if let Some(g) = &ground {
+        ground_warning(g, warnings);
+    }
+    ground
+}
+
+/// Warn when the robust weights rejected more than one in twenty of the
+/// `offered` rows (rows not flagged as saturated).
+fn rejected_warning(
+    fit: &crate::fit::orbit::OrbitFit,
+    offered: usize,
+    warnings: &mut Vec<OrbitWarning>,
+) {
+    if fit.samples_rejected * 20 > offered {
+        warnings.push(OrbitWarning::ManyRejected {
+            rejected: fit.samples_rejected,
+            of: offered,
+        });
+    }
+}
+
+/// Per-sample residuals for the report when asked for, else empty; time is the
+/// log's relative time, s.
+fn report_samples(
+    req: &OrbitRequest,
+    data: &OrbitFitData,
+    fit: &crate::fit::orbit::OrbitFit,
+    model: &reference::ReferenceField,
+    regs: &Regressors,
+) -> OrbitSamples {
+    if req.options.keep_samples {
+        samples(
+            data,
+            fit,
+            model,
+            regs,
+            req.input.log.t_s.as_deref().unwrap_or(&[]),
+        )
+    } else {
+        OrbitSamples::default()
+    }
 }
 
 fn rows(w: &Matrix3<f64>) -> [[f64; 3]; 3] {
