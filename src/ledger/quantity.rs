@@ -79,6 +79,36 @@ impl Quantity {
         out
     }
 
+    /// A calibration's `hard_iron_{x,y,z}_nt` and `hard_iron_magnitude_nt` (nT) and
+    /// `soft_iron_{r}{c}` (dimensionless), each with its 1σ: the names `calibrate` and
+    /// `orbit` share, so history sets ground and orbit side by side.
+    pub fn iron(
+        hard_iron_nt: [f64; 3],
+        hard_iron_sigma_nt: [f64; 3],
+        soft_iron: &[[f64; 3]; 3],
+        soft_iron_sigma: &[[f64; 3]; 3],
+    ) -> Vec<Self> {
+        let mut out = Self::vector(
+            "hard_iron",
+            "nT",
+            "nt",
+            hard_iron_nt,
+            Some(hard_iron_sigma_nt),
+            None,
+        );
+        for (i, row) in soft_iron.iter().enumerate() {
+            for (j, x) in row.iter().enumerate() {
+                out.push(Self::number(
+                    format!("soft_iron_{i}{j}"),
+                    "1",
+                    *x,
+                    Some(soft_iron_sigma[i][j]),
+                ));
+            }
+        }
+        out
+    }
+
     /// Replace a number's 1σ (no effect on a verdict).
     pub fn set_sigma(&mut self, new: f64) {
         if let QuantityValue::Number { sigma, .. } = &mut self.value {

@@ -36,24 +36,12 @@ impl CheckResult for CalibrationResult {
     /// `hard_iron_{x,y,z}_nt`, `hard_iron_magnitude_nt`, `soft_iron_{r}{c}`,
     /// `calibration_residual_rms_nt`, each with its 1σ.
     fn quantities(&self) -> Vec<Quantity> {
-        let mut out = Quantity::vector(
-            "hard_iron",
-            "nT",
-            "nt",
+        let mut out = Quantity::iron(
             self.hard_iron_nt,
-            Some(self.hard_iron_sigma_nt),
-            None,
+            self.hard_iron_sigma_nt,
+            &self.soft_iron,
+            &self.soft_iron_sigma,
         );
-        for (i, row) in self.soft_iron.iter().enumerate() {
-            for (j, x) in row.iter().enumerate() {
-                out.push(Quantity::number(
-                    format!("soft_iron_{i}{j}"),
-                    "1",
-                    *x,
-                    Some(self.soft_iron_sigma[i][j]),
-                ));
-            }
-        }
         out.push(Quantity::number(
             "calibration_residual_rms_nt".into(),
             "nT",

@@ -49,24 +49,12 @@ impl CheckResult for OrbitResult {
     /// `temperature_slope_{x,y,z}_nt_per_c`, `orbit_residual_rms_nt`, and
     /// `ground_delta_{x,y,z}_nt` when compared.
     fn quantities(&self) -> Vec<Quantity> {
-        let mut out = Quantity::vector(
-            "hard_iron",
-            "nT",
-            "nt",
+        let mut out = Quantity::iron(
             self.hard_iron_nt,
-            Some(self.hard_iron_sigma_nt),
-            None,
+            self.hard_iron_sigma_nt,
+            &self.soft_iron,
+            &self.soft_iron_sigma,
         );
-        for (i, row) in self.soft_iron.iter().enumerate() {
-            for (j, x) in row.iter().enumerate() {
-                out.push(Quantity::number(
-                    format!("soft_iron_{i}{j}"),
-                    "1",
-                    *x,
-                    Some(self.soft_iron_sigma[i][j]),
-                ));
-            }
-        }
         for r in &self.regressors {
             for (a, axis) in ["x", "y", "z"].iter().enumerate() {
                 out.push(Quantity::number(
