@@ -37,15 +37,24 @@ pub struct Args {
 /// Run `align`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let plan = load_plan(&args.plan, args.sensor.sensor.as_deref())?;
-    let calibration = args
+    // Read the calibration once: the fit uses these bytes and the ledger's dedupe key
+    // carries their hash, so a corrected file at the same path is a new run.
+    let calibration_text = args
         .calibration
         .as_deref()
-        .map(Calibration::read)
+        .map(|p| std::fs::read_to_string(p).map_err(|e| magproof::Error::io(p, e)))
         .transpose()?;
+    let calibration = match (&args.calibration, &calibration_text) {
+        (Some(p), Some(text)) => Some(Calibration::parse(text, p)?),
+        _ => None,
+    };
     // The flight magnetometer records the log: its range applies.
     let input = read_input(&args.log, Some(&plan), &args.input, true)?;
     let key = serde_json::json!({
         "calibration": args.calibration.as_ref().map(|p| p.display().to_string()),
+        "calibration_sha256": calibration_text
+            .as_deref()
+            .map(|t| magproof::log::hash::sha256_bytes(t.as_bytes())),
     });
     let options = AlignOptions { calibration };
     let result = run_align(&CheckRequest::new(&input, Some(&plan), options))?;

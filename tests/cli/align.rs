@@ -141,3 +141,40 @@ fn the_plan_step_runs_in_closeout_and_reaches_the_ledger() {
         stdout(&out)
     );
 }
+
+#[test]
+fn a_corrected_calibration_file_at_the_same_path_is_a_new_run() {
+    // The dedupe key carries the calibration's SHA-256, not only its path: a file fixed
+    // in place and re-run must be recorded, never "already recorded".
+    let dir = TestDir::new();
+    assert_code(
+        &dir.run(&["simulate", "align", "--seed", "5", "--out", "."]),
+        0,
+    );
+    let cal = |h: f64| {
+        format!("{{\"hard_iron_nt\": [{h}, 0, 0], \"soft_iron\": [[1,0,0],[0,1,0],[0,0,1]]}}")
+    };
+    let run = || {
+        let args = [
+            "align",
+            "align.csv",
+            "--plan",
+            "plan.toml",
+            "--calibration",
+            "cal.json",
+            "--record",
+            "--ledger",
+            "l.db",
+        ];
+        let out = dir.run(&args);
+        String::from_utf8_lossy(&out.stderr).to_string()
+    };
+    dir.write("cal.json", &cal(0.0));
+    let first = run();
+    assert!(first.contains("recorded as run #1"), "{first}");
+    let same = run();
+    assert!(same.contains("already recorded as run #1"), "{same}");
+    dir.write("cal.json", &cal(40.0));
+    let fixed = run();
+    assert!(fixed.contains("recorded as run #2"), "{fixed}");
+}
