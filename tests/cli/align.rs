@@ -169,12 +169,12 @@ fn a_corrected_calibration_file_at_the_same_path_is_a_new_run() {
         let out = dir.run(&args);
         String::from_utf8_lossy(&out.stderr).to_string()
     };
-    dir.write("cal.json", &cal(0.0));
+    dir.write("cal.json", cal(0.0));
     let first = run();
     assert!(first.contains("recorded as run #1"), "{first}");
     let same = run();
     assert!(same.contains("already recorded as run #1"), "{same}");
-    dir.write("cal.json", &cal(40.0));
+    dir.write("cal.json", cal(40.0));
     let fixed = run();
     assert!(fixed.contains("recorded as run #2"), "{fixed}");
 }
