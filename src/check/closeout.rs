@@ -12,6 +12,7 @@ use std::path::{Path, PathBuf};
 
 use super::kind::CheckKind;
 use super::outcome::{CheckResult, Verdict};
+use super::sign_chain::{sign_chain_of, SignChain};
 use super::{CheckInput, InputOptions};
 use crate::log::plan::read_plan;
 use crate::log::Plan;
@@ -50,12 +51,17 @@ pub struct CloseoutResult {
     pub plan: Plan,
     /// The steps, in plan order.
     pub steps: Vec<StepOutcome>,
+    /// The sign chain per body axis, when a step is an align, polarity or loop step
+    /// (docs/sign-chain.md).
+    pub sign_chain: Option<SignChain>,
 }
 
 impl CloseoutResult {
-    /// Overall verdict: the worst of the steps'.
+    /// Overall verdict: the worst of the steps' and the sign chain's (a broken element
+    /// fails; one never tested does not lower it; docs/sign-chain.md).
     pub fn verdict(&self) -> Verdict {
-        Verdict::combine(self.steps.iter().map(|s| s.result.verdict()))
+        let chain = self.sign_chain.as_ref().map(SignChain::verdict);
+        Verdict::combine(self.steps.iter().map(|s| s.result.verdict()).chain(chain))
     }
 
     /// Overall pass: false if any step failed or was inconclusive; true if every step
@@ -84,14 +90,23 @@ impl CloseoutResult {
                 }))
             })
             .collect::<Result<Vec<_>, Error>>()?;
-        Ok(serde_json::json!({
+        let mut out = serde_json::json!({
             "serial": article.map(|a| a.serial.clone()),
             "build": article.map(|a| a.build.clone()),
             "plan": self.plan.path.display().to_string(),
             "pass": self.pass(),
             "verdict": self.verdict(),
             "steps": steps,
-        }))
+        });
+        if let (Some(chain), Some(o)) = (&self.sign_chain, out.as_object_mut()) {
+            o.extend(
+                chain
+                    .json_keys()
+                    .into_iter()
+                    .map(|(k, v)| (k.to_string(), v)),
+            );
+        }
+        Ok(out)
     }
 }
 
@@ -139,7 +154,12 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
             ignored_columns: ran.ignored_columns,
         });
     }
-    Ok(CloseoutResult { plan, steps })
+    let sign_chain = sign_chain_of(&plan, &steps)?;
+    Ok(CloseoutResult {
+        plan,
+        steps,
+        sign_chain,
+    })
 }
 
 /// Every step's kind from the registry; an unknown one is refused by its line.

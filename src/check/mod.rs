@@ -21,6 +21,7 @@ pub mod orbit;
 pub mod outcome;
 pub mod polarity;
 pub mod rod;
+pub mod sign_chain;
 pub mod units_sense;
 
 pub use flight_part::FlightPart;

@@ -1,0 +1,292 @@
+//! The chain builder on synthetic step JSON, shaped as the documented keys of
+//! docs/alignment.md (`axes`, `handedness`, `gyro`), docs/polarity.md (`rods[].name`,
+//! `rods[].verdict`) and the loop check's contract (`rods`: [{name, verdict, slope,
+//! correlation}], verdicts consistent | reversed | not-driven | cross-wired | unused).
+
+use serde_json::{json, Value};
+
+use super::*;
+
+fn align(mag: [&str; 3], gyro: Option<[&str; 3]>) -> Value {
+    let axes = |v: [&str; 3]| {
+        AXES.iter()
+            .zip(v)
+            .map(|(a, w)| json!({"axis": a, "verdict": w, "measured": null, "planned": format!("+{a}")}))
+            .collect::<Vec<_>>()
+    };
+    json!({
+        "axes": axes(mag),
+        "handedness": "right",
+        "gyro": gyro.map(|g| json!({"axes": axes(g)})),
+        "verdict": "pass",
+    })
+}
+
+fn rods_json(verdicts: [&str; 3]) -> Value {
+    let rods: Vec<Value> = AXES
+        .iter()
+        .zip(verdicts)
+        .map(|(n, v)| json!({"name": n, "verdict": v, "slope": 1.0, "correlation": 0.98}))
+        .collect();
+    json!({ "rods": rods })
+}
+
+fn looped(verdicts: [&str; 3], law: Option<&str>) -> Value {
+    let mut j = rods_json(verdicts);
+    if let Some(l) = law {
+        j["law"] = json!(l);
+    }
+    j
+}
+
+/// Rods named x, y, z along body x, y, z.
+fn plan_rods() -> Vec<RodAxis> {
+    AXES.iter()
+        .enumerate()
+        .map(|(axis, n)| RodAxis {
+            name: n.to_string(),
+            axis,
+        })
+        .collect()
+}
+
+fn chain(steps: &[(&str, &Value)]) -> SignChain {
+    let views: Vec<StepJson> = steps
+        .iter()
+        .enumerate()
+        .map(|(k, (kind, json))| StepJson {
+            index: k + 1,
+            kind,
+            json,
+        })
+        .collect();
+    build_sign_chain(&views, &plan_rods()).expect("a chain step ran")
+}
+
+const OK3: [&str; 3] = ["ok", "ok", "ok"];
+
+#[test]
+fn every_element_proven_makes_the_chain_complete() {
+    let a = align(OK3, Some(OK3));
+    let p = rods_json(OK3);
+    let l = looped(["consistent"; 3], Some("rate"));
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert!(c.complete(), "{c:?}");
+    assert!(c.gyro_required, "the rate law uses the gyro");
+    assert_eq!(c.verdict(), Verdict::Pass);
+    assert_eq!(c.status(), "complete");
+    assert!(c.axes.iter().all(|x| x.ok));
+    assert_eq!(c.steps, vec![1, 2, 3]);
+}
+
+#[test]
+fn a_flip_found_by_align_breaks_its_axis_whatever_polarity_says() {
+    let a = align(["flipped", "ok", "ok"], None);
+    let p = rods_json(OK3);
+    let l = looped(["consistent"; 3], Some("bdot"));
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert_eq!(c.axes[0].magnetometer, Element::Flipped);
+    assert_eq!(c.axes[0].rod, Element::Ok);
+    assert!(!c.axes[0].ok);
+    assert!(c.axes[1].ok && c.axes[2].ok);
+    assert!(!c.complete());
+    assert_eq!(c.verdict(), Verdict::Fail);
+    assert!(c
+        .notes
+        .iter()
+        .any(|n| n.contains("Polarity judges each rod through")));
+}
+
+#[test]
+fn a_flipped_magnetometer_and_a_reversed_rod_on_one_axis_are_named_a_cancelling_pair() {
+    let a = align(["ok", "flipped", "ok"], None);
+    let p = rods_json(["ok", "reversed", "ok"]);
+    let c = chain(&[("align", &a), ("polarity", &p)]);
+    let pair: Vec<&String> = c.notes.iter().filter(|n| n.contains("cancel")).collect();
+    assert_eq!(pair.len(), 1, "{:?}", c.notes);
+    assert!(pair[0].starts_with("Body y:") && pair[0].contains("rod is reversed"));
+    assert!(pair[0].contains("B-dot"));
+    // A reversed rod without a flipped magnetometer is no pair.
+    let a = align(OK3, None);
+    let c = chain(&[("align", &a), ("polarity", &p)]);
+    assert!(
+        !c.notes.iter().any(|n| n.contains("cancel")),
+        "{:?}",
+        c.notes
+    );
+    assert_eq!(c.verdict(), Verdict::Fail);
+}
+
+#[test]
+fn a_reversed_law_pairs_with_a_flipped_magnetometer_too() {
+    let a = align(["ok", "ok", "flipped"], None);
+    let l = looped(["consistent", "consistent", "reversed"], Some("bdot"));
+    let c = chain(&[("align", &a), ("loop", &l)]);
+    assert!(c
+        .notes
+        .iter()
+        .any(|n| n.starts_with("Body z:") && n.contains("law is reversed")));
+}
+
+#[test]
+fn an_unchecked_gyro_under_a_bdot_law_leaves_the_chain_complete() {
+    let a = align(OK3, None);
+    let p = rods_json(OK3);
+    let l = looped(["consistent"; 3], Some("bdot"));
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert!(!c.gyro_required);
+    assert!(c.axes.iter().all(|x| x.gyro == Element::Unchecked));
+    assert!(c.complete(), "{c:?}");
+    assert_eq!(c.verdict(), Verdict::Pass);
+}
+
+#[test]
+fn an_unchecked_gyro_under_a_rate_law_is_incomplete_not_broken() {
+    let a = align(OK3, None);
+    let p = rods_json(OK3);
+    let l = looped(["consistent"; 3], Some("rate"));
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert!(c.gyro_required);
+    assert!(!c.complete());
+    assert_eq!(c.verdict(), Verdict::NoLimit);
+    assert_eq!(c.status(), "incomplete");
+}
+
+#[test]
+fn a_flipped_gyro_breaks_its_axis_even_when_the_law_does_not_use_it() {
+    let a = align(OK3, Some(["ok", "ok", "flipped"]));
+    let p = rods_json(OK3);
+    let l = looped(["consistent"; 3], Some("bdot"));
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert!(!c.gyro_required);
+    assert!(!c.axes[2].ok && c.axes[0].ok);
+    assert_eq!(c.verdict(), Verdict::Fail);
+}
+
+#[test]
+fn without_a_loop_step_the_law_is_unchecked_and_the_chain_incomplete() {
+    let a = align(OK3, None);
+    let p = rods_json(OK3);
+    let c = chain(&[("align", &a), ("polarity", &p)]);
+    assert!(c.axes.iter().all(|x| x.law == Element::Unchecked));
+    assert!(c
+        .axes
+        .iter()
+        .all(|x| x.magnetometer == Element::Ok && x.rod == Element::Ok));
+    assert!(!c.complete());
+    assert_eq!(
+        c.verdict(),
+        Verdict::NoLimit,
+        "untested is not a failed check"
+    );
+    // Without a law named and no gyro measured, the gyro is not needed.
+    assert!(!c.gyro_required);
+}
+
+#[test]
+fn polarity_and_loop_words_map_onto_their_axes() {
+    let p = rods_json(["wrong-axis", "no-response", "off-axis"]);
+    let l = looped(["cross-wired", "not-driven", "unused"], None);
+    let c = chain(&[("polarity", &p), ("loop", &l)]);
+    let rod: Vec<Element> = c.axes.iter().map(|a| a.rod).collect();
+    let law: Vec<Element> = c.axes.iter().map(|a| a.law).collect();
+    assert_eq!(
+        rod,
+        [
+            Element::CrossWired,
+            Element::NotDriven,
+            Element::Inconclusive
+        ]
+    );
+    assert_eq!(
+        law,
+        [Element::CrossWired, Element::NotDriven, Element::Unchecked]
+    );
+    assert!(c.axes.iter().all(|a| a.magnetometer == Element::Unchecked));
+}
+
+#[test]
+fn the_worst_rod_on_an_axis_and_the_worst_step_decide() {
+    let rods = vec![
+        RodAxis {
+            name: "x1".into(),
+            axis: 0,
+        },
+        RodAxis {
+            name: "x2".into(),
+            axis: 0,
+        },
+        RodAxis {
+            name: "y".into(),
+            axis: 1,
+        },
+    ];
+    let p1 = json!({"rods": [{"name": "x1", "verdict": "ok"}, {"name": "x2", "verdict": "reversed"},
+                             {"name": "y", "verdict": "ok"}, {"name": "q", "verdict": "ok"}]});
+    let p2 = json!({"rods": [{"name": "x1", "verdict": "ok"}, {"name": "x2", "verdict": "ok"},
+                             {"name": "y", "verdict": "inconclusive"}]});
+    let views = [
+        StepJson {
+            index: 1,
+            kind: "polarity",
+            json: &p1,
+        },
+        StepJson {
+            index: 2,
+            kind: "polarity",
+            json: &p2,
+        },
+    ];
+    let c = build_sign_chain(&views, &rods).unwrap();
+    assert_eq!(c.axes[0].rod, Element::Reversed);
+    assert_eq!(c.axes[1].rod, Element::Inconclusive);
+    assert_eq!(c.axes[2].rod, Element::Unchecked);
+    assert!(c.notes.iter().any(|n| n.contains("no rod along body z")));
+    assert!(c
+        .notes
+        .iter()
+        .any(|n| n.contains("\"q\" is not in the plan")));
+}
+
+#[test]
+fn ok_axes_of_an_align_that_could_not_fix_the_field_sign_are_not_proof() {
+    let mut a = align(OK3, None);
+    a["handedness"] = json!("inconclusive");
+    let c = chain(&[("align", &a)]);
+    assert!(c
+        .axes
+        .iter()
+        .all(|x| x.magnetometer == Element::Inconclusive));
+    assert_eq!(c.verdict(), Verdict::Inconclusive);
+}
+
+#[test]
+fn a_closeout_without_align_polarity_or_loop_has_no_chain() {
+    let j = json!({"verdict": "pass"});
+    let views = [StepJson {
+        index: 1,
+        kind: "calibrate",
+        json: &j,
+    }];
+    assert!(build_sign_chain(&views, &plan_rods()).is_none());
+}
+
+#[test]
+fn the_ledger_quantities_name_each_axis_and_element() {
+    let a = align(["flipped", "ok", "ok"], None);
+    let c = chain(&[("align", &a)]);
+    let q = c.quantities();
+    let word = |n: &str| {
+        q.iter()
+            .find(|x| x.name == n)
+            .map(|x| x.value.clone())
+            .unwrap_or_else(|| panic!("no {n}"))
+    };
+    use crate::ledger::QuantityValue::Verdict as W;
+    assert_eq!(word("sign_chain_x"), W("broken".into()));
+    assert_eq!(word("sign_chain_y"), W("not-proven".into()));
+    assert_eq!(word("sign_chain_x_magnetometer"), W("flipped".into()));
+    assert_eq!(word("sign_chain_z_law"), W("unchecked".into()));
+    assert_eq!(word("sign_chain_status"), W("broken".into()));
+    assert_eq!(q.len(), 16);
+}
