@@ -52,6 +52,8 @@ mod report_units;
 mod rod;
 #[path = "cli/sensors.rs"]
 mod sensors;
+#[path = "cli/sign_chain.rs"]
+mod sign_chain;
 #[path = "cli/simulate.rs"]
 mod simulate;
 #[path = "cli/verdicts.rs"]

@@ -77,6 +77,16 @@ pub fn run_and_record(
                 .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
+    let mut runs = runs;
+    // The sign chain is filed beside the steps, in the same transaction.
+    if let Some(chain) = &result.sign_chain {
+        let options = serde_json::json!({ "skip_bad_rows": skip_bad_rows });
+        runs.push(
+            chain
+                .new_run(&result, options)
+                .map_err(magproof::Error::from)?,
+        );
+    }
     let (recorded, other_versions) = Ledger::open(path)
         .and_then(|mut l| {
             let recorded = l.record_runs(&runs)?;
@@ -131,12 +141,44 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
             ));
         }
     }
+    if let Some(chain) = &result.sign_chain {
+        out.push_str(&chain_line(
+            chain,
+            recorded.and_then(|r| r.runs.get(result.steps.len())),
+        ));
+    }
     out.push_str(&format!("  overall         {}\n", result.verdict().word()));
     if let Some(r) = recorded {
         let shown = magproof::text::printable(&r.ledger.display().to_string());
         out.push_str(&format!("  ledger          {shown}\n"));
     }
     out
+}
+
+/// The sign chain's line in the verdicts: its state, the axes not proven, and what the
+/// ledger did with it.
+fn chain_line(chain: &magproof::check::sign_chain::SignChain, rec: Option<&Recorded>) -> String {
+    let open: Vec<&str> = chain
+        .axes
+        .iter()
+        .filter(|a| !a.ok)
+        .map(|a| a.axis)
+        .collect();
+    let detail = if open.is_empty() {
+        String::new()
+    } else {
+        format!(" (not proven on {})", open.join(", "))
+    };
+    let rec = match rec {
+        Some(Recorded::New(id)) => format!(", recorded as run {id}"),
+        Some(Recorded::AlreadyThere(id)) => format!(", same as run {id}"),
+        None => String::new(),
+    };
+    format!(
+        "  {:<18}{}{detail}{rec}\n",
+        "sign chain",
+        chain.status().to_uppercase()
+    )
 }
 
 /// The combined report of a closeout: one section per step, with every log and the
@@ -160,6 +202,9 @@ pub fn closeout_report(result: &CloseoutResult) -> anyhow::Result<RunReport> {
             section.title = format!("Step {} · {}", s.index, section.title);
             sections.push(section);
         }
+    }
+    if let Some(chain) = &result.sign_chain {
+        sections.push(magproof::report::sections::sign_chain_section(chain));
     }
     let mut inputs: Vec<(&std::path::Path, &str)> = vec![(&result.plan.path, &result.plan.sha256)];
     inputs.extend(

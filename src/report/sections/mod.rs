@@ -13,6 +13,7 @@ mod orbit;
 mod polarity;
 mod polarity_stack;
 mod rod;
+pub mod sign_chain;
 
 pub use align::align_section;
 pub use assumptions::assumptions_section;
@@ -22,6 +23,7 @@ pub use history::{history_section, history_text_section};
 pub use orbit::orbit_section;
 pub use polarity::polarity_section;
 pub use rod::rod_section;
+pub use sign_chain::sign_chain_section;
 
 use super::model::{Figure, Tone};
 use crate::Error;
