@@ -142,10 +142,7 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
         }
     }
     if let Some(chain) = &result.sign_chain {
-        out.push_str(&chain_line(
-            chain,
-            recorded.and_then(|r| r.runs.get(result.steps.len())),
-        ));
+        out.push_str(&chain_lines(chain, recorded, result.steps.len()));
     }
     out.push_str(&format!("  overall         {}\n", result.verdict().word()));
     if let Some(r) = recorded {
@@ -155,30 +152,44 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
     out
 }
 
-/// The sign chain's line in the verdicts: its state, the axes not proven, and what the
-/// ledger did with it.
-fn chain_line(chain: &magproof::check::sign_chain::SignChain, rec: Option<&Recorded>) -> String {
+/// The sign chain's lines in the verdicts: its state and what the ledger did with it
+/// (its record follows the `steps` step records), and the axes not proven.
+fn chain_lines(
+    chain: &magproof::check::sign_chain::SignChain,
+    recorded: Option<&RecordedSteps>,
+    steps: usize,
+) -> String {
+    let rec = match recorded.and_then(|r| r.runs.get(steps)) {
+        Some(Recorded::New(id)) => format!("recorded as run {id}"),
+        Some(Recorded::AlreadyThere(id)) => format!("same inputs as run {id}, not recorded again"),
+        None => String::new(),
+    };
+    let mut out = format!(
+        "  {:<18}{:<12} {rec}\n",
+        "sign chain",
+        chain.status().to_uppercase()
+    );
     let open: Vec<&str> = chain
         .axes
         .iter()
         .filter(|a| !a.ok)
         .map(|a| a.axis)
         .collect();
-    let detail = if open.is_empty() {
-        String::new()
-    } else {
-        format!(" (not proven on {})", open.join(", "))
-    };
-    let rec = match rec {
-        Some(Recorded::New(id)) => format!(", recorded as run {id}"),
-        Some(Recorded::AlreadyThere(id)) => format!(", same as run {id}"),
-        None => String::new(),
-    };
-    format!(
-        "  {:<18}{}{detail}{rec}\n",
-        "sign chain",
-        chain.status().to_uppercase()
-    )
+    if !open.is_empty() {
+        out.push_str(&format!(
+            "         (not proven on body {}; see the sign chain section)\n",
+            open.join(", ")
+        ));
+    }
+    let others = recorded.and_then(|r| r.other_versions.get(steps));
+    for other in others.into_iter().flatten() {
+        out.push_str(&format!(
+            "         (same inputs as run {} by magproof {}: a new version's run)\n",
+            other.id,
+            magproof::text::printable(&other.version)
+        ));
+    }
+    out
 }
 
 /// The combined report of a closeout: one section per step, with every log and the

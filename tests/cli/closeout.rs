@@ -115,8 +115,8 @@ fn failing_build_then_fixed_build_are_recorded_and_compared() {
     let h: serde_json::Value = serde_json::from_slice(&hist.stdout).unwrap();
     assert_eq!(
         h["runs"].as_array().unwrap().len(),
-        6,
-        "two builds × three steps"
+        8,
+        "two builds × (three steps + the sign chain)"
     );
     let changes = h["changes"].as_array().unwrap();
     assert!(
