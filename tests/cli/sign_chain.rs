@@ -70,6 +70,20 @@ fn a_flipped_magnetometer_axis_and_a_reversed_rod_show_as_a_broken_cancelling_pa
     assert!(t.contains("FLIPPED") && t.contains("REVERSED"), "{t}");
     assert!(t.contains("sign chain") && t.contains("BROKEN"), "{t}");
     assert!(t.contains("two signs cancel"), "{t}");
+
+    // The report carries the section and the same keys in result.json.
+    let rep = dir.run(&["closeout", "--no-record", "--report", "rep", "plan.toml"]);
+    assert_code(&rep, 1);
+    let html = std::fs::read_to_string(dir.join("rep/report.html")).unwrap();
+    assert!(
+        html.contains("Sign chain per body axis"),
+        "no chain section"
+    );
+    assert!(html.contains("FLIPPED") && html.contains("REVERSED"));
+    let saved: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("rep/result.json")).unwrap())
+            .unwrap();
+    assert_eq!(saved["sign_chain"], j["sign_chain"]);
 }
 
 #[test]
@@ -117,6 +131,26 @@ fn clean_align_and_polarity_pass_with_the_chain_incomplete_and_recorded() {
         3,
         "plan and two logs"
     );
+
+    // history --kind takes the chain's kind, and the same closeout again is not a new run.
+    let again = dir.run(&["closeout", "--ledger", "l.db", "plan.toml"]);
+    assert_code(&again, 0);
+    assert!(
+        stdout(&again).contains("INCOMPLETE   same inputs as run #3, not recorded again"),
+        "{}",
+        stdout(&again)
+    );
+    let only = dir.run(&[
+        "history",
+        "--json",
+        "--ledger",
+        "l.db",
+        "--kind",
+        "sign_chain",
+    ]);
+    let runs = json_stdout(&only)["runs"].as_array().unwrap().clone();
+    assert_eq!(runs.len(), 1);
+    assert_eq!(runs[0]["kind"], "sign_chain");
 }
 
 #[test]
