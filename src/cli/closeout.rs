@@ -62,7 +62,7 @@ pub fn run_and_record(
         return Ok((result, None));
     };
     // Build every record before opening the ledger: nothing is written unless all are good.
-    let runs = result
+    let mut runs = result
         .steps
         .iter()
         .map(|s| {
@@ -77,7 +77,6 @@ pub fn run_and_record(
                 .map_err(magproof::Error::from)
         })
         .collect::<Result<Vec<_>, magproof::Error>>()?;
-    let mut runs = runs;
     // The sign chain is filed beside the steps, in the same transaction.
     if let Some(chain) = &result.sign_chain {
         let options = serde_json::json!({ "skip_bad_rows": skip_bad_rows });
