@@ -290,3 +290,24 @@ fn the_ledger_quantities_name_each_axis_and_element() {
     assert_eq!(word("sign_chain_status"), W("broken".into()));
     assert_eq!(q.len(), 16);
 }
+
+#[test]
+fn a_tilted_rod_sits_on_the_body_axis_its_dipole_is_mostly_along() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plan.toml");
+    std::fs::write(
+        &path,
+        "[article]\nserial = \"S\"\nbuild = \"B\"\n\
+         [[rod]]\nname = \"a\"\naxis_body = [0.1, -0.99, 0.05]\nposition_m = [0, 0, 0]\n\
+         [[rod]]\nname = \"b\"\naxis_body = [-0.6, 0.0, 0.8]\nposition_m = [0, 0, 0]\n",
+    )
+    .unwrap();
+    let plan = crate::log::plan::read_plan(&path).unwrap();
+    let rods = RodAxis::of_plan(&plan);
+    let axes: Vec<(&str, usize)> = rods.iter().map(|r| (r.name.as_str(), r.axis)).collect();
+    assert_eq!(
+        axes,
+        [("a", 1), ("b", 2)],
+        "largest |component|, sign aside"
+    );
+}
