@@ -58,7 +58,7 @@ pub struct CloseoutResult {
 
 impl CloseoutResult {
     /// Overall verdict: the worst of the steps' and the sign chain's (a broken element
-    /// fails; one never tested does not lower it; docs/sign-chain.md).
+    /// fails; one not proven does not lower it; docs/sign-chain.md).
     pub fn verdict(&self) -> Verdict {
         let chain = self.sign_chain.as_ref().map(SignChain::verdict);
         Verdict::combine(self.steps.iter().map(|s| s.result.verdict()).chain(chain))

@@ -106,11 +106,9 @@ impl SignChain {
         self.axes.iter().all(|a| a.ok)
     }
 
-    /// The chain as a verdict: `Fail` when an element is broken (a wrong sign or axis),
-    /// `Inconclusive` when a needed element was tested and could not tell, `NoLimit`
-    /// when something needed was never tested, `Pass` when complete. `NoLimit` never
-    /// lowers a closeout's verdict: an untested element is not a failed check.
-    pub fn verdict(&self) -> Verdict {
+    /// Every element the chain needs, over all axes: the magnetometer, rod and law, and
+    /// the gyro when the law uses it or when it is broken.
+    fn needed(&self) -> Vec<Element> {
         let needed = |a: &AxisChain| {
             let mut v = vec![a.magnetometer, a.rod, a.law];
             if self.gyro_required || a.gyro.is_broken() {
@@ -118,26 +116,33 @@ impl SignChain {
             }
             v
         };
-        let all: Vec<Element> = self.axes.iter().flat_map(needed).collect();
+        self.axes.iter().flat_map(needed).collect()
+    }
+
+    /// The chain as a verdict: `Fail` when an element is broken (a wrong sign or axis),
+    /// `Pass` when complete, else `NoLimit`: an element never tested, or tested and
+    /// unable to tell, proves nothing but is not a failed check (the step that could
+    /// not tell carries its own verdict), so it never lowers a closeout's verdict.
+    pub fn verdict(&self) -> Verdict {
+        let all = self.needed();
         if all.iter().any(|e| e.is_broken()) {
             Verdict::Fail
-        } else if all.contains(&Element::Inconclusive) {
-            Verdict::Inconclusive
-        } else if all.iter().any(|e| *e != Element::Ok) {
-            Verdict::NoLimit
-        } else {
+        } else if all.iter().all(|e| *e == Element::Ok) {
             Verdict::Pass
+        } else {
+            Verdict::NoLimit
         }
     }
 
-    /// The chain's state in one word: `complete`, `broken`, `inconclusive` or
-    /// `incomplete`.
+    /// The chain's state in one word: `complete`, `broken`, `inconclusive` (nothing
+    /// broken, a needed element's test could not tell) or `incomplete` (nothing broken
+    /// or inconclusive, a needed element never tested).
     pub fn status(&self) -> &'static str {
         match self.verdict() {
             Verdict::Pass => "complete",
             Verdict::Fail => "broken",
-            Verdict::Inconclusive => "inconclusive",
-            Verdict::NoLimit => "incomplete",
+            _ if self.needed().contains(&Element::Inconclusive) => "inconclusive",
+            _ => "incomplete",
         }
     }
 
@@ -187,7 +192,7 @@ pub fn build_sign_chain(steps: &[StepJson], rods: &[RodAxis]) -> Option<SignChai
         read.iter().filter(|s| s.kind == kind).copied().collect()
     };
     let magnetometer = magnetometer_elements(&of("align"), &mut notes);
-    let gyro = gyro_elements(&of("align"), &mut notes);
+    let gyro = gyro_elements(&of("align"), &magnetometer, &mut notes);
     let rod = rod_elements(&of("polarity"), rods, Element::from_polarity, &mut notes);
     let law = rod_elements(&of("loop"), rods, Element::from_loop, &mut notes);
     for (a, name) in AXES.iter().enumerate() {
@@ -289,14 +294,60 @@ fn magnetometer_elements(steps: &[&StepJson], notes: &mut Vec<String>) -> [Eleme
     acc.unwrap_or([Element::Unchecked; 3])
 }
 
-/// The gyro per body axis from every align step's `gyro.axes`.
-fn gyro_elements(steps: &[&StepJson], notes: &mut Vec<String>) -> [Element; 3] {
+/// The gyro per body axis from every align step's `gyro.axes`. A gyro judged on a hand
+/// tumble (`gyro.reference` `magnetometer`) is judged against the magnetometer's planned
+/// mapping, not the body: its `ok` axes prove the gyro only when the closeout proved the
+/// magnetometer on every axis (else `inconclusive`), and its broken axes may be the
+/// magnetometer's error as much as the gyro's (said in a note; they stay broken).
+fn gyro_elements(
+    steps: &[&StepJson],
+    magnetometer: &[Element; 3],
+    notes: &mut Vec<String>,
+) -> [Element; 3] {
+    let mag_proven = magnetometer.iter().all(|e| *e == Element::Ok);
     let mut acc = None;
     for s in steps {
-        let axes = s.json.get("gyro").and_then(|g| g.get("axes"));
-        acc = merge(acc, axes_elements(axes, notes, "gyro"));
+        let gyro = s.json.get("gyro");
+        let mut found = axes_elements(gyro.and_then(|g| g.get("axes")), notes, "gyro");
+        let relative = gyro
+            .and_then(|g| g.get("reference"))
+            .and_then(Value::as_str)
+            == Some("magnetometer");
+        if let (Some(f), true) = (found.as_mut(), relative) {
+            notes.push(tumble_gyro_note(s.index, f, mag_proven));
+            if !mag_proven {
+                for e in f.iter_mut().filter(|e| **e == Element::Ok) {
+                    *e = Element::Inconclusive;
+                }
+            }
+        }
+        acc = merge(acc, found);
     }
     acc.unwrap_or([Element::Unchecked; 3])
+}
+
+/// The note on a gyro judged against the magnetometer (hand tumble) in step `index`.
+fn tumble_gyro_note(index: usize, found: &[Element; 3], mag_proven: bool) -> String {
+    let mut note = format!(
+        "Step {index}: align judged the gyro on a hand tumble, against the magnetometer's \
+         planned mapping rather than the body."
+    );
+    if mag_proven {
+        note.push_str(" The magnetometer is proven on every axis, so the gyro's axes stand.");
+    } else {
+        note.push_str(
+            " The magnetometer is not proven on every axis in this closeout (a turntable \
+             align proves it), so the gyro's \"ok\" axes are counted as inconclusive.",
+        );
+    }
+    if found.iter().any(|e| e.is_broken()) {
+        note.push_str(
+            " A gyro axis that disagrees may be the gyro's error or the magnetometer's \
+             mapping (one flipped magnetometer axis shows as two flipped gyro axes): check \
+             both mappings.",
+        );
+    }
+    note
 }
 
 /// Per body axis, the worst finding over the rods along it, from every step's `rods`

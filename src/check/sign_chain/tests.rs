@@ -257,7 +257,9 @@ fn ok_axes_of_an_align_that_could_not_fix_the_field_sign_are_not_proof() {
         .axes
         .iter()
         .all(|x| x.magnetometer == Element::Inconclusive));
-    assert_eq!(c.verdict(), Verdict::Inconclusive);
+    assert_eq!(c.status(), "inconclusive");
+    // Not proven, but not a failed check: align carries its own verdict.
+    assert_eq!(c.verdict(), Verdict::NoLimit);
 }
 
 #[test]
@@ -310,4 +312,93 @@ fn a_tilted_rod_sits_on_the_body_axis_its_dipole_is_mostly_along() {
         [("a", 1), ("b", 2)],
         "largest |component|, sign aside"
     );
+}
+
+#[test]
+fn a_cancelling_pair_is_caught_by_the_chain_while_the_loop_passes() {
+    // The y magnetometer axis flipped and the y rod reversed: the software's B-dot
+    // command through the flipped axis is reversed too, so the rod pushes the right way,
+    // the rotation loses energy and loop, reading through the same plan, finds every rod
+    // consistent and passes (the sign argument of docs/sign-chain.md, m ∝ −Ḃ, Stickler &
+    // Alfriend 1976). Align and polarity each fail on their own element.
+    let a = align(["ok", "flipped", "ok"], None);
+    let p = rods_json(["ok", "reversed", "ok"]);
+    let mut l = looped(["consistent"; 3], Some("bdot"));
+    l["energy"] = json!("removes");
+    l["verdict"] = json!("pass");
+    l["pass"] = json!(true);
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert_eq!(c.axes[1].law, Element::Ok, "the loop saw nothing wrong");
+    assert_eq!(c.axes[1].magnetometer, Element::Flipped);
+    assert_eq!(c.axes[1].rod, Element::Reversed);
+    assert!(!c.axes[1].ok && c.axes[0].ok && c.axes[2].ok);
+    assert!(!c.complete());
+    assert_eq!(c.status(), "broken");
+    assert!(c
+        .notes
+        .iter()
+        .any(|n| n.starts_with("Body y:") && n.contains("cancel")));
+    // Even were every step's own verdict a pass, the closeout's would fail on the chain.
+    let steps_and_chain = [Verdict::Pass, Verdict::Pass, Verdict::Pass, c.verdict()];
+    assert_eq!(Verdict::combine(steps_and_chain), Verdict::Fail);
+}
+
+#[test]
+fn missing_elements_are_unproven_never_ok() {
+    // Only a polarity step: the magnetometer and the law were never tested.
+    let p = rods_json(OK3);
+    let c = chain(&[("polarity", &p)]);
+    for x in &c.axes {
+        assert_eq!(x.rod, Element::Ok);
+        assert_eq!(x.magnetometer, Element::Unchecked);
+        assert_eq!(x.law, Element::Unchecked);
+        assert!(!x.ok, "{x:?}");
+    }
+    assert!(!c.complete());
+    assert_eq!(c.status(), "incomplete");
+    assert_eq!(c.verdict(), Verdict::NoLimit);
+    let q = c.quantities();
+    assert!(q.iter().any(|x| x.name == "sign_chain_x"
+        && x.value == crate::ledger::QuantityValue::Verdict("not-proven".into())));
+}
+
+/// An align step's JSON for a hand tumble: the magnetometer's keys null, the gyro judged
+/// against the magnetometer (docs/alignment.md, "Hand tumble").
+fn tumble(gyro: [&str; 3]) -> Value {
+    let mut j = align(OK3, Some(gyro));
+    j["axes"] = Value::Null;
+    j["handedness"] = Value::Null;
+    j["gyro"]["reference"] = json!("magnetometer");
+    j
+}
+
+#[test]
+fn a_gyro_judged_on_a_hand_tumble_proves_nothing_until_the_magnetometer_is_proven() {
+    let l = looped(["consistent"; 3], Some("rate"));
+    let p = rods_json(OK3);
+    let t = tumble(OK3);
+    let c = chain(&[("align", &t), ("polarity", &p), ("loop", &l)]);
+    assert!(c.axes.iter().all(|x| x.magnetometer == Element::Unchecked));
+    assert!(c.axes.iter().all(|x| x.gyro == Element::Inconclusive));
+    assert_eq!(c.status(), "inconclusive");
+    assert!(c.notes.iter().any(|n| n.contains("hand tumble")));
+
+    // A turntable align proves the magnetometer: the tumble's gyro axes then stand.
+    let table = align(OK3, None);
+    let c = chain(&[
+        ("align", &table),
+        ("align", &t),
+        ("polarity", &p),
+        ("loop", &l),
+    ]);
+    assert!(c.axes.iter().all(|x| x.gyro == Element::Ok), "{c:?}");
+    assert!(c.complete());
+
+    // A disagreeing gyro axis stays broken, with the note that either may be at fault.
+    let t = tumble(["ok", "flipped", "flipped"]);
+    let c = chain(&[("align", &t), ("polarity", &p), ("loop", &l)]);
+    assert_eq!(c.axes[1].gyro, Element::Flipped);
+    assert_eq!(c.axes[0].gyro, Element::Inconclusive);
+    assert_eq!(c.verdict(), Verdict::Fail);
+    assert!(c.notes.iter().any(|n| n.contains("check both mappings")));
 }

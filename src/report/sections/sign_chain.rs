@@ -28,7 +28,7 @@ fn status_text(chain: &SignChain) -> String {
     let words = match chain.status() {
         "complete" => "complete: every element proven on its own",
         "broken" => "BROKEN: a wrong sign or axis was found",
-        "inconclusive" => "not proven: a test could not tell",
+        "inconclusive" => "inconclusive: a test could not tell (not proven)",
         _ => "incomplete: an element was not tested (not a failed check)",
     };
     words.to_string()
