@@ -9,6 +9,7 @@ use clap::Args as ClapArgs;
 use super::common::{LedgerArgs, Outcome, OutputArgs};
 use super::present::{emit, outcome, prepare_all, run_report, writers};
 use magproof::check::closeout::{run_closeout, CloseoutRequest, CloseoutResult};
+use magproof::check::sign_chain::{AxisChain, SignChain};
 use magproof::ledger::{Ledger, NewRun, OtherVersion, Recorded};
 use magproof::report::RunReport;
 
@@ -153,11 +154,7 @@ pub fn verdict_lines(result: &CloseoutResult, recorded: Option<&RecordedSteps>) 
 
 /// The sign chain's lines in the verdicts: its state and what the ledger did with it
 /// (its record follows the `steps` step records), and the axes not proven.
-fn chain_lines(
-    chain: &magproof::check::sign_chain::SignChain,
-    recorded: Option<&RecordedSteps>,
-    steps: usize,
-) -> String {
+fn chain_lines(chain: &SignChain, recorded: Option<&RecordedSteps>, steps: usize) -> String {
     let rec = match recorded.and_then(|r| r.runs.get(steps)) {
         Some(Recorded::New(id)) => format!("recorded as run {id}"),
         Some(Recorded::AlreadyThere(id)) => format!("same inputs as run {id}, not recorded again"),
@@ -168,16 +165,33 @@ fn chain_lines(
         "sign chain",
         chain.status().to_uppercase()
     );
-    let open: Vec<&str> = chain
-        .axes
-        .iter()
-        .filter(|a| !a.ok)
-        .map(|a| a.axis)
-        .collect();
+    let axes = |broken: bool| -> Vec<&str> {
+        let on = |a: &&AxisChain| {
+            [a.magnetometer, a.gyro, a.rod, a.law]
+                .iter()
+                .any(|e| e.is_broken())
+                == broken
+        };
+        chain
+            .axes
+            .iter()
+            .filter(|a| !a.ok)
+            .filter(on)
+            .map(|a| a.axis)
+            .collect()
+    };
+    let (broken, open) = (axes(true), axes(false));
+    let mut said = Vec::new();
+    if !broken.is_empty() {
+        said.push(format!("broken on body {}", broken.join(", ")));
+    }
     if !open.is_empty() {
+        said.push(format!("not proven on body {}", open.join(", ")));
+    }
+    if !said.is_empty() {
         out.push_str(&format!(
-            "         (not proven on body {}; see the sign chain section)\n",
-            open.join(", ")
+            "         ({}; see the sign chain section)\n",
+            said.join("; ")
         ));
     }
     let others = recorded.and_then(|r| r.other_versions.get(steps));

@@ -70,6 +70,10 @@ fn a_flipped_magnetometer_axis_and_a_reversed_rod_show_as_a_broken_cancelling_pa
     assert!(t.contains("FLIPPED") && t.contains("REVERSED"), "{t}");
     assert!(t.contains("sign chain") && t.contains("BROKEN"), "{t}");
     assert!(t.contains("two signs cancel"), "{t}");
+    assert!(
+        t.contains("(broken on body y; not proven on body x, z;"),
+        "the verdict list parts broken from unproven axes: {t}"
+    );
 
     // The report carries the section and the same keys in result.json.
     let rep = dir.run(&["closeout", "--no-record", "--report", "rep", "plan.toml"]);

@@ -72,8 +72,8 @@ pub fn sign_chain_section(chain: &SignChain) -> Section {
     let mut notes = chain.notes.clone();
     notes.push(
         "A closeout fails on a broken element (each one also fails its own step); an \
-         element never tested leaves the chain incomplete without failing the closeout: \
-         the chain is proven only when it reads complete."
+         element never tested, or whose test could not tell, leaves the chain unproven \
+         without failing the closeout: the chain is proven only when it reads complete."
             .to_string(),
     );
     let mut result = serde_json::Map::new();
