@@ -14,10 +14,12 @@
 
 mod element;
 mod ledger;
+mod notes;
 #[cfg(test)]
 mod tests;
 
 pub use element::Element;
+use notes::{explanations, tumble_gyro_note};
 
 use serde::Serialize;
 use serde_json::Value;
@@ -326,30 +328,6 @@ fn gyro_elements(
     acc.unwrap_or([Element::Unchecked; 3])
 }
 
-/// The note on a gyro judged against the magnetometer (hand tumble) in step `index`.
-fn tumble_gyro_note(index: usize, found: &[Element; 3], mag_proven: bool) -> String {
-    let mut note = format!(
-        "Step {index}: align judged the gyro on a hand tumble, against the magnetometer's \
-         planned mapping rather than the body."
-    );
-    if mag_proven {
-        note.push_str(" The magnetometer is proven on every axis, so the gyro's axes stand.");
-    } else {
-        note.push_str(
-            " The magnetometer is not proven on every axis in this closeout (a turntable \
-             align proves it), so the gyro's \"ok\" axes are counted as inconclusive.",
-        );
-    }
-    if found.iter().any(|e| e.is_broken()) {
-        note.push_str(
-            " A gyro axis that disagrees may be the gyro's error or the magnetometer's \
-             mapping (one flipped magnetometer axis shows as two flipped gyro axes): check \
-             both mappings.",
-        );
-    }
-    note
-}
-
 /// Per body axis, the worst finding over the rods along it, from every step's `rods`
 /// ([{name, verdict}]); a rod no step judged is `unchecked`.
 fn rod_elements(
@@ -436,39 +414,4 @@ fn gyro_needed(steps: &[&StepJson], notes: &mut Vec<String>) -> bool {
         }
     ));
     required
-}
-
-/// Notes where they apply: cancelling pairs, and polarity read through a wrong
-/// magnetometer.
-fn explanations(axes: &[AxisChain], polarity_ran: bool) -> Vec<String> {
-    let mut out = Vec::new();
-    for a in axes {
-        let partner = match (a.rod, a.law) {
-            (Element::Reversed, _) => Some("rod"),
-            (_, Element::Reversed) => Some("law"),
-            _ => None,
-        };
-        if let (Element::Flipped, Some(p)) = (a.magnetometer, partner) {
-            out.push(format!(
-                "Body {}: the magnetometer axis is flipped and the {p} is reversed. In a \
-                 B-dot law (m ∝ −Ḃ) the two signs cancel, so the vehicle would detumble \
-                 on a table and look right; each element is still wrong on its own \
-                 (attitude from the magnetometer, any other law), which is why each needs \
-                 its own proof.",
-                a.axis
-            ));
-        }
-    }
-    let wrong_sensor = axes
-        .iter()
-        .any(|a| matches!(a.magnetometer, Element::Flipped | Element::Swapped));
-    if wrong_sensor && polarity_ran {
-        out.push(
-            "Polarity judges each rod through the magnetometer's readings and the plan's \
-             mapping: with a magnetometer axis flipped or swapped, its rod verdicts are \
-             not independent of that error. Fix the mapping and run polarity again."
-                .to_string(),
-        );
-    }
-    out
 }

@@ -402,3 +402,25 @@ fn a_gyro_judged_on_a_hand_tumble_proves_nothing_until_the_magnetometer_is_prove
     assert_eq!(c.verdict(), Verdict::Fail);
     assert!(c.notes.iter().any(|n| n.contains("check both mappings")));
 }
+
+#[test]
+fn a_reversed_rod_under_a_reversed_law_is_a_cancelling_pair_and_three_wrong_signs_are_not() {
+    // A harness wired backwards under a software command of the wrong sign: the dipole
+    // is right, so the pair cancels in B-dot (m ∝ −Ḃ: each sign multiplies the dipole).
+    let a = align(OK3, None);
+    let p = rods_json(["ok", "reversed", "ok"]);
+    let l = looped(["consistent", "reversed", "consistent"], Some("bdot"));
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    let pair: Vec<&String> = c.notes.iter().filter(|n| n.contains("cancel")).collect();
+    assert_eq!(pair.len(), 1, "{:?}", c.notes);
+    assert!(pair[0].starts_with("Body y: the rod is reversed and the law is reversed"));
+    assert_eq!(c.verdict(), Verdict::Fail);
+    // Three wrong signs on one axis multiply to a wrong dipole: no cancelling pair.
+    let a = align(["ok", "flipped", "ok"], None);
+    let c = chain(&[("align", &a), ("polarity", &p), ("loop", &l)]);
+    assert!(
+        !c.notes.iter().any(|n| n.contains("cancel")),
+        "{:?}",
+        c.notes
+    );
+}
