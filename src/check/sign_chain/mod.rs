@@ -12,6 +12,8 @@
 //! docs/polarity.md and the loop check's `rods`), not the checks' types, so that a check
 //! can change its internals without touching this module.
 
+#[cfg(test)]
+mod contract_tests;
 mod element;
 mod ledger;
 mod notes;
