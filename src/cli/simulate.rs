@@ -128,8 +128,9 @@ pub struct Args {
     moment_am2: Option<Vector3<f64>>,
     #[command(flatten)]
     align: super::simulate_align::AlignArgs,
-    /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side).
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
+    /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side;
+    /// align also 3 = and on the other side, so that a gyro is spun about every axis).
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=3), allow_hyphen_values = true)]
     mounts: Option<u8>,
     /// Rod: half-width of the hysteresis play, A (the remanence is the moment there);
     /// 0 to 0.05 A.

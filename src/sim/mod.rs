@@ -1,6 +1,7 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
 
 pub mod align;
+pub mod align_gyro;
 pub mod cage;
 pub mod dipole;
 pub mod orbit;
