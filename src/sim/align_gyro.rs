@@ -112,7 +112,7 @@ pub fn table_rows(
     let b_noise = normal(cfg.noise_nt, "noise")?;
     let g_noise = normal(gyro.noise_deg_s, "gyro noise")?;
     let rate = gyro.table_rate_deg_s;
-    if !(rate > 0.0) {
+    if rate.is_nan() || rate <= 0.0 {
         return Err(Error::Usage("gyro table rate must be > 0 deg/s".into()));
     }
     let dt = 0.25;

@@ -69,10 +69,6 @@ pub struct GyroResult {
     pub samples: usize,
     /// Rows with the table still (bias), turntable only.
     pub still_samples: usize,
-    /// (body axis, reference rate deg/s, gyro rate through the plan less bias deg/s) of
-    /// the spun rows, for the report's plot; not in the JSON.
-    #[serde(skip)]
-    pub rate_points: Vec<(usize, f64, f64)>,
 }
 
 /// The numbers a gyro fit hands to [`judge_gyro`].
@@ -99,7 +95,6 @@ pub fn judge_gyro(
     reference: GyroReference,
     tol: f64,
     counts: (usize, usize),
-    rate_points: Vec<(usize, f64, f64)>,
 ) -> GyroResult {
     let mut axes = judge::axes(&fit.a, planned, &fit.null);
     for (a, seen) in axes.iter_mut().zip(fit.seen) {
@@ -138,7 +133,6 @@ pub fn judge_gyro(
         gyro_scale_tol: tol,
         samples: counts.0,
         still_samples: counts.1,
-        rate_points,
     }
 }
 
@@ -287,14 +281,12 @@ pub fn table_gyro(
         .sum::<Vector3<f64>>()
         / (n - 1.0);
     let bias = [0, 1, 2].map(|i| Some((mean[i], (var[i] / n).sqrt())));
-    let mut points = Vec::new();
     let scale = [0, 1, 2].map(|i| {
         let pts: Vec<(f64, f64)> = moving
             .iter()
             .filter(|r| r.body_rad_s[i].abs() > 0.5 * r.body_rad_s.norm())
             .map(|r| (r.body_rad_s[i], planned_body(r)[i] - mean[i]))
             .collect();
-        points.extend(pts.iter().map(|(x, y)| (i, x.to_degrees(), y.to_degrees())));
         slope_through_origin(pts)
     });
     let bias_sensor = planned.transpose() * mean;
@@ -317,6 +309,5 @@ pub fn table_gyro(
         GyroReference::Table,
         tol,
         (moving.len(), still.len()),
-        points,
     ))
 }

@@ -100,6 +100,5 @@ pub fn tumble_gyro(
         GyroReference::Magnetometer,
         tol,
         (samples.len(), 0),
-        Vec::new(),
     ))
 }

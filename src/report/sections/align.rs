@@ -1,7 +1,7 @@
 //! The alignment check's report section: figures of merit, the axes against the plan,
 //! the misalignment components, the gyro's table and the plots (align_plots.rs).
 
-use super::align_plots::{axes_figure, circle_figures, gyro_rate_figure, residual_figure};
+use super::align_plots::{axes_figure, circle_figures, gyro_scale_figure, residual_figure};
 use super::pm;
 use crate::check::align::{
     AlignResult, AxisResult, AxisVerdict, GyroReference, GyroResult, MagAlignment,
@@ -34,7 +34,7 @@ fn axes_table(caption: &str, axes: &[AxisResult]) -> Table {
             "measured".into(),
             "verdict".into(),
         ],
-        rows: axes.iter().map(|a| axis_cells(a)).collect(),
+        rows: axes.iter().map(axis_cells).collect(),
     }
 }
 
@@ -153,12 +153,21 @@ fn gyro_figures_of_merit(g: &GyroResult, limit_deg: f64) -> Vec<(String, String)
     vec![
         ("gyro misalignment".into(), mis),
         (
+            "gyro handedness".into(),
+            format!("{:?}", g.handedness).to_lowercase(),
+        ),
+        (
             "gyro scale limit".into(),
             format!("||scale| − 1| ≤ {}", g.gyro_scale_tol),
         ),
         (
             "gyro readings".into(),
-            format!("{} turning, {} still", g.samples, g.still_samples),
+            match g.reference {
+                GyroReference::Table => {
+                    format!("{} turning, {} still", g.samples, g.still_samples)
+                }
+                GyroReference::Magnetometer => format!("{} tumble rows", g.samples),
+            },
         ),
     ]
 }
@@ -174,6 +183,18 @@ const NOTES: [&str; 3] = [
      the gyro through the plan's [gyro] mapping (bias from the still rows); on a hand tumble, \
      Poisson's kinematic equation Ḃ = −ω × B against the magnetometer (Wertz 1978, §12).",
 ];
+
+/// The method notes: the magnetometer's when it was judged, the gyro's when it was.
+fn notes(r: &AlignResult) -> Vec<String> {
+    let mut out: Vec<String> = Vec::new();
+    if r.magnetometer.0.is_some() {
+        out.extend(NOTES[..2].iter().map(|n| n.to_string()));
+    }
+    if r.gyro.is_some() {
+        out.push(NOTES[2].to_string());
+    }
+    out
+}
 
 /// The section of one alignment result.
 pub fn align_section(r: &AlignResult, title: &str) -> Result<Section, Error> {
@@ -207,8 +228,8 @@ pub fn align_section(r: &AlignResult, title: &str) -> Result<Section, Error> {
             &g.misalignment_deg,
             &g.misalignment_sigma_deg,
         ));
-        if !g.rate_points.is_empty() {
-            figures.push(gyro_rate_figure(g)?);
+        if g.scale.iter().any(Option::is_some) {
+            figures.push(gyro_scale_figure(g)?);
         }
         figures.push(axes_figure(
             "align_gyro_axes.svg",
@@ -224,7 +245,7 @@ pub fn align_section(r: &AlignResult, title: &str) -> Result<Section, Error> {
         tables,
         figures,
         warnings: r.warnings(),
-        notes: NOTES.iter().map(|n| n.to_string()).collect(),
+        notes: notes(r),
         result: r.json()?,
     })
 }

@@ -1,6 +1,9 @@
 //! The alignment section's plots: the residual per heading and mount, the field in the
 //! body against heading with the fitted sinusoid per mount, a picture of the sensor axes
-//! against the body axes, and the gyro's rate against the table's.
+//! against the body axes, and the gyro's scale per body axis.
+
+// Index loops mirror the axes x, y, z.
+#![allow(clippy::needless_range_loop)]
 
 use super::figure;
 use crate::check::align::{GyroResult, MagAlignment};
@@ -140,36 +143,40 @@ pub fn axes_figure(file: &str, sensor: &str, a: &[[f64; 3]; 3]) -> Result<Figure
     ))
 }
 
-/// The gyro's rate through the plan (bias removed) against the table's, per spun body
-/// axis, with the line of unit scale.
-pub fn gyro_rate_figure(g: &GyroResult) -> Result<Figure, Error> {
-    let mut plot = XyPlot::new(
-        "Gyro against the table",
-        "table rate about the body axis, deg/s",
-        "gyro rate through the plan, less bias, deg/s",
-    );
-    let span = g.rate_points.iter().map(|p| p.1.abs()).fold(1.0, f64::max);
-    plot = plot.with(Series::dashed(
-        "scale 1",
-        vec![(-span, -span), (span, span)],
-        4,
-    ));
-    for i in 0..3 {
-        let pts: Vec<(f64, f64)> = g
-            .rate_points
-            .iter()
-            .filter(|p| p.0 == i)
-            .map(|p| (p.1, p.2))
-            .collect();
-        if !pts.is_empty() {
-            plot = plot.with(Series::points(&format!("body {}", AXES[i]), pts, i));
+/// The gyro's scale per body axis with its 1σ, against the band of the tolerance about
+/// +1 (and about −1 when an axis reads reversed).
+pub fn gyro_scale_figure(g: &GyroResult) -> Result<Figure, Error> {
+    let mut plot = XyPlot::new("Gyro scale per body axis", "body axis", "scale factor (1)");
+    plot.x_range = Some((0.5, 3.5));
+    plot.x_names = AXES.iter().map(|a| a.to_string()).collect();
+    let tol = g.gyro_scale_tol;
+    let mut bands = vec![1.0];
+    if g.scale.iter().flatten().any(|s| *s < 0.0) {
+        bands.push(-1.0);
+    }
+    for (k, c) in bands.into_iter().enumerate() {
+        for (edge, name) in [(c + tol, "limit"), (c - tol, "")] {
+            let label = if k == 0 && !name.is_empty() {
+                "±tolerance"
+            } else {
+                ""
+            };
+            plot = plot.with(Series::dashed(label, vec![(0.5, edge), (3.5, edge)], 3));
         }
     }
+    let (mut pts, mut sig) = (Vec::new(), Vec::new());
+    for i in 0..3 {
+        if let (Some(v), Some(s)) = (g.scale[i], g.scale_sigma[i]) {
+            pts.push((i as f64 + 1.0, v));
+            sig.push(s);
+        }
+    }
+    plot = plot.with(Series::points("scale ± 1σ", pts, 0).with_sigma(sig));
     Ok(figure(
-        "align_gyro_rate.svg",
-        "The gyro's rate about each spun body axis (through the plan's mapping, bias removed) \
-         against the table's rate, deg/s; on the dashed line the scale is 1, on its mirror \
-         the axis is flipped.",
+        "align_gyro_scale.svg",
+        "The gyro's scale factor per body axis through the plan's mapping (±1σ bars) and \
+         the tolerance band about +1 (dashed; about −1 too when an axis reads reversed). \
+         Axes never spun have no point.",
         draw_xy(&plot)?,
     ))
 }
