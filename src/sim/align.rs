@@ -3,7 +3,7 @@
 //! headings in each mount in a steady field, with hard iron and white noise.
 //!
 //! Model (the inverse of what [`crate::fit::align`] fits): `s = Aᵀ Tᵀ F + h + n`,
-//! `A = exp([φ]×) · fault` sensor → body, `T = R_z(θ) · mount` body → table.
+//! `A = exp([φ]×) · fault · planned` sensor → body, `T = R_z(θ) · mount` body → table.
 
 use nalgebra::{Matrix3, Vector3};
 use rand::SeedableRng;
@@ -64,6 +64,11 @@ pub struct AlignConfig {
     pub gyro: Option<GyroSim>,
     /// A hand tumble (no table, no `angle`) instead of a turntable run; needs a gyro.
     pub tumble: bool,
+    /// The magnetometer's planned sensor → body mapping (the plan's and the truth's,
+    /// before misalignment and fault).
+    pub mag_planned: Matrix3<f64>,
+    /// The plan's `[article]`: serial and build.
+    pub article: (String, String),
 }
 
 impl Default for AlignConfig {
@@ -81,6 +86,8 @@ impl Default for AlignConfig {
             reference_in_plan: true,
             gyro: None,
             tumble: false,
+            mag_planned: Matrix3::identity(),
+            article: ("SIM-ALIGN".into(), "S1".into()),
         }
     }
 }
@@ -139,7 +146,9 @@ pub fn simulate_align(cfg: &AlignConfig, seed: u64, log_name: &str) -> Result<Al
             "align simulation: 1 to 3 mounts, ≥ 3 headings".into(),
         ));
     }
-    let a = rotation_from_vector(&cfg.misalign_deg.map(f64::to_radians)) * cfg.fault.matrix();
+    let a = rotation_from_vector(&cfg.misalign_deg.map(f64::to_radians))
+        * cfg.fault.matrix()
+        * cfg.mag_planned;
     let noise =
         Normal::new(0.0, cfg.noise_nt.max(0.0)).map_err(|e| Error::Usage(format!("noise: {e}")))?;
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
@@ -201,9 +210,16 @@ fn table_only(
 }
 
 fn plan_text(cfg: &AlignConfig, log_name: &str) -> String {
-    let mut p = String::from(
-        "[article]\nserial = \"SIM-ALIGN\"\nbuild = \"S1\"\n\n\
-         [magnetometer]\nsensor_to_body = [\"+x\", \"+y\", \"+z\"]\n\n",
+    let m = cfg.mag_planned;
+    let row = |i: usize| format!("[{}, {}, {}]", m[(i, 0)], m[(i, 1)], m[(i, 2)]);
+    let mut p = format!(
+        "[article]\nserial = \"{}\"\nbuild = \"{}\"\n\n\
+         [magnetometer]\nsensor_to_body = [{}, {}, {}]\n\n",
+        cfg.article.0,
+        cfg.article.1,
+        row(0),
+        row(1),
+        row(2)
     );
     if cfg.gyro.is_some() {
         p.push_str("[gyro]\nsensor_to_body = [\"+x\", \"+y\", \"+z\"]\n\n");

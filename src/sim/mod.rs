@@ -15,4 +15,5 @@ pub use tumble::{
 };
 pub mod rod;
 pub mod scenario;
+pub mod scenario_align;
 pub mod scenario_rods;
