@@ -114,9 +114,9 @@ fn the_rate_mapping_finds_a_small_rotation_and_a_reflection() {
     let mut rng = rand::rngs::StdRng::seed_from_u64(4);
     let n = Normal::new(0.0, 1e-3).unwrap();
     let truth = rotation_from_vector(&Vector3::new(0.01, 0.02, -0.01));
-    let pairs = |a: Matrix3<f64>, rng: &mut rand::rngs::StdRng| {
+    let pairs = |a: Matrix3<f64>, axes: &[usize], rng: &mut rand::rngs::StdRng| {
         let mut p = Vec::new();
-        for axis in [2usize, 0] {
+        for &axis in axes {
             for k in 0..100 {
                 let w = Vector3::ith(axis, if k % 2 == 0 { 0.17 } else { -0.17 });
                 p.push((
@@ -127,18 +127,28 @@ fn the_rate_mapping_finds_a_small_rotation_and_a_reflection() {
         }
         p
     };
-    let fit = fit_rate_mapping(&pairs(truth, &mut rng)).unwrap();
+    // Two spun axes fix a rotation completely (two non-parallel vector pairs).
+    let fit = fit_rate_mapping(&pairs(truth, &[2, 0], &mut rng)).unwrap();
     assert!(fit.unobservable.is_empty());
     let phi = rotation_vector(&(fit.sensor_to_body * truth.transpose()));
     for i in 0..3 {
         let s = fit.rotation_cov_rad2[(i, i)].sqrt();
         assert!(phi[i].abs() < 3.0 * s, "{i}: {} ± {s}", phi[i]);
     }
+    // A reversed x: with all three axes spun the fit is a reflection (det −1).
     let mut flip = Matrix3::identity();
     flip[(0, 0)] = -1.0;
-    let fit = fit_rate_mapping(&pairs(flip, &mut rng)).unwrap();
+    let fit = fit_rate_mapping(&pairs(flip, &[0, 1, 2], &mut rng)).unwrap();
+    assert_eq!(fit.spun, [true; 3]);
     assert!(fit.sensor_to_body.determinant() < 0.0);
+    assert!((fit.sensor_to_body - flip).abs().max() < 1e-3);
+    // With y never spun, a reflection through the spun plane fits as well as a rotation,
+    // so the fit keeps to proper rotations: x still reads reversed, y's sign is unseen.
+    let fit = fit_rate_mapping(&pairs(flip, &[2, 0], &mut rng)).unwrap();
+    assert_eq!(fit.spun, [true, false, true]);
+    assert!(fit.sensor_to_body.determinant() > 0.0);
     assert!((fit.sensor_to_body[(0, 0)] + 1.0).abs() < 1e-3);
+    assert!((fit.sensor_to_body[(2, 2)] - 1.0).abs() < 1e-3);
 }
 
 #[test]

@@ -73,25 +73,7 @@ pub fn run_align(req: &AlignRequest) -> Result<AlignResult, Error> {
         .map(|g| g.sensor_to_body)
         .unwrap_or_else(Matrix3::identity);
     if log.angle_rad.is_none() && log.gyro_rad_s.is_some() {
-        let mag_planned = plan
-            .magnetometer
-            .as_ref()
-            .map(|m| m.sensor_to_body)
-            .unwrap_or_else(Matrix3::identity);
-        let g = tumble::tumble_gyro(req, &mag_planned, &gyro_planned, tol)?;
-        if req.options.calibration.is_none() {
-            warnings.push(AlignWarning::TumbleUncalibrated);
-        }
-        let gates = gyro::gyro_gates(&g, limit);
-        return Ok(finish(
-            MagPart(None),
-            g.samples,
-            Vec::new(),
-            Some(g),
-            limit,
-            gates,
-            warnings,
-        ));
+        return run_tumble(req, &gyro_planned, (limit, tol), warnings);
     }
     let test = plan.align_test.as_ref().ok_or_else(|| {
         Error::Usage(format!(
@@ -128,6 +110,36 @@ pub fn run_align(req: &AlignRequest) -> Result<AlignResult, Error> {
         samples,
         mounts,
         gyro,
+        limit,
+        gates,
+        warnings,
+    ))
+}
+
+/// A hand tumble: the gyro against the magnetometer; the magnetometer's keys are null.
+/// `limits` = (alignment limit, deg; gyro scale tolerance).
+fn run_tumble(
+    req: &AlignRequest,
+    gyro_planned: &Matrix3<f64>,
+    limits: (f64, f64),
+    mut warnings: Vec<AlignWarning>,
+) -> Result<AlignResult, Error> {
+    let (limit, tol) = limits;
+    let mag_planned = req
+        .plan
+        .and_then(|p| p.magnetometer.as_ref())
+        .map(|m| m.sensor_to_body)
+        .unwrap_or_else(Matrix3::identity);
+    let g = tumble::tumble_gyro(req, &mag_planned, gyro_planned, tol)?;
+    if req.options.calibration.is_none() {
+        warnings.push(AlignWarning::TumbleUncalibrated);
+    }
+    let gates = gyro::gyro_gates(&g, limit);
+    Ok(finish(
+        MagPart(None),
+        g.samples,
+        Vec::new(),
+        Some(g),
         limit,
         gates,
         warnings,
