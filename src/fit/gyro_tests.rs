@@ -152,6 +152,43 @@ fn the_rate_mapping_finds_a_small_rotation_and_a_reflection() {
 }
 
 #[test]
+fn the_rate_mapping_sigma_is_honest_over_a_monte_carlo() {
+    // 150 noisy turntable runs (each body axis spun both ways, unequal rates, a 2 %
+    // scale error on y): the spread of the fitted rotation vector against the predicted
+    // σ (QUEST-type covariance) must lie within 0.8–1.25 on each axis, as for the
+    // magnetometer's fit.
+    let truth = rotation_from_vector(&Vector3::new(0.02, -0.01, 0.015));
+    let scale = Vector3::new(1.0, 1.02, 1.0);
+    let n = Normal::new(0.0, 2e-3).unwrap();
+    let mut sum2 = Vector3::zeros();
+    let mut pred2 = Vector3::zeros();
+    let runs = 150;
+    for seed in 0..runs {
+        let mut rng = rand::rngs::StdRng::seed_from_u64(100 + seed);
+        let mut pairs = Vec::new();
+        for (axis, rate) in [(0usize, 0.17), (1, 0.12), (2, 0.2)] {
+            for k in 0..60 {
+                let w = Vector3::ith(axis, if k % 2 == 0 { rate } else { -rate });
+                let g = truth.transpose() * scale.component_mul(&w)
+                    + Vector3::from_fn(|_, _| n.sample(&mut rng));
+                pairs.push((w, g));
+            }
+        }
+        let fit = fit_rate_mapping(&pairs).unwrap();
+        let err = rotation_vector(&(fit.sensor_to_body * truth.transpose()));
+        sum2 += err.component_mul(&err);
+        pred2 += fit.rotation_cov_rad2.diagonal();
+    }
+    for i in 0..3 {
+        let ratio = (sum2[i] / pred2[i]).sqrt();
+        assert!(
+            (0.8..=1.25).contains(&ratio),
+            "axis {i}: empirical/predicted σ = {ratio}"
+        );
+    }
+}
+
+#[test]
 fn the_slope_through_the_origin_matches_the_textbook_form() {
     // y = 2x exactly: slope 2, σ 0 (Σxy / Σx², any regression text).
     let (s, sigma) = slope_through_origin([(1.0, 2.0), (2.0, 4.0), (-3.0, -6.0)]).unwrap();
