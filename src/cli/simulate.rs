@@ -355,6 +355,13 @@ fn dipole_files(args: &Args) -> Result<Vec<SimFile>, Error> {
             set(&mut cfg.article.moment_body_am2, args.moment_am2);
             set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
             if let Some(n) = args.mounts {
+                if usize::from(n) > cfg.mounts.len() {
+                    return Err(Error::Usage(format!(
+                        "invalid value '{n}' for '--mounts <N>': simulate dipole expected 1 \
+                         or {} (only align takes 3)",
+                        cfg.mounts.len()
+                    )));
+                }
                 cfg.mounts.truncate(usize::from(n));
             }
             simulate_turntable(&cfg, args.seed)?

@@ -48,7 +48,7 @@ pub struct AlignArgs {
     #[arg(long, value_enum)]
     gyro_fault: Option<FaultArg>,
     /// Align: gyro scale factor per sensor axis: X,Y,Z [default: 1,1,1] (implies --gyro).
-    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, GYRO_SCALE))]
+    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, GYRO_SCALE), allow_hyphen_values = true)]
     gyro_scale: Option<Vector3<f64>>,
     /// Align: gyro bias per sensor axis, deg/s: X,Y,Z [default: 0.05,-0.03,0.02] (implies --gyro).
     #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, GYRO_BIAS_DEG_S), allow_hyphen_values = true)]

@@ -244,4 +244,46 @@ fn demo_align_names_b1s_reversed_magnetometer_axis_and_recovers_the_planted_misa
         text.contains("B1 align      FAIL  axes x ok, y flipped, z ok"),
         "{text}"
     );
+    // B1's report: the residual per heading, the field per mount, the axes pictures and
+    // the gyro's scale, with the flipped axis drawn where it was found.
+    let b1 = reports.join("tmr-0207-b1/align");
+    for f in [
+        "residual",
+        "field_z_up",
+        "field_x_up",
+        "field_y_up",
+        "axes",
+        "gyro_axes",
+        "gyro_scale",
+    ] {
+        let svg = b1.join(format!("step1-align_{f}.svg"));
+        assert!(svg.is_file(), "{}", svg.display());
+    }
+    let axes_svg = std::fs::read_to_string(b1.join("step1-align_axes.svg")).unwrap();
+    assert!(axes_svg.contains("magnetometer +x → body −y"), "{axes_svg}");
+    // The ledger's history carries the alignment: B1's flipped axis changes to ok in
+    // B2, and the gyro's scale does not move beyond its noise.
+    let hist = d.run(&[
+        "history",
+        "--ledger",
+        "demo/ledger.db",
+        "--kind",
+        "align",
+        "--json",
+    ]);
+    assert_code(&hist, 0);
+    let changes = json_stdout(&hist)["changes"]
+        .as_array()
+        .expect("changes")
+        .clone();
+    let change = |q: &str| {
+        changes
+            .iter()
+            .find(|c| c["quantity"] == q && c["from_build"] == "B1" && c["to_build"] == "B2")
+            .unwrap_or_else(|| panic!("no change {q} B1→B2"))
+            .clone()
+    };
+    assert_eq!(change("align_axis_y")["flag"], "verdict-changed");
+    assert_eq!(change("align_handedness")["flag"], "verdict-changed");
+    assert_eq!(change("gyro_scale_y")["flag"], "within-noise");
 }
