@@ -6,6 +6,8 @@ mod util;
 
 #[path = "cli/align.rs"]
 mod align;
+#[path = "cli/align_gyro.rs"]
+mod align_gyro;
 #[path = "cli/battery_input.rs"]
 mod battery_input;
 #[path = "cli/battery_ledger.rs"]

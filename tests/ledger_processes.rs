@@ -259,13 +259,13 @@ fn demo_force_starts_its_ledger_afresh_with_no_stale_side_files() {
     assert_eq!(
         runs.len(),
         16,
-        "three builds of three steps and their sign chains, the on-orbit pass, three rods \
-         on the bench"
+        "three builds of three steps, the on-orbit pass, three rods on the bench, \
+         three alignment runs"
     );
     let vehicle = runs.iter().filter(|r| r.serial == "TMR-0207").count();
     assert_eq!(
         vehicle, 13,
-        "three builds of three steps and their sign chains, then the on-orbit pass"
+        "three builds of three steps and an alignment run each, then the on-orbit pass"
     );
     assert!(runs
         .iter()

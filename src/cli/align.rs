@@ -1,6 +1,7 @@
 //! `magproof align LOG --plan P [--calibration FILE.json] [--sensor NAME] [--json]
 //! [--report DIR]`: the magnetometer's axes against the body frame and its misalignment,
-//! from a turntable test in the plan's `[align_test]` mounts (docs/alignment.md).
+//! from a turntable test in the plan's `[align_test]` mounts, and the gyro's axes, scale
+//! and bias (docs/alignment.md).
 
 use std::path::PathBuf;
 
@@ -15,7 +16,8 @@ use magproof::check::CheckRequest;
 /// Flags of `magproof align`.
 #[derive(Debug, ClapArgs)]
 pub struct Args {
-    /// Turntable log (CSV): `t, angle, mount, bx, by, bz`.
+    /// Turntable log (CSV): `t, angle, mount, bx, by, bz` [`gx, gy, gz`]; or a hand
+    /// tumble: `t, bx, by, bz, gx, gy, gz` (no `angle`).
     log: PathBuf,
     /// Test plan (TOML) with [align_test] and its [[align_test.mount]] entries.
     #[arg(long)]
@@ -50,15 +52,19 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     };
     // The flight magnetometer records the log: its range applies.
     let input = read_input(&args.log, Some(&plan), &args.input, true)?;
+    let calibration_sha256 = calibration_text
+        .as_deref()
+        .map(|t| magproof::log::hash::sha256_bytes(t.as_bytes()));
     let key = serde_json::json!({
         "calibration": args.calibration.as_ref().map(|p| p.display().to_string()),
-        "calibration_sha256": calibration_text
-            .as_deref()
-            .map(|t| magproof::log::hash::sha256_bytes(t.as_bytes())),
+        "calibration_sha256": calibration_sha256,
     });
     let options = AlignOptions { calibration };
     let result = run_align(&CheckRequest::new(&input, Some(&plan), options))?;
-    let analysed = Analysed::new(&args.log, &input, &args.input, key);
+    let mut analysed = Analysed::new(&args.log, &input, &args.input, key);
+    if let (Some(p), Some(h)) = (&args.calibration, calibration_sha256) {
+        analysed.other_inputs.push((p.clone(), h));
+    }
     drop(input);
     present_check(
         &result,

@@ -57,6 +57,12 @@ const SAMPLE_FILES: &[(&str, &str)] = embedded![
     "rods/tmr-tr-z/rod.csv",
     "tmr-0207-orbit/plan.toml",
     "tmr-0207-orbit/telemetry.csv",
+    "tmr-0207-b1/align/plan.toml",
+    "tmr-0207-b1/align/align.csv",
+    "tmr-0207-b2/align/plan.toml",
+    "tmr-0207-b2/align/align.csv",
+    "tmr-0207-b3/align/plan.toml",
+    "tmr-0207-b3/align/align.csv",
 ];
 
 /// The builds' folders, in the order they are closed out.
@@ -180,6 +186,11 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         flight.push(demo_flight_params(&result, &report, &out, folder)?);
         reports.push(dir);
     }
+    reports.extend(super::demo_align::close_out_align(
+        &out,
+        &samples,
+        &ledger_path,
+    )?);
     reports.extend(close_out_rods(&out, &samples, &ledger_path)?);
     // After B3, the on-orbit pass, compared with B3's ground calibration.
     let (summary, dir) = super::demo_orbit::orbit_pass(

@@ -28,6 +28,7 @@ mod calibrate;
 mod closeout;
 mod common;
 mod demo;
+mod demo_align;
 mod demo_orbit;
 mod dipole;
 mod field;

@@ -155,6 +155,9 @@ pub struct Analysed<'a> {
     pub options: serde_json::Value,
     /// Columns of the log no check uses, as written in its header.
     pub ignored_columns: Vec<String>,
+    /// Other files the check read (a calibration), with their SHA-256, for the report's
+    /// inputs.
+    pub other_inputs: Vec<(std::path::PathBuf, String)>,
 }
 
 impl<'a> Analysed<'a> {
@@ -180,6 +183,7 @@ impl<'a> Analysed<'a> {
             log_sha256: input.log.sha256.clone(),
             options: all,
             ignored_columns: input.log.ignored_columns.clone(),
+            other_inputs: Vec::new(),
         }
     }
 }
@@ -196,6 +200,12 @@ pub fn present_check(
     let log = (analysed.log, analysed.log_sha256.as_str());
     let mut inputs = vec![log];
     inputs.extend(plan.map(|p| (p.path.as_path(), p.sha256.as_str())));
+    inputs.extend(
+        analysed
+            .other_inputs
+            .iter()
+            .map(|(p, h)| (p.as_path(), h.as_str())),
+    );
     let mut all = writers(output);
     all.extend(extra);
     // Draw the sections (with their plots) only for a writer that reads them.

@@ -128,8 +128,9 @@ pub struct Args {
     moment_am2: Option<Vector3<f64>>,
     #[command(flatten)]
     align: super::simulate_align::AlignArgs,
-    /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side).
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=2), allow_hyphen_values = true)]
+    /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side;
+    /// align also 3 = and on the other side, so that a gyro is spun about every axis).
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=3), allow_hyphen_values = true)]
     mounts: Option<u8>,
     /// Rod: half-width of the hysteresis play, A (the remanence is the moment there);
     /// 0 to 0.05 A.
@@ -354,6 +355,13 @@ fn dipole_files(args: &Args) -> Result<Vec<SimFile>, Error> {
             set(&mut cfg.article.moment_body_am2, args.moment_am2);
             set(&mut cfg.article.drift_nt_per_s, args.drift_nt_per_s);
             if let Some(n) = args.mounts {
+                if usize::from(n) > cfg.mounts.len() {
+                    return Err(Error::Usage(format!(
+                        "invalid value '{n}' for '--mounts <N>': simulate dipole expected 1 \
+                         or {} (only align takes 3)",
+                        cfg.mounts.len()
+                    )));
+                }
                 cfg.mounts.truncate(usize::from(n));
             }
             simulate_turntable(&cfg, args.seed)?

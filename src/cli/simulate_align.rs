@@ -6,6 +6,7 @@ use nalgebra::Vector3;
 
 use super::numeric::{vector3, Domain};
 use magproof::sim::align::{simulate_align, AlignConfig, AxisFault};
+use magproof::sim::align_gyro::GyroSim;
 use magproof::Error;
 
 /// An axis fault to simulate.
@@ -39,6 +40,63 @@ pub struct AlignArgs {
     /// Align: leave the reference field out of the plan (the field's sign then unknown).
     #[arg(long)]
     no_reference_field: bool,
+    /// Align: log a gyro too (gx, gy, gz, deg/s); the table stops at each heading and
+    /// turns at 10 deg/s between them.
+    #[arg(long)]
+    gyro: bool,
+    /// Align: a reversed or swapped gyro axis (implies --gyro).
+    #[arg(long, value_enum)]
+    gyro_fault: Option<FaultArg>,
+    /// Align: gyro scale factor per sensor axis: X,Y,Z [default: 1,1,1] (implies --gyro).
+    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, GYRO_SCALE), allow_hyphen_values = true)]
+    gyro_scale: Option<Vector3<f64>>,
+    /// Align: gyro bias per sensor axis, deg/s: X,Y,Z [default: 0.05,-0.03,0.02] (implies --gyro).
+    #[arg(long, value_name = "X,Y,Z", value_parser = |s: &str| vector3(s, GYRO_BIAS_DEG_S), allow_hyphen_values = true)]
+    gyro_bias_deg_s: Option<Vector3<f64>>,
+    /// Align: a hand tumble (magnetometer and gyro, no table, no `angle`) instead of a
+    /// turntable run (implies --gyro).
+    #[arg(long)]
+    tumble: bool,
+}
+
+/// A gyro scale factor.
+const GYRO_SCALE: Domain = Domain::closed(0.5, 1.5, "");
+
+/// A gyro bias, deg/s.
+const GYRO_BIAS_DEG_S: Domain = Domain::closed(-10.0, 10.0, "deg/s");
+
+fn fault(arg: Option<FaultArg>) -> AxisFault {
+    match arg.unwrap_or(FaultArg::None) {
+        FaultArg::None => AxisFault::None,
+        FaultArg::FlipX => AxisFault::Flip(0),
+        FaultArg::FlipY => AxisFault::Flip(1),
+        FaultArg::FlipZ => AxisFault::Flip(2),
+        FaultArg::SwapXy => AxisFault::Swap(0, 1),
+        FaultArg::SwapYz => AxisFault::Swap(1, 2),
+        FaultArg::SwapXz => AxisFault::Swap(0, 2),
+    }
+}
+
+/// The gyro the flags ask for, if any.
+fn gyro(args: &AlignArgs) -> Option<GyroSim> {
+    let wanted = args.gyro
+        || args.tumble
+        || args.gyro_fault.is_some()
+        || args.gyro_scale.is_some()
+        || args.gyro_bias_deg_s.is_some();
+    wanted.then(|| {
+        let mut g = GyroSim {
+            fault: fault(args.gyro_fault),
+            ..GyroSim::default()
+        };
+        if let Some(s) = args.gyro_scale {
+            g.scale = s;
+        }
+        if let Some(b) = args.gyro_bias_deg_s {
+            g.bias_deg_s = b;
+        }
+        g
+    })
 }
 
 /// A misalignment component, deg.
@@ -52,7 +110,11 @@ pub fn align_files(
     hard_iron_nt: Option<Vector3<f64>>,
     mounts: Option<u8>,
 ) -> Result<Vec<(String, String)>, Error> {
-    let mut cfg = AlignConfig::default();
+    let mut cfg = AlignConfig {
+        gyro: gyro(args),
+        tumble: args.tumble,
+        ..AlignConfig::default()
+    };
     if let Some(m) = args.misalign_deg {
         cfg.misalign_deg = m;
     }
@@ -62,19 +124,15 @@ pub fn align_files(
     if let Some(h) = hard_iron_nt {
         cfg.hard_iron_nt = h;
     }
+    if cfg.gyro.is_some() && !cfg.tumble {
+        // Three mounts spin the gyro about every body axis.
+        cfg.mounts = 3;
+    }
     if let Some(m) = mounts {
         cfg.mounts = m as usize;
     }
     cfg.reference_in_plan = !args.no_reference_field;
-    cfg.fault = match args.axis_fault.unwrap_or(FaultArg::None) {
-        FaultArg::None => AxisFault::None,
-        FaultArg::FlipX => AxisFault::Flip(0),
-        FaultArg::FlipY => AxisFault::Flip(1),
-        FaultArg::FlipZ => AxisFault::Flip(2),
-        FaultArg::SwapXy => AxisFault::Swap(0, 1),
-        FaultArg::SwapYz => AxisFault::Swap(1, 2),
-        FaultArg::SwapXz => AxisFault::Swap(0, 2),
-    };
+    cfg.fault = fault(args.axis_fault);
     let sim = simulate_align(&cfg, seed, "align.csv")?;
     let truth = serde_json::json!({
         "kind": "align",

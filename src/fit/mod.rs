@@ -8,6 +8,7 @@ pub mod cage;
 pub mod coverage;
 pub mod dipole;
 pub mod ellipsoid;
+pub mod gyro;
 pub mod linear;
 pub mod lm;
 pub mod orbit;

@@ -3,13 +3,14 @@
 //! headings in each mount in a steady field, with hard iron and white noise.
 //!
 //! Model (the inverse of what [`crate::fit::align`] fits): `s = Aᵀ Tᵀ F + h + n`,
-//! `A = exp([φ]×) · fault` sensor → body, `T = R_z(θ) · mount` body → table.
+//! `A = exp([φ]×) · fault · planned` sensor → body, `T = R_z(θ) · mount` body → table.
 
 use nalgebra::{Matrix3, Vector3};
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
 use serde::Serialize;
 
+use super::align_gyro::{table_rows, tumble_rows, GyroSim, GyroTruth};
 use crate::fit::wahba::rotation_from_vector;
 use crate::Error;
 
@@ -41,7 +42,7 @@ impl AxisFault {
 /// What to simulate.
 #[derive(Debug, Clone)]
 pub struct AlignConfig {
-    /// Mounts: 1 (body z up) or 2 (and body x up).
+    /// Mounts: 1 (body z up), 2 (and body x up) or 3 (and body y up).
     pub mounts: usize,
     /// Headings per mount, evenly over 360°.
     pub headings: usize,
@@ -59,6 +60,15 @@ pub struct AlignConfig {
     pub field_table_nt: Vector3<f64>,
     /// Write the field into the plan as a reference probe's reading.
     pub reference_in_plan: bool,
+    /// A gyro logged with the magnetometer (gyro columns), when simulated.
+    pub gyro: Option<GyroSim>,
+    /// A hand tumble (no table, no `angle`) instead of a turntable run; needs a gyro.
+    pub tumble: bool,
+    /// The magnetometer's planned sensor → body mapping (the plan's and the truth's,
+    /// before misalignment and fault).
+    pub mag_planned: Matrix3<f64>,
+    /// The plan's `[article]`: serial and build.
+    pub article: (String, String),
 }
 
 impl Default for AlignConfig {
@@ -74,6 +84,10 @@ impl Default for AlignConfig {
             // Mid-latitude field, 37° off vertical (common practice: ≥ 30°).
             field_table_nt: Vector3::new(30_000.0, 5_000.0, -40_000.0),
             reference_in_plan: true,
+            gyro: None,
+            tumble: false,
+            mag_planned: Matrix3::identity(),
+            article: ("SIM-ALIGN".into(), "S1".into()),
         }
     }
 }
@@ -93,6 +107,8 @@ pub struct AlignTruth {
     pub hard_iron_nt: [f64; 3],
     /// Noise, nT.
     pub noise_nt: f64,
+    /// The gyro, when simulated.
+    pub gyro: Option<GyroTruth>,
 }
 
 /// A simulated run: the log, the plan and the truth.
@@ -107,7 +123,7 @@ pub struct AlignSim {
 }
 
 /// Mount labels and body → table rotations at heading zero.
-pub fn mounts() -> [(&'static str, Matrix3<f64>, &'static str); 2] {
+pub fn mounts() -> [(&'static str, Matrix3<f64>, &'static str); 3] {
     [
         ("z-up", Matrix3::identity(), "[\"+x\", \"+y\", \"+z\"]"),
         (
@@ -115,38 +131,37 @@ pub fn mounts() -> [(&'static str, Matrix3<f64>, &'static str); 2] {
             Matrix3::new(0.0, 0.0, -1.0, 0.0, 1.0, 0.0, 1.0, 0.0, 0.0),
             "[\"-z\", \"+y\", \"+x\"]",
         ),
+        (
+            "y-up",
+            Matrix3::new(1.0, 0.0, 0.0, 0.0, 0.0, -1.0, 0.0, 1.0, 0.0),
+            "[\"+x\", \"-z\", \"+y\"]",
+        ),
     ]
 }
 
 /// Simulate a run whose plan reads the log as `log_name`.
 pub fn simulate_align(cfg: &AlignConfig, seed: u64, log_name: &str) -> Result<AlignSim, Error> {
-    if !(1..=2).contains(&cfg.mounts) || cfg.headings < 3 || cfg.per_heading == 0 {
+    if !(1..=3).contains(&cfg.mounts) || cfg.headings < 3 || cfg.per_heading == 0 {
         return Err(Error::Usage(
-            "align simulation: 1 or 2 mounts, ≥ 3 headings".into(),
+            "align simulation: 1 to 3 mounts, ≥ 3 headings".into(),
         ));
     }
-    let a = rotation_from_vector(&cfg.misalign_deg.map(f64::to_radians)) * cfg.fault.matrix();
+    let a = rotation_from_vector(&cfg.misalign_deg.map(f64::to_radians))
+        * cfg.fault.matrix()
+        * cfg.mag_planned;
     let noise =
         Normal::new(0.0, cfg.noise_nt.max(0.0)).map_err(|e| Error::Usage(format!("noise: {e}")))?;
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
-    let mut csv = String::from("t,angle [deg],mount,bx,by,bz\n");
-    let mut t = 0.0;
-    let all = mounts();
-    for (label, m, _) in all.iter().take(cfg.mounts) {
-        for k in 0..cfg.headings {
-            let deg = 360.0 * k as f64 / cfg.headings as f64;
-            let tt = rotation_from_vector(&Vector3::new(0.0, 0.0, deg.to_radians())) * m;
-            for _ in 0..cfg.per_heading {
-                let n = Vector3::from_fn(|_, _| noise.sample(&mut rng));
-                let s = a.transpose() * tt.transpose() * cfg.field_table_nt + cfg.hard_iron_nt + n;
-                csv.push_str(&format!(
-                    "{t:.2},{deg:.3},{label},{:.3},{:.3},{:.3}\n",
-                    s.x, s.y, s.z
-                ));
-                t += 0.5;
-            }
+    let csv = match (&cfg.gyro, cfg.tumble) {
+        (Some(g), true) => tumble_rows(cfg, g, &a, &mut rng)?,
+        (Some(g), false) => table_rows(cfg, g, &a, &mut rng)?,
+        (None, true) => {
+            return Err(Error::Usage(
+                "align simulation: a hand tumble needs a gyro".into(),
+            ))
         }
-    }
+        (None, false) => table_only(cfg, &a, &noise, &mut rng),
+    };
     Ok(AlignSim {
         csv,
         plan: plan_text(cfg, log_name),
@@ -161,15 +176,61 @@ pub fn simulate_align(cfg: &AlignConfig, seed: u64, log_name: &str) -> Result<Al
             ],
             hard_iron_nt: [cfg.hard_iron_nt.x, cfg.hard_iron_nt.y, cfg.hard_iron_nt.z],
             noise_nt: cfg.noise_nt,
+            gyro: cfg.gyro.as_ref().map(GyroSim::truth),
         },
     })
 }
 
+/// The turntable without a gyro: `t, angle, mount, bx, by, bz`.
+fn table_only(
+    cfg: &AlignConfig,
+    a: &Matrix3<f64>,
+    noise: &Normal<f64>,
+    rng: &mut rand::rngs::StdRng,
+) -> String {
+    let mut csv = String::from("t,angle [deg],mount,bx,by,bz\n");
+    let mut t = 0.0;
+    let all = mounts();
+    for (label, m, _) in all.iter().take(cfg.mounts) {
+        for k in 0..cfg.headings {
+            let deg = 360.0 * k as f64 / cfg.headings as f64;
+            let tt = rotation_from_vector(&Vector3::new(0.0, 0.0, deg.to_radians())) * m;
+            for _ in 0..cfg.per_heading {
+                let n = Vector3::from_fn(|_, _| noise.sample(rng));
+                let s = a.transpose() * tt.transpose() * cfg.field_table_nt + cfg.hard_iron_nt + n;
+                csv.push_str(&format!(
+                    "{t:.2},{deg:.3},{label},{:.3},{:.3},{:.3}\n",
+                    s.x, s.y, s.z
+                ));
+                t += 0.5;
+            }
+        }
+    }
+    csv
+}
+
 fn plan_text(cfg: &AlignConfig, log_name: &str) -> String {
-    let mut p = String::from(
-        "[article]\nserial = \"SIM-ALIGN\"\nbuild = \"S1\"\n\n\
-         [magnetometer]\nsensor_to_body = [\"+x\", \"+y\", \"+z\"]\n\n[align_test]\n",
+    let m = cfg.mag_planned;
+    let row = |i: usize| format!("[{}, {}, {}]", m[(i, 0)], m[(i, 1)], m[(i, 2)]);
+    let mut p = format!(
+        "[article]\nserial = \"{}\"\nbuild = \"{}\"\n\n\
+         [magnetometer]\nsensor_to_body = [{}, {}, {}]\n\n",
+        cfg.article.0,
+        cfg.article.1,
+        row(0),
+        row(1),
+        row(2)
     );
+    if cfg.gyro.is_some() {
+        p.push_str("[gyro]\nsensor_to_body = [\"+x\", \"+y\", \"+z\"]\n\n");
+    }
+    if cfg.tumble {
+        p.push_str(&format!(
+            "[[step]]\nkind = \"align\"\nlog = \"{log_name}\"\n"
+        ));
+        return p;
+    }
+    p.push_str("[align_test]\n");
     if cfg.reference_in_plan {
         let f = cfg.field_table_nt;
         p.push_str(&format!(

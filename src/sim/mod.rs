@@ -1,6 +1,7 @@
 //! Synthetic logs with known truth, for rehearsal, tests and the demo scenario.
 
 pub mod align;
+pub mod align_gyro;
 pub mod cage;
 pub mod dipole;
 pub mod orbit;
@@ -14,4 +15,5 @@ pub use tumble::{
 };
 pub mod rod;
 pub mod scenario;
+pub mod scenario_align;
 pub mod scenario_rods;

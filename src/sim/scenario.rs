@@ -97,7 +97,7 @@ pub fn builds() -> [BuildTruth; 3] {
 
 /// Magnetometer mounting: sensor x along body +y, sensor y along body −x (a 90° turn
 /// about z), `v_b = sensor_to_body · v_s`.
-fn sensor_to_body() -> Matrix3<f64> {
+pub(crate) fn sensor_to_body() -> Matrix3<f64> {
     Matrix3::new(0.0, -1.0, 0.0, 1.0, 0.0, 0.0, 0.0, 0.0, 1.0)
 }
 
@@ -278,6 +278,7 @@ pub fn sample_files() -> Result<Vec<(String, String)>, Error> {
     }
     out.extend(super::scenario_rods::rod_batch_files()?);
     out.extend(orbit_files()?);
+    out.extend(super::scenario_align::align_files()?);
     Ok(out)
 }
 

@@ -121,6 +121,21 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["1,2", "1,nan,3", "0,0,90"],
     ),
     (
+        "--gyro-scale",
+        &["simulate", "align", "--seed", "1", "--out", "sim"],
+        &["1,1", "1,nan,1", "1,1,2", "0.4,1,1"],
+    ),
+    (
+        "--gyro-bias-deg-s",
+        &["simulate", "align", "--seed", "1", "--out", "sim"],
+        &["0,0", "0,inf,0", "0,0,11"],
+    ),
+    (
+        "--mounts",
+        &["simulate", "align", "--seed", "1", "--out", "sim"],
+        &["0", "4"],
+    ),
+    (
         "--lag-s",
         &["simulate", "polarity", "--seed", "1", "--out", "sim"],
         &["-0.1", "61"],
@@ -159,6 +174,7 @@ const NOT_NUMBERS: &[&str] = &[
     "--plan",
     "--calibration",
     "--axis-fault",
+    "--gyro-fault",
     "--params-out",
     "--robust",
     "--unit",

@@ -178,3 +178,112 @@ fn demo_benches_the_rod_batch_and_fails_the_rod_with_high_remanence() {
     let text = stdout(&run);
     assert!(text.contains("TMR-TR-Y R-2602: FAIL"), "{text}");
 }
+
+#[test]
+fn demo_align_names_b1s_reversed_magnetometer_axis_and_recovers_the_planted_misalignment() {
+    let d = TestDir::new();
+    let run = d.run(&["demo", "--out", "demo"]);
+    assert_code(&run, 0);
+    let reports = d.join("demo/reports");
+    // Planted in the scenario (src/sim/scenario_align.rs): the magnetometer turned by
+    // (0.4, −0.3, 0.6)° and the gyro by (0.2, 0.3, −0.25)° (rotation vectors, body
+    // frame), the same in every build; in B1 sensor x (along body +y) is reversed.
+    let mag_truth = [0.4, -0.3, 0.6];
+    let gyro_truth = [0.2, 0.3, -0.25];
+    for (b, pass) in [("b1", false), ("b2", true), ("b3", true)] {
+        let c = json_file(&reports.join(format!("tmr-0207-{b}/align/closeout.json")));
+        assert_eq!(c["pass"], pass, "{b}");
+        let r = &step(&c, "align")["result"];
+        let words = |axes: &Value| -> Vec<String> {
+            axes.as_array()
+                .expect("axes")
+                .iter()
+                .map(|a| a["verdict"].as_str().unwrap().to_string())
+                .collect()
+        };
+        let mag_want = if pass {
+            ["ok", "ok", "ok"]
+        } else {
+            ["ok", "flipped", "ok"]
+        };
+        assert_eq!(words(&r["axes"]), mag_want, "{b}");
+        assert_eq!(
+            r["handedness"],
+            if pass { "right" } else { "mirrored" },
+            "{b}"
+        );
+        assert_eq!(words(&r["gyro"]["axes"]), ["ok", "ok", "ok"], "{b}");
+        // A reversed axis is named, never counted as a large misalignment: the
+        // remaining rotation is the planted one, within 3σ on each component.
+        for (key, truth) in [
+            (
+                &r["misalignment_deg"],
+                &r["misalignment_sigma_deg"],
+                mag_truth,
+            ),
+            (
+                &r["gyro"]["misalignment_deg"],
+                &r["gyro"]["misalignment_sigma_deg"],
+                gyro_truth,
+            ),
+        ]
+        .map(|(v, s, t)| ((v, s), t))
+        {
+            for i in 0..3 {
+                let v = key.0[i].as_f64().unwrap();
+                let s = key.1[i].as_f64().unwrap();
+                assert!(
+                    (v - truth[i]).abs() < 3.0 * s,
+                    "{b} axis {i}: {v} ± {s} vs {truth:?}"
+                );
+            }
+        }
+    }
+    let text = stdout(&run);
+    assert!(
+        text.contains("B1 align      FAIL  axes x ok, y flipped, z ok"),
+        "{text}"
+    );
+    // B1's report: the residual per heading, the field per mount, the axes pictures and
+    // the gyro's scale, with the flipped axis drawn where it was found.
+    let b1 = reports.join("tmr-0207-b1/align");
+    for f in [
+        "residual",
+        "field_z_up",
+        "field_x_up",
+        "field_y_up",
+        "axes",
+        "gyro_axes",
+        "gyro_scale",
+    ] {
+        let svg = b1.join(format!("step1-align_{f}.svg"));
+        assert!(svg.is_file(), "{}", svg.display());
+    }
+    let axes_svg = std::fs::read_to_string(b1.join("step1-align_axes.svg")).unwrap();
+    assert!(axes_svg.contains("magnetometer +x → body −y"), "{axes_svg}");
+    // The ledger's history carries the alignment: B1's flipped axis changes to ok in
+    // B2, and the gyro's scale does not move beyond its noise.
+    let hist = d.run(&[
+        "history",
+        "--ledger",
+        "demo/ledger.db",
+        "--kind",
+        "align",
+        "--json",
+    ]);
+    assert_code(&hist, 0);
+    let changes = json_stdout(&hist)["changes"]
+        .as_array()
+        .expect("changes")
+        .clone();
+    let change = |q: &str| {
+        changes
+            .iter()
+            .find(|c| c["quantity"] == q && c["from_build"] == "B1" && c["to_build"] == "B2")
+            .unwrap_or_else(|| panic!("no change {q} B1→B2"))
+            .clone()
+    };
+    assert_eq!(change("align_axis_y")["flag"], "verdict-changed");
+    assert_eq!(change("align_handedness")["flag"], "verdict-changed");
+    assert_eq!(change("gyro_scale_y")["flag"], "within-noise");
+}

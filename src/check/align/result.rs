@@ -2,6 +2,7 @@
 
 use serde::Serialize;
 
+use super::gyro::GyroResult;
 use super::warning::AlignWarning;
 use crate::check::{outcome, Gate, Verdict};
 
@@ -56,9 +57,9 @@ pub struct AxisResult {
     pub planned: String,
 }
 
-/// Result of `magproof align`.
+/// The magnetometer's part of the result (null keys on a hand tumble).
 #[derive(Debug, Clone, Serialize)]
-pub struct AlignResult {
+pub struct MagAlignment {
     /// Sensor → body, rows; the unconstrained orthogonal fit (improper when mirrored).
     pub sensor_to_body_measured: [[f64; 3]; 3],
     /// Rotation vector (body frame, deg) from the reference mapping (the plan's when every
@@ -83,13 +84,72 @@ pub struct AlignResult {
     pub hard_iron_nt: Option<[f64; 3]>,
     /// RMS length of the residual vectors, nT.
     pub residual_rms_nt: f64,
+    /// Each reading against the fit, for the report's plots; not in the JSON.
+    #[serde(skip)]
+    pub points: Vec<AlignPoint>,
+}
+
+/// The JSON keys of [`MagAlignment`], all null on a hand tumble.
+pub const MAG_KEYS: [&str; 11] = [
+    "sensor_to_body_measured",
+    "misalignment_deg",
+    "misalignment_sigma_deg",
+    "misalignment_total_deg",
+    "misalignment_total_sigma_deg",
+    "axes",
+    "handedness",
+    "field_table_nt",
+    "field_off_axis_deg",
+    "hard_iron_nt",
+    "residual_rms_nt",
+];
+
+/// The magnetometer's keys, flattened into the result: its values, or every key null.
+#[derive(Debug, Clone)]
+pub struct MagPart(pub Option<MagAlignment>);
+
+impl Serialize for MagPart {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        match &self.0 {
+            Some(m) => m.serialize(s),
+            None => {
+                let mut map = s.serialize_map(Some(MAG_KEYS.len()))?;
+                for k in MAG_KEYS {
+                    map.serialize_entry(k, &())?;
+                }
+                map.end()
+            }
+        }
+    }
+}
+
+/// One reading of the turntable against the fit, body frame.
+#[derive(Debug, Clone, Copy)]
+pub struct AlignPoint {
+    /// Index into the result's `mounts`.
+    pub mount: usize,
+    /// Table heading, deg.
+    pub heading_deg: f64,
+    /// The reading mapped to the body by the measured mapping (hard iron removed), nT.
+    pub measured_body_nt: [f64; 3],
+    /// The fitted field at this heading, body frame, nT.
+    pub fitted_body_nt: [f64; 3],
+}
+
+/// Result of `magproof align`.
+#[derive(Debug, Clone, Serialize)]
+pub struct AlignResult {
+    /// The magnetometer's keys (null on a hand tumble).
+    #[serde(flatten)]
+    pub magnetometer: MagPart,
     /// Readings used.
     pub samples: usize,
-    /// Mount labels used, in log order.
+    /// Mount labels used, in log order (empty on a hand tumble).
     pub mounts: Vec<String>,
-    /// Gyro results: not measured by this version (always null).
-    pub gyro: Option<serde_json::Value>,
-    /// The limit on `misalignment_total_deg`, deg.
+    /// The gyro's result, when the log has gyro columns and it could be judged.
+    pub gyro: Option<GyroResult>,
+    /// The limit on `misalignment_total_deg` (magnetometer and gyro), deg.
     pub alignment_max_deg: f64,
     /// The verdict.
     pub verdict: Verdict,

@@ -2,12 +2,13 @@
 //! calibration: the hard iron is fitted jointly), and what its result offers the ledger,
 //! the summaries and the writers.
 
-use super::{run_align, AlignOptions, AlignResult};
+use super::{run_align, AlignOptions, AlignResult, AxisResult, GyroResult, MagAlignment};
 use crate::check::kind::{CheckKind, CheckSpec};
 use crate::check::outcome::CheckResult;
 use crate::check::{CheckInput, CheckRequest};
 use crate::ledger::Quantity;
 use crate::log::Plan;
+use crate::report::terminal::value_sigma;
 use crate::report::Section;
 use crate::Error;
 
@@ -31,58 +32,116 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 impl CheckResult for AlignResult {
     crate::result_basics!(KIND);
 
-    /// `misalignment_{x,y,z}_deg` (observable components) and `misalignment_total_deg`
-    /// with their 1σ, `align_axis_{x,y,z}` and `align_handedness` as words.
+    /// Magnetometer: `misalignment_{x,y,z}_deg` (observable components) and
+    /// `misalignment_total_deg` with their 1σ, `align_axis_{x,y,z}` and
+    /// `align_handedness` as words. Gyro: `gyro_scale_{x,y,z}` and
+    /// `gyro_bias_{x,y,z}_deg_s` (measured axes) and `gyro_misalignment_total_deg` with
+    /// their 1σ, `gyro_axis_{x,y,z}` as words.
     fn quantities(&self) -> Vec<Quantity> {
         let mut out = Vec::new();
-        for (i, axis) in ["x", "y", "z"].iter().enumerate() {
-            if let Some(v) = self.misalignment_deg[i] {
-                let name = format!("misalignment_{axis}_deg");
-                out.push(Quantity::number(
-                    name,
-                    "deg",
-                    v,
-                    self.misalignment_sigma_deg[i],
-                ));
-            }
+        if let Some(m) = &self.magnetometer.0 {
+            mag_quantities(m, &mut out);
         }
-        out.push(Quantity::number(
-            "misalignment_total_deg".into(),
-            "deg",
-            self.misalignment_total_deg,
-            Some(self.misalignment_total_sigma_deg),
-        ));
-        for a in &self.axes {
-            out.push(Quantity::verdict(
-                format!("align_axis_{}", a.axis),
-                a.verdict.word(),
-            ));
+        if let Some(g) = &self.gyro {
+            gyro_quantities(g, &mut out);
         }
-        let hand = serde_json::to_value(self.handedness)
-            .ok()
-            .and_then(|v| v.as_str().map(str::to_string))
-            .unwrap_or_default();
-        out.push(Quantity::verdict("align_handedness".into(), &hand));
         out
     }
 
     fn summary(&self) -> String {
-        let axes: Vec<String> = self
-            .axes
-            .iter()
-            .map(|a| format!("{} {}", a.axis, a.verdict.word()))
-            .collect();
-        format!(
-            "axes {}; misalignment {:.2} ± {:.2}°",
-            axes.join(", "),
-            self.misalignment_total_deg,
-            self.misalignment_total_sigma_deg
-        )
+        let words = |axes: &[AxisResult]| {
+            axes.iter()
+                .map(|a| format!("{} {}", a.axis, a.verdict.word()))
+                .collect::<Vec<_>>()
+                .join(", ")
+        };
+        let mut parts = Vec::new();
+        if let Some(m) = &self.magnetometer.0 {
+            parts.push(format!(
+                "axes {}; misalignment {}",
+                words(&m.axes),
+                value_sigma(
+                    m.misalignment_total_deg,
+                    m.misalignment_total_sigma_deg,
+                    "°"
+                )
+            ));
+        }
+        if let Some(g) = &self.gyro {
+            parts.push(format!(
+                "gyro axes {}; gyro misalignment {}",
+                words(&g.axes),
+                value_sigma(
+                    g.misalignment_total_deg,
+                    g.misalignment_total_sigma_deg,
+                    "°"
+                )
+            ));
+        }
+        parts.join("; ").replace(" °", "°")
     }
 
     fn sections(&self) -> Result<Vec<Section>, Error> {
         Ok(vec![crate::report::sections::align_section(
             self, SPEC.title,
         )?])
+    }
+}
+
+fn mag_quantities(m: &MagAlignment, out: &mut Vec<Quantity>) {
+    for (i, axis) in ["x", "y", "z"].iter().enumerate() {
+        if let Some(v) = m.misalignment_deg[i] {
+            let name = format!("misalignment_{axis}_deg");
+            out.push(Quantity::number(
+                name,
+                "deg",
+                v,
+                m.misalignment_sigma_deg[i],
+            ));
+        }
+    }
+    out.push(Quantity::number(
+        "misalignment_total_deg".into(),
+        "deg",
+        m.misalignment_total_deg,
+        Some(m.misalignment_total_sigma_deg),
+    ));
+    for a in &m.axes {
+        out.push(Quantity::verdict(
+            format!("align_axis_{}", a.axis),
+            a.verdict.word(),
+        ));
+    }
+    let hand = serde_json::to_value(m.handedness)
+        .ok()
+        .and_then(|v| v.as_str().map(str::to_string))
+        .unwrap_or_default();
+    out.push(Quantity::verdict("align_handedness".into(), &hand));
+}
+
+fn gyro_quantities(g: &GyroResult, out: &mut Vec<Quantity>) {
+    for (i, axis) in ["x", "y", "z"].iter().enumerate() {
+        if let Some(v) = g.scale[i] {
+            let name = format!("gyro_scale_{axis}");
+            out.push(Quantity::number(name, "1", v, g.scale_sigma[i]));
+        }
+        if let Some(v) = g.bias_deg_s[i] {
+            let name = format!("gyro_bias_{axis}_deg_s");
+            out.push(Quantity::number(name, "deg/s", v, g.bias_sigma_deg_s[i]));
+        }
+    }
+    if g.misalignment_deg.iter().all(Option::is_some) {
+        out.push(Quantity::number(
+            "gyro_misalignment_total_deg".into(),
+            "deg",
+            g.misalignment_total_deg,
+            Some(g.misalignment_total_sigma_deg),
+        ));
+    }
+    for a in &g.axes {
+        out.push(Quantity::verdict(
+            format!("gyro_axis_{}", a.axis),
+            a.verdict.word(),
+        ));
     }
 }

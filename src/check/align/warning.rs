@@ -22,6 +22,13 @@ pub enum AlignWarning {
     },
     /// Only one mount: the rotation about its vertical body axis is unobservable.
     OneMount,
+    /// A hand tumble without a calibration: the field in `−ω × B` carries the hard iron.
+    TumbleUncalibrated,
+    /// The log has gyro columns but the gyro could not be judged on the turntable.
+    GyroNotJudged {
+        /// Why, with the remedy.
+        reason: String,
+    },
     /// A mount's headings leave a gap in the circle, deg.
     HeadingGap {
         /// The mount's label.
@@ -58,6 +65,14 @@ impl fmt::Display for AlignWarning {
                  that component is null and the axes it touches are inconclusive; add a mount \
                  with another body axis up",
             ),
+            AlignWarning::TumbleUncalibrated => f.write_str(
+                "hand tumble without a calibration: the field in −ω × B still carries the hard \
+                 iron (a bias of h/|B| of the gyro's scale, typically under 1 %); give \
+                 --calibration FILE.json from calibrate",
+            ),
+            AlignWarning::GyroNotJudged { reason } => {
+                write!(f, "the gyro columns were not judged: {reason}")
+            }
             AlignWarning::HeadingGap {
                 mount,
                 gap_deg,

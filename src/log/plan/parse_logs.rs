@@ -205,6 +205,7 @@ impl Validator<'_> {
         Ok(Gyro {
             sensor_to_body: self.rotation("gyro.sensor_to_body", g.sensor_to_body.as_ref())?,
             serial: self.name("gyro.serial", g.serial)?,
+            scale_tol: self.positive_at_most("gyro.scale_tol", g.scale_tol, 1.0)?,
         })
     }
 

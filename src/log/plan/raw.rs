@@ -64,6 +64,7 @@ pub(super) struct RawLog {
 pub(super) struct RawGyro {
     pub(super) sensor_to_body: Option<toml::Value>,
     pub(super) serial: Option<String>,
+    pub(super) scale_tol: Option<f64>,
 }
 
 #[derive(Deserialize)]

@@ -85,6 +85,8 @@ pub struct Gyro {
     pub sensor_to_body: Matrix3<f64>,
     /// Serial number, when given.
     pub serial: Option<String>,
+    /// `scale_tol`: limit on `|scale| − 1` of each gyro axis in `align` (a fraction).
+    pub scale_tol: Option<f64>,
 }
 
 /// `[magnetometer]` or one `[[magnetometer]]` entry.

@@ -4,6 +4,7 @@
 //! lay sections out; nothing here recomputes a fitted number.
 
 mod align;
+mod align_plots;
 pub mod assumptions;
 mod calibration;
 pub mod change_text;

@@ -1,0 +1,50 @@
+//! The demo's alignment runs (sample-logs/tmr-0207-b*/align/): each build's turntable
+//! run of the magnetometer and gyro, closed out into the demo's ledger with its report.
+//! B1's run catches the magnetometer harness's reversed axis as `flipped`.
+
+use std::path::{Path, PathBuf};
+
+use super::closeout::{closeout_report, run_and_record, verdict_lines};
+use magproof::report::atomic::write_atomic;
+use magproof::report::terminal::{render, Style};
+use magproof::Error;
+
+/// Close out each build's alignment plan into the ledger and write its report; returns
+/// the report folders.
+pub fn close_out_align(
+    out: &Path,
+    samples: &Path,
+    ledger_path: &Path,
+) -> anyhow::Result<Vec<PathBuf>> {
+    use magproof::sim::scenario_align::ALIGN_FOLDERS;
+    outln!("\nThe vehicle on the turntable on each integration day (sensor axes and alignment):")?;
+    let mut reports = Vec::new();
+    for folder in ALIGN_FOLDERS {
+        let plan = samples.join(folder).join("plan.toml");
+        let (result, recorded) = run_and_record(&plan, Some(ledger_path), false, |_| Ok(()))?;
+        let build = result
+            .plan
+            .article
+            .as_ref()
+            .map_or("?", |a| a.build.as_str());
+        for step in &result.steps {
+            outln!(
+                "  {build} align      {:<5} {}",
+                step.result.verdict().word(),
+                step.result.summary()
+            )?;
+        }
+        let dir = out.join("reports").join(folder);
+        std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
+        let report = closeout_report(&result)?;
+        magproof::report::write_report_dir(&dir, true, &report)?;
+        let text = render(&report, &Style::plain()) + &verdict_lines(&result, recorded.as_ref());
+        write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
+        let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
+        write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
+        reports.push(dir);
+    }
+    outln!("  (B1: the magnetometer harness's sensor-x pair was found reversed and re-terminated")?;
+    outln!("  the same day, before B1's closeout logs were taken.)")?;
+    Ok(reports)
+}
