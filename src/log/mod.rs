@@ -23,6 +23,8 @@ mod row_lines;
 mod row_paths_tests;
 mod sweep;
 mod sweep_log;
+#[cfg(test)]
+mod sweep_tests;
 pub mod telemetry;
 pub mod units;
 
