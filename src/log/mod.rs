@@ -3,6 +3,7 @@
 //! (nT, m, s, rad).
 
 mod bytes;
+mod column_kind;
 mod columns;
 pub mod encoding;
 mod error;

@@ -5,8 +5,9 @@
 use std::path::Path;
 
 use super::bytes::{shorten, split_fields, trim_cell};
+use super::column_kind::{ColumnKind, TimeUnit};
 use super::error::{LogError, Shown};
-use super::header::{ColumnKind, Header, TimeUnit};
+use super::header::Header;
 
 /// Parsed cells of one row, before they are committed to the columns.
 pub(super) struct RowParser {
