@@ -26,8 +26,9 @@ pub(super) fn linear_start(d: &OrbitFitData, weights: &[f64]) -> Result<Vec<f64>
         .map(|chunk| {
             let mut a = Normal::new(nu);
             let mut row = vec![0.0; nu];
-            for i in chunk * CHUNK..((chunk + 1) * CHUNK).min(n) {
-                if weights[i] == 0.0 {
+            let (lo, hi) = (chunk * CHUNK, ((chunk + 1) * CHUNK).min(n));
+            for (i, wt) in (lo..hi).zip(&weights[lo..hi]) {
+                if *wt == 0.0 {
                     continue;
                 }
                 let y = linear_row(d, i, &mut row);
