@@ -3,6 +3,8 @@
 //! ~38 bytes a row). A second group reads the same rows at 1e6 under a flight-software
 //! header (`TIME,MAG_X [counts],…`) through the plan's `[columns]` mapping and
 //! `nt_per_count`, against the plain header (the budget: at most 10 % more time).
+//! A third group reads 1e6 turntable-like rows with a `mount` label column, which every
+//! row sends through the general row parser (`log/row.rs`) instead of the fast path.
 
 use std::io::Write;
 
@@ -84,5 +86,43 @@ fn mapped_and_counts(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, reader, mapped_and_counts);
+/// A turntable-like log (`t,bx,by,bz,angle [deg],mount`, ~50 bytes a row): the mount
+/// column keeps every row on the general parser.
+fn write_mount_log(path: &std::path::Path, n: usize) -> u64 {
+    let mut rng = rand::rngs::StdRng::seed_from_u64(11);
+    let mut f = std::io::BufWriter::new(std::fs::File::create(path).expect("create bench log"));
+    writeln!(f, "t [s],bx [nT],by [nT],bz [nT],angle [deg],mount").expect("write");
+    for i in 0..n {
+        let (x, y, z): (f64, f64, f64) = (
+            rng.gen_range(-50000.0..50000.0),
+            rng.gen_range(-50000.0..50000.0),
+            rng.gen_range(-50000.0..50000.0),
+        );
+        let angle = (i % 3600) as f64 / 10.0;
+        let mount = if i % 2 == 0 { "none" } else { "mount-2" };
+        writeln!(
+            f,
+            "{},{x:.3},{y:.3},{z:.3},{angle:.1},{mount}",
+            i as f64 / 100.0
+        )
+        .expect("write");
+    }
+    f.flush().expect("flush");
+    std::fs::metadata(path).expect("stat").len()
+}
+
+fn general_rows(c: &mut Criterion) {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let path = dir.path().join("mount.csv");
+    let bytes = write_mount_log(&path, 1_000_000);
+    let mut group = c.benchmark_group("read_sweep_general");
+    group.sample_size(10);
+    group.throughput(Throughput::Bytes(bytes));
+    group.bench_function("mount_1000000", |b| {
+        b.iter(|| read_sweep(&path, &ReadOptions::default()).expect("read"))
+    });
+    group.finish();
+}
+
+criterion_group!(benches, reader, mapped_and_counts, general_rows);
 criterion_main!(benches);

@@ -3,7 +3,8 @@
 
 use std::collections::HashMap;
 
-use super::header::{ColumnKind, Header, TimeUnit};
+use super::column_kind::{ColumnKind, TimeUnit};
+use super::header::Header;
 use super::parallel::Part;
 use super::row::RowParser;
 use super::row_lines::RowLines;

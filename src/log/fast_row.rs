@@ -9,7 +9,8 @@
 //! line come from the one general parser, and the fast path only ever accepts rows the
 //! general parser would accept with the same values.
 
-use super::header::{ColumnKind, Header};
+use super::column_kind::ColumnKind;
+use super::header::Header;
 use super::number::{scan_decimal, Scan};
 
 /// What the fast path does with one column.

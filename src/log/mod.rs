@@ -3,6 +3,7 @@
 //! (nT, m, s, rad).
 
 mod bytes;
+mod column_kind;
 mod columns;
 pub mod encoding;
 mod error;
@@ -23,6 +24,8 @@ mod row_lines;
 mod row_paths_tests;
 mod sweep;
 mod sweep_log;
+#[cfg(test)]
+mod sweep_tests;
 pub mod telemetry;
 pub mod units;
 

@@ -3,7 +3,7 @@
 //! log's own names mapped by the plan's `[columns]`; and each quantity's units with
 //! their factor to the internal unit (nT, s, rad, m, A, rad/s).
 
-use super::header::{ColumnKind, TimeUnit};
+use super::column_kind::{ColumnKind, TimeUnit};
 use super::layout::LogLayout;
 use super::units::FieldUnit;
 

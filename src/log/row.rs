@@ -5,8 +5,9 @@
 use std::path::Path;
 
 use super::bytes::{shorten, split_fields, trim_cell};
+use super::column_kind::{ColumnKind, TimeUnit};
 use super::error::{LogError, Shown};
-use super::header::{ColumnKind, Header, TimeUnit};
+use super::header::Header;
 
 /// Parsed cells of one row, before they are committed to the columns.
 pub(super) struct RowParser {
@@ -75,31 +76,17 @@ impl RowParser {
             };
             match &col.kind {
                 ColumnKind::Ignored => {}
-                ColumnKind::Mount => {
-                    let s = std::str::from_utf8(cell)
-                        .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
-                    let s = s.trim();
-                    if s.chars().any(char::is_control) {
-                        return Err(cell_err("a mount label without control characters"));
-                    }
-                    self.has_label = !(s.is_empty() || s.eq_ignore_ascii_case("none"));
-                    if self.has_label {
-                        self.mount_label.clear();
-                        self.mount_label.push_str(s);
-                    }
-                }
+                ColumnKind::Mount => self.read_mount_label(cell, &cell_err)?,
                 ColumnKind::Time(unit) => {
                     let t = self.parse_time(cell, *unit, header.decimal_comma, &cell_err)?;
-                    if let Some(prev) = last_time {
-                        if t < prev {
-                            return Err(LogError::TimeBackwards {
-                                path: Shown(path.to_path_buf()),
-                                line,
-                                column: col.raw.clone(),
-                                found: t,
-                                previous: prev,
-                            });
-                        }
+                    if let Some(prev) = last_time.filter(|&prev| t < prev) {
+                        return Err(LogError::TimeBackwards {
+                            path: Shown(path.to_path_buf()),
+                            line,
+                            column: col.raw.clone(),
+                            found: t,
+                            previous: prev,
+                        });
                     }
                     self.time_s = Some(t);
                 }
@@ -121,13 +108,41 @@ impl RowParser {
             }
         }
         if header.hold_commands {
-            for (k, col) in header.columns.iter().enumerate() {
-                if matches!(col.kind, ColumnKind::Command(_)) {
-                    self.held[k] = Some(self.numbers[k]);
-                }
-            }
+            self.hold_commands(header);
         }
         Ok(())
+    }
+
+    /// Read a mount-label cell into `mount_label`; an empty cell or `none` is no label.
+    #[inline]
+    fn read_mount_label(
+        &mut self,
+        cell: &[u8],
+        cell_err: &dyn Fn(&str) -> LogError,
+    ) -> Result<(), LogError> {
+        let s = std::str::from_utf8(cell)
+            .map_err(|_| cell_err("expected a mount label in UTF-8 text"))?;
+        let s = s.trim();
+        if s.chars().any(char::is_control) {
+            return Err(cell_err("a mount label without control characters"));
+        }
+        self.has_label = !(s.is_empty() || s.eq_ignore_ascii_case("none"));
+        if self.has_label {
+            self.mount_label.clear();
+            self.mount_label.push_str(s);
+        }
+        Ok(())
+    }
+
+    /// Remember this row's command values, for the empty command cells of the rows
+    /// below (`[log] hold_commands`).
+    #[inline]
+    fn hold_commands(&mut self, header: &Header) {
+        for (k, col) in header.columns.iter().enumerate() {
+            if matches!(col.kind, ColumnKind::Command(_)) {
+                self.held[k] = Some(self.numbers[k]);
+            }
+        }
     }
 
     fn parse_time(

@@ -143,19 +143,9 @@ fn iso(t_unix: f64) -> String {
     dt.format(&fmt).unwrap_or_default()
 }
 
-/// Simulate a log.
-pub fn simulate_orbit(cfg: &OrbitSimConfig, seed: u64) -> Result<OrbitSim, Error> {
-    let orbit =
-        Orbit::from_tle(&cfg.tle[0], &cfg.tle[1]).map_err(|e| Error::Usage(e.to_string()))?;
-    let winv = cfg
-        .soft_iron
-        .try_inverse()
-        .ok_or_else(|| Error::Usage("the soft-iron matrix is singular".into()))?;
-    let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
-    let noise = Normal::new(0.0, cfg.noise_nt.max(0.0)).map_err(|e| Error::Usage(e.to_string()))?;
-    let t0 = (orbit.epoch_unix_s + cfg.start_after_epoch_s).round();
-    let period = 86_400.0 / orbit.mean_motion_rev_per_day;
-    let coeffs = coefficients_for(t0 + cfg.samples as f64 / 2.0)?;
+/// The log's header line (with its line end): time, field, the positions `cfg` asks
+/// for, the solar-array current, and the rod command and temperature when modelled.
+fn header_line(cfg: &OrbitSimConfig) -> String {
     let mut csv = String::from("t,bx,by,bz");
     match cfg.positions {
         SimPositions::Tle => {}
@@ -170,6 +160,51 @@ pub fn simulate_orbit(cfg: &OrbitSimConfig, seed: u64) -> Result<OrbitSim, Error
         csv.push_str(",temp");
     }
     csv.push('\n');
+    csv
+}
+
+/// The x rod's command at sample `k`: blocks of 97 samples cycling 0, +1, 0, −1.
+fn rod_command(k: usize) -> f64 {
+    if (k / 97) % 4 == 1 {
+        1.0
+    } else if (k / 97) % 4 == 3 {
+        -1.0
+    } else {
+        0.0
+    }
+}
+
+/// The position cells of one row for the Earth-fixed position `r_km` (km): none, the
+/// Cartesian km, or geodetic latitude, longitude (deg) and height (km).
+fn write_position(csv: &mut String, positions: SimPositions, r_km: [f64; 3]) {
+    match positions {
+        SimPositions::Tle => {}
+        SimPositions::Ecef => {
+            let _ = write!(csv, ",{:.4},{:.4},{:.4}", r_km[0], r_km[1], r_km[2]);
+        }
+        SimPositions::Geodetic => {
+            let lat = geodetic_latitude_deg(r_km);
+            let lon = r_km[1].atan2(r_km[0]).to_degrees();
+            let alt = geodetic_altitude_km(r_km, lat);
+            let _ = write!(csv, ",{lat:.6},{lon:.6},{alt:.4}");
+        }
+    }
+}
+
+/// Simulate a log.
+pub fn simulate_orbit(cfg: &OrbitSimConfig, seed: u64) -> Result<OrbitSim, Error> {
+    let orbit =
+        Orbit::from_tle(&cfg.tle[0], &cfg.tle[1]).map_err(|e| Error::Usage(e.to_string()))?;
+    let winv = cfg
+        .soft_iron
+        .try_inverse()
+        .ok_or_else(|| Error::Usage("the soft-iron matrix is singular".into()))?;
+    let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
+    let noise = Normal::new(0.0, cfg.noise_nt.max(0.0)).map_err(|e| Error::Usage(e.to_string()))?;
+    let t0 = (orbit.epoch_unix_s + cfg.start_after_epoch_s).round();
+    let period = 86_400.0 / orbit.mean_motion_rev_per_day;
+    let coeffs = coefficients_for(t0 + cfg.samples as f64 / 2.0)?;
+    let mut csv = header_line(cfg);
     for k in 0..cfg.samples {
         let dt = k as f64;
         let t = t0 + dt;
@@ -178,13 +213,7 @@ pub fn simulate_orbit(cfg: &OrbitSimConfig, seed: u64) -> Result<OrbitSim, Error
         let phase = dt / period * std::f64::consts::TAU;
         let i_solar =
             (1.6 * phase.sin() + 0.4 * (dt / 170.0 * std::f64::consts::TAU).sin()).max(0.0);
-        let cmd = if (k / 97) % 4 == 1 {
-            1.0
-        } else if (k / 97) % 4 == 3 {
-            -1.0
-        } else {
-            0.0
-        };
+        let cmd = rod_command(k);
         let temp = cfg.temp_ref_c + 12.0 * (phase + 0.7).sin();
         let mut b = winv * b_body + cfg.hard_iron_nt + cfg.solar_nt_per_a * i_solar;
         if let Some(kr) = cfg.rod_nt_per_command {
@@ -197,18 +226,7 @@ pub fn simulate_orbit(cfg: &OrbitSimConfig, seed: u64) -> Result<OrbitSim, Error
             b[a] += noise.sample(&mut rng);
         }
         let _ = write!(csv, "{},{:.1},{:.1},{:.1}", iso(t), b[0], b[1], b[2]);
-        match cfg.positions {
-            SimPositions::Tle => {}
-            SimPositions::Ecef => {
-                let _ = write!(csv, ",{:.4},{:.4},{:.4}", r[0], r[1], r[2]);
-            }
-            SimPositions::Geodetic => {
-                let lat = geodetic_latitude_deg(r);
-                let lon = r[1].atan2(r[0]).to_degrees();
-                let alt = geodetic_altitude_km(r, lat);
-                let _ = write!(csv, ",{lat:.6},{lon:.6},{alt:.4}");
-            }
-        }
+        write_position(&mut csv, cfg.positions, r);
         let _ = write!(csv, ",{i_solar:.4}");
         if cfg.rod_nt_per_command.is_some() {
             let _ = write!(csv, ",{cmd}");

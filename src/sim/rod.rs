@@ -177,7 +177,41 @@ fn staircase(levels: &[f64]) -> Vec<(f64, bool)> {
 
 /// Simulate a bench run.
 pub fn simulate_rod_bench(cfg: &RodBenchConfig, seed: u64) -> Result<RodSim, Error> {
-    let bad = |m: &str| Error::Usage(format!("rod bench simulation: {m}"));
+    check_config(cfg)?;
+    let mut noise = BenchNoise {
+        rng: StdRng::seed_from_u64(seed),
+        field_nt: Normal::new(0.0, cfg.noise_nt).map_err(|e| bad(&e.to_string()))?,
+        current_a: Normal::new(0.0, cfg.current_noise_a).map_err(|e| bad(&e.to_string()))?,
+    };
+    let rod = FiniteRod {
+        length_m: cfg.length_m,
+        radius_m: cfg.core_diameter_m / 2.0,
+    };
+    let mut rows = LogRows {
+        csv: String::from("t [s],i [A],bx [nT],by [nT],bz [nT],position\n"),
+        t_s: 0.0,
+        dt_s: 1.0 / cfg.rate_hz,
+    };
+    let mut level_moments: Vec<(f64, f64)> = Vec::new();
+    for (si, st) in cfg.stations.iter().enumerate() {
+        let moments = (si == 0).then_some(&mut level_moments);
+        simulate_station(cfg, &rod, st, &mut noise, &mut rows, moments)?;
+    }
+    let truth = truth(cfg, &level_moments, moment_am2(cfg, cfg.play_a));
+    Ok(RodSim {
+        csv: rows.csv,
+        plan_toml: plan_toml(cfg),
+        truth,
+    })
+}
+
+/// A usage error of the simulation.
+fn bad(m: &str) -> Error {
+    Error::Usage(format!("rod bench simulation: {m}"))
+}
+
+/// Refuse a configuration the bench run cannot be simulated from.
+fn check_config(cfg: &RodBenchConfig) -> Result<(), Error> {
     if cfg.levels_a.len() < 2 || cfg.levels_a.iter().any(|i| !(i.is_finite() && *i > 0.0)) {
         return Err(bad("need at least two positive current levels"));
     }
@@ -189,82 +223,103 @@ pub fn simulate_rod_bench(cfg: &RodBenchConfig, seed: u64) -> Result<RodSim, Err
             "noise, saturation and time constant must be non-negative",
         ));
     }
-    let mut rng = StdRng::seed_from_u64(seed);
-    let noise = Normal::new(0.0, cfg.noise_nt).map_err(|e| bad(&e.to_string()))?;
-    let inoise = Normal::new(0.0, cfg.current_noise_a).map_err(|e| bad(&e.to_string()))?;
-    let rod = FiniteRod {
-        length_m: cfg.length_m,
-        radius_m: cfg.core_diameter_m / 2.0,
-    };
-    let k = cfg.moment_per_amp;
-    let moment = |ieff: f64| saturate(k * ieff, cfg.saturation_am2);
-    let rows_per_step = (cfg.step_s * cfg.rate_hz).round() as usize;
-    let dt = 1.0 / cfg.rate_hz;
-    let mut csv = String::from("t [s],i [A],bx [nT],by [nT],bz [nT],position\n");
-    let mut t = 0.0;
-    let mut level_moments: Vec<(f64, f64)> = Vec::new();
-    for (si, st) in cfg.stations.iter().enumerate() {
-        let probe_to_rod = rotation(&st.probe_to_rod)?;
-        let rod_to_probe = probe_to_rod.transpose();
-        let unit_field = rod
-            .field_nt(1.0, &st.position_m)
-            .ok_or_else(|| bad("a station on the rod"))?;
-        let (mut ieff, mut m) = (0.0, 0.0);
-        for (i_level, demag) in staircase(&cfg.levels_a) {
-            if demag {
-                // Demagnetise: a decaying alternating current (rows between levels),
-                // leaving the rod at zero.
-                let i_max = cfg.levels_a.iter().copied().fold(0.0, f64::max);
-                for n in 0..DEMAG_ROWS {
-                    let i = i_max * (-0.85_f64).powi(n as i32 + 1);
-                    let ambient = cfg.ambient_nt + cfg.drift_nt_per_s * t;
-                    let b = rod_to_probe * (unit_field * moment(i)) + ambient;
-                    writeln!(
-                        csv,
-                        "{t:.4},{i:.6},{:.3},{:.3},{:.3},{}",
-                        b.x, b.y, b.z, st.label
-                    )
-                    .map_err(|e| Error::Internal(e.to_string()))?;
-                    t += dt;
-                }
-                ieff = 0.0;
-                m = 0.0;
-            }
-            ieff = play(ieff, i_level, cfg.play_a);
-            let target = moment(ieff);
-            if si == 0 {
-                level_moments.push((i_level, target));
-            }
-            let start = m;
-            for r in 0..rows_per_step {
-                let since = (r as f64 + 0.5) * dt;
-                m = if cfg.time_constant_s > 0.0 {
-                    target + (start - target) * (-since / cfg.time_constant_s).exp()
-                } else {
-                    target
-                };
-                let ambient = cfg.ambient_nt + cfg.drift_nt_per_s * t;
-                let b = rod_to_probe * (unit_field * m)
-                    + ambient
-                    + Vector3::from_fn(|_, _| noise.sample(&mut rng));
-                let i = i_level + inoise.sample(&mut rng);
-                writeln!(
-                    csv,
-                    "{t:.4},{i:.6},{:.3},{:.3},{:.3},{}",
-                    b.x, b.y, b.z, st.label
-                )
-                .map_err(|e| Error::Internal(e.to_string()))?;
-                t += dt;
-            }
-            m = target;
-        }
+    Ok(())
+}
+
+/// The rod's moment (A·m²) at the effective current `ieff_a` (A): linear, then
+/// saturating (module doc).
+fn moment_am2(cfg: &RodBenchConfig, ieff_a: f64) -> f64 {
+    saturate(cfg.moment_per_amp * ieff_a, cfg.saturation_am2)
+}
+
+/// The noise of the probe (nT, each axis) and of the current reading (A), drawn from one
+/// seeded generator in row order.
+struct BenchNoise {
+    rng: StdRng,
+    field_nt: Normal<f64>,
+    current_a: Normal<f64>,
+}
+
+/// The log being written: rows of `t, i, b, position` at the bench's rate.
+struct LogRows {
+    csv: String,
+    /// Time of the next row, s.
+    t_s: f64,
+    /// Sample interval, s.
+    dt_s: f64,
+}
+
+impl LogRows {
+    /// The ambient field (nT, probe frame) at the next row's time.
+    fn ambient_nt(&self, cfg: &RodBenchConfig) -> Vector3<f64> {
+        cfg.ambient_nt + cfg.drift_nt_per_s * self.t_s
     }
-    let truth = truth(cfg, &level_moments, moment(cfg.play_a));
-    Ok(RodSim {
-        csv,
-        plan_toml: plan_toml(cfg),
-        truth,
-    })
+
+    /// Write one row (current A, field nT in the probe frame) and step the time.
+    fn push(&mut self, i_a: f64, b_nt: &Vector3<f64>, label: &str) -> Result<(), Error> {
+        let t = self.t_s;
+        writeln!(
+            self.csv,
+            "{t:.4},{i_a:.6},{:.3},{:.3},{:.3},{label}",
+            b_nt.x, b_nt.y, b_nt.z
+        )
+        .map_err(|e| Error::Internal(e.to_string()))?;
+        self.t_s += self.dt_s;
+        Ok(())
+    }
+}
+
+/// One station's staircase (and its demagnetising sequence) into `rows`; when
+/// `level_moments` is given, each level's current (A) and noiseless moment (A·m²).
+fn simulate_station(
+    cfg: &RodBenchConfig,
+    rod: &FiniteRod,
+    st: &SimStation,
+    noise: &mut BenchNoise,
+    rows: &mut LogRows,
+    mut level_moments: Option<&mut Vec<(f64, f64)>>,
+) -> Result<(), Error> {
+    let rod_to_probe = rotation(&st.probe_to_rod)?.transpose();
+    let unit_field = rod
+        .field_nt(1.0, &st.position_m)
+        .ok_or_else(|| bad("a station on the rod"))?;
+    let rows_per_step = (cfg.step_s * cfg.rate_hz).round() as usize;
+    let (mut ieff, mut m) = (0.0, 0.0);
+    for (i_level, demag) in staircase(&cfg.levels_a) {
+        if demag {
+            // Demagnetise: a decaying alternating current (rows between levels),
+            // leaving the rod at zero.
+            let i_max = cfg.levels_a.iter().copied().fold(0.0, f64::max);
+            for n in 0..DEMAG_ROWS {
+                let i = i_max * (-0.85_f64).powi(n as i32 + 1);
+                let b = rod_to_probe * (unit_field * moment_am2(cfg, i)) + rows.ambient_nt(cfg);
+                rows.push(i, &b, &st.label)?;
+            }
+            ieff = 0.0;
+            m = 0.0;
+        }
+        ieff = play(ieff, i_level, cfg.play_a);
+        let target = moment_am2(cfg, ieff);
+        if let Some(lm) = level_moments.as_deref_mut() {
+            lm.push((i_level, target));
+        }
+        let start = m;
+        for r in 0..rows_per_step {
+            let since = (r as f64 + 0.5) * rows.dt_s;
+            m = if cfg.time_constant_s > 0.0 {
+                target + (start - target) * (-since / cfg.time_constant_s).exp()
+            } else {
+                target
+            };
+            let b = rod_to_probe * (unit_field * m)
+                + rows.ambient_nt(cfg)
+                + Vector3::from_fn(|_, _| noise.field_nt.sample(&mut noise.rng));
+            let i = i_level + noise.current_a.sample(&mut noise.rng);
+            rows.push(i, &b, &st.label)?;
+        }
+        m = target;
+    }
+    Ok(())
 }
 
 fn rotation(axes: &[&str; 3]) -> Result<Matrix3<f64>, Error> {

@@ -23,15 +23,14 @@
 //! Requirements: columns `t`, `i`, `bx by bz`, `position`; `[rod_bench]` with its
 //! stations; each station runs the same staircase between its two rod-off segments.
 
-use crate::check::outcome::{Gate, GateRole, Verdict};
 use crate::check::CheckRequest;
 use crate::log::{Plan, RodBench, SweepLog};
-use crate::physics::demag::{cored_gain, ellipsoid_demag_factor};
 use crate::physics::finite_rod::FiniteRod;
 use crate::screen::saturation::without_rows;
 use crate::Error;
 
 mod curve;
+mod findings;
 mod levels;
 mod response;
 mod result;
@@ -41,6 +40,8 @@ mod warning;
 
 pub use result::{RodLevel, RodPolarity, RodResult, RodStation, StepResponse};
 pub use warning::RodWarning;
+
+use findings::{CurveFigures, Findings, Nominal};
 
 /// Distance from the rod below which the point-dipole model is poor, rod lengths
 /// (common practice).
@@ -98,6 +99,9 @@ fn rod_model(bench: &RodBench) -> FiniteRod {
     }
 }
 
+/// The bench log through the method of the module doc: steps, backgrounds, the time
+/// constant, each level's moment (A·m², rod frame), the m(I) line, the stations and the
+/// nominal gain; then the gates.
 fn evaluate(log: &SweepLog, plan: &Plan, bench: &RodBench) -> Result<RodResult, Error> {
     let degenerate = |e: Error| match e {
         Error::Degenerate(m) => Error::Degenerate(format!("{}: {m}", log.path.display())),
@@ -135,20 +139,39 @@ fn evaluate(log: &SweepLog, plan: &Plan, bench: &RodBench) -> Result<RodResult, 
                 .into(),
         ))
     })?;
-    let rated = plan.limits.rod.current_max_a.unwrap_or_else(|| {
+    let rated_a = plan.limits.rod.current_max_a.unwrap_or_else(|| {
         warnings.push(RodWarning::NoRatedCurrent { current_a: i_max });
         i_max
     });
-    let at_max = curve::moment_at(&levels, rated, bl.level_tol_a);
-    if at_max.is_none() {
-        warnings.push(RodWarning::RatedCurrentNotLogged { current_a: rated });
-    }
-    let remanence = curve::remanence(&levels);
-    if remanence.is_none() {
-        warnings.push(RodWarning::NoRemanenceSegments);
-    }
+    let curve = CurveFigures::read(&levels, &line, rated_a, bl.level_tol_a, &mut warnings);
     let stations = response::stations(bench, &levels, &used, i_max);
-    for s in &stations {
+    let falloff = falloff_of(bench, &rod, &stations, &mut warnings);
+    Ok(Findings {
+        nominal: Nominal::of(bench, &mut warnings),
+        line,
+        rated_a,
+        curve,
+        tau,
+        falloff,
+        levels: rod_levels(&levels, &bl, &all_steps),
+        stations,
+        rows_used,
+        rows_between_levels: dropped,
+        responses,
+        warnings,
+    }
+    .into_result(plan, bench))
+}
+
+/// The stations' fall-off exponent; warns of stations too close for the point dipole
+/// (closer than [`DIPOLE_VALID_ROD_LENGTHS`]) and of no usable set of stations.
+fn falloff_of(
+    bench: &RodBench,
+    rod: &FiniteRod,
+    stations: &[RodStation],
+    warnings: &mut Vec<RodWarning>,
+) -> Option<response::Falloff> {
+    for s in stations {
         if s.rod_lengths < DIPOLE_VALID_ROD_LENGTHS {
             warnings.push(RodWarning::CloseStation {
                 label: s.label.clone(),
@@ -157,122 +180,34 @@ fn evaluate(log: &SweepLog, plan: &Plan, bench: &RodBench) -> Result<RodResult, 
             });
         }
     }
-    let falloff = response::falloff(bench, &rod, &stations);
+    let falloff = response::falloff(bench, rod, stations);
     if falloff.is_none() {
         warnings.push(RodWarning::NoFalloff);
     }
-    let air_core = bench.turns * bench.coil_area_m2;
-    let demag = bench
-        .core_diameter_m
-        .and_then(|d| ellipsoid_demag_factor(bench.length_m / d));
-    if bench.core_mu_r.is_some() && demag.is_none() {
-        warnings.push(RodWarning::NoCoreDiameter);
-    }
-    let predicted = bench.core_mu_r.zip(demag).map(|(mu, n)| cored_gain(mu, n));
-    let reference = at_max.map(|m| m.0).unwrap_or_else(|| line.at(rated).abs());
-    let linearity = curve::linearity_pct(&levels, &line, rated, bl.level_tol_a);
-    let min_distance = stations
-        .iter()
-        .map(|s| s.rod_lengths)
-        .fold(f64::INFINITY, f64::min);
-    let remanence_pct = remanence.map(|r| r.0 / reference * 100.0);
-    let gates = gates(plan, &line, at_max, remanence_pct, linearity, min_distance);
-    let verdict = Verdict::from_gates(&gates);
-    Ok(RodResult {
-        moment_per_amp_am2_per_a: line.slope,
-        moment_per_amp_sigma: line.slope_sigma,
-        air_core_am2_per_a: air_core,
-        core_gain: line.slope / air_core,
-        core_gain_predicted: predicted,
-        linearity_max_dev_pct: linearity,
-        saturation_current_a: curve::saturation_current(&levels, &line, bl.level_tol_a),
-        remanence_am2: remanence.map(|r| r.0),
-        remanence_sigma_am2: remanence.map(|r| r.1),
-        remanence_pct,
-        time_constant_s: tau.map(|t| t.0),
-        falloff_exponent: falloff.as_ref().map(|f| f.exponent),
-        polarity: if line.slope > 0.0 {
-            RodPolarity::Ok
-        } else {
-            RodPolarity::Reversed
-        },
-        pass: verdict.pass(),
-        verdict,
-        gates,
-        warnings,
-        serial: bench.serial.clone(),
-        batch: bench.batch.clone(),
-        intercept_am2: line.intercept,
-        rod_current_max_a: rated,
-        moment_at_max_am2: at_max.map(|m| m.0),
-        moment_at_max_sigma_am2: at_max.map(|m| m.1),
-        demag_factor: demag,
-        time_constant_sigma_s: tau.map(|t| t.1),
-        falloff_exponent_sigma: falloff.as_ref().map(|f| f.sigma),
-        falloff_exponent_measurement_sigma: falloff.as_ref().map(|f| f.measurement_sigma),
-        falloff_exponent_finite_rod: falloff.as_ref().map(|f| f.finite_rod),
-        falloff_stations: falloff.as_ref().map(|f| f.stations),
-        levels: levels
-            .iter()
-            .map(|l| {
-                let (m, s) = curve::axial(l);
-                RodLevel {
-                    current_a: l.current_a,
-                    moment_am2: m,
-                    moment_sigma_am2: s,
-                    t_start_s: l
-                        .steps
-                        .first()
-                        .map_or(f64::NAN, |&k| bl.t_s[all_steps[k].rows.start]),
-                }
-            })
-            .collect(),
-        stations,
-        rows_used,
-        rows_between_levels: dropped,
-        responses,
-    })
+    falloff
 }
 
-/// The gates (docs/rods.md, "Gates"): `polarity`, `moment_min`, `remanence_max`,
-/// `linearity_max` (each limit only when the plan gives it) and `point_dipole_distance`.
-fn gates(
-    plan: &Plan,
-    line: &curve::Line,
-    at_max: Option<(f64, f64)>,
-    remanence_pct: Option<f64>,
-    linearity: f64,
-    min_distance: f64,
-) -> Vec<Gate> {
-    let l = &plan.limits.rod;
-    let mut gates = vec![Gate::above("polarity", line.slope, 0.0, GateRole::Article)];
-    if let Some(min) = l.moment_min_am2 {
-        gates.push(match at_max {
-            Some((m, _)) => Gate::at_least("moment_min", m, min, GateRole::Article),
-            None => Gate::at_least("moment_min", f64::NAN, min, GateRole::Data),
-        });
-    }
-    if let Some(max) = l.remanence_max_pct {
-        gates.push(match remanence_pct {
-            Some(r) => Gate::at_most("remanence_max", r.abs(), max, GateRole::Article),
-            None => Gate::at_most("remanence_max", f64::NAN, max, GateRole::Data),
-        });
-    }
-    if let Some(max) = l.linearity_max_pct {
-        gates.push(Gate::at_most(
-            "linearity_max",
-            linearity,
-            max,
-            GateRole::Article,
-        ));
-    }
-    gates.push(Gate::at_least(
-        "point_dipole_distance",
-        min_distance,
-        DIPOLE_VALID_ROD_LENGTHS,
-        GateRole::Data,
-    ));
-    gates
+/// Each level's current (A), axial moment (A·m², ±1σ) and the time (s) of its first step.
+fn rod_levels(
+    levels: &[levels::Level],
+    bl: &steps::BenchLog,
+    all_steps: &[steps::Step],
+) -> Vec<RodLevel> {
+    levels
+        .iter()
+        .map(|l| {
+            let (m, s) = curve::axial(l);
+            RodLevel {
+                current_a: l.current_a,
+                moment_am2: m,
+                moment_sigma_am2: s,
+                t_start_s: l
+                    .steps
+                    .first()
+                    .map_or(f64::NAN, |&k| bl.t_s[all_steps[k].rows.start]),
+            }
+        })
+        .collect()
 }
 
 #[cfg(test)]

@@ -5,6 +5,7 @@
 use std::path::Path;
 
 use super::*;
+use crate::check::outcome::Verdict;
 use crate::check::{CheckInput, CheckRequest};
 use crate::log::plan::parse_plan;
 use crate::log::{read_sweep_from, ReadOptions};

@@ -6,12 +6,14 @@
 //!
 //! The files depend on each other one way: `types.rs` holds the validated public types,
 //! `raw.rs` the TOML shapes as written (using `types`), and `parse.rs` the checks that
-//! turn one into the other (using both).
+//! turn one into the other (using both; `parse_logs.rs` and `parse_limits.rs` hold the
+//! checks of the log sections and of `[limits]`).
 
 mod align;
 mod locate;
 mod orbit;
 mod parse;
+mod parse_limits;
 mod parse_logs;
 mod raw;
 mod rod_bench;

@@ -81,37 +81,8 @@ fn positive(v: &dyn Check, key: &str, x: f64) -> Result<f64, PlanError> {
 
 /// Validate `[rod_bench]`.
 pub(super) fn rod_bench(v: &dyn Check, r: RawRodBench) -> Result<RodBench, PlanError> {
-    let serial = r.serial.trim().to_string();
-    if serial.is_empty() {
-        return Err(v.invalid("rod_bench.serial", "must not be empty".into()));
-    }
-    v.plain_text("rod_bench.serial", &serial)?;
-    let batch = r.batch.map(|b| b.trim().to_string());
-    if let Some(b) = &batch {
-        if b.is_empty() {
-            return Err(v.invalid("rod_bench.batch", "must not be empty when given".into()));
-        }
-        v.plain_text("rod_bench.batch", b)?;
-    }
-    let coil_area_m2 =
-        match (r.coil_diameter_m, r.coil_area_m2) {
-            (Some(_), Some(_)) => {
-                return Err(v.invalid(
-                    "rod_bench.coil_area_m2",
-                    "give coil_diameter_m or coil_area_m2, not both".into(),
-                ))
-            }
-            (Some(d), None) => {
-                let d = positive(v, "rod_bench.coil_diameter_m", d)?;
-                std::f64::consts::PI * d * d / 4.0
-            }
-            (None, Some(a)) => positive(v, "rod_bench.coil_area_m2", a)?,
-            (None, None) => return Err(v.invalid(
-                "rod_bench.coil_diameter_m",
-                "the nominal moment needs the winding's size: give coil_diameter_m or coil_area_m2"
-                    .into(),
-            )),
-        };
+    let (serial, batch) = identity(v, r.serial, r.batch)?;
+    let coil_area_m2 = coil_area_m2(v, r.coil_diameter_m, r.coil_area_m2)?;
     let core_mu_r = r
         .core_mu_r
         .map(|m| {
@@ -125,8 +96,73 @@ pub(super) fn rod_bench(v: &dyn Check, r: RawRodBench) -> Result<RodBench, PlanE
             }
         })
         .transpose()?;
+    let positions = positions(v, r.position)?;
+    Ok(RodBench {
+        serial,
+        batch,
+        turns: positive(v, "rod_bench.turns", r.turns)?,
+        length_m: positive(v, "rod_bench.length_m", r.length_m)?,
+        coil_area_m2,
+        core_diameter_m: r
+            .core_diameter_m
+            .map(|d| positive(v, "rod_bench.core_diameter_m", d))
+            .transpose()?,
+        core_mu_r,
+        positions,
+    })
+}
+
+/// The rod's serial and batch, trimmed: plain text, not empty.
+fn identity(
+    v: &dyn Check,
+    serial: String,
+    batch: Option<String>,
+) -> Result<(String, Option<String>), PlanError> {
+    let serial = serial.trim().to_string();
+    if serial.is_empty() {
+        return Err(v.invalid("rod_bench.serial", "must not be empty".into()));
+    }
+    v.plain_text("rod_bench.serial", &serial)?;
+    let batch = batch.map(|b| b.trim().to_string());
+    if let Some(b) = &batch {
+        if b.is_empty() {
+            return Err(v.invalid("rod_bench.batch", "must not be empty when given".into()));
+        }
+        v.plain_text("rod_bench.batch", b)?;
+    }
+    Ok((serial, batch))
+}
+
+/// The area of one turn, m²: `coil_area_m2`, or π d²/4 of `coil_diameter_m` (m); exactly
+/// one of the two.
+fn coil_area_m2(
+    v: &dyn Check,
+    diameter_m: Option<f64>,
+    area_m2: Option<f64>,
+) -> Result<f64, PlanError> {
+    match (diameter_m, area_m2) {
+        (Some(_), Some(_)) => Err(v.invalid(
+            "rod_bench.coil_area_m2",
+            "give coil_diameter_m or coil_area_m2, not both".into(),
+        )),
+        (Some(d), None) => {
+            let d = positive(v, "rod_bench.coil_diameter_m", d)?;
+            Ok(std::f64::consts::PI * d * d / 4.0)
+        }
+        (None, Some(a)) => positive(v, "rod_bench.coil_area_m2", a),
+        (None, None) => Err(v.invalid(
+            "rod_bench.coil_diameter_m",
+            "the nominal moment needs the winding's size: give coil_diameter_m or coil_area_m2"
+                .into(),
+        )),
+    }
+}
+
+/// The probe stations: at least one, labels plain, unique and not empty, none at the
+/// rod's centre (rod frame, m).
+fn positions(v: &dyn Check, raw: Vec<RawRodPosition>) -> Result<Vec<RodPosition>, PlanError> {
     let mut positions: Vec<RodPosition> = Vec::new();
-    for (i, p) in r.position.into_iter().enumerate() {
+    for (i, p) in raw.into_iter().enumerate() {
         let key = |k: &str| format!("rod_bench.position[{i}].{k}");
         let label = p.label.trim().to_string();
         if label.is_empty() {
@@ -155,19 +191,7 @@ pub(super) fn rod_bench(v: &dyn Check, r: RawRodBench) -> Result<RodBench, PlanE
             "list at least one [[rod_bench.position]] (label, position_m, probe_to_rod)".into(),
         ));
     }
-    Ok(RodBench {
-        serial,
-        batch,
-        turns: positive(v, "rod_bench.turns", r.turns)?,
-        length_m: positive(v, "rod_bench.length_m", r.length_m)?,
-        coil_area_m2,
-        core_diameter_m: r
-            .core_diameter_m
-            .map(|d| positive(v, "rod_bench.core_diameter_m", d))
-            .transpose()?,
-        core_mu_r,
-        positions,
-    })
+    Ok(positions)
 }
 
 /// `[limits]` of a rod on the bench (docs/rods.md).
