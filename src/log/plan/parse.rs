@@ -64,7 +64,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         .transpose()?;
     let orbit = raw
         .orbit
-        .map(|o| super::orbit::orbit(path, o))
+        .map(|o| super::orbit::orbit(&v, o))
         .transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
