@@ -40,6 +40,8 @@ mod input;
 mod log_forms;
 #[path = "cli/orbit.rs"]
 mod orbit;
+#[path = "cli/orbit_ground.rs"]
+mod orbit_ground;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]

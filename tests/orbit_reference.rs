@@ -102,7 +102,7 @@ fn the_fit_matches_scipy_least_squares_on_a_stored_log() {
     .unwrap();
     let options = OrbitOptions {
         columns: &tele.orbit,
-        ground: None,
+        ground: GroundLookup::NotAsked,
         robust: false,
         grid_s: 0.0,
         keep_samples: false,

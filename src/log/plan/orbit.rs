@@ -35,8 +35,20 @@ pub struct OrbitPlan {
 /// so a bad checksum or a bad field is found when the plan is read, on its line.
 pub(super) fn orbit(v: &dyn Check, raw: RawOrbit) -> Result<OrbitPlan, PlanError> {
     let tle = raw.tle.map(|lines| element_set(v, lines)).transpose()?;
-    in_range(v, "orbit.altitude_km", raw.altitude_km, (100.0, 40_000.0), "km")?;
-    in_range(v, "orbit.inclination_deg", raw.inclination_deg, (0.0, 180.0), "deg")?;
+    in_range(
+        v,
+        "orbit.altitude_km",
+        raw.altitude_km,
+        (100.0, 40_000.0),
+        "km",
+    )?;
+    in_range(
+        v,
+        "orbit.inclination_deg",
+        raw.inclination_deg,
+        (0.0, 180.0),
+        "deg",
+    )?;
     in_range(
         v,
         "orbit.reference_temperature_c",
@@ -61,10 +73,9 @@ fn in_range(
     unit: &str,
 ) -> Result<(), PlanError> {
     match x {
-        Some(x) if !(x.is_finite() && (lo..=hi).contains(&x)) => Err(v.invalid(
-            key,
-            format!("must lie in {lo}..{hi} {unit}, found {x}"),
-        )),
+        Some(x) if !(x.is_finite() && (lo..=hi).contains(&x)) => {
+            Err(v.invalid(key, format!("must lie in {lo}..{hi} {unit}, found {x}")))
+        }
         _ => Ok(()),
     }
 }
@@ -92,10 +103,7 @@ fn element_set(v: &dyn Check, lines: Vec<String>) -> Result<[String; 2], PlanErr
         }
     }
     if let Err(e) = Orbit::from_tle(&a, &b) {
-        return Err(v.invalid(
-            "orbit.tle",
-            e.to_string(),
-        ));
+        return Err(v.invalid("orbit.tle", e.to_string()));
     }
     Ok([a, b])
 }
@@ -158,7 +166,10 @@ mod tests {
         assert!(e.starts_with("p.toml:6: key \"orbit.altitude_km\""), "{e}");
         assert!(e.contains("found -500"), "{e}");
         let e = refusal("altitude_km = 500.0\ninclination_deg = 181.0\n");
-        assert!(e.starts_with("p.toml:6: key \"orbit.inclination_deg\""), "{e}");
+        assert!(
+            e.starts_with("p.toml:6: key \"orbit.inclination_deg\""),
+            "{e}"
+        );
         let e = refusal("reference_temperature_c = nan\n");
         assert!(
             e.starts_with("p.toml:5: key \"orbit.reference_temperature_c\""),

@@ -46,6 +46,7 @@ fn figures_of_merit(r: &OrbitResult) -> Vec<(String, String)> {
             ),
         ),
     ];
+    out.push(("ground comparison".into(), ground_word(r)));
     if let Some(age) = r.tle_age_days {
         out.push((
             "element set age".into(),
@@ -197,6 +198,26 @@ fn figures(r: &OrbitResult) -> Result<Vec<Figure>, Error> {
         ));
     }
     Ok(out)
+}
+
+/// The ground comparison in a few words: its build and flag, or why there is none.
+fn ground_word(r: &OrbitResult) -> String {
+    use crate::check::orbit::OrbitWarning;
+    if let Some(g) = &r.ground {
+        let flag = if g.flag {
+            ", changed beyond 3σ"
+        } else {
+            ", within 3σ"
+        };
+        return format!("build {} (recorded {}){flag}", g.build, g.recorded_at);
+    }
+    match r.warnings.iter().find_map(|w| match w {
+        OrbitWarning::NoGround(_) => Some(w.to_string()),
+        _ => None,
+    }) {
+        Some(why) => why.replacen("no ground comparison: ", "none: ", 1),
+        None => "not asked for".into(),
+    }
 }
 
 fn notes(r: &OrbitResult) -> Vec<String> {
