@@ -159,7 +159,7 @@ fn a_missing_ground_calibration_is_said_and_a_late_one_is_compared() {
     let g = GroundCalibration {
         build: "B3".into(),
         recorded_at: "2026-06-01T10:00:00.000Z".into(),
-        hard_iron_nt: truth,
+        hard_iron_nt: truth.into(),
         hard_iron_sigma_nt: [15.0, 15.0, 15.0],
     };
     let (direct, _) = run(SimPositions::Geodetic, g.clone());
