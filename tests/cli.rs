@@ -32,6 +32,8 @@ mod dipole;
 mod field;
 #[path = "cli/flight_params.rs"]
 mod flight_params;
+#[path = "cli/flight_two_mags.rs"]
+mod flight_two_mags;
 #[path = "cli/history.rs"]
 mod history;
 #[path = "cli/input.rs"]
