@@ -58,5 +58,7 @@ mod rod;
 mod sensors;
 #[path = "cli/simulate.rs"]
 mod simulate;
+#[path = "cli/units_agree.rs"]
+mod units_agree;
 #[path = "cli/verdicts.rs"]
 mod verdicts;
