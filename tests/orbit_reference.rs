@@ -8,7 +8,7 @@
 //!   (tests/data/orbit_fit_log.csv and orbit_fit_reference.json, made by
 //!   tests/data/gen/orbit_fit_reference.py).
 
-use magproof::check::orbit::{run_orbit, OrbitOptions};
+use magproof::check::orbit::{run_orbit, GroundLookup, OrbitOptions};
 use magproof::check::{CheckInput, CheckRequest};
 use magproof::log::plan::parse_plan;
 use magproof::log::telemetry::read_telemetry;

@@ -25,7 +25,7 @@ fn envelope(points: Vec<(f64, f64)>, columns: usize) -> Vec<(f64, f64)> {
         return points;
     };
     let span = last.0 - first.0;
-    if points.len() <= 2 * columns.max(1) || !(span > 0.0) {
+    if points.len() <= 2 * columns.max(1) || span.is_nan() || span <= 0.0 {
         return points;
     }
     let column = |t: f64| (((t - first.0) / span * columns as f64) as usize).min(columns - 1);
