@@ -13,32 +13,32 @@ use super::result::{PolaritySeries, PulseResult};
 /// within it.
 pub(super) fn stack_rows(t_s: &[f64], pulses: &[PulseResult]) -> Vec<bool> {
     let mut keep = vec![false; t_s.len()];
-    let mut drawn: Vec<(&str, usize)> = Vec::new();
+    // Per rod: pulses drawn so far and the slowest settle time; every turn-on, sorted.
+    let mut rods: Vec<(&str, usize, f64)> = Vec::new();
     for p in pulses {
-        let count = match drawn.iter_mut().find(|(r, _)| *r == p.rod) {
-            Some((_, c)) => c,
-            None => {
-                drawn.push((&p.rod, 0));
-                &mut drawn.last_mut().expect("just pushed").1
-            }
+        let settle = p.settle_time_s.unwrap_or(0.0);
+        match rods.iter_mut().find(|(r, _, _)| *r == p.rod) {
+            Some(r) => r.2 = r.2.max(settle),
+            None => rods.push((&p.rod, 0, settle)),
+        }
+    }
+    let mut ons: Vec<f64> = pulses.iter().map(|q| q.t_on_s).collect();
+    ons.sort_by(f64::total_cmp);
+    for p in pulses {
+        let Some(rod) = rods.iter_mut().find(|(r, _, _)| *r == p.rod) else {
+            continue;
         };
-        if *count >= PolaritySeries::STACK_PULSES_MAX {
+        if rod.1 >= PolaritySeries::STACK_PULSES_MAX {
             continue;
         }
-        *count += 1;
+        rod.1 += 1;
         let dur = p.t_off_s - p.t_on_s;
-        let slowest = pulses
-            .iter()
-            .filter(|q| q.rod == p.rod)
-            .filter_map(|q| q.settle_time_s)
-            .fold(0.0, f64::max);
-        let next_on = pulses
-            .iter()
-            .map(|q| q.t_on_s)
-            .filter(|t| *t > p.t_off_s)
-            .fold(f64::INFINITY, f64::min);
+        let next_on = ons
+            .get(ons.partition_point(|t| *t <= p.t_off_s))
+            .copied()
+            .unwrap_or(f64::INFINITY);
         let start = p.t_on_s - 0.2 * dur;
-        let end = (p.t_off_s + (2.0 * slowest).max(dur)).min(next_on);
+        let end = (p.t_off_s + (2.0 * rod.2).max(dur)).min(next_on);
         let a = t_s.partition_point(|t| *t < start);
         let b = t_s.partition_point(|t| *t <= end);
         keep[a..b.max(a)].iter_mut().for_each(|k| *k = true);
