@@ -192,3 +192,104 @@ fn a_magnetometer_no_step_read_is_listed_without_a_calibration() {
     let syntax = cc(&["-fsyntax-only", "magproof-flight.h"], &fp);
     assert!(syntax.status.success());
 }
+
+/// MAG-A's numbers by name with its rod coupling (step 1 of the order of operations),
+/// MAG-B's without (no polarity step read it: its examples have every rod off).
+const APPLY_COUPLED_C: &str = r#"
+#include <stdio.h>
+#include "magproof-flight.h"
+
+int main(void) {
+    int t, i, j, r;
+    for (t = 0; t < MAGPROOF_TEST_COUNT; t++) {
+        int a = MAGPROOF_TEST_MAG[t] == MAGPROOF_MAG_INDEX_MAG_A;
+        double b1[3], b2[3], bb[3];
+        float f1[3], f2[3], fb[3];
+        for (i = 0; i < 3; i++) {
+            b1[i] = MAGPROOF_TEST_RAW_NT[t][i];
+            f1[i] = MAGPROOF_TEST_RAW_NT_F[t][i];
+            for (r = 0; r < MAGPROOF_ROD_COUNT; r++) {
+                if (a) {
+                    b1[i] -= MAGPROOF_MAG_MAG_A_ROD_COUPLING_NT_PER_CMD[r][i] * MAGPROOF_TEST_COMMAND[t][r];
+                    f1[i] -= MAGPROOF_MAG_MAG_A_ROD_COUPLING_NT_PER_CMD_F[r][i] * MAGPROOF_TEST_COMMAND_F[t][r];
+                }
+            }
+            b1[i] -= a ? MAGPROOF_MAG_MAG_A_HARD_IRON_NT[i] : MAGPROOF_MAG_MAG_B_HARD_IRON_NT[i];
+            f1[i] -= a ? MAGPROOF_MAG_MAG_A_HARD_IRON_NT_F[i] : MAGPROOF_MAG_MAG_B_HARD_IRON_NT_F[i];
+        }
+        for (i = 0; i < 3; i++) {
+            b2[i] = 0.0; f2[i] = 0.0f;
+            for (j = 0; j < 3; j++) {
+                b2[i] += (a ? MAGPROOF_MAG_MAG_A_SOFT_IRON[i][j] : MAGPROOF_MAG_MAG_B_SOFT_IRON[i][j]) * b1[j];
+                f2[i] += (a ? MAGPROOF_MAG_MAG_A_SOFT_IRON_F[i][j] : MAGPROOF_MAG_MAG_B_SOFT_IRON_F[i][j]) * f1[j];
+            }
+        }
+        for (i = 0; i < 3; i++) {
+            bb[i] = 0.0; fb[i] = 0.0f;
+            for (j = 0; j < 3; j++) {
+                bb[i] += (a ? MAGPROOF_MAG_MAG_A_SENSOR_TO_BODY[i][j] : MAGPROOF_MAG_MAG_B_SENSOR_TO_BODY[i][j]) * b2[j];
+                fb[i] += (a ? MAGPROOF_MAG_MAG_A_SENSOR_TO_BODY_F[i][j] : MAGPROOF_MAG_MAG_B_SENSOR_TO_BODY_F[i][j]) * f2[j];
+            }
+        }
+        printf("%d %.17g %.17g %.17g %.9g %.9g %.9g\n", t, bb[0], bb[1], bb[2], fb[0], fb[1], fb[2]);
+    }
+    return 0;
+}
+"#;
+
+#[test]
+fn rod_coupling_measured_at_one_of_two_magnetometers_is_given_by_its_name() {
+    let d = TestDir::new();
+    let plan = super::battery_outputs::sample(&d, "b3");
+    // The demo's B3 plan with a second magnetometer; the tumble log read as each.
+    let text = std::fs::read_to_string(d.join(plan)).unwrap();
+    let text = text
+        .replace(
+            "[magnetometer]\n",
+            "[[magnetometer]]\nname = \"MAG-A\"\n",
+        )
+        .replace(
+            "unit = \"nT\"\n",
+            "unit = \"nT\"\n\n[[magnetometer]]\nname = \"MAG-B\"\nposition_m = [-0.02, 0.015, 0.21]\nunit = \"nT\"\n",
+        )
+        .replace(
+            "log = \"tumble.csv\"\n",
+            "log = \"tumble.csv\"\nsensor = \"MAG-A\"\n\n[[step]]\nkind = \"calibrate\"\nlog = \"tumble.csv\"\nsensor = \"MAG-B\"\n",
+        )
+        .replace(
+            "log = \"rod-pulses.csv\"\n",
+            "log = \"rod-pulses.csv\"\nsensor = \"MAG-A\"\n",
+        );
+    assert_eq!(text.matches("sensor = ").count(), 3, "{text}");
+    d.write(plan, text);
+    let out = d.run(&["closeout", plan, "--no-record", "--params-out", "fp"]);
+    assert_code(&out, 0);
+    let fp = d.join("fp");
+    let header = std::fs::read_to_string(fp.join("magproof-flight.h")).unwrap();
+    // The indexed coupling needs it at every magnetometer; MAG-A's is given by name.
+    assert!(!header.contains("double MAGPROOF_MAG_ROD_COUPLING_NT_PER_CMD["));
+    assert!(!header.contains("MAGPROOF_MAG_MAG_B_ROD_COUPLING"));
+    let json: Value =
+        serde_json::from_str(&std::fs::read_to_string(fp.join("magproof-flight.json")).unwrap())
+            .unwrap();
+    assert!(json["magnetometers"][0]["rod_coupling_nt_per_command"].is_array());
+    assert!(json["magnetometers"][1]["rod_coupling_nt_per_command"].is_null());
+    let vectors = json["test_vectors"].as_array().unwrap();
+    let which: Vec<(u64, f64)> = vectors
+        .iter()
+        .map(|v| {
+            (
+                v["magnetometer"].as_u64().unwrap(),
+                v["commands"][0].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    // MAG-A: rods off and a unit command on every rod; MAG-B: rods off.
+    assert_eq!(which, [(0, 0.0), (0, 1.0), (1, 0.0)]);
+    assert_eq!(json["rods"].as_array().unwrap().len(), 3);
+    assert_reproduced(
+        &compile_and_run(&fp, "coupled", APPLY_COUPLED_C),
+        vectors,
+        true,
+    );
+}

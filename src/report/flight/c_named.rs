@@ -2,8 +2,11 @@
 //! magnetometer's hard iron, W and `sensor_to_body` under its own name
 //! (`MAGPROOF_MAG_<NAME>_HARD_IRON_NT`, `_SOFT_IRON`, `_SENSOR_TO_BODY`), beside the
 //! indexed arrays (`MAGPROOF_MAG_HARD_IRON_NT[MAGPROOF_MAG_INDEX_<NAME>]`), so flight
-//! code can take one sensor's numbers by name. A magnetometer that was not calibrated
-//! has no hard-iron or W block, and a comment says so.
+//! code can take one sensor's numbers by name, and the rod coupling at it
+//! (`MAGPROOF_MAG_<NAME>_ROD_COUPLING_NT_PER_CMD[rod][axis]`) when a polarity check
+//! measured it there, even when the indexed coupling array (which needs every
+//! magnetometer) is left out. A magnetometer that was not calibrated has no hard-iron or
+//! W block, and a comment says so.
 
 use std::collections::HashSet;
 use std::fmt::Write as _;
@@ -45,6 +48,19 @@ pub(super) fn named_blocks(s: &mut String, p: &FlightParams) -> Result<(), Error
                      and {PREFIX}_MAG_{id}_SOFT_IRON are not defined. */\n"
                 );
             }
+        }
+        if let Some(rows) = mag
+            .rod_coupling_nt_per_command
+            .as_ref()
+            .filter(|r| !r.is_empty())
+        {
+            arrays(
+                s,
+                &format!("{who}: rod coupling, sensor frame, nT per command unit: [rod][axis]."),
+                &format!("MAG_{id}_ROD_COUPLING_NT_PER_CMD"),
+                &format!("[{}][3]", rows.len()),
+                &Nest::List(rows.iter().map(Nest::v3).collect()),
+            )?;
         }
         arrays(
             s,
