@@ -172,28 +172,35 @@ fn figures(r: &OrbitResult) -> Result<Vec<Figure>, Error> {
         figure(
             "orbit-residual-time.svg",
             "Residual |W(b − c − Σk·x)| − |B_IGRF| along the orbit",
-            draw_xy(&XyPlot::new("Residual along the orbit", "time after first sample (min)", "residual (nT)").with(
+            draw_xy(&XyPlot::new("Residual along the orbit", "time after first sample [min]", "residual [nT]").with(
                 Series::points("residual", along, 0),
             ))?,
         ),
         figure(
             "orbit-residual-latitude.svg",
             "Residual against geodetic latitude (at the model nodes): structure here points at the model or the positions",
-            draw_xy(&XyPlot::new("Residual against latitude", "latitude (deg)", "residual (nT)").with(
+            draw_xy(&XyPlot::new("Residual against latitude", "geodetic latitude [deg]", "residual [nT]").with(
                 Series::points("residual", s.latitude_residual.clone(), 1),
             ))?,
         ),
     ];
     for (k, (name, pts)) in s.regressor_effect.iter().enumerate() {
+        // The regressor's own unit on its axis (A for a current, command for a rod).
+        let unit = r
+            .regressors
+            .iter()
+            .find(|g| &g.name == name)
+            .map_or("as logged", |g| g.unit.as_str());
         out.push(figure(
             &format!("orbit-regressor-{k}.svg"),
-            &format!("Fitted bias of {name} on its largest axis"),
+            &format!("Fitted bias of {name} on its largest axis, sensor frame"),
             draw_xy(
-                &XyPlot::new(&format!("Bias from {name}"), name, "bias (nT)").with(Series::line(
-                    "fitted bias",
-                    pts.clone(),
-                    2,
-                )),
+                &XyPlot::new(
+                    &format!("Bias from {name}"),
+                    &format!("{name} [{unit}]"),
+                    "bias on its largest axis [nT]",
+                )
+                .with(Series::line("fitted bias", pts.clone(), 2)),
             )?,
         ));
     }
