@@ -155,6 +155,11 @@ fn a_closeout_report_echoes_its_assumptions_and_renders() {
     ] {
         assert!(html.contains(part), "report lacks {part:?}");
     }
+    // The plan gives its orbit: the dipole torque is judged in it, and nothing is
+    // assumed (neither in the result nor on the page).
+    let json = std::fs::read_to_string(out.join("reports/tmr-0207-b3/closeout.json")).unwrap();
+    assert!(json.contains("97.52") && !json.contains("inclination not given"));
+    assert!(!html.contains("inclination not given") && html.contains("525 km"));
     // The terminal summary leaves them to the HTML page.
     let text = std::fs::read_to_string(out.join("reports/tmr-0207-b3/closeout.txt")).unwrap();
     assert!(!text.contains("Assumptions"));
