@@ -112,8 +112,8 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
         tables.iter_mut().for_each(drop_first_column);
     }
     let mut notes = vec![
-        "Builds are numbered 1, 2, … per serial in the order they were first recorded; \
-         with one serial the plots name them on the axis, with several see the table."
+        "Builds are numbered 1, 2, … per serial in the order they were first recorded; a \
+         plot of one serial names them on its axis; for several serials see the table."
             .to_string(),
         "Error bars are ±1σ as each run recorded it; each quantity has its own scale, so a \
          jump of a few σ fills its plot."
@@ -132,7 +132,7 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
         figures_of_merit: ledger_figures_of_merit(runs, &rows, changes, serials),
         tables,
         figures: if full {
-            history_figures(&rows, serials == 1)?
+            history_figures(&rows)?
         } else {
             Vec::new()
         },
@@ -359,13 +359,13 @@ const TRENDS: [Trend; 5] = [
     },
 ];
 
-fn history_figures(rows: &[BuildRow<'_>], one_serial: bool) -> Result<Vec<Figure>, Error> {
+fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
     // Rows come grouped by serial (see `build_rows`): each group is walked once, so the
     // figures cost time linear in the builds.
     let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
     let mut figs = Vec::new();
     for t in &TRENDS {
-        if let Some(plot) = trend_plot(t, &groups, one_serial) {
+        if let Some(plot) = trend_plot(t, &groups) {
             figs.push(figure(t.file_name, t.caption, draw_xy(&plot)?));
         }
     }
@@ -374,13 +374,11 @@ fn history_figures(rows: &[BuildRow<'_>], one_serial: bool) -> Result<Vec<Figure
 
 /// The plot of one trend: per serial, the value ±1σ at each build, a line through them,
 /// and the limit as a dashed step; `None` when no build has the quantity.
-fn trend_plot(t: &Trend, groups: &[&[BuildRow<'_>]], one_serial: bool) -> Option<XyPlot> {
-    let x_label = if one_serial {
-        NAMED_BUILD_AXIS
-    } else {
-        BUILD_AXIS
-    };
-    let mut plot = XyPlot::new(t.title, x_label, t.y_label);
+/// Builds are named on the axis when only one serial has the quantity (one serial in the
+/// ledger, or a vehicle's calibrations beside its rods' bench tests).
+fn trend_plot(t: &Trend, groups: &[&[BuildRow<'_>]]) -> Option<XyPlot> {
+    let mut plot = XyPlot::new(t.title, BUILD_AXIS, t.y_label);
+    let mut plotted: Vec<usize> = Vec::new();
     let mut limits = Vec::new();
     for (k, g) in groups.iter().enumerate() {
         let mut pts = Vec::new();
@@ -396,6 +394,7 @@ fn trend_plot(t: &Trend, groups: &[&[BuildRow<'_>]], one_serial: bool) -> Option
             }
         }
         if !pts.is_empty() {
+            plotted.push(k);
             plot = plot
                 .with(Series::points("", pts.clone(), k % 3).with_sigma(sigma))
                 .with(Series::line(g[0].serial, pts, k % 3));
@@ -409,8 +408,9 @@ fn trend_plot(t: &Trend, groups: &[&[BuildRow<'_>]], one_serial: bool) -> Option
     }
     let n_builds = groups.iter().map(|g| g.len()).max().unwrap_or(1) as f64;
     plot.x_range = Some((0.5, n_builds + 0.5));
-    if one_serial {
-        plot.x_names = groups[0].iter().map(|r| r.build.to_string()).collect();
+    if let [k] = plotted.as_slice() {
+        plot.x_label = NAMED_BUILD_AXIS.to_string();
+        plot.x_names = groups[*k].iter().map(|r| r.build.to_string()).collect();
     }
     plot.size = (540, 340);
     Some(plot)
@@ -510,7 +510,7 @@ mod tests {
         ];
         let rows = build_rows(&runs, &kinds_of(&runs));
         let groups: Vec<&[BuildRow<'_>]> = vec![&rows[..]];
-        let plot = trend_plot(&TRENDS[1], &groups, true).unwrap();
+        let plot = trend_plot(&TRENDS[1], &groups).unwrap();
         let (_, (y0, y1)) = crate::report::plot::xy_ranges(&plot);
         assert!(
             15.0 / (y1 - y0) > 0.5,
@@ -526,5 +526,35 @@ mod tests {
             svg.contains("B1") && svg.contains("B2"),
             "build names on the axis: {svg}"
         );
+    }
+
+    #[test]
+    fn a_rod_beside_the_vehicle_keeps_the_vehicle_builds_named() {
+        // A rod's bench run has no hard iron: the hard-iron plot shows the vehicle alone
+        // and names its builds; with a second vehicle calibrated, numbers again.
+        let cal = json!({"hard_iron_nt": [1200.0, -750.0, 425.0],
+                         "hard_iron_sigma_nt": [2.0, 2.0, 2.0], "pass": true});
+        let mut rod = run(3, "R-1", "rod", true, json!({"pass": true}));
+        rod.serial = "ROD-1".into();
+        let mut runs = vec![
+            run(1, "B1", "calibrate", true, cal.clone()),
+            run(2, "B2", "calibrate", true, cal.clone()),
+            rod,
+        ];
+        let plot_of = |runs: &[Run]| {
+            let rows = build_rows(runs, &kinds_of(runs));
+            let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
+            assert!(groups.len() >= 2);
+            trend_plot(&TRENDS[1], &groups).unwrap()
+        };
+        let plot = plot_of(&runs);
+        assert_eq!(plot.x_names, ["B1", "B2"]);
+        assert_eq!(plot.x_label, NAMED_BUILD_AXIS);
+        let mut other = run(4, "C1", "calibrate", true, cal);
+        other.serial = "QX-8".into();
+        runs.push(other);
+        let plot = plot_of(&runs);
+        assert!(plot.x_names.is_empty());
+        assert_eq!(plot.x_label, BUILD_AXIS);
     }
 }
