@@ -18,7 +18,7 @@ mod sensor;
 mod tests;
 mod warning;
 
-use nalgebra::Matrix3;
+use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
 pub use ground::{GroundCalibration, GroundComparison, GroundLookup, NoGround};
@@ -83,6 +83,10 @@ pub struct OrbitSamples {
     pub latitude_residual: Vec<(f64, f64)>,
     /// Each regressor's values and the bias it explains along its largest axis, nT.
     pub regressor_effect: Vec<(String, Vec<(f64, f64)>)>,
+    /// Per regressor (in the order of `regressor_effect`), at each sample: its value, the
+    /// magnitude its fitted bias accounts for |W(v + k x)| − |W v| (nT, v the fully
+    /// corrected reading) and the residual with that bias put back (nT).
+    pub regressor_partial: Vec<Vec<(f64, f64, f64)>>,
 }
 
 /// The result of `orbit` (keys in docs/orbit.md).
@@ -476,5 +480,32 @@ fn samples(
                 )
             })
             .collect(),
+        regressor_partial: (0..regs.names.len())
+            .map(|q| regressor_partial(d, fit, &idx, q))
+            .collect(),
     }
+}
+
+/// Regressor `q` at the samples `idx`: its value, the magnitude its fitted bias accounts
+/// for (nT) and the residual with that bias put back (nT).
+fn regressor_partial(
+    d: &OrbitFitData,
+    fit: &crate::fit::orbit::OrbitFit,
+    idx: &[usize],
+    q: usize,
+) -> Vec<(f64, f64, f64)> {
+    let (w, ks) = (&fit.soft_iron, &fit.regressors);
+    idx.iter()
+        .map(|&i| {
+            let x = d.regressors[q][i];
+            // v: the reading with every fitted term removed.
+            let mut v = Vector3::new(d.b_nt[0][i], d.b_nt[1][i], d.b_nt[2][i]) - fit.hard_iron_nt;
+            for (k, col) in ks.iter().zip(d.regressors) {
+                v -= k * col[i];
+            }
+            let explained = (w * (v + ks[q] * x)).norm() - (w * v).norm();
+            let residual = (w * v).norm() - d.reference_nt[i];
+            (x, explained, residual + explained)
+        })
+        .collect()
 }

@@ -171,3 +171,31 @@ fn a_missing_ground_calibration_is_said_and_a_late_one_is_compared() {
     assert_eq!(bits(a.hard_iron_delta_nt), bits(b.hard_iron_delta_nt));
     assert_eq!(bits(a.sigma_nt), bits(b.sigma_nt));
 }
+
+#[test]
+fn the_regressor_fit_plot_puts_the_bias_back_into_the_plotted_residual() {
+    // The dots of a regressor's fit plot are the along-orbit residual (the same samples)
+    // plus the magnitude the fitted bias accounts for; the simulated solar-array bias
+    // (hundreds of nT per ampere) accounts for far more than the noise, so the plot shows
+    // a trend, not a cloud.
+    let (r, t) = run(SimPositions::Ecef, None);
+    let s = &r.samples;
+    assert!(!t.regressors.is_empty());
+    assert_eq!(s.regressor_partial.len(), t.regressors.len());
+    for (q, partial) in s.regressor_partial.iter().enumerate() {
+        assert_eq!(partial.len(), s.residual_nt.len());
+        for (p, res) in partial.iter().zip(&s.residual_nt) {
+            assert!(
+                (p.2 - p.1 - res).abs() < 1e-6,
+                "regressor {q}: {p:?} vs {res}"
+            );
+        }
+        let n = partial.len() as f64;
+        let mean = partial.iter().map(|p| p.1).sum::<f64>() / n;
+        let spread = (partial.iter().map(|p| (p.1 - mean).powi(2)).sum::<f64>() / n).sqrt();
+        assert!(
+            spread > 5.0 * t.noise_nt,
+            "regressor {q}: spread {spread} nT"
+        );
+    }
+}

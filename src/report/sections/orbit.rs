@@ -203,8 +203,40 @@ fn figures(r: &OrbitResult) -> Result<Vec<Figure>, Error> {
                 .with(Series::line("fitted bias", pts.clone(), 2)),
             )?,
         ));
+        if let Some(partial) = s.regressor_partial.get(k) {
+            out.push(regressor_fit_figure(k, name, unit, partial)?);
+        }
     }
     Ok(out)
+}
+
+/// How a regressor's bias fits the data: the residual with its bias put back against the
+/// regressor, beside the magnitude the fitted bias accounts for.
+fn regressor_fit_figure(
+    k: usize,
+    name: &str,
+    unit: &str,
+    partial: &[(f64, f64, f64)],
+) -> Result<Figure, Error> {
+    let data = partial.iter().map(|p| (p.0, p.2)).collect();
+    let fitted = partial.iter().map(|p| (p.0, p.1)).collect();
+    Ok(figure(
+        &format!("orbit-regressor-{k}-fit.svg"),
+        &format!(
+            "The residual with the fitted {name} bias put back (dots) against {name}, beside \
+             the field magnitude that bias accounts for at each sample: when the bias is real \
+             the dots follow the fitted values"
+        ),
+        draw_xy(
+            &XyPlot::new(
+                &format!("Fit of {name}"),
+                &format!("{name} [{unit}]"),
+                "field magnitude [nT]",
+            )
+            .with(Series::points("residual + bias", data, 0))
+            .with(Series::points("fitted bias", fitted, 2)),
+        )?,
+    ))
 }
 
 /// The ground comparison in a few words: its build and flag, or why there is none.
