@@ -34,6 +34,8 @@ mod dipole;
 mod field;
 #[path = "cli/flight_params.rs"]
 mod flight_params;
+#[path = "cli/flight_two_mags.rs"]
+mod flight_two_mags;
 #[path = "cli/history.rs"]
 mod history;
 #[path = "cli/input.rs"]
@@ -42,6 +44,8 @@ mod input;
 mod log_forms;
 #[path = "cli/orbit.rs"]
 mod orbit;
+#[path = "cli/orbit_ground.rs"]
+mod orbit_ground;
 #[path = "cli/polarity.rs"]
 mod polarity;
 #[path = "cli/reliability.rs"]
@@ -58,5 +62,7 @@ mod sensors;
 mod sign_chain;
 #[path = "cli/simulate.rs"]
 mod simulate;
+#[path = "cli/units_agree.rs"]
+mod units_agree;
 #[path = "cli/verdicts.rs"]
 mod verdicts;

@@ -8,7 +8,7 @@
 //!   (tests/data/orbit_fit_log.csv and orbit_fit_reference.json, made by
 //!   tests/data/gen/orbit_fit_reference.py).
 
-use magproof::check::orbit::{run_orbit, OrbitOptions};
+use magproof::check::orbit::{run_orbit, GroundLookup, OrbitOptions};
 use magproof::check::{CheckInput, CheckRequest};
 use magproof::log::plan::parse_plan;
 use magproof::log::telemetry::read_telemetry;
@@ -102,7 +102,7 @@ fn the_fit_matches_scipy_least_squares_on_a_stored_log() {
     .unwrap();
     let options = OrbitOptions {
         columns: &tele.orbit,
-        ground: None,
+        ground: GroundLookup::NotAsked,
         robust: false,
         grid_s: 0.0,
         keep_samples: false,

@@ -25,6 +25,10 @@ pub struct CloseoutRequest {
     pub plan: PathBuf,
     /// Skip bad rows in every log instead of refusing them.
     pub skip_bad_rows: bool,
+    /// The ledger the closeout records into (`None`: none); steps that compare with
+    /// earlier runs (an orbit step with the ground calibration) read it before
+    /// anything of this closeout is recorded.
+    pub ledger: Option<PathBuf>,
 }
 
 /// A step that ran.
@@ -144,7 +148,11 @@ pub fn run_closeout(req: &CloseoutRequest) -> Result<CloseoutResult, Error> {
                 .select_sensor(step.sensor.as_deref())
                 .map_err(|e| step_error(e.into()))?;
         }
-        let ran = run_step(&step_plan, kind, &step.log, req.skip_bad_rows).map_err(step_error)?;
+        let mut ran =
+            run_step(&step_plan, kind, &step.log, req.skip_bad_rows).map_err(step_error)?;
+        ran.result
+            .compare_with_ledger(&step_plan, req.ledger.as_deref())
+            .map_err(step_error)?;
         steps.push(StepOutcome {
             index: k + 1,
             log: step.log.clone(),

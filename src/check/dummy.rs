@@ -134,6 +134,7 @@ mod tests {
         let result = run_closeout(&CloseoutRequest {
             plan,
             skip_bad_rows: false,
+            ledger: None,
         })
         .unwrap();
         let runs: Vec<NewRun> = result

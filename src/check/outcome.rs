@@ -203,6 +203,18 @@ pub trait CheckResult: fmt::Debug + Send + Sync {
     fn ledger_identity(&self) -> Option<(String, String)> {
         None
     }
+    /// Compare with what the ledger held before this run, for a check whose result
+    /// refers to an earlier one (the orbit calibration against the ground calibration
+    /// of the same serial and magnetometer). A closeout calls it for every step, before
+    /// anything is recorded, with the ledger it records into (`None`: none) and the
+    /// step's plan. Most checks: nothing.
+    fn compare_with_ledger(
+        &mut self,
+        _plan: &crate::log::Plan,
+        _ledger: Option<&std::path::Path>,
+    ) -> Result<(), Error> {
+        Ok(())
+    }
     /// What the result gives the flight parameters, if anything (most checks: nothing).
     fn flight_part(&self) -> Option<super::FlightPart<'_>> {
         None

@@ -57,6 +57,7 @@ pub fn run_and_record(
     let result = run_closeout(&CloseoutRequest {
         plan: plan.to_path_buf(),
         skip_bad_rows,
+        ledger: ledger.map(std::path::Path::to_path_buf),
     })?;
     before_record(&result)?;
     let Some(path) = ledger else {

@@ -4,7 +4,7 @@
 
 use std::path::{Path, PathBuf};
 
-use magproof::check::orbit::ground::latest_ground;
+use magproof::check::orbit::ground::find_ground;
 use magproof::check::orbit::{run_orbit, OrbitOptions, DEFAULT_GRID_S};
 use magproof::check::{CheckInput, CheckRequest, CheckResult};
 use magproof::ledger::record_check;
@@ -34,7 +34,7 @@ pub fn orbit_pass(
         .unwrap_or_default();
     let options = OrbitOptions {
         columns: &tele.orbit,
-        ground: latest_ground(ledger_path, &serial)?,
+        ground: find_ground(Some(ledger_path), &plan)?,
         robust: true,
         grid_s: DEFAULT_GRID_S,
         keep_samples: true,

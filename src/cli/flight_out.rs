@@ -57,19 +57,27 @@ pub fn for_closeout(
 ) -> anyhow::Result<FlightParamsWriter> {
     let mut inputs: Vec<InputHash> = plan_hash(Some(&result.plan)).into_iter().collect();
     let mut parts = Vec::new();
+    let mut sensors = Vec::new();
     for s in &result.steps {
         if let Some(p) = s.result.flight_part() {
             inputs.push(hash(s.result.kind().as_str(), &s.log, &s.log_sha256));
             parts.push(p);
+            sensors.push(s.sensor.clone());
         }
     }
-    let params = FlightParams::assemble(&FlightSources {
+    let sources = FlightSources {
         plan: Some(&result.plan),
         parts,
         verdict: result.verdict(),
         inputs,
         generated_at: now_utc_iso(),
-    })?;
+    };
+    // A plan of several magnetometers: one entry per magnetometer, from its own steps.
+    let params = if result.plan.magnetometers.len() > 1 {
+        FlightParams::assemble_per_sensor(&sources, &sensors)?
+    } else {
+        FlightParams::assemble(&sources)?
+    };
     Ok(FlightParamsWriter {
         params,
         paths: ParamsPaths::in_dir(dir),

@@ -1,7 +1,7 @@
-//! `magproof orbit LOG --plan P [--grid-s S] [--no-ground] [--json] [--report DIR]
-//! [--record]`: calibration from on-orbit telemetry (docs/orbit.md), compared with the
-//! latest ground calibration of the same serial in the ledger, presented by the common
-//! writers.
+//! `magproof orbit LOG --plan P [--sensor NAME] [--grid-s S] [--no-ground] [--json]
+//! [--report DIR] [--record]`: calibration from on-orbit telemetry (docs/orbit.md),
+//! compared with the latest ground calibration of the same serial and magnetometer in
+//! the ledger, presented by the common writers.
 
 use std::path::PathBuf;
 
@@ -10,10 +10,9 @@ use clap::Args as ClapArgs;
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::numeric::{number, Domain};
 use super::present::{present_check, Analysed};
-use magproof::check::orbit::ground::latest_ground;
-use magproof::check::orbit::{run_orbit, OrbitOptions, DEFAULT_GRID_S};
+use magproof::check::orbit::ground::find_ground;
+use magproof::check::orbit::{run_orbit, GroundLookup, OrbitOptions, DEFAULT_GRID_S};
 use magproof::check::{CheckInput, CheckRequest};
-use magproof::log::read_plan;
 use magproof::log::telemetry::read_telemetry;
 
 /// Flags of `magproof orbit`.
@@ -36,6 +35,8 @@ pub struct Args {
     #[command(flatten)]
     input: InputArgs,
     #[command(flatten)]
+    sensor: super::common::SensorArgs,
+    #[command(flatten)]
     output: OutputArgs,
     #[command(flatten)]
     record: super::record::RecordArgs,
@@ -54,7 +55,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         )
         .into());
     }
-    let plan = read_plan(&args.plan).map_err(magproof::Error::from)?;
+    let mut plan = magproof::log::read_plan(&args.plan).map_err(magproof::Error::from)?;
+    // As calibrate: the named magnetometer, which a plan of several needs.
+    plan.select_sensor(args.sensor.sensor.as_deref())
+        .map_err(magproof::Error::from)?;
     let unit = args
         .input
         .unit
@@ -66,9 +70,10 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         .range
         .or_else(|| plan.magnetometer.as_ref().and_then(|m| m.range_nt));
     let input = CheckInput::screen(tele.log, unit, range)?;
-    let ground = match (&plan.article, args.no_ground) {
-        (Some(a), false) => latest_ground(&args.record.ledger.path(), &a.serial)?,
-        _ => None,
+    let ground = if args.no_ground {
+        GroundLookup::NotAsked
+    } else {
+        find_ground(Some(&args.record.ledger.path()), &plan)?
     };
     let options = OrbitOptions {
         columns: &tele.orbit,

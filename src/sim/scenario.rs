@@ -172,6 +172,11 @@ fn plan_toml(b: &BuildTruth) -> String {
         "[site]\nlat_deg = {SITE_LAT_DEG}\nlon_deg = {SITE_LON_DEG}\nalt_m = {SITE_ALT_M}\ndate = \"{}\"\n",
         b.date
     );
+    let _ = writeln!(
+        s,
+        "# The planned orbit: the dipole torque is judged in it, not in an assumed one.\n\
+         [orbit]\naltitude_km = {ORBIT_ALTITUDE_KM:.1}\ninclination_deg = {ORBIT_INCLINATION_DEG}\n"
+    );
     for r in rods(false) {
         let _ = writeln!(
             s,
@@ -289,6 +294,12 @@ pub const ORBIT_FOLDER: &str = "tmr-0207-orbit";
 /// shifted the heater bracket's steel insert. Invented, like everything here.
 pub const ORBIT_HARD_IRON_SHIFT_NT: [f64; 3] = [35.0, 310.0, -20.0];
 
+/// The vehicle's planned orbit (both the ground plans and the on-orbit plan give it):
+/// altitude above the mean Earth radius, km, and inclination, deg.
+pub const ORBIT_ALTITUDE_KM: f64 = 525.0;
+/// See [`ORBIT_ALTITUDE_KM`].
+pub const ORBIT_INCLINATION_DEG: f64 = 97.52;
+
 /// Bias per ampere of solar-array current on orbit (sensor frame, nT/A).
 pub const ORBIT_SOLAR_NT_PER_A: [f64; 3] = [-160.0, 240.0, 95.0];
 
@@ -317,7 +328,7 @@ pub fn orbit_files() -> Result<Vec<(String, String)>, Error> {
          # element set. Simulated data (magproof's simulators); see ../README.md.\n\n\
          [article]\nserial = \"{SERIAL}\"\nbuild = \"orbit\"\n\n\
          [magnetometer]\nsensor_to_body = {}\nposition_m = {}\nunit = \"nT\"\n\n{}\
-         altitude_km = 525.0\ninclination_deg = 97.52\n\n\
+         altitude_km = {ORBIT_ALTITUDE_KM:.1}\ninclination_deg = {ORBIT_INCLINATION_DEG}\n\n\
          [[step]]\nkind = \"orbit\"\nlog = \"telemetry.csv\"\n",
         mat3(&sensor_to_body()),
         vec3(&sensor_position_m()),

@@ -12,12 +12,12 @@ use super::util::{assert_code, stderr, TestDir};
 
 /// The C program: the order of operations the header's comment states, written from
 /// that comment alone, once in double and once in float.
-const APPLY_C: &str = r#"
+pub(super) const APPLY_C: &str = r#"
 #include <stdio.h>
 #include "magproof-flight.h"
 
 int main(void) {
-    int t, i, j, r;
+    int t, i, j;
     for (t = 0; t < MAGPROOF_TEST_COUNT; t++) {
         int m = MAGPROOF_TEST_MAG[t];
         double b1[3], b2[3], bb[3];
@@ -26,6 +26,7 @@ int main(void) {
             b1[i] = MAGPROOF_TEST_RAW_NT[t][i];
             f1[i] = MAGPROOF_TEST_RAW_NT_F[t][i];
 #if MAGPROOF_ROD_COUNT > 0
+            int r;
             for (r = 0; r < MAGPROOF_ROD_COUNT; r++) {
                 b1[i] -= MAGPROOF_MAG_ROD_COUPLING_NT_PER_CMD[m][r][i] * MAGPROOF_TEST_COMMAND[t][r];
                 f1[i] -= MAGPROOF_MAG_ROD_COUPLING_NT_PER_CMD_F[m][r][i] * MAGPROOF_TEST_COMMAND_F[t][r];
@@ -59,7 +60,7 @@ int main(void) {
 /// Strict C99 flags: a flight build treats warnings as errors.
 const CFLAGS: [&str; 5] = ["-std=c99", "-Wall", "-Wextra", "-pedantic", "-Werror"];
 
-fn cc(args: &[&str], dir: &Path) -> std::process::Output {
+pub(super) fn cc(args: &[&str], dir: &Path) -> std::process::Output {
     Command::new("cc")
         .args(CFLAGS)
         .args(args)

@@ -1,7 +1,7 @@
-//! What a reviewer reads in every report of the demo (three closeouts and the history):
-//! each plot's axes carry a unit, each table's unit column is filled (never a bare
-//! "1"), no number shows as `-0.000`, the assumptions are echoed, and the page renders
-//! in headless Chromium.
+//! What a reviewer reads in every report of the demo (three closeouts, a rod, the orbit
+//! pass and the history): each plot's axes carry a unit, each table's unit column is
+//! filled (never a bare "1"), no number shows as `-0.000`, the assumptions are echoed,
+//! and the page renders in headless Chromium.
 
 use std::path::{Path, PathBuf};
 
@@ -117,9 +117,19 @@ fn every_plot_axis_and_every_unit_column_of_the_demo_reports_carries_a_unit() {
     let d = TestDir::new();
     let out = demo(&d);
     let reports = out.join("reports");
-    for b in ["tmr-0207-b1", "tmr-0207-b2", "tmr-0207-b3", "history"] {
+    for b in [
+        "tmr-0207-b1",
+        "tmr-0207-b2",
+        "tmr-0207-b3",
+        "tmr-0207-orbit",
+        "rods/tmr-tr-x",
+        "history",
+    ] {
         check_page(&reports.join(b).join("report.html"));
     }
+    // The orbit report's regressor plot puts the current's unit on its axis.
+    let orbit = std::fs::read_to_string(reports.join("tmr-0207-orbit/report.html")).unwrap();
+    assert!(orbit.contains("data-x-label=\"i_solar [A]\""));
     // The history names quantities in words, with units, never by their keys.
     let hist = std::fs::read_to_string(reports.join("history/report.html")).unwrap();
     assert!(hist.contains("|dipole|") && hist.contains(" A·m²"));
@@ -145,6 +155,11 @@ fn a_closeout_report_echoes_its_assumptions_and_renders() {
     ] {
         assert!(html.contains(part), "report lacks {part:?}");
     }
+    // The plan gives its orbit: the dipole torque is judged in it, and nothing is
+    // assumed (neither in the result nor on the page).
+    let json = std::fs::read_to_string(out.join("reports/tmr-0207-b3/closeout.json")).unwrap();
+    assert!(json.contains("97.52") && !json.contains("inclination not given"));
+    assert!(!html.contains("inclination not given") && html.contains("525 km"));
     // The terminal summary leaves them to the HTML page.
     let text = std::fs::read_to_string(out.join("reports/tmr-0207-b3/closeout.txt")).unwrap();
     assert!(!text.contains("Assumptions"));

@@ -83,7 +83,8 @@ impl fmt::Display for DipoleWarning {
             DipoleWarning::DefaultInclination => write!(
                 f,
                 "orbit inclination not given: {DEFAULT_INCLINATION_DEG}° (sun-synchronous) \
-                 assumed; give --inclination-deg"
+                 assumed; give the planned orbit in the plan's [orbit] table (inclination_deg, \
+                 altitude_km), or --inclination-deg to dipole"
             ),
             DipoleWarning::Input(w) => write!(f, "{w}"),
             DipoleWarning::NearLimit { limit_am2 } => write!(

@@ -1,12 +1,54 @@
-//! The ground comparison: the latest `calibrate` run of the same serial in the ledger,
-//! against the orbit hard iron.
+//! The ground comparison: the latest `calibrate` run of the same serial and the same
+//! magnetometer (the plan's sensor name; the unnamed single magnetometer counts as one
+//! name) in the ledger, against the orbit hard iron; and, when there is none, why.
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 
-use crate::ledger::{Ledger, QuantityValue, RunFilter};
+use crate::ledger::{tracks, Ledger, QuantityValue, Run, RunFilter};
+use crate::log::Plan;
 use crate::Error;
+
+/// The ground calibration an orbit run is compared with, or why there is none.
+#[derive(Debug, Clone, PartialEq)]
+pub enum GroundLookup {
+    /// The latest ground calibration of the serial and sensor.
+    Found(GroundCalibration),
+    /// No comparison was asked for (`--no-ground`).
+    NotAsked,
+    /// None could be made (a warning of the run says why).
+    Missing(NoGround),
+}
+
+/// Why an orbit run has no ground calibration to compare with.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NoGround {
+    /// Nothing to look up: the plan has no `[article]` serial.
+    NoSerial,
+    /// No ledger to look in: the file does not exist, or the run records into none.
+    NoLedger {
+        /// The ledger looked for (`None`: the run uses no ledger).
+        ledger: Option<PathBuf>,
+    },
+    /// The ledger holds no `calibrate` run of this serial and sensor.
+    NoneRecorded {
+        /// The ledger looked in.
+        ledger: PathBuf,
+        /// Serial looked up.
+        serial: String,
+        /// Magnetometer looked up (`None`: the unnamed single one).
+        sensor: Option<String>,
+    },
+    /// The latest such run holds no hard iron with 1σ (a run of an older version, or a
+    /// failed fit).
+    Incomplete {
+        /// Its build.
+        build: String,
+        /// When it was recorded.
+        recorded_at: String,
+    },
+}
 
 /// A ground calibration as the ledger holds it.
 #[derive(Debug, Clone, PartialEq)]
@@ -64,24 +106,65 @@ pub fn compare(
     }
 }
 
-/// The latest `calibrate` run of `serial` in the ledger at `path` (none when the file does
-/// not exist or holds no such run). The magnetometer is the unnamed single one.
-pub fn latest_ground(path: &Path, serial: &str) -> Result<Option<GroundCalibration>, Error> {
+/// Look up the ground calibration of the plan's serial and magnetometer (the one the
+/// plan has selected, by name) in the ledger at `ledger` (`None`: the run uses no
+/// ledger). Runs are read as they stand, so a closeout's own steps, recorded after it
+/// ran, are never among them.
+pub fn find_ground(ledger: Option<&Path>, plan: &Plan) -> Result<GroundLookup, Error> {
+    let Some(article) = &plan.article else {
+        return Ok(GroundLookup::Missing(NoGround::NoSerial));
+    };
+    let Some(path) = ledger else {
+        return Ok(GroundLookup::Missing(NoGround::NoLedger { ledger: None }));
+    };
+    latest_ground(path, &article.serial, plan.sensor_name())
+}
+
+/// The latest `calibrate` run of `serial` that read the magnetometer `sensor` (`None`:
+/// the unnamed single one) in the ledger at `path`, or why there is none.
+pub fn latest_ground(
+    path: &Path,
+    serial: &str,
+    sensor: Option<&str>,
+) -> Result<GroundLookup, Error> {
     if !path.exists() {
-        return Ok(None);
+        return Ok(GroundLookup::Missing(NoGround::NoLedger {
+            ledger: Some(path.to_path_buf()),
+        }));
     }
     let ledger = Ledger::open_for_reading(path)?;
     let runs = ledger.runs(&RunFilter {
         serial: Some(serial.to_string()),
         kind: Some(crate::check::calibrate::seam::KIND),
     })?;
-    let Some(run) = runs.last() else {
-        return Ok(None);
+    let Some(run) = runs.iter().rev().find(|r| tracks::sensor_of(r) == sensor) else {
+        return Ok(GroundLookup::Missing(NoGround::NoneRecorded {
+            ledger: path.to_path_buf(),
+            serial: serial.to_string(),
+            sensor: sensor.map(String::from),
+        }));
     };
+    Ok(hard_iron_of(run, sensor).map_or_else(
+        || {
+            GroundLookup::Missing(NoGround::Incomplete {
+                build: run.build.clone(),
+                recorded_at: run.recorded_at.clone(),
+            })
+        },
+        GroundLookup::Found,
+    ))
+}
+
+/// The hard iron with 1σ a `calibrate` run recorded (`hard_iron_x_nt`, or
+/// `hard_iron_x_nt@NAME` for a named magnetometer).
+fn hard_iron_of(run: &Run, sensor: Option<&str>) -> Option<GroundCalibration> {
     let mut v = [f64::NAN; 3];
     let mut s = [f64::NAN; 3];
     for (a, axis) in ["x", "y", "z"].iter().enumerate() {
-        let name = format!("hard_iron_{axis}_nt");
+        let name = match sensor {
+            Some(n) => format!("hard_iron_{axis}_nt@{n}"),
+            None => format!("hard_iron_{axis}_nt"),
+        };
         if let Some(q) = run.quantities.iter().find(|q| q.name == name) {
             if let QuantityValue::Number { value, sigma } = q.value {
                 v[a] = value;
@@ -90,14 +173,14 @@ pub fn latest_ground(path: &Path, serial: &str) -> Result<Option<GroundCalibrati
         }
     }
     if v.iter().chain(&s).any(|x| !x.is_finite()) {
-        return Ok(None);
+        return None;
     }
-    Ok(Some(GroundCalibration {
+    Some(GroundCalibration {
         build: run.build.clone(),
         recorded_at: run.recorded_at.clone(),
         hard_iron_nt: v,
         hard_iron_sigma_nt: s,
-    }))
+    })
 }
 
 #[cfg(test)]

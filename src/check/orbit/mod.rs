@@ -13,14 +13,15 @@ mod estimate;
 pub mod ground;
 pub mod reference;
 pub mod seam;
+mod sensor;
 #[cfg(test)]
 mod tests;
 mod warning;
 
-use nalgebra::Matrix3;
+use nalgebra::{Matrix3, Vector3};
 use serde::Serialize;
 
-pub use ground::{GroundCalibration, GroundComparison};
+pub use ground::{GroundCalibration, GroundComparison, GroundLookup, NoGround};
 pub use reference::{Route, DEFAULT_GRID_S};
 pub use warning::OrbitWarning;
 
@@ -45,8 +46,8 @@ pub const TEMP_SPAN_MIN_C: f64 = 5.0;
 pub struct OrbitOptions<'a> {
     /// The orbit columns of the log (absolute time, positions, regressors).
     pub columns: &'a OrbitColumns,
-    /// The ground calibration to compare with, when the ledger holds one.
-    pub ground: Option<GroundCalibration>,
+    /// The ground calibration to compare with, or why there is none.
+    pub ground: GroundLookup,
     /// Tukey reweighting.
     pub robust: bool,
     /// Model node spacing, s (0: synthesise every sample).
@@ -82,6 +83,10 @@ pub struct OrbitSamples {
     pub latitude_residual: Vec<(f64, f64)>,
     /// Each regressor's values and the bias it explains along its largest axis, nT.
     pub regressor_effect: Vec<(String, Vec<(f64, f64)>)>,
+    /// Per regressor (in the order of `regressor_effect`), at each sample: its value, the
+    /// magnitude its fitted bias accounts for |W(v + k x)| − |W v| (nT, v the fully
+    /// corrected reading) and the residual with that bias put back (nT).
+    pub regressor_partial: Vec<Vec<(f64, f64, f64)>>,
 }
 
 /// The result of `orbit` (keys in docs/orbit.md).
@@ -242,6 +247,7 @@ fn regressors(req: &OrbitRequest, warnings: &mut Vec<OrbitWarning>) -> Regressor
 
 /// Run the orbit calibration.
 pub fn run_orbit(req: &OrbitRequest) -> Result<OrbitResult, Error> {
+    sensor::require_telemetry_columns(req.plan)?;
     let log = &req.input.log;
     let b = log.require_field("an orbit calibration needs the measured field")?;
     let cols = req.options.columns;
@@ -276,7 +282,12 @@ pub fn run_orbit(req: &OrbitRequest) -> Result<OrbitResult, Error> {
         fit.hard_iron_nt[1],
         fit.hard_iron_nt[2],
     ];
-    let ground = ground_check(req, hard_iron_nt, hard_iron_sigma_nt, &mut warnings);
+    let ground = compare_with_ground(
+        &req.options.ground,
+        hard_iron_nt,
+        hard_iron_sigma_nt,
+        &mut warnings,
+    );
     let offered = log.len() - req.input.saturated_rows();
     rejected_warning(&fit, offered, &mut warnings);
     let mean_model_nt = model.magnitude_nt.iter().sum::<f64>() / model.magnitude_nt.len() as f64;
@@ -334,24 +345,41 @@ fn route_and_orbit(req: &OrbitRequest) -> Result<(Route, Option<Orbit>), Error> 
     Ok((route, orbit_used))
 }
 
-/// Compare the fitted hard iron (sensor frame, nT, with its 1σ) with the
-/// latest ground calibration of the same serial, when the ledger holds one,
-/// warning on a significant shift.
-fn ground_check(
-    req: &OrbitRequest,
+/// Compare the fitted hard iron (sensor frame, nT, with its 1σ) with the ground
+/// calibration `lookup` found, warning on a significant shift, or say why there is none.
+fn compare_with_ground(
+    lookup: &GroundLookup,
     hard_iron_nt: [f64; 3],
     hard_iron_sigma_nt: [f64; 3],
     warnings: &mut Vec<OrbitWarning>,
 ) -> Option<GroundComparison> {
-    let ground = req
-        .options
-        .ground
-        .as_ref()
-        .map(|g| ground::compare(g, hard_iron_nt, hard_iron_sigma_nt));
-    if let Some(g) = &ground {
-        ground_warning(g, warnings);
+    match lookup {
+        GroundLookup::Found(g) => {
+            let c = ground::compare(g, hard_iron_nt, hard_iron_sigma_nt);
+            ground_warning(&c, warnings);
+            Some(c)
+        }
+        GroundLookup::NotAsked => None,
+        GroundLookup::Missing(why) => {
+            warnings.push(OrbitWarning::NoGround(why.clone()));
+            None
+        }
     }
-    ground
+}
+
+impl OrbitResult {
+    /// Compare a result that was computed without a ground comparison (a closeout step)
+    /// with the ground calibration `lookup` found; a comparison already made stays.
+    pub fn compare_with_ground(&mut self, lookup: &GroundLookup) {
+        if self.ground.is_none() {
+            self.ground = compare_with_ground(
+                lookup,
+                self.hard_iron_nt,
+                self.hard_iron_sigma_nt,
+                &mut self.warnings,
+            );
+        }
+    }
 }
 
 /// Warn when the robust weights rejected more than one in twenty of the
@@ -452,5 +480,32 @@ fn samples(
                 )
             })
             .collect(),
+        regressor_partial: (0..regs.names.len())
+            .map(|q| regressor_partial(d, fit, &idx, q))
+            .collect(),
     }
+}
+
+/// Regressor `q` at the samples `idx`: its value, the magnitude its fitted bias accounts
+/// for (nT) and the residual with that bias put back (nT).
+fn regressor_partial(
+    d: &OrbitFitData,
+    fit: &crate::fit::orbit::OrbitFit,
+    idx: &[usize],
+    q: usize,
+) -> Vec<(f64, f64, f64)> {
+    let (w, ks) = (&fit.soft_iron, &fit.regressors);
+    idx.iter()
+        .map(|&i| {
+            let x = d.regressors[q][i];
+            // v: the reading with every fitted term removed.
+            let mut v = Vector3::new(d.b_nt[0][i], d.b_nt[1][i], d.b_nt[2][i]) - fit.hard_iron_nt;
+            for (k, col) in ks.iter().zip(d.regressors) {
+                v -= k * col[i];
+            }
+            let explained = (w * (v + ks[q] * x)).norm() - (w * v).norm();
+            let residual = (w * v).norm() - d.reference_nt[i];
+            (x, explained, residual + explained)
+        })
+        .collect()
 }

@@ -1,7 +1,7 @@
 //! `orbit` at the check seam: its registry entry, how a closeout step runs it, and what
 //! its result offers the ledger, the summaries and the writers.
 
-use super::{run_orbit, OrbitOptions, OrbitResult, DEFAULT_GRID_S};
+use super::{run_orbit, GroundLookup, OrbitOptions, OrbitResult, DEFAULT_GRID_S};
 use crate::check::kind::{CheckKind, CheckSpec};
 use crate::check::outcome::CheckResult;
 use crate::check::{CheckInput, CheckRequest};
@@ -10,6 +10,7 @@ use crate::log::telemetry::read_telemetry;
 use crate::log::Plan;
 use crate::report::Section;
 use crate::Error;
+use std::path::Path;
 
 /// The kind's stable name.
 pub const KIND: CheckKind = CheckKind::new("orbit");
@@ -24,12 +25,14 @@ pub const SPEC: CheckSpec = CheckSpec {
 
 /// A closeout step: the orbit columns (absolute time, positions, currents) are read with
 /// the telemetry reader from the step's log; the field, as screened, comes from `input`.
+/// The ground comparison follows in [`CheckResult::compare_with_ledger`], against the
+/// ledger the closeout records into.
 fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Error> {
     let tele = read_telemetry(&input.log.path, input.unit)?;
     let screened = CheckInput::screen(tele.log, input.unit, input.range_nt)?;
     let options = OrbitOptions {
         columns: &tele.orbit,
-        ground: None,
+        ground: GroundLookup::NotAsked,
         robust: true,
         grid_s: DEFAULT_GRID_S,
         keep_samples: true,
@@ -123,5 +126,12 @@ impl CheckResult for OrbitResult {
 
     fn sections(&self) -> Result<Vec<Section>, Error> {
         Ok(vec![crate::report::sections::orbit_section(self)?])
+    }
+
+    /// The latest ground calibration of the plan's serial and magnetometer in `ledger`.
+    fn compare_with_ledger(&mut self, plan: &Plan, ledger: Option<&Path>) -> Result<(), Error> {
+        let lookup = super::ground::find_ground(ledger, plan)?;
+        self.compare_with_ground(&lookup);
+        Ok(())
     }
 }

@@ -10,7 +10,7 @@ use crate::sim::orbit::{simulate_orbit, OrbitSimConfig, SimPositions};
 
 fn run(
     positions: SimPositions,
-    ground: Option<GroundCalibration>,
+    ground: impl Into<Option<GroundCalibration>>,
 ) -> (OrbitResult, crate::sim::orbit::OrbitTruth) {
     let cfg = OrbitSimConfig {
         positions,
@@ -29,7 +29,9 @@ fn run(
     let input = CheckInput::screen(tele.log, FieldUnit::default(), None).unwrap();
     let options = OrbitOptions {
         columns: &tele.orbit,
-        ground,
+        ground: ground
+            .into()
+            .map_or(GroundLookup::NotAsked, GroundLookup::Found),
         robust: true,
         grid_s: DEFAULT_GRID_S,
         keep_samples: true,
@@ -119,7 +121,7 @@ fn a_planted_300_nt_change_from_ground_is_flagged() {
         hard_iron_nt: [truth[0], truth[1] - dy, truth[2]],
         hard_iron_sigma_nt: [15.0, 15.0, 15.0],
     };
-    let (moved, _) = run(SimPositions::Tle, Some(g(300.0)));
+    let (moved, _) = run(SimPositions::Tle, g(300.0));
     let c = moved.ground.as_ref().unwrap();
     assert!(c.flag, "{c:?}");
     assert!((c.hard_iron_delta_nt[1] - 300.0).abs() < 3.0 * c.sigma_nt[1]);
@@ -129,6 +131,71 @@ fn a_planted_300_nt_change_from_ground_is_flagged() {
         .any(|w| matches!(w, OrbitWarning::GroundShift { .. })));
     // The flag is a warning, not a failed verdict.
     assert_eq!(moved.verdict, Verdict::Pass);
-    let (same, _) = run(SimPositions::Tle, Some(g(0.0)));
+    let (same, _) = run(SimPositions::Tle, g(0.0));
     assert!(!same.ground.unwrap().flag);
+}
+
+#[test]
+fn a_missing_ground_calibration_is_said_and_a_late_one_is_compared() {
+    let (mut r, _) = run(SimPositions::Geodetic, None);
+    assert!(r.ground.is_none());
+    let none = GroundLookup::Missing(NoGround::NoneRecorded {
+        ledger: "l.sqlite".into(),
+        serial: "SIM-1".into(),
+        sensor: Some("MAG-B".into()),
+    });
+    r.compare_with_ground(&none);
+    assert!(r.ground.is_none());
+    let said: Vec<String> = r.warnings.iter().map(|w| w.to_string()).collect();
+    assert!(
+        said.iter().any(
+            |w| w.contains("no calibrate run of serial SIM-1 with magnetometer MAG-B")
+                && w.contains("--sensor MAG-B")
+        ),
+        "{said:?}"
+    );
+    // A closeout step compares after the fit: the same numbers as a comparison made in it.
+    let truth = OrbitSimConfig::default().hard_iron_nt;
+    let g = GroundCalibration {
+        build: "B3".into(),
+        recorded_at: "2026-06-01T10:00:00.000Z".into(),
+        hard_iron_nt: truth.into(),
+        hard_iron_sigma_nt: [15.0, 15.0, 15.0],
+    };
+    let (direct, _) = run(SimPositions::Geodetic, g.clone());
+    let (mut late, _) = run(SimPositions::Geodetic, None);
+    late.compare_with_ground(&GroundLookup::Found(g));
+    let (a, b) = (direct.ground.unwrap(), late.ground.unwrap());
+    // The same arithmetic on the same numbers: equal to the bit.
+    let bits = |v: [f64; 3]| v.map(f64::to_bits);
+    assert_eq!(bits(a.hard_iron_delta_nt), bits(b.hard_iron_delta_nt));
+    assert_eq!(bits(a.sigma_nt), bits(b.sigma_nt));
+}
+
+#[test]
+fn the_regressor_fit_plot_puts_the_bias_back_into_the_plotted_residual() {
+    // The dots of a regressor's fit plot are the along-orbit residual (the same samples)
+    // plus the magnitude the fitted bias accounts for; the simulated solar-array bias
+    // (hundreds of nT per ampere) accounts for far more than the noise, so the plot shows
+    // a trend, not a cloud.
+    let (r, t) = run(SimPositions::Ecef, None);
+    let s = &r.samples;
+    assert!(!t.regressors.is_empty());
+    assert_eq!(s.regressor_partial.len(), t.regressors.len());
+    for (q, partial) in s.regressor_partial.iter().enumerate() {
+        assert_eq!(partial.len(), s.residual_nt.len());
+        for (p, res) in partial.iter().zip(&s.residual_nt) {
+            assert!(
+                (p.2 - p.1 - res).abs() < 1e-6,
+                "regressor {q}: {p:?} vs {res}"
+            );
+        }
+        let n = partial.len() as f64;
+        let mean = partial.iter().map(|p| p.1).sum::<f64>() / n;
+        let spread = (partial.iter().map(|p| (p.1 - mean).powi(2)).sum::<f64>() / n).sqrt();
+        assert!(
+            spread > 5.0 * t.noise_nt,
+            "regressor {q}: spread {spread} nT"
+        );
+    }
 }

@@ -2,7 +2,9 @@
 
 use std::fmt;
 
+use super::ground::NoGround;
 use crate::check::InputWarning;
+use crate::text::printable;
 
 /// Something the user should know about an orbit calibration.
 #[derive(Debug, Clone, PartialEq)]
@@ -40,6 +42,8 @@ pub enum OrbitWarning {
         /// Δ on that axis, nT.
         delta_nt: f64,
     },
+    /// No ground calibration to compare with, and why.
+    NoGround(NoGround),
     /// Many samples were rejected by the robust weights.
     ManyRejected {
         /// Rejected samples.
@@ -92,11 +96,64 @@ impl fmt::Display for OrbitWarning {
                  {delta_nt:+.0} nT on {axis} ({sigmas:.1}σ); check for magnetised parts, new \
                  harness routing or an unmodelled current before replacing the ground values"
             ),
+            OrbitWarning::NoGround(why) => no_ground(f, why),
             OrbitWarning::ManyRejected { rejected, of } => write!(
                 f,
                 "{rejected} of {of} samples were rejected as outliers; look for time-tag \
                  errors, rod firings or unlogged currents"
             ),
         }
+    }
+}
+
+/// Cause and remedy of a missing ground comparison.
+fn no_ground(f: &mut fmt::Formatter<'_>, why: &NoGround) -> fmt::Result {
+    match why {
+        NoGround::NoSerial => write!(
+            f,
+            "no ground comparison: the plan has no [article] serial to look the ground \
+             calibration up by; add [article] with the serial the ground calibration was \
+             recorded under"
+        ),
+        NoGround::NoLedger { ledger: None } => write!(
+            f,
+            "no ground comparison: this run reads no ledger; run it with the ledger that \
+             holds the ground calibration (closeout without --no-record, or --ledger PATH)"
+        ),
+        NoGround::NoLedger { ledger: Some(p) } => write!(
+            f,
+            "no ground comparison: the ledger {} does not exist; name the ledger that holds \
+             the ground calibration with --ledger PATH",
+            printable(&p.display().to_string())
+        ),
+        NoGround::NoneRecorded {
+            ledger,
+            serial,
+            sensor,
+        } => write!(
+            f,
+            "no ground comparison: the ledger {} holds no calibrate run of serial {} with {}; \
+             record the ground calibration (calibrate LOG --plan P --record{}), or choose the \
+             magnetometer it read with --sensor NAME",
+            printable(&ledger.display().to_string()),
+            printable(serial),
+            sensor
+                .as_deref()
+                .map_or("the unnamed magnetometer".to_string(), |s| format!(
+                    "magnetometer {}",
+                    printable(s)
+                )),
+            sensor
+                .as_deref()
+                .map_or(String::new(), |s| format!(" --sensor {}", printable(s)))
+        ),
+        NoGround::Incomplete { build, recorded_at } => write!(
+            f,
+            "no ground comparison: the latest ground calibration (build {}, recorded {}) \
+             holds no hard iron with 1σ in the ledger; record a new ground calibration with \
+             this version",
+            printable(build),
+            printable(recorded_at)
+        ),
     }
 }

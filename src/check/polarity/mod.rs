@@ -34,6 +34,7 @@ mod result;
 mod rise;
 pub mod seam;
 mod sensor;
+mod stack_rows;
 mod timing;
 mod verdict;
 mod warning;
@@ -170,7 +171,8 @@ pub fn run_polarity(req: &PolarityRequest<'_>) -> Result<PolarityResult, Error> 
     let gates = assess::all_gates(&rods, opts.snr_min, angle_max_deg);
     let verdict = crate::check::Verdict::from_gates(&gates);
     let plot_rows = timing::shifted_rows(t, fitted.rise.lag_s);
-    let series = ctx.series(&fitted.fit, &fitted.response, &plot_rows, &dminus);
+    let dense = stack_rows::stack_rows(t, &pulse_results);
+    let series = ctx.series(&fitted.fit, &fitted.response, &plot_rows, &dminus, &dense);
     Ok(PolarityResult {
         coupling_matrix_nt_per_command: assess::coupling_matrix(&rods),
         rods,

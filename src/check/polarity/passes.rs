@@ -305,13 +305,15 @@ impl FitContext<'_> {
         (out, d)
     }
 
-    /// Decimated series for plots: the model from `drive`, the commands from `rows`.
+    /// Series for plots: the model from `drive`, the commands from `rows`; every row
+    /// where `dense` is true, elsewhere an evenly thinned subset.
     pub(super) fn series<D: Drive + ?Sized>(
         &self,
         fit: &LinearFit,
         drive: &D,
         rows: &[Option<usize>],
         d: &[Vec<f64>; 3],
+        dense: &[bool],
     ) -> PolaritySeries {
         let n = self.t.len();
         let nc = self.columns.len();
@@ -321,8 +323,9 @@ impl FitContext<'_> {
             commands: vec![Vec::new(); nc],
             ..Default::default()
         };
-        for i in (0..n).step_by(step) {
+        for i in (0..n).filter(|&i| i % step == 0 || dense.get(i) == Some(&true)) {
             s.t_s.push(self.t[i]);
+            s.thinned.push(i % step == 0);
             let on = drive.head(self, i, &mut head);
             for a in 0..3 {
                 s.field_minus_drift_nt[a].push(d[a][i]);

@@ -86,7 +86,8 @@ pub struct PulseResult {
     pub step_sigma_nt: Option<[f64; 3]>,
 }
 
-/// Series for plots, decimated to at most [`PolaritySeries::MAX_POINTS`] points.
+/// Series for plots: every row inside the stacked pulse windows, and elsewhere rows
+/// thinned evenly to about [`PolaritySeries::MAX_POINTS`] over the log.
 #[derive(Debug, Clone, Default)]
 pub struct PolaritySeries {
     /// Time, s.
@@ -97,11 +98,16 @@ pub struct PolaritySeries {
     pub model_nt: [Vec<f64>; 3],
     /// Lag-shifted commands, one vector per command column (plan rods first).
     pub commands: Vec<Vec<f64>>,
+    /// Per row: true when it belongs to the evenly thinned series the time plot draws
+    /// (the other rows are kept for the stacked pulse view only).
+    pub thinned: Vec<bool>,
 }
 
 impl PolaritySeries {
-    /// Largest number of points kept for plots.
+    /// Number of points the evenly thinned series holds at most.
     pub const MAX_POINTS: usize = 4000;
+    /// Pulses per rod the stacked view draws, and keeps at full resolution.
+    pub const STACK_PULSES_MAX: usize = 200;
 }
 
 /// Result of the polarity check; the first keys are the stable ones of docs/polarity.md.

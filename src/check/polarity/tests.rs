@@ -333,3 +333,66 @@ fn negative_lag_is_reported_as_negative() {
     assert!((r.lag_s + 0.1).abs() <= 0.0201, "lag {}", r.lag_s);
     assert_eq!(verdicts(&r), ["ok", "ok", "ok"]);
 }
+
+// An hour-scale log (far more rows than the evenly thinned series keeps) with one
+// sample 3000 nT high inside a pulse: the stacked view's rows are kept at full
+// resolution, so the spike is in the plot series although the thinning stride skips it.
+#[test]
+fn a_one_sample_spike_inside_a_pulse_is_kept_in_the_plot_series() {
+    let cfg = PolarityConfig {
+        cycles: 12,
+        sample_rate_hz: 100.0,
+        ..PolarityConfig::default()
+    };
+    let mut sim = simulate_polarity(&cfg, 5).unwrap();
+    let lines: Vec<&str> = sim.csv.lines().collect();
+    let h = lines.iter().position(|l| !l.starts_with('#')).unwrap();
+    let header: Vec<&str> = lines[h].split(',').collect();
+    let cmd = header.iter().position(|h| h.starts_with("cmd_")).unwrap();
+    let bx = header.iter().position(|h| h.starts_with("bx")).unwrap();
+    let rows = lines.len() - h - 1;
+    let stride = rows.div_ceil(PolaritySeries::MAX_POINTS);
+    assert!(stride >= 2, "{rows} rows: the log must be thinned");
+    // A row well inside the second pulse of the first command column, off the stride.
+    let on: Vec<usize> = (h + 1..lines.len())
+        .filter(|&i| {
+            lines[i]
+                .split(',')
+                .nth(cmd)
+                .unwrap()
+                .parse::<f64>()
+                .unwrap()
+                != 0.0
+        })
+        .collect();
+    let second = on
+        .iter()
+        .position(|&i| i > on[0] + 1 && !on.contains(&(i - 1)))
+        .unwrap();
+    let mut row = on[second] + 20;
+    while (row - h - 1) % stride == 0 {
+        row += 1;
+    }
+    let mut cells: Vec<String> = lines[row].split(',').map(String::from).collect();
+    let spiked = cells[bx].parse::<f64>().unwrap() + 3000.0;
+    cells[bx] = format!("{spiked}");
+    let t_spike: f64 = cells[0].parse().unwrap();
+    let mut text: Vec<String> = lines.iter().map(|l| l.to_string()).collect();
+    text[row] = cells.join(",");
+    sim.csv = text.join("\n") + "\n";
+    let r = check(&sim);
+    let s = &r.series;
+    let k = s
+        .t_s
+        .iter()
+        .position(|t| (t - t_spike).abs() < 1e-9)
+        .unwrap();
+    assert!(!s.thinned[k], "the spike's row is off the thinning stride");
+    let before = s.field_minus_drift_nt[0][k - 1];
+    assert!(
+        s.field_minus_drift_nt[0][k] - before > 2500.0,
+        "{} after {before}",
+        s.field_minus_drift_nt[0][k]
+    );
+    assert!(s.thinned.iter().filter(|x| **x).count() <= PolaritySeries::MAX_POINTS);
+}

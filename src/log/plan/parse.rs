@@ -60,10 +60,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         .rod_bench
         .map(|r| super::rod_bench::rod_bench(&v, r))
         .transpose()?;
-    let orbit = raw
-        .orbit
-        .map(|o| super::orbit::orbit(path, o))
-        .transpose()?;
+    let orbit = raw.orbit.map(|o| super::orbit::orbit(&v, o)).transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
     v.step_sensors(&steps, &magnetometers)?;

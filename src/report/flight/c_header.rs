@@ -39,7 +39,7 @@ fn check_unique(what: &str, names: &[String]) -> Result<(), Error> {
 }
 
 /// Text inside a C comment: cannot close it early.
-fn comment(s: &str) -> String {
+pub(super) fn comment(s: &str) -> String {
     s.replace("*/", "* /").replace(['\n', '\r'], " ")
 }
 
@@ -74,16 +74,16 @@ fn lit_f(v: f64) -> Result<String, Error> {
 
 /// Nested braces of numbers, each formatted by `lit`.
 #[derive(Clone)]
-enum Nest {
+pub(super) enum Nest {
     Leaf(f64),
     List(Vec<Nest>),
 }
 
 impl Nest {
-    fn v3(v: &[f64; 3]) -> Nest {
+    pub(super) fn v3(v: &[f64; 3]) -> Nest {
         Nest::List(v.iter().map(|x| Nest::Leaf(*x)).collect())
     }
-    fn m3(m: &[[f64; 3]; 3]) -> Nest {
+    pub(super) fn m3(m: &[[f64; 3]; 3]) -> Nest {
         Nest::List(m.iter().map(Nest::v3).collect())
     }
     fn render(&self, lit: fn(f64) -> Result<String, Error>) -> Result<String, Error> {
@@ -101,7 +101,13 @@ impl Nest {
 }
 
 /// `static const double NAME[dims] = …;` and its `float` twin `NAME_F`.
-fn arrays(s: &mut String, doc: &str, name: &str, dims: &str, data: &Nest) -> Result<(), Error> {
+pub(super) fn arrays(
+    s: &mut String,
+    doc: &str,
+    name: &str,
+    dims: &str,
+    data: &Nest,
+) -> Result<(), Error> {
     let _ = writeln!(s, "/* {} */", comment(doc));
     let _ = writeln!(
         s,
@@ -132,6 +138,7 @@ pub fn render(p: &FlightParams) -> Result<String, Error> {
     );
     identity(&mut s, p);
     magnetometers(&mut s, p)?;
+    super::c_named::named_blocks(&mut s, p)?;
     rods(&mut s, p)?;
     let _ = writeln!(
         s,
@@ -139,6 +146,7 @@ pub fn render(p: &FlightParams) -> Result<String, Error> {
     );
     test_vectors(&mut s, p)?;
     let _ = writeln!(s, "#endif /* {guard} */");
+    super::c_named::refuse_duplicate_names(&s)?;
     Ok(s)
 }
 

@@ -18,6 +18,8 @@
 pub mod blanking;
 mod build;
 pub mod c_header;
+mod c_named;
+mod per_sensor;
 pub mod writer;
 
 use serde::Serialize;

@@ -4,8 +4,20 @@
 
 use crate::ledger::{Change, Flag};
 
-/// Unit tags that end quantity names, dropped from labels (the unit is shown apart).
-const UNIT_TAGS: [&str; 5] = ["_nt", "_am2", "_deg", "_s", "_1"];
+/// Unit tags that end quantity names, dropped from labels (the unit is shown apart, so
+/// a label never names a unit of its own: `bias_i_solar_x_nt_per_unit` is shown as
+/// "bias i solar x" with its unit nT/A, not as "… nt per unit"). Longer tags first.
+const UNIT_TAGS: [&str; 9] = [
+    "_nt_per_unit",
+    "_nt_per_c",
+    "_am2_per_a",
+    "_pct",
+    "_nt",
+    "_am2",
+    "_deg",
+    "_s",
+    "_1",
+];
 
 /// A human label for a quantity's stable name.
 pub fn change_label(c: &Change) -> String {
@@ -131,6 +143,20 @@ mod tests {
             detail: None,
         };
         assert_eq!(change_label(&c), "soft iron W[0][0]");
+        // Unit words never stay in a label: the unit is shown beside it.
+        for (q, label) in [
+            ("bias_i_solar_x_nt_per_unit", "bias i solar x"),
+            ("temperature_slope_z_nt_per_c", "temperature slope z"),
+            ("rod_moment_per_amp_am2_per_a", "rod moment per amp"),
+            ("rod_linearity_max_dev_pct", "rod linearity max dev"),
+            ("rod_time_constant_s", "rod time constant"),
+        ] {
+            let c = Change {
+                quantity: q.into(),
+                ..c.clone()
+            };
+            assert_eq!(change_label(&c), label);
+        }
         // A dimensionless change is written without a bare "1".
         assert_eq!(change_amount(&c), "+0.0100 ± 0.0010 (10.0σ)");
     }

@@ -46,6 +46,7 @@ fn figures_of_merit(r: &OrbitResult) -> Vec<(String, String)> {
             ),
         ),
     ];
+    out.push(("ground comparison".into(), ground_word(r)));
     if let Some(age) = r.tle_age_days {
         out.push((
             "element set age".into(),
@@ -171,32 +172,91 @@ fn figures(r: &OrbitResult) -> Result<Vec<Figure>, Error> {
         figure(
             "orbit-residual-time.svg",
             "Residual |W(b − c − Σk·x)| − |B_IGRF| along the orbit",
-            draw_xy(&XyPlot::new("Residual along the orbit", "time after first sample (min)", "residual (nT)").with(
+            draw_xy(&XyPlot::new("Residual along the orbit", "time after first sample [min]", "residual [nT]").with(
                 Series::points("residual", along, 0),
             ))?,
         ),
         figure(
             "orbit-residual-latitude.svg",
             "Residual against geodetic latitude (at the model nodes): structure here points at the model or the positions",
-            draw_xy(&XyPlot::new("Residual against latitude", "latitude (deg)", "residual (nT)").with(
+            draw_xy(&XyPlot::new("Residual against latitude", "geodetic latitude [deg]", "residual [nT]").with(
                 Series::points("residual", s.latitude_residual.clone(), 1),
             ))?,
         ),
     ];
     for (k, (name, pts)) in s.regressor_effect.iter().enumerate() {
+        // The regressor's own unit on its axis (A for a current, command for a rod).
+        let unit = r
+            .regressors
+            .iter()
+            .find(|g| &g.name == name)
+            .map_or("as logged", |g| g.unit.as_str());
         out.push(figure(
             &format!("orbit-regressor-{k}.svg"),
-            &format!("Fitted bias of {name} on its largest axis"),
+            &format!("Fitted bias of {name} on its largest axis, sensor frame"),
             draw_xy(
-                &XyPlot::new(&format!("Bias from {name}"), name, "bias (nT)").with(Series::line(
-                    "fitted bias",
-                    pts.clone(),
-                    2,
-                )),
+                &XyPlot::new(
+                    &format!("Bias from {name}"),
+                    &format!("{name} [{unit}]"),
+                    "bias on its largest axis [nT]",
+                )
+                .with(Series::line("fitted bias", pts.clone(), 2)),
             )?,
         ));
+        if let Some(partial) = s.regressor_partial.get(k) {
+            out.push(regressor_fit_figure(k, name, unit, partial)?);
+        }
     }
     Ok(out)
+}
+
+/// How a regressor's bias fits the data: the residual with its bias put back against the
+/// regressor, beside the magnitude the fitted bias accounts for.
+fn regressor_fit_figure(
+    k: usize,
+    name: &str,
+    unit: &str,
+    partial: &[(f64, f64, f64)],
+) -> Result<Figure, Error> {
+    let data = partial.iter().map(|p| (p.0, p.2)).collect();
+    let fitted = partial.iter().map(|p| (p.0, p.1)).collect();
+    Ok(figure(
+        &format!("orbit-regressor-{k}-fit.svg"),
+        &format!(
+            "The residual with the fitted {name} bias put back (dots) against {name}, beside \
+             the field magnitude that bias accounts for at each sample: when the bias is real \
+             the dots follow the fitted values"
+        ),
+        draw_xy(
+            &XyPlot::new(
+                &format!("Fit of {name}"),
+                &format!("{name} [{unit}]"),
+                "field magnitude [nT]",
+            )
+            .with(Series::points("residual + bias", data, 0))
+            .with(Series::points("fitted bias", fitted, 2)),
+        )?,
+    ))
+}
+
+/// The ground comparison in a few words: its build and flag, or why there is none.
+fn ground_word(r: &OrbitResult) -> String {
+    use crate::check::orbit::OrbitWarning;
+    if let Some(g) = &r.ground {
+        let flag = if g.flag {
+            ", changed beyond 3σ"
+        } else {
+            ", within 3σ"
+        };
+        return format!("build {} (recorded {}){flag}", g.build, g.recorded_at);
+    }
+    match r.warnings.iter().find_map(|w| match w {
+        OrbitWarning::NoGround(_) => Some(w.to_string()),
+        _ => None,
+    }) {
+        Some(why) => why.replacen("no ground comparison: ", "none: ", 1),
+        None => "not asked for".into(),
+    }
 }
 
 fn notes(r: &OrbitResult) -> Vec<String> {

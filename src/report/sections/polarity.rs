@@ -164,6 +164,7 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
         };
         let along = dir.dot(&c);
         let scale = c.norm();
+        let mut all = Vec::with_capacity(n);
         let mut meas = Vec::with_capacity(n);
         let mut model = Vec::with_capacity(n);
         let mut command = Vec::with_capacity(n);
@@ -175,9 +176,13 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
             );
             let m = Vector3::new(s.model_nt[0][i], s.model_nt[1][i], s.model_nt[2][i]);
             let t = s.t_s[i];
-            meas.push((t, dir.dot(&(f - m)) + along * cmd[i]));
-            model.push((t, along * cmd[i]));
-            command.push((t, scale * cmd[i]));
+            all.push((t, dir.dot(&(f - m)) + along * cmd[i]));
+            // The time plot draws the evenly thinned rows; the stacked view every row.
+            if s.thinned.get(i).copied().unwrap_or(true) {
+                meas.push(all[all.len() - 1]);
+                model.push((t, along * cmd[i]));
+                command.push((t, scale * cmd[i]));
+            }
         }
         let mut plot = XyPlot::new(
             &format!("Rod {}: {}", rod.name, rod.verdict.as_str()),
@@ -189,7 +194,7 @@ fn polarity_figures(r: &PolarityResult) -> Result<Vec<Figure>, Error> {
         .with(Series::line("model", model, 3));
         plot.size = (540, 340);
         let stem = file_safe(&rod.name, k);
-        let stacked = super::polarity_stack::stacked_pulses(r, k, &plot.series[0].points, &stem)?;
+        let stacked = super::polarity_stack::stacked_pulses(r, k, &all, &stem)?;
         figs.push(figure(
             &format!("polarity-rod-{stem}.svg"),
             &format!(

@@ -4,14 +4,50 @@
 //! of hundreds of pulses reads as one bundle of curves instead of a comb.
 
 use super::figure;
-use crate::check::polarity::{PolarityResult, PulseResult};
+use crate::check::polarity::{PolarityResult, PolaritySeries, PulseResult};
 use crate::report::flight::blanking::rod_window;
 use crate::report::model::Figure;
 use crate::report::plot::{draw_xy, Series, XyPlot};
 use crate::Error;
 
 /// Most pulses drawn per rod (the blanking window uses them all).
-const MAX_PULSES_DRAWN: usize = 200;
+const MAX_PULSES_DRAWN: usize = PolaritySeries::STACK_PULSES_MAX;
+
+/// Width of the stacked plot, px.
+const PLOT_WIDTH_PX: u32 = 540;
+
+/// A curve of time-sorted points reduced to the first and last point and, in each of
+/// `columns` equal slices of its time span, the lowest and the highest point (in time
+/// order): every extreme a pixel column would show is kept. Curves of at most two points
+/// per column are returned whole.
+fn envelope(points: Vec<(f64, f64)>, columns: usize) -> Vec<(f64, f64)> {
+    let (Some(first), Some(last)) = (points.first().copied(), points.last().copied()) else {
+        return points;
+    };
+    let span = last.0 - first.0;
+    if points.len() <= 2 * columns.max(1) || span.is_nan() || span <= 0.0 {
+        return points;
+    }
+    let column = |t: f64| (((t - first.0) / span * columns as f64) as usize).min(columns - 1);
+    let mut out = vec![first];
+    let mut k = 0;
+    while k < points.len() {
+        let c = column(points[k].0);
+        let end = k + points[k..].partition_point(|p| column(p.0) == c);
+        let slice = &points[k..end];
+        let lo = (0..slice.len()).fold(0, |m, i| if slice[i].1 < slice[m].1 { i } else { m });
+        let hi = (0..slice.len()).fold(0, |m, i| if slice[i].1 > slice[m].1 { i } else { m });
+        for i in [lo.min(hi), lo.max(hi)] {
+            out.push(slice[i]);
+        }
+        if lo == hi {
+            out.pop();
+        }
+        k = end;
+    }
+    out.push(last);
+    out
+}
 
 /// The points of `series` (time-sorted (t, value)) within `[t0, t1]`.
 fn window(series: &[(f64, f64)], t0: f64, t1: f64) -> &[(f64, f64)] {
@@ -73,6 +109,7 @@ pub fn stacked_pulses(
             lo = lo.min(v);
             hi = hi.max(v);
         }
+        let pts = envelope(pts, PLOT_WIDTH_PX as usize);
         if !pts.is_empty() {
             let name = if plot.series.is_empty() { "pulses" } else { "" };
             plot = plot.with(Series::line(name, pts, 0));
@@ -93,7 +130,7 @@ pub fn stacked_pulses(
         }
         None => "no blanking window (too many pulses did not settle)".to_string(),
     };
-    plot.size = (540, 340);
+    plot.size = (PLOT_WIDTH_PX, 340);
     let drawn = if mine.len() > MAX_PULSES_DRAWN {
         format!(" The first {MAX_PULSES_DRAWN} pulses are drawn.")
     } else {
@@ -121,5 +158,24 @@ mod tests {
         let s: Vec<(f64, f64)> = (0..10).map(|i| (i as f64, i as f64)).collect();
         assert_eq!(window(&s, 2.5, 5.0), &s[3..6]);
         assert!(window(&s, 20.0, 30.0).is_empty());
+    }
+
+    #[test]
+    fn a_one_sample_spike_survives_the_envelope() {
+        // 20 000 samples of a slow ramp with one sample 500 nT high at row 12 345.
+        let mut pts: Vec<(f64, f64)> = (0..20_000)
+            .map(|i| (i as f64 * 1e-3, (i as f64 * 1e-3).sin()))
+            .collect();
+        pts[12_345].1 = 500.0;
+        let spike = pts[12_345];
+        let drawn = envelope(pts.clone(), 540);
+        assert!(drawn.len() <= 2 * 540 + 2, "{}", drawn.len());
+        assert!(drawn.contains(&spike));
+        assert!(drawn.windows(2).all(|w| w[0].0 <= w[1].0), "time order");
+        assert_eq!(drawn.first(), pts.first());
+        assert_eq!(drawn.last(), pts.last());
+        // Short curves are drawn whole.
+        let short = pts[..900].to_vec();
+        assert_eq!(envelope(short.clone(), 540), short);
     }
 }

@@ -229,7 +229,7 @@ fn response_figure(r: &RodResult) -> Result<Figure, Error> {
     let mut plot = XyPlot::new(
         "Step responses",
         "time since the current step [s]",
-        "remaining fraction of the field change",
+        "remaining fraction of the field change [fraction of the step]",
     );
     for (k, resp) in r.responses.iter().enumerate() {
         // Currents to 0.1 mA: a rod-off level reads 0, not its noise.

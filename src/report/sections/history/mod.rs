@@ -108,8 +108,8 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
         tables.iter_mut().for_each(drop_first_column);
     }
     let mut notes = vec![
-        "Builds are numbered 1, 2, … per serial in the order they were first recorded; \
-         with one serial the plots name them on the axis, with several see the table."
+        "Builds are numbered 1, 2, … per serial in the order they were first recorded; a \
+         plot of one serial names them on its axis; for several serials see the table."
             .to_string(),
         "Error bars are ±1σ as each run recorded it; each quantity has its own scale, so a \
          jump of a few σ fills its plot."
@@ -128,7 +128,7 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
         figures_of_merit: ledger_figures_of_merit(runs, &rows, changes, serials),
         tables,
         figures: if full {
-            history_figures(&rows, serials == 1)?
+            history_figures(&rows)?
         } else {
             Vec::new()
         },

@@ -1,6 +1,6 @@
 //! Tests of the history section: a crossed limit, an empty ledger, a flagged jump.
 
-use super::trends::{trend_plot, TRENDS};
+use super::trends::{trend_plot, BUILD_AXIS, NAMED_BUILD_AXIS, TRENDS};
 use super::*;
 use crate::ledger::{changes, ChangeRules, RunId};
 use crate::report::plot::draw_xy;
@@ -94,7 +94,7 @@ fn a_flagged_15_nt_jump_fills_its_own_plot_and_builds_are_named() {
     ];
     let rows = build_rows(&runs, &kinds_of(&runs));
     let groups: Vec<&[BuildRow<'_>]> = vec![&rows[..]];
-    let plot = trend_plot(&TRENDS[1], &groups, true).unwrap();
+    let plot = trend_plot(&TRENDS[1], &groups).unwrap();
     let (_, (y0, y1)) = crate::report::plot::xy_ranges(&plot);
     assert!(
         15.0 / (y1 - y0) > 0.5,
@@ -110,4 +110,34 @@ fn a_flagged_15_nt_jump_fills_its_own_plot_and_builds_are_named() {
         svg.contains("B1") && svg.contains("B2"),
         "build names on the axis: {svg}"
     );
+}
+
+#[test]
+fn a_rod_beside_the_vehicle_keeps_the_vehicle_builds_named() {
+    // A rod's bench run has no hard iron: the hard-iron plot shows the vehicle alone
+    // and names its builds; with a second vehicle calibrated, numbers again.
+    let cal = json!({"hard_iron_nt": [1200.0, -750.0, 425.0],
+                     "hard_iron_sigma_nt": [2.0, 2.0, 2.0], "pass": true});
+    let mut rod = run(3, "R-1", "rod", true, json!({"pass": true}));
+    rod.serial = "ROD-1".into();
+    let mut runs = vec![
+        run(1, "B1", "calibrate", true, cal.clone()),
+        run(2, "B2", "calibrate", true, cal.clone()),
+        rod,
+    ];
+    let plot_of = |runs: &[Run]| {
+        let rows = build_rows(runs, &kinds_of(runs));
+        let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
+        assert!(groups.len() >= 2);
+        trend_plot(&TRENDS[1], &groups).unwrap()
+    };
+    let plot = plot_of(&runs);
+    assert_eq!(plot.x_names, ["B1", "B2"]);
+    assert_eq!(plot.x_label, NAMED_BUILD_AXIS);
+    let mut other = run(4, "C1", "calibrate", true, cal);
+    other.serial = "QX-8".into();
+    runs.push(other);
+    let plot = plot_of(&runs);
+    assert!(plot.x_names.is_empty());
+    assert_eq!(plot.x_label, BUILD_AXIS);
 }

@@ -8,10 +8,10 @@ use crate::report::sections::figure;
 use crate::Error;
 
 /// The build axis of the history plots: builds numbered in ledger order.
-const BUILD_AXIS: &str = "build [number in ledger order]";
+pub(super) const BUILD_AXIS: &str = "build [number in ledger order]";
 
 /// The build axis with one serial: the builds by name, in ledger order.
-const NAMED_BUILD_AXIS: &str = "build [name, in ledger order]";
+pub(super) const NAMED_BUILD_AXIS: &str = "build [name, in ledger order]";
 
 /// A limit drawn as a step across each build (±0.4 around its ordinal).
 fn limit_steps(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
@@ -86,16 +86,13 @@ pub(super) const TRENDS: [Trend; 5] = [
 ];
 
 /// The trend figures that have data, in the order of [`TRENDS`].
-pub(super) fn history_figures(
-    rows: &[BuildRow<'_>],
-    one_serial: bool,
-) -> Result<Vec<Figure>, Error> {
+pub(super) fn history_figures(rows: &[BuildRow<'_>]) -> Result<Vec<Figure>, Error> {
     // Rows come grouped by serial (see `build_rows`): each group is walked once, so the
     // figures cost time linear in the builds.
     let groups: Vec<&[BuildRow<'_>]> = rows.chunk_by(|a, b| a.serial == b.serial).collect();
     let mut figs = Vec::new();
     for t in &TRENDS {
-        if let Some(plot) = trend_plot(t, &groups, one_serial) {
+        if let Some(plot) = trend_plot(t, &groups) {
             figs.push(figure(t.file_name, t.caption, draw_xy(&plot)?));
         }
     }
@@ -103,18 +100,12 @@ pub(super) fn history_figures(
 }
 
 /// The plot of one trend: per serial, the value ±1σ at each build, a line through them,
-/// and the limit as a dashed step; `None` when no build has the quantity.
-pub(super) fn trend_plot(
-    t: &Trend,
-    groups: &[&[BuildRow<'_>]],
-    one_serial: bool,
-) -> Option<XyPlot> {
-    let x_label = if one_serial {
-        NAMED_BUILD_AXIS
-    } else {
-        BUILD_AXIS
-    };
-    let mut plot = XyPlot::new(t.title, x_label, t.y_label);
+/// and the limit as a dashed step; `None` when no build has the quantity. Builds are named
+/// on the axis when only one serial has the quantity (one serial in the ledger, or a
+/// vehicle's calibrations beside its rods' bench tests).
+pub(super) fn trend_plot(t: &Trend, groups: &[&[BuildRow<'_>]]) -> Option<XyPlot> {
+    let mut plot = XyPlot::new(t.title, BUILD_AXIS, t.y_label);
+    let mut plotted: Vec<usize> = Vec::new();
     let mut limits = Vec::new();
     for (k, g) in groups.iter().enumerate() {
         let mut pts = Vec::new();
@@ -130,6 +121,7 @@ pub(super) fn trend_plot(
             }
         }
         if !pts.is_empty() {
+            plotted.push(k);
             plot = plot
                 .with(Series::points("", pts.clone(), k % 3).with_sigma(sigma))
                 .with(Series::line(g[0].serial, pts, k % 3));
@@ -143,8 +135,9 @@ pub(super) fn trend_plot(
     }
     let n_builds = groups.iter().map(|g| g.len()).max().unwrap_or(1) as f64;
     plot.x_range = Some((0.5, n_builds + 0.5));
-    if one_serial {
-        plot.x_names = groups[0].iter().map(|r| r.build.to_string()).collect();
+    if let [k] = plotted.as_slice() {
+        plot.x_label = NAMED_BUILD_AXIS.to_string();
+        plot.x_names = groups[*k].iter().map(|r| r.build.to_string()).collect();
     }
     plot.size = (540, 340);
     Some(plot)
