@@ -7,13 +7,14 @@ use crate::ledger::{Change, Flag};
 /// Unit tags that end quantity names, dropped from labels (the unit is shown apart, so
 /// a label never names a unit of its own: `bias_i_solar_x_nt_per_unit` is shown as
 /// "bias i solar x" with its unit nT/A, not as "… nt per unit"). Longer tags first.
-const UNIT_TAGS: [&str; 9] = [
+const UNIT_TAGS: [&str; 10] = [
     "_nt_per_unit",
     "_nt_per_c",
     "_am2_per_a",
     "_pct",
     "_nt",
     "_am2",
+    "_deg_s",
     "_deg",
     "_s",
     "_1",
