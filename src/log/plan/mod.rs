@@ -9,6 +9,7 @@
 //! turn one into the other (using both).
 
 mod align;
+mod control;
 mod locate;
 mod orbit;
 mod parse;
@@ -20,6 +21,7 @@ mod tests;
 mod types;
 
 pub use align::AlignTest;
+pub use control::{ControlIntent, ControlLaw, ControlPlan};
 pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
 pub use rod_bench::{RodBench, RodLimits, RodPosition};
