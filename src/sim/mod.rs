@@ -3,6 +3,7 @@
 pub mod align;
 pub mod cage;
 pub mod dipole;
+pub mod loop_law;
 pub mod orbit;
 pub mod polarity;
 pub mod tumble;
