@@ -153,13 +153,13 @@ pub fn loop_section(r: &LoopResult) -> Result<Section, Error> {
         tables: vec![rods_table(r), gates_table(&r.gates)],
         figures,
         warnings: r.warnings(),
-        notes: notes(r),
+        notes: notes(),
         result: r.json()?,
     })
 }
 
-fn notes(r: &LoopResult) -> Vec<String> {
-    let mut n = vec![
+fn notes() -> Vec<String> {
+    vec![
         "Torque τ = m × B from the logged commands and the plan's rods (axis_body, \
          dipole_per_command_am2); power P = ω·τ; the σ of its mean allows for correlated \
          samples (the larger of the lag-1 effective-N and batch-means estimates). Energy is \
@@ -175,13 +175,5 @@ fn notes(r: &LoopResult) -> Vec<String> {
          bearing's limits, and follow the facility's procedures and the project's \
          verification authority. magproof informs that decision; it does not replace it."
             .into(),
-    ];
-    if !r.calibrated {
-        n.push(
-            "No calibration was applied: Ḃ and the rods' verdicts do not depend on a hard-iron \
-             offset, but the power in watts does."
-                .into(),
-        );
-    }
-    n
+    ]
 }
