@@ -417,7 +417,21 @@ fn rod_gates_and_warnings(
                 rod: f.name.clone(),
             });
         }
-        if matches!(f.verdict, RodVerdict::Unused | RodVerdict::Inconclusive) {
+        if f.verdict == RodVerdict::Unused {
+            continue;
+        }
+        if f.verdict == RodVerdict::Inconclusive {
+            // The rod cannot be judged: the verdict cannot pass on it.
+            gates.push(Gate::at_least(
+                format!("rod_{}_half_swings", f.name),
+                if f.correlation.is_some() {
+                    f.effective_samples
+                } else {
+                    0.0
+                },
+                rods::MIN_EFFECTIVE,
+                GateRole::Data,
+            ));
             continue;
         }
         let r = f.correlation.unwrap_or(0.0);

@@ -11,9 +11,13 @@
 //! `consistent` r ≥ 0.5 and ahead of every other rod's ideal by 0.2; `reversed`
 //! r ≤ −0.5; `cross-wired` another rod's ideal explains the command better (|r| larger
 //! by 0.2 and at least 0.5); `not-driven` none of these; `unused` a rod the spin law
-//! never needs (its ideal is nearly zero); `inconclusive` too few independent samples
-//! (the effective number from the lag-1 autocorrelations of both series,
-//! n (1 − ρ₁ρ₂)/(1 + ρ₁ρ₂), Bretherton et al. 1999, from memory).
+//! never needs (its ideal is nearly zero); `inconclusive` too few independent swings:
+//! neighbouring samples of a smooth rotation are alike, so the count of independent
+//! evidence is the number of half-swings of the ideal command (sign changes with a
+//! hysteresis of a tenth of its RMS) — each is one independent chance for the command
+//! to agree or disagree in sign. The autocorrelation-based effective N of Bretherton et
+//! al. 1999 was tried and rejected: a smooth periodic signal drives the lag-1 ρ to 1 and
+//! the estimate to a handful of samples however many turns the log holds.
 //!
 //! Saturation: a command at its limit (`[[rod]] command_max`, else the log's largest
 //! |command| when at least 2 % of the rows sit there) carries only its sign. Saturated
@@ -25,8 +29,6 @@
 use nalgebra::Vector3;
 use serde::Serialize;
 
-use super::stats::lag1;
-
 /// Least |r| to call a rod consistent or reversed.
 pub const R_MIN: f64 = 0.5;
 /// Margin by which the own ideal must beat every other rod's (and vice versa for
@@ -34,8 +36,8 @@ pub const R_MIN: f64 = 0.5;
 pub const LEAD_MIN: f64 = 0.2;
 /// Fewest unsaturated rows for a regression.
 pub const MIN_UNSATURATED: usize = 30;
-/// Fewest effective independent samples to judge a rod.
-pub const MIN_EFFECTIVE: f64 = 10.0;
+/// Fewest independent half-swings of the ideal command to judge a rod.
+pub const MIN_EFFECTIVE: f64 = 6.0;
 /// Share of rows at the log's largest |command| that marks a plateau (saturation).
 const PLATEAU_SHARE: f64 = 0.02;
 /// Relative tolerance of "at the limit".
@@ -104,7 +106,7 @@ pub struct RodFinding {
     pub command_limit: Option<f64>,
     /// Rows compared.
     pub samples: usize,
-    /// Effective independent samples.
+    /// Independent half-swings of the ideal command over the compared rows.
     pub effective_samples: f64,
 }
 
@@ -248,9 +250,11 @@ fn judge_one(
     } else {
         rows.len()
     };
-    let r1 = lag1(&cmd_all);
-    let r2 = lag1(&ideals[j]);
-    let effective_samples = n as f64 * (1.0 - r1 * r2).max(1e-6) / (1.0 + r1 * r2);
+    let compared: Vec<f64> = match comparison {
+        Comparison::Regression => keep.iter().map(|&q| ideals[j][q]).collect(),
+        Comparison::SignAgreement => ideals[j].clone(),
+    };
+    let effective_samples = half_swings(&compared) as f64;
     let driven = cmd_all.iter().any(|c| *c != 0.0);
     let r = own.map(|o| o.1);
     let verdict = if unused {
@@ -276,6 +280,30 @@ fn judge_one(
     }
 }
 
+/// Sign changes of `x` with a hysteresis of a tenth of its RMS.
+pub fn half_swings(x: &[f64]) -> usize {
+    let rms = (x.iter().map(|v| v * v).sum::<f64>() / x.len().max(1) as f64).sqrt();
+    let band = 0.1 * rms;
+    let mut state = 0i8;
+    let mut swings = 0;
+    for v in x {
+        let s = if *v > band {
+            1
+        } else if *v < -band {
+            -1
+        } else {
+            0
+        };
+        if s != 0 && s != state {
+            if state != 0 {
+                swings += 1;
+            }
+            state = s;
+        }
+    }
+    swings
+}
+
 /// The verdict from the own correlation and the best other rod's (module doc).
 pub fn classify(own: f64, other: Option<f64>) -> RodVerdict {
     let other = other.map_or(0.0, f64::abs);
@@ -295,6 +323,14 @@ mod tests {
     use super::*;
 
     #[test]
+    fn half_swings_count_sign_changes_beyond_the_hysteresis() {
+        let x: Vec<f64> = (0..1000).map(|k| (k as f64 * 0.0314159).sin()).collect();
+        assert_eq!(half_swings(&x), 9); // ten half-periods, nine changes
+        let wiggle = [1.0, 0.01, -0.01, 0.01, -0.01, 1.0];
+        assert_eq!(half_swings(&wiggle), 0);
+    }
+
+    #[test]
     fn verdicts_follow_the_thresholds() {
         assert_eq!(classify(0.95, Some(0.1)), RodVerdict::Consistent);
         assert_eq!(classify(-0.9, Some(0.05)), RodVerdict::Reversed);
@@ -307,8 +343,7 @@ mod tests {
     fn a_saturating_command_is_compared_on_its_unsaturated_rows() {
         // Ideal: a sine; command: the sine ×3 clipped at ±1 (most rows saturated),
         // limit from the plan.
-        // Long enough that the slow sine gives ten effective samples below the limit.
-        let n = 8000;
+        let n = 1000;
         let ideal: Vec<Vector3<f64>> = (0..n)
             .map(|k| Vector3::new((k as f64 * 0.05).sin(), 0.0, 0.0))
             .collect();
