@@ -62,6 +62,8 @@ pub struct LoopSimConfig {
     pub command_max: f64,
     /// Magnetometer mounting, sensor → body (the plan's).
     pub sensor_to_body: Matrix3<f64>,
+    /// Hard iron in the readings, sensor frame, nT (the software removes it exactly).
+    pub hard_iron_nt: Vector3<f64>,
     /// Faults.
     pub faults: Vec<LoopFault>,
 }
@@ -84,6 +86,7 @@ impl Default for LoopSimConfig {
             dipole_per_command_am2: 0.15,
             command_max: 1.0,
             sensor_to_body: Matrix3::new(0.0, -1.0, 0.0, 1.0, 0.0, 0.0, 0.0, 0.0, 1.0),
+            hard_iron_nt: Vector3::zeros(),
             faults: Vec::new(),
         }
     }
@@ -236,9 +239,11 @@ pub fn simulate_loop(cfg: &LoopSimConfig, seed: u64, log_name: &str) -> Result<L
     let rows = (cfg.duration_s * cfg.rate_hz).round() as usize;
     for k in 0..rows {
         let b_body = s.q.inverse_transform_vector(&cfg.field_inertial_nt);
-        let reading = body_to_sensor * b_body + Vector3::from_fn(|_, _| noise.sample(&mut rng));
+        let reading = body_to_sensor * b_body
+            + cfg.hard_iron_nt
+            + Vector3::from_fn(|_, _| noise.sample(&mut rng));
         let gyro = s.w.map(f64::to_degrees) + Vector3::from_fn(|_, _| gnoise.sample(&mut rng));
-        let b_sw = w.mag_to_body_sw * reading;
+        let b_sw = w.mag_to_body_sw * (reading - cfg.hard_iron_nt);
         let w_sw = gyro.component_mul(&w.gyro_sign).map(f64::to_radians);
         let bdot_sw = prev_b.map_or(Vector3::zeros(), |p| (b_sw - p) / dt);
         prev_b = Some(b_sw);

@@ -76,7 +76,7 @@ impl CheckResult for LoopResult {
             .map(|r| format!("{} {}", r.name, r.verdict.word()))
             .collect();
         format!(
-            "{} law: power {:+.3} ± {:.3} µW ({} energy); rods {}",
+            "{} law: power {:+.3} ± {:.3} µW, energy {}; rods {}",
             match self.law {
                 crate::log::plan::ControlLaw::Bdot => "B-dot",
                 crate::log::plan::ControlLaw::Rate => "rate",
