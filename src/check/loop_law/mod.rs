@@ -338,7 +338,8 @@ pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
 
 /// "removes", "adds" or "none" from a mean and its σ.
 pub fn energy_of(mean: f64, sigma: f64) -> Energy {
-    if !(mean.abs() >= SIGNIFICANCE * sigma) || !sigma.is_finite() {
+    let significant = mean.is_finite() && sigma.is_finite() && mean.abs() >= SIGNIFICANCE * sigma;
+    if !significant {
         Energy::None
     } else if mean < 0.0 {
         Energy::Removes

@@ -86,8 +86,8 @@ fn slope(t: &[f64], lo: usize, hi: usize, y: impl Fn(usize) -> f64) -> f64 {
     let tm = (lo..=hi).map(|k| t[k]).sum::<f64>() / n;
     let ym = (lo..=hi).map(&y).sum::<f64>() / n;
     let (mut num, mut den) = (0.0, 0.0);
-    for k in lo..=hi {
-        let dt = t[k] - tm;
+    for (k, tk) in t.iter().enumerate().take(hi + 1).skip(lo) {
+        let dt = tk - tm;
         num += dt * (y(k) - ym);
         den += dt * dt;
     }
