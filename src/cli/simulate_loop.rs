@@ -26,7 +26,8 @@ pub struct LoopArgs {
     law: Option<LawArg>,
     /// Loop: a fault, repeatable: rod-sign:AXIS (software command sign), rod-wiring:AXIS
     /// (harness backwards), gyro-sign:AXIS (software gyro sign), swap-sensor:A,B
-    /// (software magnetometer mapping swaps two body axes); AXIS is x, y or z.
+    /// (software magnetometer mapping swaps two body axes), swap-commands:A,B (software
+    /// sends rod A's command to rod B and B's to A); AXIS is x, y or z.
     #[arg(long, value_name = "FAULT")]
     fault: Vec<String>,
     /// Loop: initial body rate, deg/s: X,Y,Z [default: 4,-3,6].
@@ -51,6 +52,20 @@ fn axis(s: &str) -> Result<usize, Error> {
     }
 }
 
+/// The two different axes A,B of a swap fault (`s` is the whole value, for messages).
+fn pair(s: &str, rest: &str) -> Result<(usize, usize), Error> {
+    let (a, b) = rest
+        .split_once(',')
+        .ok_or_else(|| Error::Usage(format!("--fault {s:?}: a swap needs two axes A,B")))?;
+    let (a, b) = (axis(a)?, axis(b)?);
+    if a == b {
+        return Err(Error::Usage(format!(
+            "--fault {s:?}: swap two different axes"
+        )));
+    }
+    Ok((a, b))
+}
+
 /// One `--fault` value.
 fn fault(s: &str) -> Result<LoopFault, Error> {
     let (kind, rest) = s.split_once(':').ok_or_else(|| {
@@ -63,20 +78,11 @@ fn fault(s: &str) -> Result<LoopFault, Error> {
         "rod-sign" => Ok(LoopFault::RodSign(axis(rest)?)),
         "rod-wiring" => Ok(LoopFault::RodWiring(axis(rest)?)),
         "gyro-sign" => Ok(LoopFault::GyroSign(axis(rest)?)),
-        "swap-sensor" => {
-            let (a, b) = rest.split_once(',').ok_or_else(|| {
-                Error::Usage(format!("--fault {s:?}: swap-sensor needs two axes A,B"))
-            })?;
-            let (a, b) = (axis(a)?, axis(b)?);
-            if a == b {
-                return Err(Error::Usage(format!(
-                    "--fault {s:?}: swap two different axes"
-                )));
-            }
-            Ok(LoopFault::SwapSensor(a, b))
-        }
+        "swap-sensor" => pair(s, rest).map(|(a, b)| LoopFault::SwapSensor(a, b)),
+        "swap-commands" => pair(s, rest).map(|(a, b)| LoopFault::SwapCommands(a, b)),
         other => Err(Error::Usage(format!(
-            "--fault {s:?}: \"{other}\" is not rod-sign, rod-wiring, gyro-sign or swap-sensor"
+            "--fault {s:?}: \"{other}\" is not rod-sign, rod-wiring, gyro-sign, swap-sensor \
+             or swap-commands"
         ))),
     }
 }

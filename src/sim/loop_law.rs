@@ -31,6 +31,8 @@ pub enum LoopFault {
     GyroSign(usize),
     /// Rod i's harness is wired backwards (hardware: the dipole opposes the command).
     RodWiring(usize),
+    /// The software sends the command meant for rod i to rod j and the one for j to i.
+    SwapCommands(usize, usize),
 }
 
 /// What to simulate.
@@ -182,6 +184,8 @@ struct Wiring {
     gyro_sign: Vector3<f64>,
     cmd_sign: Vector3<f64>,
     wiring_sign: Vector3<f64>,
+    /// Software command routing: rod i receives the command computed for rod `route[i]`.
+    cmd_route: Matrix3<f64>,
 }
 
 fn wiring(cfg: &LoopSimConfig) -> Result<Wiring, Error> {
@@ -191,6 +195,7 @@ fn wiring(cfg: &LoopSimConfig) -> Result<Wiring, Error> {
         gyro_sign: Vector3::repeat(1.0),
         cmd_sign: Vector3::repeat(1.0),
         wiring_sign: Vector3::repeat(1.0),
+        cmd_route: Matrix3::identity(),
     };
     let axis = |i: usize| {
         (i < 3)
@@ -203,6 +208,7 @@ fn wiring(cfg: &LoopSimConfig) -> Result<Wiring, Error> {
             LoopFault::GyroSign(i) => w.gyro_sign[axis(i)?] = -1.0,
             LoopFault::RodWiring(i) => w.wiring_sign[axis(i)?] = -1.0,
             LoopFault::SwapSensor(i, k) => p.swap_rows(axis(i)?, axis(k)?),
+            LoopFault::SwapCommands(i, k) => w.cmd_route.swap_rows(axis(i)?, axis(k)?),
         }
     }
     w.mag_to_body_sw = p * cfg.sensor_to_body;
@@ -251,7 +257,7 @@ pub fn simulate_loop(cfg: &LoopSimConfig, seed: u64, log_name: &str) -> Result<L
             ControlLaw::Bdot => -bdot_sw * cfg.gain,
             ControlLaw::Rate => w_sw.cross(&b_sw) * cfg.gain,
         };
-        let cmd = (m_sw / cfg.dipole_per_command_am2)
+        let cmd = (w.cmd_route * m_sw / cfg.dipole_per_command_am2)
             .component_mul(&w.cmd_sign)
             .map(|c| c.clamp(-cfg.command_max, cfg.command_max));
         let _ = write!(

@@ -1,8 +1,9 @@
 //! `magproof simulate loop` → `magproof loop`: the binary passes a correct law, names a
 //! wrong software sign on y as `reversed`, a swapped sensor mapping as cross-wired or
-//! reversed, catches a gyro sign fault under the rate law, handles saturated commands,
-//! calls too little motion inconclusive, refuses bad input with exit 2 naming file, line
-//! and key, and its closeout step reaches the ledger.
+//! reversed, commands sent to the wrong rods as cross-wired, catches a gyro sign fault
+//! under the rate law, handles saturated commands, calls too little motion inconclusive,
+//! refuses bad input with exit 2 naming file, line and key, and its closeout step reaches
+//! the ledger.
 
 use crate::util::{assert_code, assert_stderr_has, json_stdout, stdout, TestDir};
 
@@ -75,6 +76,19 @@ fn a_swapped_sensor_mapping_is_cross_wired_or_reversed() {
         assert!(r == "cross-wired" || r == "reversed", "{v:?}");
     }
     assert_eq!(v[2], "consistent");
+}
+
+#[test]
+fn commands_sent_to_the_wrong_rods_are_cross_wired() {
+    let dir = TestDir::new();
+    let (code, j) = simulate_and_check(&dir, &["--fault", "swap-commands:x,y"]);
+    assert_eq!(code, 1, "{j}");
+    assert_eq!(
+        rod_verdicts(&j),
+        ["cross-wired", "cross-wired", "consistent"],
+        "{j}"
+    );
+    assert_eq!(j["rods"][0]["best_other"][0], "y");
 }
 
 #[test]
