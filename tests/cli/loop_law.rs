@@ -146,7 +146,7 @@ fn a_plan_without_control_or_with_a_bad_law_is_refused_by_file_line_and_key() {
         0,
     );
     let plan = std::fs::read_to_string(dir.join("plan.toml")).unwrap();
-    dir.write("bad.toml", &plan.replace("law = \"bdot\"", "law = \"pd\""));
+    dir.write("bad.toml", plan.replace("law = \"bdot\"", "law = \"pd\""));
     let out = dir.run(&["loop", "loop.csv", "--plan", "bad.toml"]);
     assert_code(&out, 2);
     assert_stderr_has(&out, &["bad.toml", "control.law", "pd"]);
@@ -196,6 +196,6 @@ fn the_plan_step_runs_in_closeout_and_reaches_the_ledger_and_history() {
     let out = dir.run(&["history", "--ledger", ledger, "--kind", "loop", "--json"]);
     assert_code(&out, 0);
     let text = stdout(&out);
-    assert!(text.contains("loop_power_mean_w"), "{text}");
+    assert!(text.contains("loop_power_mean_uw"), "{text}");
     assert!(text.contains("loop_rod_y"), "{text}");
 }

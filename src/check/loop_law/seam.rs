@@ -31,16 +31,17 @@ fn run_step(input: &CheckInput, plan: &Plan) -> Result<Box<dyn CheckResult>, Err
 impl CheckResult for LoopResult {
     crate::result_basics!(KIND);
 
-    /// `loop_power_mean_w` with its 1σ, `loop_energy` as a word, and per rod
-    /// `loop_rod_<name>_slope` / `loop_rod_<name>_correlation` (dimensionless) and
-    /// `loop_rod_<name>` as its verdict word.
+    /// `loop_power_mean_uw` (µW, the scale of a table test, so history reads
+    /// `-0.50 ± 0.15 µW` rather than a row of zeros) with its 1σ, `loop_energy` as a
+    /// word, and per rod `loop_rod_<name>_slope` / `loop_rod_<name>_correlation`
+    /// (dimensionless) and `loop_rod_<name>` as its verdict word.
     fn quantities(&self) -> Vec<Quantity> {
         let mut out = vec![
             Quantity::number(
-                "loop_power_mean_w".into(),
-                "W",
-                self.power_mean_w,
-                Some(self.power_sigma_w),
+                "loop_power_mean_uw".into(),
+                "µW",
+                self.power_mean_w * 1e6,
+                Some(self.power_sigma_w * 1e6),
             ),
             Quantity::verdict("loop_energy".into(), energy_word(self)),
         ];
