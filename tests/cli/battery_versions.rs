@@ -78,16 +78,17 @@ fn a_closeout_rerun_by_a_new_version_is_recorded_and_says_so() {
         "{}",
         stdout(&again)
     );
-    assert_eq!(count_runs(&db), 3);
+    // Four steps: calibrate, polarity, dipole, loop.
+    assert_eq!(count_runs(&db), 4);
 
-    // The same three runs, as magproof 0.0.9 recorded them.
+    // The same four runs, as magproof 0.0.9 recorded them.
     let options = serde_json::json!({ "skip_bad_rows": false });
-    assert_eq!(rewrite_as_old(&db, &options), 3);
+    assert_eq!(rewrite_as_old(&db, &options), 4);
 
     let out = close();
     let text = stdout(&out);
-    assert_eq!(count_runs(&db), 6, "{text}");
-    for (step, old, new) in [(1, 1, 4), (2, 2, 5), (3, 3, 6)] {
+    assert_eq!(count_runs(&db), 8, "{text}");
+    for (step, old, new) in [(1, 1, 5), (2, 2, 6), (3, 3, 7), (4, 4, 8)] {
         assert!(
             text.contains(&format!("recorded as run #{new}")),
             "step {step}: {text}"
@@ -102,12 +103,12 @@ fn a_closeout_rerun_by_a_new_version_is_recorded_and_says_so() {
     // And this version's runs dedupe as before.
     let out = close();
     assert!(
-        stdout(&out).matches("not recorded again").count() == 3,
+        stdout(&out).matches("not recorded again").count() == 4,
         "{}",
         stdout(&out)
     );
     assert!(!stdout(&out).contains(OLD), "{}", stdout(&out));
-    assert_eq!(count_runs(&db), 6);
+    assert_eq!(count_runs(&db), 8);
 }
 
 #[test]

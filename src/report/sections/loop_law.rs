@@ -87,8 +87,8 @@ fn power_figure(r: &LoopResult) -> Result<Figure, Error> {
 fn scatter_figure(r: &LoopResult) -> Result<Figure, Error> {
     let mut plot = XyPlot::new(
         "Each rod's command against the law's ideal command",
-        "ideal command (unit RMS) [1]",
-        "logged command (unit RMS) [1]",
+        "ideal command [× its RMS]",
+        "logged command [× its RMS]",
     );
     for (k, (name, pts)) in r.samples.scatter.iter().enumerate() {
         plot = plot.with(Series::points(&format!("rod {name}"), pts.clone(), k % 6));
