@@ -12,6 +12,7 @@ pub mod rods;
 pub mod seam;
 pub mod signals;
 pub mod stats;
+mod terms;
 #[cfg(test)]
 mod tests;
 mod warning;
@@ -29,6 +30,9 @@ use super::CheckRequest;
 use crate::log::plan::{ControlIntent, ControlLaw};
 use crate::log::Plan;
 use crate::Error;
+use terms::{
+    excitation_gates, ideal_damp, ideal_spin, motion, report_samples, sign_gates, spin_term,
+};
 
 /// Fewest rows with a whole derivative window and a rate.
 pub const MIN_SAMPLES: usize = 100;
@@ -196,13 +200,8 @@ fn rod_commands(
     Ok((cmds, k))
 }
 
-/// Run the loop check.
-pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
-    let plan = req.require_plan("loop", "its [control] law and [[rod]] axes")?;
-    let control = plan
-        .control
-        .as_ref()
-        .ok_or_else(|| plan.missing("control", "loop checks the law it names (bdot or rate)"))?;
+/// The input builder's warnings and those the plan and options raise before any sum.
+fn opening_warnings(req: &LoopRequest, law: ControlLaw) -> Vec<LoopWarning> {
     let mut warnings: Vec<LoopWarning> = req
         .input
         .warnings
@@ -213,9 +212,31 @@ pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
     if req.options.calibration.is_none() {
         warnings.push(LoopWarning::NoCalibration);
     }
-    if control.law == ControlLaw::Rate && req.input.log.gyro_rad_s.is_none() {
+    if law == ControlLaw::Rate && req.input.log.gyro_rad_s.is_none() {
         warnings.push(LoopWarning::RateLawWithoutGyro);
     }
+    warnings
+}
+
+/// The spin axis (body frame) and target rate (deg/s) the result echoes; none for damp.
+fn spin_echo(intent: ControlIntent) -> (Option<[f64; 3]>, Option<f64>) {
+    match intent {
+        ControlIntent::Spin {
+            axis_body,
+            rate_rad_s,
+        } => (Some(axis_body), Some(rate_rad_s.to_degrees())),
+        ControlIntent::Damp => (None, None),
+    }
+}
+
+/// Run the loop check.
+pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
+    let plan = req.require_plan("loop", "its [control] law and [[rod]] axes")?;
+    let control = plan
+        .control
+        .as_ref()
+        .ok_or_else(|| plan.missing("control", "loop checks the law it names (bdot or rate)"))?;
+    let mut warnings = opening_warnings(req, control.law);
     let (cmds, k) = rod_commands(req, plan, &mut warnings)?;
     let sig = signals::signals(req, &cmds, &mut warnings)?;
     let rows: Vec<usize> = (0..sig.used.len()).filter(|&i| sig.used[i]).collect();
@@ -234,30 +255,8 @@ pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
         .collect();
     let p = stats::mean_sigma(&power);
     let energy = energy_of(p.mean, p.sigma);
-    let n = rows.len().max(1) as f64;
-    let rate_rms_deg_s = (rows
-        .iter()
-        .map(|&i| sig.rate_body_rad_s[i].norm_squared())
-        .sum::<f64>()
-        / n)
-        .sqrt()
-        .to_degrees();
-    let field_mean_nt = rows.iter().map(|&i| sig.b_body_nt[i].norm()).sum::<f64>() / n;
-    let mut gates = vec![
-        Gate::at_least(
-            "samples",
-            rows.len() as f64,
-            MIN_SAMPLES as f64,
-            GateRole::Data,
-        ),
-        Gate::at_least(
-            "rate_rms_deg_s",
-            rate_rms_deg_s,
-            MIN_RATE_DEG_S,
-            GateRole::Data,
-        ),
-        Gate::at_least("field_mean_nt", field_mean_nt, MIN_FIELD_NT, GateRole::Data),
-    ];
+    let (rate_rms_deg_s, field_mean_nt) = motion(&sig, &rows);
+    let mut gates = excitation_gates(rows.len(), rate_rms_deg_s, field_mean_nt);
     let excited = gates.iter().all(|g| g.ok);
     let (spin, ideal) = match control.intent {
         ControlIntent::Damp => {
@@ -269,22 +268,8 @@ pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
             rate_rad_s,
         } => {
             let a = Vector3::from(axis_body);
-            let term: Vec<f64> = rows
-                .iter()
-                .map(|&i| (sig.rate_body_rad_s[i].dot(&a) - rate_rad_s) * torque(i).dot(&a))
-                .collect();
-            let s = stats::mean_sigma(&term);
-            gates.extend(sign_gates("spin", s.mean, s.sigma));
-            let about = rows
-                .iter()
-                .map(|&i| sig.rate_body_rad_s[i].dot(&a))
-                .sum::<f64>()
-                / n;
-            let spin = SpinTerm {
-                mean_w: s.mean,
-                sigma_w: s.sigma,
-                rate_about_axis_deg_s: about.to_degrees(),
-            };
+            let spin = spin_term(&sig, &rows, a, rate_rad_s, &torque);
+            gates.extend(sign_gates("spin", spin.mean_w, spin.sigma_w));
             (Some(spin), ideal_spin(&sig, a, rate_rad_s))
         }
     };
@@ -304,13 +289,7 @@ pub fn run_loop(req: &LoopRequest) -> Result<LoopResult, Error> {
     rod_gates_and_warnings(plan, &findings, &mut gates, &mut warnings);
     let verdict = Verdict::from_gates(&gates);
     let samples = report_samples(&sig, &rows, &power, &inputs, &ideal);
-    let (spin_axis_body, spin_rate_deg_s) = match control.intent {
-        ControlIntent::Spin {
-            axis_body,
-            rate_rad_s,
-        } => (Some(axis_body), Some(rate_rad_s.to_degrees())),
-        ControlIntent::Damp => (None, None),
-    };
+    let (spin_axis_body, spin_rate_deg_s) = spin_echo(control.intent);
     Ok(LoopResult {
         law: control.law,
         intent: if spin_intent { "spin" } else { "damp" },
@@ -346,43 +325,6 @@ pub fn energy_of(mean: f64, sigma: f64) -> Energy {
     } else {
         Energy::Adds
     }
-}
-
-/// The two gates on a mean that must be negative: added beyond 3σ fails the article;
-/// not removed beyond 3σ leaves the data unable to answer.
-fn sign_gates(name: &str, mean: f64, sigma: f64) -> [Gate; 2] {
-    let z = if sigma > 0.0 { mean / sigma } else { f64::NAN };
-    [
-        Gate::at_most(
-            format!("{name}_added_sigmas"),
-            z,
-            SIGNIFICANCE,
-            GateRole::Article,
-        ),
-        Gate::at_least(
-            format!("{name}_removed_sigmas"),
-            -z,
-            SIGNIFICANCE,
-            GateRole::Data,
-        ),
-    ]
-}
-
-/// The damping law's ideal dipole per row (body frame, up to a positive gain).
-fn ideal_damp(law: ControlLaw, sig: &signals::Signals) -> Vec<Vector3<f64>> {
-    (0..sig.used.len())
-        .map(|i| match law {
-            ControlLaw::Bdot => -sig.bdot_body_nt_s[i],
-            ControlLaw::Rate => sig.rate_body_rad_s[i].cross(&sig.b_body_nt[i]),
-        })
-        .collect()
-}
-
-/// The spin law's ideal dipole per row: (ω_t − ω·a)(B × a).
-fn ideal_spin(sig: &signals::Signals, a: Vector3<f64>, target: f64) -> Vec<Vector3<f64>> {
-    (0..sig.used.len())
-        .map(|i| sig.b_body_nt[i].cross(&a) * (target - sig.rate_body_rad_s[i].dot(&a)))
-        .collect()
 }
 
 fn derivative_window_s(sig: &signals::Signals) -> f64 {
@@ -449,44 +391,5 @@ fn rod_gates_and_warnings(
             rods::LEAD_MIN,
             GateRole::Article,
         ));
-    }
-}
-
-/// Thinned series for the report's plots.
-fn report_samples(
-    sig: &signals::Signals,
-    rows: &[usize],
-    power: &[f64],
-    rods: &[rods::RodInput],
-    ideal: &[Vector3<f64>],
-) -> LoopSamples {
-    let step = (rows.len() / 3000).max(1);
-    let t0 = sig.t_s.first().copied().unwrap_or(0.0);
-    let rms = |v: &[f64]| (v.iter().map(|x| x * x).sum::<f64>() / v.len().max(1) as f64).sqrt();
-    LoopSamples {
-        power: rows
-            .iter()
-            .zip(power)
-            .step_by(step)
-            .map(|(&i, p)| (sig.t_s[i] - t0, *p))
-            .collect(),
-        scatter: rods
-            .iter()
-            .map(|r| {
-                let c: Vec<f64> = rows.iter().map(|&i| r.command[i]).collect();
-                let id: Vec<f64> = rows.iter().map(|&i| r.axis_body.dot(&ideal[i])).collect();
-                let (rc, ri) = (
-                    rms(&c).max(f64::MIN_POSITIVE),
-                    rms(&id).max(f64::MIN_POSITIVE),
-                );
-                let pts = c
-                    .iter()
-                    .zip(&id)
-                    .step_by(step.max(rows.len() / 1500).max(1))
-                    .map(|(c, i)| (i / ri, c / rc))
-                    .collect();
-                (r.name.to_string(), pts)
-            })
-            .collect(),
     }
 }
