@@ -199,3 +199,26 @@ fn the_plan_step_runs_in_closeout_and_reaches_the_ledger_and_history() {
     assert!(text.contains("loop_power_mean_uw"), "{text}");
     assert!(text.contains("loop_rod_y"), "{text}");
 }
+
+#[test]
+fn the_report_shows_both_plots_and_the_cautions_of_a_closed_loop_test() {
+    let dir = TestDir::new();
+    assert_code(
+        &dir.run(&["simulate", "loop", "--seed", "3", "--out", "."]),
+        0,
+    );
+    let out = dir.run(&["loop", "loop.csv", "--plan", "plan.toml", "--report", "rep"]);
+    assert_code(&out, 0);
+    let html = std::fs::read_to_string(dir.join("rep/report.html")).unwrap();
+    let section = &html[html.find("id=\"loop\"").expect("a loop section")..];
+    // Power over time and each rod's command against its ideal command.
+    assert!(section.matches("<svg").count() >= 2, "plots missing");
+    for caution in [
+        "rated current and duty",
+        "pacemakers",
+        "procedures",
+        "verification authority",
+    ] {
+        assert!(section.contains(caution), "caution missing: {caution}");
+    }
+}

@@ -171,9 +171,11 @@ fn notes() -> Vec<String> {
          table proves neither; align, polarity and this check each judge one element."
             .into(),
         "Caution: during this test the flight software drives the rods; keep the rods within \
-         their rated current and duty, keep the article's motion within the table's or \
-         bearing's limits, and follow the facility's procedures and the project's \
-         verification authority. magproof informs that decision; it does not replace it."
+         their rated current and duty, keep people with pacemakers or other implants away \
+         from the energised rods and any strong fields nearby, keep the article's motion \
+         within the table's or bearing's limits, handle the flight hardware as the facility \
+         requires, and follow the facility's procedures and the project's verification \
+         authority. magproof informs that decision; it does not replace it."
             .into(),
     ]
 }
