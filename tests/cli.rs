@@ -42,6 +42,8 @@ mod history;
 mod input;
 #[path = "cli/log_forms.rs"]
 mod log_forms;
+#[path = "cli/loop_law.rs"]
+mod loop_law;
 #[path = "cli/orbit.rs"]
 mod orbit;
 #[path = "cli/orbit_ground.rs"]

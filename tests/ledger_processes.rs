@@ -258,14 +258,15 @@ fn demo_force_starts_its_ledger_afresh_with_no_stale_side_files() {
     let runs = ledger.runs(&RunFilter::default()).unwrap();
     assert_eq!(
         runs.len(),
-        16,
-        "three builds of three steps, the on-orbit pass, three rods on the bench, \
-         three alignment runs"
+        25,
+        "three builds of four steps and a sign chain, each build's alignment run and its \
+         sign chain, the on-orbit pass, three rods on the bench"
     );
     let vehicle = runs.iter().filter(|r| r.serial == "TMR-0207").count();
     assert_eq!(
-        vehicle, 13,
-        "three builds of three steps and an alignment run each, then the on-orbit pass"
+        vehicle, 22,
+        "three builds of four steps and a sign chain, each build's alignment run and its \
+         sign chain, then the on-orbit pass"
     );
     assert!(runs
         .iter()

@@ -93,6 +93,7 @@ pub fn specs() -> &'static [CheckSpec] {
             super::align::seam::SPEC,
             super::rod::seam::SPEC,
             super::orbit::seam::SPEC,
+            super::loop_law::seam::SPEC,
         ];
         #[cfg(test)]
         specs.push(super::dummy::SPEC);

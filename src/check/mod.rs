@@ -17,6 +17,7 @@ pub mod flight_part;
 pub mod input;
 mod input_forms;
 pub mod kind;
+pub mod loop_law;
 pub mod orbit;
 pub mod outcome;
 pub mod polarity;

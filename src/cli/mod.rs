@@ -35,6 +35,7 @@ mod field;
 mod flight_out;
 mod history;
 mod inspect;
+mod loop_law;
 mod numeric;
 mod orbit;
 mod polarity;
@@ -44,6 +45,7 @@ mod report_out;
 mod rod;
 mod simulate;
 mod simulate_align;
+mod simulate_loop;
 
 use clap::{Parser, Subcommand};
 
@@ -84,6 +86,8 @@ enum Command {
     Calibrate(calibrate::Args),
     /// Calibrate the magnetometer from on-orbit telemetry against IGRF-14 along the orbit.
     Orbit(orbit::Args),
+    /// The sign of the flight software's control law, from a closed-loop log.
+    Loop(loop_law::Args),
     /// Write a synthetic log, its plan and the truth behind them, for rehearsal and tests.
     Simulate(Box<simulate::Args>),
     /// The whole closeout of the bundled, invented demo scenario (three builds), from any folder.
@@ -104,6 +108,7 @@ pub fn run() -> anyhow::Result<Outcome> {
         Command::Rod(args) => rod::run(args),
         Command::Calibrate(args) => calibrate::run(args),
         Command::Orbit(args) => orbit::run(args),
+        Command::Loop(args) => loop_law::run(args),
         Command::Simulate(args) => simulate::run(*args),
         Command::Demo(args) => demo::run(args),
     }

@@ -1,4 +1,4 @@
-//! `magproof simulate tumble|cage|polarity|dipole|rod|orbit --seed N --out DIR [options]`: a
+//! `magproof simulate tumble|cage|polarity|dipole|rod|orbit|loop --seed N --out DIR [options]`: a
 //! synthetic log, a matching plan and the truth behind them (JSON), from the simulators
 //! in `magproof::sim`, so that a check can be rehearsed and its answer compared with the
 //! truth. Files are written atomically; an existing non-empty DIR needs `--force`.
@@ -38,6 +38,8 @@ enum Kind {
     Rod,
     /// On-orbit telemetry from a two-line element set, with regressors and a tumble.
     Orbit,
+    /// A closed-loop run: a flight control law driving the rods of a turning body.
+    Loop,
 }
 
 /// How an orbit log gives positions.
@@ -128,6 +130,8 @@ pub struct Args {
     moment_am2: Option<Vector3<f64>>,
     #[command(flatten)]
     align: super::simulate_align::AlignArgs,
+    #[command(flatten)]
+    loop_law: super::simulate_loop::LoopArgs,
     /// Dipole/align: number of turntable mounts (1 = upright only, 2 = upright and on-side;
     /// align also 3 = and on the other side, so that a gyro is spun about every axis).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=3), allow_hyphen_values = true)]
@@ -206,6 +210,7 @@ fn simulate(args: &Args) -> Result<Vec<SimFile>, Error> {
         ),
         Kind::Rod => rod_files(args),
         Kind::Orbit => orbit_files(args),
+        Kind::Loop => super::simulate_loop::loop_files(&args.loop_law, args.seed, args.noise_nt),
     }
 }
 

@@ -4,6 +4,7 @@ pub mod align;
 pub mod align_gyro;
 pub mod cage;
 pub mod dipole;
+pub mod loop_law;
 pub mod orbit;
 pub mod polarity;
 pub mod tumble;

@@ -2,7 +2,9 @@
 //! through three builds, each with a test plan, a tumble log, a torque-rod pulse log and
 //! a turntable log, all simulated from fixed seeds with the simulators of this module.
 //!
-//! - B1: the y torque rod is wired backwards; the polarity step catches it.
+//! - B1: the y torque rod is wired backwards; the polarity step catches it. The flight
+//!   software's y command sign is wrong too (the two cancel on the air bearing); the
+//!   loop step catches that as a `reversed` rod.
 //! - B2: the harness is fixed; every step passes.
 //! - B3: a battery-heater bracket with a magnetised steel insert was added in the lower
 //!   bay; the residual dipole jumps well beyond its combined uncertainty (history flags
@@ -202,10 +204,17 @@ fn plan_toml(b: &BuildTruth) -> String {
             mat3(&m.body_to_table)
         );
     }
+    // The closed-loop run on the air bearing: the flight law and its gyro.
+    let _ = writeln!(
+        s,
+        "\n[gyro]\nsensor_to_body = [[1, 0, 0], [0, 1, 0], [0, 0, 1]]\n\n\
+         [control]\nlaw = \"bdot\"\ngain = {LOOP_GAIN:e}\n"
+    );
     for (kind, log) in [
         ("calibrate", "tumble.csv"),
         ("polarity", "rod-pulses.csv"),
         ("dipole", "turntable.csv"),
+        ("loop", "loop.csv"),
     ] {
         let _ = write!(s, "\n[[step]]\nkind = \"{kind}\"\nlog = \"{log}\"\n");
     }
@@ -272,7 +281,33 @@ pub fn build_files(b: &BuildTruth) -> Result<Vec<(String, String)>, Error> {
         (format!("{dir}/tumble.csv"), tumble_csv),
         (format!("{dir}/rod-pulses.csv"), pol.csv),
         (format!("{dir}/turntable.csv"), turn.log_csv),
+        (format!("{dir}/loop.csv"), loop_csv(b)?),
     ])
+}
+
+/// The B-dot gain of the vehicle's flight software, A·m² per nT/s.
+const LOOP_GAIN: f64 = 2.0e-5;
+
+/// The closed-loop run of a build on the air bearing: the flight B-dot law at 10 Hz for
+/// 300 s, from a tumble of about 11 deg/s. In B1 the software's y command sign is wrong as well as the y harness — the
+/// two cancel and the article detumbles, which is why each is proved on its own.
+fn loop_csv(b: &BuildTruth) -> Result<String, Error> {
+    use crate::sim::loop_law::{simulate_loop, LoopFault, LoopSimConfig};
+    let cfg = LoopSimConfig {
+        duration_s: 300.0,
+        rate0_deg_s: Vector3::new(6.0, -5.0, 8.0),
+        gain: LOOP_GAIN,
+        sensor_to_body: sensor_to_body(),
+        hard_iron_nt: b.hard_iron_nt,
+        field_inertial_nt: Vector3::new(22_240.0, 1_260.0, 42_410.0),
+        faults: if b.y_rod_reversed {
+            vec![LoopFault::RodSign(1), LoopFault::RodWiring(1)]
+        } else {
+            Vec::new()
+        },
+        ..LoopSimConfig::default()
+    };
+    Ok(simulate_loop(&cfg, b.seeds[2] + 50, "loop.csv")?.csv)
 }
 
 /// Every file of the scenario except the README: (path relative to `sample-logs/`, text).
@@ -351,7 +386,7 @@ mod tests {
             let plan = crate::log::plan::parse_plan(&plan_toml(&b), std::path::Path::new("p.toml"))
                 .unwrap();
             assert_eq!(plan.rods.len(), 3);
-            assert_eq!(plan.steps.len(), 3);
+            assert_eq!(plan.steps.len(), 4);
             assert_eq!(plan.dipole_test.unwrap().mounts.len(), 2);
         }
     }

@@ -165,6 +165,21 @@ const FLAGS: &[(&str, &[&str], &[&str])] = &[
         &["rod", "rod.csv", "--plan", "plan.toml"],
         &["0"],
     ),
+    (
+        "--rate-deg-s",
+        &["simulate", "loop", "--seed", "1", "--out", "sim"],
+        &["0,0,inf", "400,0,0"],
+    ),
+    (
+        "--smooth-s",
+        &["loop", "loop.csv", "--plan", "plan.toml"],
+        &["0", "-1", "601"],
+    ),
+    (
+        "--range",
+        &["loop", "loop.csv", "--plan", "plan.toml"],
+        &["0"],
+    ),
 ];
 
 /// Flags that take a value that is not a number (paths, names, choices, dates), per
@@ -190,6 +205,8 @@ const NOT_NUMBERS: &[&str] = &[
     "--serial",
     "--kind",
     "--export",
+    "--law",
+    "--fault",
 ];
 
 const COMMANDS: &[&str] = &[
@@ -204,6 +221,7 @@ const COMMANDS: &[&str] = &[
     "history",
     "demo",
     "orbit",
+    "loop",
 ];
 
 #[test]

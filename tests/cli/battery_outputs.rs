@@ -13,7 +13,13 @@ pub fn sample(d: &TestDir, build: &str) -> &'static str {
     let src = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("sample-logs")
         .join(format!("tmr-0207-{build}"));
-    for name in ["plan.toml", "rod-pulses.csv", "tumble.csv", "turntable.csv"] {
+    for name in [
+        "plan.toml",
+        "rod-pulses.csv",
+        "tumble.csv",
+        "turntable.csv",
+        "loop.csv",
+    ] {
         d.write(name, std::fs::read(src.join(name)).unwrap());
     }
     "plan.toml"

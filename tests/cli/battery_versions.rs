@@ -78,17 +78,18 @@ fn a_closeout_rerun_by_a_new_version_is_recorded_and_says_so() {
         "{}",
         stdout(&again)
     );
-    // Three steps and the sign chain the polarity step opens (docs/sign-chain.md).
-    assert_eq!(count_runs(&db), 4);
+    // Four steps (calibrate, polarity, dipole, loop) and the sign chain they open
+    // (docs/sign-chain.md).
+    assert_eq!(count_runs(&db), 5);
 
-    // The same four runs, as magproof 0.0.9 recorded them.
+    // The same five runs, as magproof 0.0.9 recorded them.
     let options = serde_json::json!({ "skip_bad_rows": false });
-    assert_eq!(rewrite_as_old(&db, &options), 4);
+    assert_eq!(rewrite_as_old(&db, &options), 5);
 
     let out = close();
     let text = stdout(&out);
-    assert_eq!(count_runs(&db), 8, "{text}");
-    for (step, old, new) in [(1, 1, 5), (2, 2, 6), (3, 3, 7)] {
+    assert_eq!(count_runs(&db), 10, "{text}");
+    for (step, old, new) in [(1, 1, 6), (2, 2, 7), (3, 3, 8), (4, 4, 9)] {
         assert!(
             text.contains(&format!("recorded as run #{new}")),
             "step {step}: {text}"
@@ -103,12 +104,12 @@ fn a_closeout_rerun_by_a_new_version_is_recorded_and_says_so() {
     // And this version's runs dedupe as before.
     let out = close();
     assert!(
-        stdout(&out).matches("not recorded again").count() == 4,
+        stdout(&out).matches("not recorded again").count() == 5,
         "{}",
         stdout(&out)
     );
     assert!(!stdout(&out).contains(OLD), "{}", stdout(&out));
-    assert_eq!(count_runs(&db), 8);
+    assert_eq!(count_runs(&db), 10);
 }
 
 #[test]

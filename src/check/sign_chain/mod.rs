@@ -28,6 +28,7 @@ use serde_json::Value;
 
 use super::closeout::StepOutcome;
 use super::{CheckKind, Verdict};
+use crate::log::plan::ControlLaw;
 use crate::log::Plan;
 use crate::Error;
 
@@ -178,12 +179,30 @@ pub fn sign_chain_of(plan: &Plan, steps: &[StepOutcome]) -> Result<Option<SignCh
             json,
         })
         .collect();
-    Ok(build_sign_chain(&views, &RodAxis::of_plan(plan)))
+    let plan_law = plan.control.as_ref().map(|c| match c.law {
+        ControlLaw::Bdot => "bdot",
+        ControlLaw::Rate => "rate",
+    });
+    Ok(build_sign_chain_under(
+        &views,
+        &RodAxis::of_plan(plan),
+        plan_law,
+    ))
 }
 
 /// Build the chain from the steps' JSON and the plan's rods; `None` when no step is an
 /// align, polarity or loop step.
 pub fn build_sign_chain(steps: &[StepJson], rods: &[RodAxis]) -> Option<SignChain> {
+    build_sign_chain_under(steps, rods, None)
+}
+
+/// [`build_sign_chain`] under a plan whose `[control]` names the law (`bdot` or `rate`),
+/// which decides whether the gyro is part of the chain when no loop step names it.
+pub fn build_sign_chain_under(
+    steps: &[StepJson],
+    rods: &[RodAxis],
+    plan_law: Option<&str>,
+) -> Option<SignChain> {
     let read: Vec<&StepJson> = steps
         .iter()
         .filter(|s| CHAIN_KINDS.contains(&s.kind))
@@ -206,7 +225,7 @@ pub fn build_sign_chain(steps: &[StepJson], rods: &[RodAxis]) -> Option<SignChai
             ));
         }
     }
-    let gyro_required = gyro_needed(&read, &mut notes);
+    let gyro_required = gyro_needed(&read, plan_law, &mut notes);
     let axes: Vec<AxisChain> = (0..3)
         .map(|a| {
             let gyro_ok = gyro[a] == Element::Ok
@@ -376,35 +395,38 @@ fn rod_elements(
     out
 }
 
-/// Whether the law uses the gyro: a loop step's `law` (or `control.law`) says so —
-/// `rate` uses it, `bdot` does not. Without one, the gyro counts only when a step
-/// measured it (align's `gyro` is not null).
-fn gyro_needed(steps: &[&StepJson], notes: &mut Vec<String>) -> bool {
-    let law = steps.iter().filter(|s| s.kind == "loop").find_map(|s| {
+/// Whether the law uses the gyro: a loop step's `law` (or `control.law`), else the
+/// plan's `[control] law`, says so — `rate` uses it, `bdot` does not. Without one, the
+/// gyro counts only when a step measured it (align's `gyro` is not null).
+fn gyro_needed(steps: &[&StepJson], plan_law: Option<&str>, notes: &mut Vec<String>) -> bool {
+    let step_law = steps.iter().filter(|s| s.kind == "loop").find_map(|s| {
         s.json
             .get("law")
             .or_else(|| s.json.get("control").and_then(|c| c.get("law")))
             .and_then(Value::as_str)
     });
+    if let (None, Some(l)) = (step_law, plan_law) {
+        notes.push(format!(
+            "No loop step ran; the plan's [control] names the law \"{l}\"."
+        ));
+    }
+    let law = step_law.or(plan_law);
     let measured = steps
         .iter()
         .any(|s| s.kind == "align" && s.json.get("gyro").is_some_and(|g| !g.is_null()));
     let (required, why) = match law {
-        Some("rate") => (
-            true,
-            "the loop step's law is \"rate\" (m ∝ ω × B), which uses the gyro",
-        ),
+        Some("rate") => (true, "the law is \"rate\" (m ∝ ω × B), which uses the gyro"),
         Some("bdot") => (
             false,
-            "the loop step's law is \"bdot\" (m ∝ −Ḃ), which does not use the gyro",
+            "the law is \"bdot\" (m ∝ −Ḃ), which does not use the gyro",
         ),
         _ if measured => (
             true,
-            "no loop step names the law, and a step measured the gyro",
+            "neither a loop step nor the plan names the law, and a step measured the gyro",
         ),
         _ => (
             false,
-            "no loop step names the law and no step measured the gyro",
+            "neither a loop step nor the plan names the law, and no step measured the gyro",
         ),
     };
     notes.push(format!(

@@ -183,6 +183,47 @@ fn without_a_loop_step_the_law_is_unchecked_and_the_chain_incomplete() {
     assert!(!c.gyro_required);
 }
 
+/// The plan's `[control] law` decides the gyro when no loop step ran (common practice:
+/// a rate law needs the rate sensor's sign; a B-dot law does not read the gyro).
+#[test]
+fn without_a_loop_step_the_plans_law_decides_whether_the_gyro_is_needed() {
+    let a = align(OK3, None);
+    let p = rods_json(OK3);
+    let views = [
+        StepJson {
+            index: 1,
+            kind: "align",
+            json: &a,
+        },
+        StepJson {
+            index: 2,
+            kind: "polarity",
+            json: &p,
+        },
+    ];
+    let rate = build_sign_chain_under(&views, &plan_rods(), Some("rate")).unwrap();
+    assert!(rate.gyro_required);
+    assert!(
+        rate.notes.iter().any(|n| n.contains("[control]")),
+        "{rate:?}"
+    );
+    let bdot = build_sign_chain_under(&views, &plan_rods(), Some("bdot")).unwrap();
+    assert!(!bdot.gyro_required);
+    // A loop step's own law wins over the plan's.
+    let l = looped(["consistent"; 3], Some("bdot"));
+    let with_loop = [
+        views[0],
+        views[1],
+        StepJson {
+            index: 3,
+            kind: "loop",
+            json: &l,
+        },
+    ];
+    let c = build_sign_chain_under(&with_loop, &plan_rods(), Some("rate")).unwrap();
+    assert!(!c.gyro_required);
+}
+
 #[test]
 fn polarity_and_loop_words_map_onto_their_axes() {
     let p = rods_json(["wrong-axis", "no-response", "off-axis"]);

@@ -10,6 +10,7 @@
 //! checks of the log sections and of `[limits]`).
 
 mod align;
+mod control;
 mod locate;
 mod orbit;
 mod parse;
@@ -22,6 +23,7 @@ mod tests;
 mod types;
 
 pub use align::AlignTest;
+pub use control::{ControlIntent, ControlLaw, ControlPlan};
 pub use orbit::OrbitPlan;
 pub use parse::{parse_plan, read_plan};
 pub use rod_bench::{RodBench, RodLimits, RodPosition};

@@ -61,6 +61,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         .map(|r| super::rod_bench::rod_bench(&v, r))
         .transpose()?;
     let orbit = raw.orbit.map(|o| super::orbit::orbit(&v, o)).transpose()?;
+    let control = raw.control.map(|c| v.control(c)).transpose()?;
     let dir = plan_dir(path);
     let steps = steps(raw.step, &dir, text);
     v.step_sensors(&steps, &magnetometers)?;
@@ -82,6 +83,7 @@ pub fn parse_plan(text: &str, path: &Path) -> Result<Plan, PlanError> {
         align_test,
         rod_bench,
         orbit,
+        control,
         steps,
         limits,
         sha256,
@@ -323,6 +325,8 @@ impl Validator<'_> {
                 length_m: self.positive_at_most(&key("length_m"), r.length_m, MAX_POSITION_M)?,
                 settle_s: self.positive_at_most(&key("settle_s"), r.settle_s, MAX_SETTLE_S)?,
                 serial: self.label(&key("serial"), r.serial)?,
+                coupling_nt_per_command: self.rod_coupling(i, r.coupling_nt_per_command)?,
+                command_max: self.positive(&key("command_max"), r.command_max)?,
             });
         }
         Ok(rods)

@@ -23,6 +23,7 @@ pub(super) struct RawPlan {
     pub(super) align_test: Option<super::align::RawAlignTest>,
     pub(super) rod_bench: Option<super::rod_bench::RawRodBench>,
     pub(super) orbit: Option<super::orbit::RawOrbit>,
+    pub(super) control: Option<super::control::RawControl>,
     #[serde(default)]
     pub(super) step: Vec<RawStep>,
     #[serde(default)]
@@ -103,6 +104,8 @@ pub(super) struct RawRod {
     pub(super) length_m: Option<f64>,
     pub(super) settle_s: Option<f64>,
     pub(super) serial: Option<String>,
+    pub(super) coupling_nt_per_command: Option<[f64; 3]>,
+    pub(super) command_max: Option<f64>,
 }
 
 #[derive(Deserialize)]

@@ -46,6 +46,8 @@ pub struct Plan {
     pub rod_bench: Option<super::RodBench>,
     /// `[orbit]`: the element set and orbit of the flight (`orbit`, `dipole`).
     pub orbit: Option<super::orbit::OrbitPlan>,
+    /// `[control]`: the magnetic control law `loop` checks.
+    pub control: Option<super::control::ControlPlan>,
     /// `[[step]]`: what `closeout` runs, in order.
     pub steps: Vec<Step>,
     /// `[limits]`: pass/fail limits.
@@ -180,6 +182,11 @@ pub struct Rod {
     pub settle_s: Option<f64>,
     /// Part serial number.
     pub serial: Option<String>,
+    /// The rod's field in the magnetometer's readings per unit command, sensor frame (S),
+    /// nT per command unit; `loop` subtracts it when given.
+    pub coupling_nt_per_command: Option<Vector3<f64>>,
+    /// Largest command the flight software can give (its saturation), command units.
+    pub command_max: Option<f64>,
 }
 
 /// `[dipole_test]`.
