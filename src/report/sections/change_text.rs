@@ -7,7 +7,7 @@ use crate::ledger::{Change, Flag};
 /// Unit tags that end quantity names, dropped from labels (the unit is shown apart, so
 /// a label never names a unit of its own: `bias_i_solar_x_nt_per_unit` is shown as
 /// "bias i solar x" with its unit nT/A, not as "… nt per unit"). Longer tags first.
-const UNIT_TAGS: [&str; 10] = [
+const UNIT_TAGS: [&str; 11] = [
     "_nt_per_unit",
     "_nt_per_c",
     "_am2_per_a",
@@ -15,6 +15,7 @@ const UNIT_TAGS: [&str; 10] = [
     "_nt",
     "_am2",
     "_deg_s",
+    "_uw",
     "_deg",
     "_s",
     "_1",
@@ -151,6 +152,8 @@ mod tests {
             ("rod_moment_per_amp_am2_per_a", "rod moment per amp"),
             ("rod_linearity_max_dev_pct", "rod linearity max dev"),
             ("rod_time_constant_s", "rod time constant"),
+            ("gyro_bias_x_deg_s", "gyro bias x"),
+            ("loop_power_mean_uw", "loop power mean"),
         ] {
             let c = Change {
                 quantity: q.into(),
