@@ -101,7 +101,11 @@ fn build_section(runs: &[Run], changes: &[Change], full: bool) -> Result<Section
     let kinds = kinds_of(runs);
     let rows = build_rows(runs, &kinds);
     let serials = group_by_build(runs).len();
-    let mut tables = vec![build_table(&rows, &kinds), change_table(changes)];
+    let mut tables = vec![
+        verdict_table(&rows, &kinds),
+        number_table(&rows),
+        change_table(changes),
+    ];
     // One serial: its name is in the figures of merit; the tables keep their width for
     // the numbers.
     if serials == 1 {
@@ -187,37 +191,69 @@ fn ledger_figures_of_merit(
     ]
 }
 
-/// Latest run of each check per build: |m|, hard iron and the verdicts.
-fn build_table(rows: &[BuildRow<'_>], kinds: &[String]) -> Table {
+/// A check kind's column heading in the build table: short enough that eight kinds
+/// beside the numbers fit a terminal (the caption spells out the shortened ones).
+fn kind_heading(kind: &str) -> &str {
+    match kind {
+        "calibrate" => "calib",
+        "polarity" => "polar",
+        "sign_chain" => "chain",
+        k => k,
+    }
+}
+
+/// Latest run of each check per build: its verdict.
+fn verdict_table(rows: &[BuildRow<'_>], kinds: &[String]) -> Table {
     Table {
-        caption: "Latest run of each check per build (verdict of the latest build decides)".into(),
-        header: ["serial", "build", "|m| [A·m²]", "hard iron x/y/z [nT]"]
+        caption: "Latest run of each check per build (verdict of the latest build decides; \
+                  calib = calibrate, polar = polarity, chain = sign chain)"
+            .into(),
+        header: ["serial", "build"]
             .into_iter()
             .map(String::from)
-            .chain(kinds.iter().cloned())
+            .chain(kinds.iter().map(|k| kind_heading(k).to_string()))
             .collect(),
         rows: rows
             .iter()
             .map(|b| {
-                let m = b.latest.iter().find_map(|r| {
-                    let (v, s) = quantity(r, "dipole_magnitude_am2")?;
-                    Some(pm(v, s, ""))
-                });
-                let h = b.latest.iter().find_map(|r| {
-                    let h = ["x", "y", "z"]
-                        .map(|a| quantity(r, &format!("hard_iron_{a}_nt")).map(|q| q.0));
-                    Some(format!("{:.0} / {:.0} / {:.0}", h[0]?, h[1]?, h[2]?))
-                });
-                let mut cells = vec![
-                    Cell::plain(b.serial),
-                    Cell::plain(b.build),
-                    Cell::plain(m.unwrap_or_else(|| "-".into()).trim_end().to_string()),
-                    Cell::plain(h.unwrap_or_else(|| "-".into())),
-                ];
+                let mut cells = vec![Cell::plain(b.serial), Cell::plain(b.build)];
                 cells.extend(kinds.iter().map(|k| verdict_cell(b.of(k))));
                 cells
             })
             .collect(),
+    }
+}
+
+/// Per build with either number: the residual dipole |m| with its 1σ and the hard
+/// iron |b| of the latest runs that measured them.
+fn number_table(rows: &[BuildRow<'_>]) -> Table {
+    let number_rows = rows.iter().filter_map(|b| {
+        let m = b.latest.iter().find_map(|r| {
+            let (v, s) = quantity(r, "dipole_magnitude_am2")?;
+            Some(pm(v * 1e3, s.map(|s| s * 1e3), ""))
+        });
+        let h = b.latest.iter().find_map(|r| {
+            let (v, s) = quantity(r, "hard_iron_magnitude_nt")?;
+            Some(pm(v, s, ""))
+        });
+        if m.is_none() && h.is_none() {
+            return None;
+        }
+        let cell = |t: Option<String>| Cell::plain(t.unwrap_or_else(|| "-".into()).trim_end());
+        Some(vec![
+            Cell::plain(b.serial),
+            Cell::plain(b.build),
+            cell(m),
+            cell(h),
+        ])
+    });
+    Table {
+        caption: "Residual dipole and hard iron of the latest runs per build".into(),
+        header: ["serial", "build", "|m| [mA·m²]", "|hard iron| [nT]"]
+            .into_iter()
+            .map(String::from)
+            .collect(),
+        rows: number_rows.collect(),
     }
 }
 

@@ -57,8 +57,8 @@ fn crossing_the_dipole_limit_fails_and_is_flagged_in_words() {
         ]
     );
     assert!(s.figures[0].svg.contains("limit"));
-    let flag_column = s.tables[1].header.iter().position(|h| h == "flag").unwrap();
-    let flags: Vec<&Cell> = s.tables[1].rows.iter().map(|r| &r[flag_column]).collect();
+    let flag_column = s.tables[2].header.iter().position(|h| h == "flag").unwrap();
+    let flags: Vec<&Cell> = s.tables[2].rows.iter().map(|r| &r[flag_column]).collect();
     assert!(flags
         .iter()
         .any(|c| c.text == "limit-crossed !" && c.tone == Tone::Bad));
