@@ -17,8 +17,8 @@ const AXES: [&str; 3] = ["x", "y", "z"];
 pub fn residual_figure(m: &MagAlignment, mounts: &[String]) -> Result<Figure, Error> {
     let mut plot = XyPlot::new(
         "Residual per heading",
-        "table heading, deg",
-        "|measured − fitted|, nT",
+        "table heading [deg]",
+        "|measured − fitted| [nT]",
     );
     plot.x_range = Some((-5.0, 365.0));
     for (k, label) in mounts.iter().enumerate() {
@@ -57,8 +57,8 @@ pub fn circle_figures(m: &MagAlignment, mounts: &[String]) -> Result<Vec<Figure>
         });
         let mut plot = XyPlot::new(
             &format!("Field in the body, mount {label}"),
-            "table heading, deg",
-            "body-frame field, nT",
+            "table heading [deg]",
+            "body-frame field [nT]",
         );
         plot.x_range = Some((-5.0, 365.0));
         for i in 0..3 {
@@ -105,8 +105,8 @@ fn iso(v: [f64; 3]) -> (f64, f64) {
 pub fn axes_figure(file: &str, sensor: &str, a: &[[f64; 3]; 3]) -> Result<Figure, Error> {
     let mut plot = XyPlot::new(
         &format!("{sensor} axes in the body (isometric view)"),
-        "page x, unit vectors (1)",
-        "page y, unit vectors (1)",
+        "page x [unit vectors, projected]",
+        "page y [unit vectors, projected]",
     );
     plot.equal_aspect = true;
     plot.x_range = Some((-1.2, 1.2));
@@ -146,7 +146,11 @@ pub fn axes_figure(file: &str, sensor: &str, a: &[[f64; 3]; 3]) -> Result<Figure
 /// The gyro's scale per body axis with its 1σ, against the band of the tolerance about
 /// +1 (and about −1 when an axis reads reversed).
 pub fn gyro_scale_figure(g: &GyroResult) -> Result<Figure, Error> {
-    let mut plot = XyPlot::new("Gyro scale per body axis", "body axis", "scale factor (1)");
+    let mut plot = XyPlot::new(
+        "Gyro scale per body axis",
+        "body axis [x, y, z]",
+        "scale factor [measured ÷ true rate]",
+    );
     plot.x_range = Some((0.5, 3.5));
     plot.x_names = AXES.iter().map(|a| a.to_string()).collect();
     let tol = g.gyro_scale_tol;
