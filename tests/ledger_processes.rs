@@ -258,14 +258,14 @@ fn demo_force_starts_its_ledger_afresh_with_no_stale_side_files() {
     let runs = ledger.runs(&RunFilter::default()).unwrap();
     assert_eq!(
         runs.len(),
-        25,
-        "three builds of four steps and a sign chain, each build's alignment run and its \
+        24,
+        "B1's first alignment run and its sign chain, three builds of five steps and a \
          sign chain, the on-orbit pass, three rods on the bench"
     );
     let vehicle = runs.iter().filter(|r| r.serial == "TMR-0207").count();
     assert_eq!(
-        vehicle, 22,
-        "three builds of four steps and a sign chain, each build's alignment run and its \
+        vehicle, 21,
+        "B1's first alignment run and its sign chain, three builds of five steps and a \
          sign chain, then the on-orbit pass"
     );
     assert!(runs

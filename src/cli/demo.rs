@@ -62,6 +62,7 @@ const SAMPLE_FILES: &[(&str, &str)] = embedded![
     "tmr-0207-orbit/telemetry.csv",
     "tmr-0207-b1/align/plan.toml",
     "tmr-0207-b1/align/align.csv",
+    "tmr-0207-b1/align/align-retest.csv",
     "tmr-0207-b2/align/plan.toml",
     "tmr-0207-b2/align/align.csv",
     "tmr-0207-b3/align/plan.toml",
@@ -171,29 +172,9 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     outln!("magproof demo: the invented 3U vehicle \"Tamarin\" (serial TMR-0207), three")?;
     outln!("builds closed out in order into a fresh ledger, then a calibration from its")?;
     outln!("telemetry on orbit. All data are simulated.\n")?;
-    let mut reports = Vec::new();
-    let mut flight = Vec::new();
-    for folder in BUILDS {
-        let plan = samples.join(folder).join("plan.toml");
-        let (result, recorded) = run_and_record(&plan, Some(&ledger_path), false, |_| Ok(()))?;
-        out!("{}", build_summary(&result))?;
-        let dir = out.join("reports").join(folder);
-        std::fs::create_dir_all(out.join("reports")).map_err(|e| Error::io(&dir, e))?;
-        // report.html, result.json and plots; then the terminal text beside them.
-        let report = closeout_report(&result)?;
-        magproof::report::write_report_dir(&dir, true, &report)?;
-        let text = render(&report, &Style::plain()) + &verdict_lines(&result, recorded.as_ref());
-        write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
-        let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
-        write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
-        flight.push(demo_flight_params(&result, &report, &out, folder)?);
-        reports.push(dir);
-    }
-    reports.extend(super::demo_align::close_out_align(
-        &out,
-        &samples,
-        &ledger_path,
-    )?);
+    let mut reports = super::demo_align::close_out_align(&out, &samples, &ledger_path)?;
+    let (builds, flight) = close_out_builds(&out, &samples, &ledger_path)?;
+    reports.extend(builds);
     reports.extend(close_out_rods(&out, &samples, &ledger_path)?);
     // After B3, the on-orbit pass, compared with B3's ground calibration.
     let (summary, dir) = super::demo_orbit::orbit_pass(
@@ -212,16 +193,64 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
     outln!()?;
     out!("{}", super::history::render(&ledger_path, &runs, &changes)?)?;
 
+    where_things_are(&out, &samples, &ledger_path, &reports, &flight)?;
+    write_history_report(&out, &ledger_path, &runs, &changes)?;
+    outln!(
+        "Look again with: magproof history --ledger {}",
+        ledger_path.display()
+    )?;
+    Ok(Outcome::Passed)
+}
+
+/// A build's flight-parameter files, `None` when it did not pass.
+type FlightFiles = Option<magproof::report::ParamsPaths>;
+
+/// Each build closed out in order into the ledger: its report folder, closeout text and
+/// JSON, and its flight parameters when it passed.
+fn close_out_builds(
+    out: &Path,
+    samples: &Path,
+    ledger_path: &Path,
+) -> anyhow::Result<(Vec<PathBuf>, Vec<FlightFiles>)> {
+    let mut reports = Vec::new();
+    let mut flight = Vec::new();
+    for folder in BUILDS {
+        let plan = samples.join(folder).join("plan.toml");
+        let (result, recorded) = run_and_record(&plan, Some(ledger_path), false, |_| Ok(()))?;
+        out!("{}", build_summary(&result))?;
+        let dir = out.join("reports").join(folder);
+        std::fs::create_dir_all(out.join("reports")).map_err(|e| Error::io(&dir, e))?;
+        // report.html, result.json and plots; then the terminal text beside them.
+        let report = closeout_report(&result)?;
+        magproof::report::write_report_dir(&dir, true, &report)?;
+        let text = render(&report, &Style::plain()) + &verdict_lines(&result, recorded.as_ref());
+        write_atomic(&dir.join("closeout.txt"), text.as_bytes(), true)?;
+        let json = serde_json::to_string_pretty(&result.to_json()?)? + "\n";
+        write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
+        flight.push(demo_flight_params(&result, &report, out, folder)?);
+        reports.push(dir);
+    }
+    Ok((reports, flight))
+}
+
+/// The closing list of what the demo wrote and where.
+fn where_things_are(
+    out: &Path,
+    samples: &Path,
+    ledger_path: &Path,
+    reports: &[PathBuf],
+    flight: &[FlightFiles],
+) -> anyhow::Result<()> {
     outln!("\nWhere things are (under {}):", out.display())?;
     outln!("  sample logs and plans   {}", samples.display())?;
     outln!("  ledger                  {}", ledger_path.display())?;
-    for r in &reports {
+    for r in reports {
         outln!(
             "  closeout report         {}",
             r.join("report.html").display()
         )?;
     }
-    for (folder, written) in BUILDS.iter().zip(&flight) {
+    for (folder, written) in BUILDS.iter().zip(flight) {
         match written {
             Some(p) => outln!(
                 "  flight parameters       {} and {}",
@@ -233,15 +262,25 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
             }
         }
     }
+    Ok(())
+}
+
+/// The ledger's history as a report of its own, listed after the others.
+fn write_history_report(
+    out: &Path,
+    ledger_path: &Path,
+    runs: &[magproof::ledger::Run],
+    changes: &[magproof::ledger::Change],
+) -> anyhow::Result<()> {
     let history_dir = out.join("reports").join("history");
-    let section = magproof::report::sections::history_section(&runs, &changes)?;
+    let section = magproof::report::sections::history_section(runs, changes)?;
     let json = section.result.clone();
     let ledger_sha256 =
-        magproof::log::hash::sha256_file(&ledger_path).map_err(|e| Error::io(&ledger_path, e))?;
+        magproof::log::hash::sha256_file(ledger_path).map_err(|e| Error::io(ledger_path, e))?;
     let report = super::present::run_report(
         "History of TMR-0207",
         None,
-        &[(ledger_path.as_path(), ledger_sha256.as_str())],
+        &[(ledger_path, ledger_sha256.as_str())],
         vec![section],
         json,
     )?;
@@ -250,9 +289,5 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         "  history report          {}",
         path.join("report.html").display()
     )?;
-    outln!(
-        "Look again with: magproof history --ledger {}",
-        ledger_path.display()
-    )?;
-    Ok(Outcome::Passed)
+    Ok(())
 }

@@ -1,6 +1,7 @@
-//! The demo's alignment runs (sample-logs/tmr-0207-b*/align/): each build's turntable
-//! run of the magnetometer and gyro, closed out into the demo's ledger with its report.
-//! B1's run catches the magnetometer harness's reversed axis as `flipped`.
+//! The demo's first alignment run of B1 (sample-logs/tmr-0207-b1/align/), closed out
+//! from its own plan into the demo's ledger with its report, before the builds: it
+//! catches the magnetometer harness's reversed axis as `flipped`. The builds' plans list
+//! their own alignment runs (B1's repeat after the fix) as their first step.
 
 use std::path::{Path, PathBuf};
 
@@ -9,17 +10,17 @@ use magproof::report::atomic::write_atomic;
 use magproof::report::terminal::{render, Style};
 use magproof::Error;
 
-/// Close out each build's alignment plan into the ledger and write its report; returns
-/// the report folders.
+/// Close out B1's first alignment plan into the ledger and write its report; returns the
+/// report folder.
 pub fn close_out_align(
     out: &Path,
     samples: &Path,
     ledger_path: &Path,
 ) -> anyhow::Result<Vec<PathBuf>> {
     use magproof::sim::scenario_align::ALIGN_FOLDERS;
-    outln!("\nThe vehicle on the turntable on each integration day (sensor axes and alignment):")?;
+    outln!("B1's first turntable run of the morning (sensor axes and alignment):")?;
     let mut reports = Vec::new();
-    for folder in ALIGN_FOLDERS {
+    for folder in &ALIGN_FOLDERS[..1] {
         let plan = samples.join(folder).join("plan.toml");
         let (result, recorded) = run_and_record(&plan, Some(ledger_path), false, |_| Ok(()))?;
         let build = result
@@ -34,7 +35,8 @@ pub fn close_out_align(
                 step.result.summary()
             )?;
         }
-        let dir = out.join("reports").join(folder);
+        // Beside the builds' report folders, not inside one: reports/tmr-0207-b1-align.
+        let dir = out.join("reports").join(folder.replace('/', "-"));
         std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
         let report = closeout_report(&result)?;
         magproof::report::write_report_dir(&dir, true, &report)?;
@@ -44,7 +46,7 @@ pub fn close_out_align(
         write_atomic(&dir.join("closeout.json"), json.as_bytes(), true)?;
         reports.push(dir);
     }
-    outln!("  (B1: the magnetometer harness's sensor-x pair was found reversed and re-terminated")?;
-    outln!("  the same day, before B1's closeout logs were taken.)")?;
+    outln!("  (the magnetometer harness's sensor-x pair was re-terminated and the run repeated;")?;
+    outln!("  B1's closeout below lists the repeat.)\n")?;
     Ok(reports)
 }

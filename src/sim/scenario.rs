@@ -4,7 +4,9 @@
 //!
 //! - B1: the y torque rod is wired backwards; the polarity step catches it. The flight
 //!   software's y command sign is wrong too (the two cancel on the air bearing); the
-//!   loop step catches that as a `reversed` rod.
+//!   loop step catches that as a `reversed` rod, and the sign chain names the pair. The
+//!   morning's first turntable run found the magnetometer harness reversed on one axis
+//!   (see `scenario_align`); the plan lists the repeat after it was re-terminated.
 //! - B2: the harness is fixed; every step passes.
 //! - B3: a battery-heater bracket with a magnetised steel insert was added in the lower
 //!   bay; the residual dipole jumps well beyond its combined uncertainty (history flags
@@ -156,7 +158,7 @@ fn mat3(m: &Matrix3<f64>) -> String {
     format!("[{}, {}, {}]", row(0), row(1), row(2))
 }
 
-fn plan_toml(b: &BuildTruth) -> String {
+fn plan_toml(b: &BuildTruth) -> Result<String, Error> {
     let mut s = format!(
         "# Test plan of the invented 3U vehicle \"Tamarin\", serial {SERIAL}, build {}.\n\
          # {}.\n# Simulated data (magproof's simulators); see ../README.md.\n\n\
@@ -210,7 +212,12 @@ fn plan_toml(b: &BuildTruth) -> String {
         "\n[gyro]\nsensor_to_body = [[1, 0, 0], [0, 1, 0], [0, 0, 1]]\n\n\
          [control]\nlaw = \"bdot\"\ngain = {LOOP_GAIN:e}\n"
     );
+    // The turntable run of the morning (its own folder; in B1 the repeat after the
+    // harness was re-terminated): the sensor axes and the gyro against the body.
+    s.push_str(&super::scenario_align::align_test_toml()?);
+    let align_log = super::scenario_align::build_step_log(b.build);
     for (kind, log) in [
+        ("align", align_log.as_str()),
         ("calibrate", "tumble.csv"),
         ("polarity", "rod-pulses.csv"),
         ("dipole", "turntable.csv"),
@@ -223,7 +230,7 @@ fn plan_toml(b: &BuildTruth) -> String {
         "\n[limits]\nresidual_dipole_max_am2 = {DIPOLE_LIMIT_AM2}\n\
          calibration_residual_max_nt = 150.0\npolarity_angle_max_deg = 30.0\n"
     );
-    s
+    Ok(s)
 }
 
 /// Reference field magnitude at the site on the build's date (IGRF-14), nT.
@@ -277,7 +284,7 @@ pub fn build_files(b: &BuildTruth) -> Result<Vec<(String, String)>, Error> {
     let turn = simulate_turntable(&tt, b.seeds[2])?;
 
     Ok(vec![
-        (format!("{dir}/plan.toml"), plan_toml(b)),
+        (format!("{dir}/plan.toml"), plan_toml(b)?),
         (format!("{dir}/tumble.csv"), tumble_csv),
         (format!("{dir}/rod-pulses.csv"), pol.csv),
         (format!("{dir}/turntable.csv"), turn.log_csv),
@@ -383,10 +390,14 @@ mod tests {
     #[test]
     fn plans_parse() {
         for b in builds() {
-            let plan = crate::log::plan::parse_plan(&plan_toml(&b), std::path::Path::new("p.toml"))
-                .unwrap();
+            let plan = crate::log::plan::parse_plan(
+                &plan_toml(&b).unwrap(),
+                std::path::Path::new("p.toml"),
+            )
+            .unwrap();
             assert_eq!(plan.rods.len(), 3);
-            assert_eq!(plan.steps.len(), 4);
+            assert_eq!(plan.steps.len(), 5);
+            assert_eq!(plan.align_test.unwrap().mounts.len(), 3);
             assert_eq!(plan.dipole_test.unwrap().mounts.len(), 2);
         }
     }

@@ -1,9 +1,13 @@
 //! The demo vehicle's alignment runs (sample-logs/tmr-0207-b*/align/): on integration
 //! day of each build, before the other tests, the vehicle turns on a table in three
-//! mounts with its magnetometer and gyro logging. In B1 the magnetometer's harness has
-//! its sensor-x pair reversed (body +y then reads −x): `align` names the axis `flipped`;
-//! the harness was re-terminated the same day, before B1's closeout logs were taken, so
-//! those logs and their verdicts are as before.
+//! mounts with its magnetometer and gyro logging. Each folder holds the run with a plan
+//! of its own (for `magproof align`), and each build's plan lists the run as its first
+//! step, so the build's sign chain has the magnetometer and gyro proved.
+//!
+//! In B1 the first run finds the magnetometer's harness with its sensor-x pair reversed
+//! (body +y then reads −x): `align` names the axis `flipped`. The harness was
+//! re-terminated the same day and the run repeated (`align-retest.csv`, all axes ok)
+//! before B1's other closeout logs were taken; B1's plan lists the repeat.
 
 use nalgebra::Vector3;
 
@@ -48,6 +52,33 @@ fn config(build: &str, reversed_mag_axis: bool) -> AlignConfig {
     }
 }
 
+/// B1's repeated run after the harness was re-terminated, in B1's align folder.
+pub const B1_RETEST_LOG: &str = "align-retest.csv";
+
+/// The log a build's plan lists as its align step, relative to the build's folder.
+pub fn build_step_log(build: &str) -> String {
+    let log = if build == "B1" {
+        B1_RETEST_LOG
+    } else {
+        "align.csv"
+    };
+    format!("align/{log}")
+}
+
+/// The `[align_test]` table with its mounts, as the align simulator writes it into a plan
+/// (the same in every build): the text between `[align_test]` and the first step.
+pub fn align_test_toml() -> Result<String, Error> {
+    let sim = simulate_align(&config("B2", false), 2_101, "align.csv")?;
+    let start = sim.plan.find("[align_test]");
+    let end = sim.plan.find("[[step]]");
+    match (start, end) {
+        (Some(a), Some(b)) if a < b => Ok(sim.plan[a..b].trim_end().to_string() + "\n"),
+        _ => Err(Error::Internal(
+            "the align simulator's plan has no [align_test] table before its step".into(),
+        )),
+    }
+}
+
 /// Every align file: (path relative to `sample-logs/`, text).
 pub fn align_files() -> Result<Vec<(String, String)>, Error> {
     let mut out = Vec::new();
@@ -61,6 +92,10 @@ pub fn align_files() -> Result<Vec<(String, String)>, Error> {
         );
         out.push((format!("{folder}/plan.toml"), head + &sim.plan));
         out.push((format!("{folder}/align.csv"), sim.csv));
+        if b.build == "B1" {
+            let retest = simulate_align(&config(b.build, false), 2_110, B1_RETEST_LOG)?;
+            out.push((format!("{folder}/{B1_RETEST_LOG}"), retest.csv));
+        }
     }
     Ok(out)
 }

@@ -39,7 +39,7 @@ fn hostile_ledger(d: &TestDir) {
     let n = conn
         .execute("UPDATE runs SET build = ?1 WHERE build = 'B1'", [BUILD])
         .unwrap();
-    assert_eq!(n, 5, "build B1's four steps and its sign chain");
+    assert_eq!(n, 6, "build B1's five steps and its sign chain");
     let q = conn
         .execute(
             "UPDATE quantities SET name = ?1 WHERE name = 'dipole_pass'",

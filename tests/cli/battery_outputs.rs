@@ -22,6 +22,12 @@ pub fn sample(d: &TestDir, build: &str) -> &'static str {
     ] {
         d.write(name, std::fs::read(src.join(name)).unwrap());
     }
+    // The plan's align step reads the build's turntable run in align/ (B1: the repeat).
+    for name in ["align/align.csv", "align/align-retest.csv"] {
+        if let Ok(bytes) = std::fs::read(src.join(name)) {
+            d.write(name, bytes);
+        }
+    }
     "plan.toml"
 }
 

@@ -78,18 +78,18 @@ fn a_closeout_rerun_by_a_new_version_is_recorded_and_says_so() {
         "{}",
         stdout(&again)
     );
-    // Four steps (calibrate, polarity, dipole, loop) and the sign chain they open
+    // Five steps (align, calibrate, polarity, dipole, loop) and the sign chain they open
     // (docs/sign-chain.md).
-    assert_eq!(count_runs(&db), 5);
+    assert_eq!(count_runs(&db), 6);
 
-    // The same five runs, as magproof 0.0.9 recorded them.
+    // The same six runs, as magproof 0.0.9 recorded them.
     let options = serde_json::json!({ "skip_bad_rows": false });
-    assert_eq!(rewrite_as_old(&db, &options), 5);
+    assert_eq!(rewrite_as_old(&db, &options), 6);
 
     let out = close();
     let text = stdout(&out);
-    assert_eq!(count_runs(&db), 10, "{text}");
-    for (step, old, new) in [(1, 1, 6), (2, 2, 7), (3, 3, 8), (4, 4, 9)] {
+    assert_eq!(count_runs(&db), 12, "{text}");
+    for (step, old, new) in [(1, 1, 7), (2, 2, 8), (3, 3, 9), (4, 4, 10), (5, 5, 11)] {
         assert!(
             text.contains(&format!("recorded as run #{new}")),
             "step {step}: {text}"
@@ -104,12 +104,12 @@ fn a_closeout_rerun_by_a_new_version_is_recorded_and_says_so() {
     // And this version's runs dedupe as before.
     let out = close();
     assert!(
-        stdout(&out).matches("not recorded again").count() == 5,
+        stdout(&out).matches("not recorded again").count() == 6,
         "{}",
         stdout(&out)
     );
     assert!(!stdout(&out).contains(OLD), "{}", stdout(&out));
-    assert_eq!(count_runs(&db), 10);
+    assert_eq!(count_runs(&db), 12);
 }
 
 #[test]

@@ -190,10 +190,18 @@ fn demo_align_names_b1s_reversed_magnetometer_axis_and_recovers_the_planted_misa
     // frame), the same in every build; in B1 sensor x (along body +y) is reversed.
     let mag_truth = [0.4, -0.3, 0.6];
     let gyro_truth = [0.2, 0.3, -0.25];
-    for (b, pass) in [("b1", false), ("b2", true), ("b3", true)] {
-        let c = json_file(&reports.join(format!("tmr-0207-{b}/align/closeout.json")));
-        assert_eq!(c["pass"], pass, "{b}");
+    // B1's first run has its own closeout (reports/tmr-0207-b1-align); every build's
+    // closeout lists its align step first (B1's is the repeat after the harness fix).
+    for (folder, pass) in [
+        ("tmr-0207-b1-align", false),
+        ("tmr-0207-b1", true),
+        ("tmr-0207-b2", true),
+        ("tmr-0207-b3", true),
+    ] {
+        let b = folder;
+        let c = json_file(&reports.join(format!("{folder}/closeout.json")));
         let r = &step(&c, "align")["result"];
+        assert_eq!(r["verdict"], if pass { "pass" } else { "fail" }, "{b}");
         let words = |axes: &Value| -> Vec<String> {
             axes.as_array()
                 .expect("axes")
@@ -239,6 +247,16 @@ fn demo_align_names_b1s_reversed_magnetometer_axis_and_recovers_the_planted_misa
             }
         }
     }
+    // With the align step in the build plans, B2's and B3's sign chains are complete;
+    // B1's is broken on body y, where the reversed rod and the reversed law cancel.
+    for (folder, complete) in [
+        ("tmr-0207-b1", false),
+        ("tmr-0207-b2", true),
+        ("tmr-0207-b3", true),
+    ] {
+        let c = json_file(&reports.join(format!("{folder}/closeout.json")));
+        assert_eq!(c["sign_chain_complete"], complete, "{folder}: {c}");
+    }
     let text = stdout(&run);
     assert!(
         text.contains("B1 align      FAIL  axes x ok, y flipped, z ok"),
@@ -246,7 +264,7 @@ fn demo_align_names_b1s_reversed_magnetometer_axis_and_recovers_the_planted_misa
     );
     // B1's report: the residual per heading, the field per mount, the axes pictures and
     // the gyro's scale, with the flipped axis drawn where it was found.
-    let b1 = reports.join("tmr-0207-b1/align");
+    let b1 = reports.join("tmr-0207-b1-align");
     for f in [
         "residual",
         "field_z_up",
@@ -283,7 +301,15 @@ fn demo_align_names_b1s_reversed_magnetometer_axis_and_recovers_the_planted_misa
             .unwrap_or_else(|| panic!("no change {q} B1→B2"))
             .clone()
     };
-    assert_eq!(change("align_axis_y")["flag"], "verdict-changed");
-    assert_eq!(change("align_handedness")["flag"], "verdict-changed");
+    // B1's latest alignment run is the repeat after the harness fix, so history compares
+    // ok with ok; the first run's flipped axis stays in the ledger as B1's earlier run.
+    assert_eq!(change("align_axis_y")["flag"], "unchanged");
+    let runs = json_stdout(&hist)["runs"].as_array().expect("runs").clone();
+    let b1_align: Vec<&Value> = runs
+        .iter()
+        .filter(|r| r["build"] == "B1" && r["kind"] == "align")
+        .collect();
+    assert_eq!(b1_align.len(), 2, "{runs:?}");
+    assert!(b1_align.iter().any(|r| r["pass"] == false), "{b1_align:?}");
     assert_eq!(change("gyro_scale_y")["flag"], "within-noise");
 }

@@ -260,8 +260,12 @@ fn rod_coupling_measured_at_one_of_two_magnetometers_is_given_by_its_name() {
             "log = \"rod-pulses.csv\"\n",
             "log = \"rod-pulses.csv\"\nsensor = \"MAG-A\"\n",
         )
-        .replace("log = \"loop.csv\"\n", "log = \"loop.csv\"\nsensor = \"MAG-A\"\n");
-    assert_eq!(text.matches("sensor = ").count(), 4, "{text}");
+        .replace("log = \"loop.csv\"\n", "log = \"loop.csv\"\nsensor = \"MAG-A\"\n")
+        .replace(
+            "log = \"align/align.csv\"\n",
+            "log = \"align/align.csv\"\nsensor = \"MAG-A\"\n",
+        );
+    assert_eq!(text.matches("sensor = ").count(), 5, "{text}");
     d.write(plan, text);
     let out = d.run(&["closeout", plan, "--no-record", "--params-out", "fp"]);
     assert_code(&out, 0);
