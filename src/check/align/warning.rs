@@ -46,7 +46,8 @@ impl fmt::Display for AlignWarning {
             AlignWarning::Input(w) => w.fmt(f),
             AlignWarning::HardIronFitted => f.write_str(
                 "no calibration was given: the hard iron was fitted together with the mapping \
-                 (hard_iron_nt); give --calibration FILE.json from calibrate to fix it instead",
+                 (hard_iron_nt); give align the calibration JSON that calibrate wrote to fix it \
+                 instead",
             ),
             AlignWarning::FieldSignUnknown => f.write_str(
                 "the field's vertical sign is not known (no [align_test] field_table_nt, no \
@@ -67,8 +68,8 @@ impl fmt::Display for AlignWarning {
             ),
             AlignWarning::TumbleUncalibrated => f.write_str(
                 "hand tumble without a calibration: the field in −ω × B still carries the hard \
-                 iron (a bias of h/|B| of the gyro's scale, typically under 1 %); give \
-                 --calibration FILE.json from calibrate",
+                 iron (a bias of h/|B| of the gyro's scale, typically under 1 %); give align the \
+                 calibration JSON that calibrate wrote",
             ),
             AlignWarning::GyroNotJudged { reason } => {
                 write!(f, "the gyro columns were not judged: {reason}")

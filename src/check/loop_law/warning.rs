@@ -56,8 +56,8 @@ impl fmt::Display for LoopWarning {
             LoopWarning::NoCalibration => f.write_str(
                 "no magnetometer calibration was applied: the hard iron biases the torque \
                  (τ = m × B) though not Ḃ, so the power in watts is approximate (a B-dot \
-                 law's rod verdicts rest on Ḃ alone); run `magproof loop` with --calibration \
-                 FILE.json from calibrate (a closeout step uses the readings as logged)",
+                 law's rod verdicts rest on Ḃ alone); give the loop check the calibration JSON \
+                 that calibrate wrote (a closeout step uses the readings as logged)",
             ),
             LoopWarning::MagnetometerMappingAssumed => f.write_str(
                 "the plan has no [magnetometer]: sensor axes were taken as body axes; give \

@@ -36,7 +36,7 @@ pub fn change_label(c: &Change) -> String {
         }
     }
     if let Some(kind) = q.strip_suffix("_pass") {
-        return format!("{kind} verdict");
+        return format!("{} verdict", kind.replace('_', " "));
     }
     if let Some(stem) = q.strip_suffix("_verdict") {
         return stem.replace('_', " ");
