@@ -7,10 +7,10 @@ use std::path::PathBuf;
 
 use clap::Args as ClapArgs;
 
-use super::common::load_plan;
+use super::common::{load_plan, read_calibration};
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::present::{present_check, read_input, Analysed};
-use magproof::check::align::{run_align, AlignOptions, Calibration};
+use magproof::check::align::{run_align, AlignOptions};
 use magproof::check::CheckRequest;
 
 /// Flags of `magproof align`.
@@ -39,32 +39,17 @@ pub struct Args {
 /// Run `align`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let plan = load_plan(&args.plan, args.sensor.sensor.as_deref())?;
-    // Read the calibration once: the fit uses these bytes and the ledger's dedupe key
-    // carries their hash, so a corrected file at the same path is a new run.
-    let calibration_text = args
-        .calibration
-        .as_deref()
-        .map(|p| std::fs::read_to_string(p).map_err(|e| magproof::Error::io(p, e)))
-        .transpose()?;
-    let calibration = match (&args.calibration, &calibration_text) {
-        (Some(p), Some(text)) => Some(Calibration::parse(text, p)?),
-        _ => None,
-    };
+    let (calibration, calibration_file) = read_calibration(args.calibration.as_deref())?;
     // The flight magnetometer records the log: its range applies.
     let input = read_input(&args.log, Some(&plan), &args.input, true)?;
-    let calibration_sha256 = calibration_text
-        .as_deref()
-        .map(|t| magproof::log::hash::sha256_bytes(t.as_bytes()));
     let key = serde_json::json!({
         "calibration": args.calibration.as_ref().map(|p| p.display().to_string()),
-        "calibration_sha256": calibration_sha256,
+        "calibration_sha256": calibration_file.as_ref().map(|(_, h)| h),
     });
     let options = AlignOptions { calibration };
     let result = run_align(&CheckRequest::new(&input, Some(&plan), options))?;
     let mut analysed = Analysed::new(&args.log, &input, &args.input, key);
-    if let (Some(p), Some(h)) = (&args.calibration, calibration_sha256) {
-        analysed.other_inputs.push((p.clone(), h));
-    }
+    analysed.other_inputs.extend(calibration_file);
     drop(input);
     present_check(
         &result,

@@ -3,6 +3,7 @@
 use std::path::PathBuf;
 
 use clap::Args;
+use magproof::check::align::Calibration;
 use magproof::log::FieldUnit;
 
 use super::numeric::{number, FIELD_NT};
@@ -132,4 +133,22 @@ pub fn prepare_out(dir: &std::path::Path, force: bool) -> Result<(), magproof::E
         }
     }
     std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))
+}
+
+/// An input file beside the log, with its SHA-256 (hex).
+pub type InputFile = (PathBuf, String);
+
+/// A calibration file given with `--calibration`, read once: the check applies these
+/// bytes, and the ledger's dedupe key and the report's inputs carry their SHA-256, so a
+/// file corrected in place is a new run. `(calibration, (path, sha256))`.
+pub fn read_calibration(
+    path: Option<&std::path::Path>,
+) -> Result<(Option<Calibration>, Option<InputFile>), magproof::Error> {
+    let Some(p) = path else {
+        return Ok((None, None));
+    };
+    let text = std::fs::read_to_string(p).map_err(|e| magproof::Error::io(p, e))?;
+    let calibration = Calibration::parse(&text, p)?;
+    let sha256 = magproof::log::hash::sha256_bytes(text.as_bytes());
+    Ok((Some(calibration), Some((p.to_path_buf(), sha256))))
 }

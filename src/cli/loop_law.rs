@@ -6,11 +6,10 @@ use std::path::PathBuf;
 
 use clap::Args as ClapArgs;
 
-use super::common::load_plan;
+use super::common::{load_plan, read_calibration};
 use super::common::{InputArgs, Outcome, OutputArgs};
 use super::numeric::{number, Domain};
 use super::present::{present_check, read_input, Analysed};
-use magproof::check::align::Calibration;
 use magproof::check::loop_law::{run_loop, LoopOptions, DEFAULT_SMOOTH_S};
 use magproof::check::CheckRequest;
 
@@ -46,22 +45,12 @@ const SMOOTH_S: Domain = Domain::positive(600.0, "s");
 /// Run `loop`.
 pub fn run(args: Args) -> anyhow::Result<Outcome> {
     let plan = load_plan(&args.plan, args.sensor.sensor.as_deref())?;
-    let calibration_text = args
-        .calibration
-        .as_deref()
-        .map(|p| std::fs::read_to_string(p).map_err(|e| magproof::Error::io(p, e)))
-        .transpose()?;
-    let calibration = match (&args.calibration, &calibration_text) {
-        (Some(p), Some(text)) => Some(Calibration::parse(text, p)?),
-        _ => None,
-    };
+    let (calibration, calibration_file) = read_calibration(args.calibration.as_deref())?;
     // The flight magnetometer records the log: its range applies.
     let input = read_input(&args.log, Some(&plan), &args.input, true)?;
     let smooth_s = args.smooth_s.unwrap_or(DEFAULT_SMOOTH_S);
     let key = serde_json::json!({
-        "calibration_sha256": calibration_text
-            .as_deref()
-            .map(|t| magproof::log::hash::sha256_bytes(t.as_bytes())),
+        "calibration_sha256": calibration_file.as_ref().map(|(_, h)| h),
         "smooth_s": smooth_s,
     });
     let options = LoopOptions {
@@ -69,7 +58,8 @@ pub fn run(args: Args) -> anyhow::Result<Outcome> {
         smooth_s,
     };
     let result = run_loop(&CheckRequest::new(&input, Some(&plan), options))?;
-    let analysed = Analysed::new(&args.log, &input, &args.input, key);
+    let mut analysed = Analysed::new(&args.log, &input, &args.input, key);
+    analysed.other_inputs.extend(calibration_file);
     drop(input);
     present_check(
         &result,

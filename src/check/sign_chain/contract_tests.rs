@@ -5,6 +5,7 @@
 
 use serde_json::{json, Value};
 
+use super::tests::chain;
 use super::*;
 
 fn fixture(name: &str) -> Value {
@@ -24,30 +25,6 @@ fn polarity(verdicts: [&str; 3]) -> Value {
         .map(|(n, v)| json!({"name": n, "verdict": v}))
         .collect();
     json!({ "rods": rods })
-}
-
-/// The simulators' rods: x, y, z along body x, y, z.
-fn rods() -> Vec<RodAxis> {
-    AXES.iter()
-        .enumerate()
-        .map(|(axis, n)| RodAxis {
-            name: n.to_string(),
-            axis,
-        })
-        .collect()
-}
-
-fn chain(steps: &[(&str, &Value)]) -> SignChain {
-    let views: Vec<StepJson> = steps
-        .iter()
-        .enumerate()
-        .map(|(k, (kind, json))| StepJson {
-            index: k + 1,
-            kind,
-            json,
-        })
-        .collect();
-    build_sign_chain(&views, &rods()).expect("a chain step ran")
 }
 
 #[test]

@@ -40,7 +40,7 @@ fn looped(verdicts: [&str; 3], law: Option<&str>) -> Value {
 }
 
 /// Rods named x, y, z along body x, y, z.
-fn plan_rods() -> Vec<RodAxis> {
+pub(super) fn plan_rods() -> Vec<RodAxis> {
     AXES.iter()
         .enumerate()
         .map(|(axis, n)| RodAxis {
@@ -50,7 +50,8 @@ fn plan_rods() -> Vec<RodAxis> {
         .collect()
 }
 
-fn chain(steps: &[(&str, &Value)]) -> SignChain {
+/// The chain of `(kind, json)` steps, numbered in order, under [`plan_rods`].
+pub(super) fn chain(steps: &[(&str, &Value)]) -> SignChain {
     let views: Vec<StepJson> = steps
         .iter()
         .enumerate()
